@@ -91,6 +91,11 @@ void CheckDistribution(Checker& c, const std::string& path,
              absl::StrCat("must sum to 1, sum to ", sum));
     }
   }
+  if (d.has_min()) c.Finite(path + ".min", d.min());
+  if (d.has_max()) c.Finite(path + ".max", d.max());
+  if (d.has_min() && d.has_max() && !(d.min() <= d.max())) {
+    c.Fail(path + ".max", absl::StrFormat("must be >= min (%g), got %g", d.min(), d.max()));
+  }
   c.Proportion(path + ".missing_proportion", d.missing_proportion());
   if (d.count() < 0) c.Fail(path + ".count", "must not be negative");
 }

@@ -199,6 +199,13 @@ INSTANTIATE_TEST_SUITE_P(
                                ->mutable_level_proportions())["flat"] = 1.5;
                        },
                        "features[2].baseline.level_proportions[\"flat\"]: must be in [0, 1]"},
+        ValidationCase{"baseline max below min",
+                       [](auto& s) {
+                         auto* b = s.mutable_features(0)->mutable_baseline();
+                         b->set_min(3);
+                         b->set_max(1);
+                       },
+                       "features[0].baseline.max: must be >= min"},
         ValidationCase{"score baseline unsorted",
                        [](auto& s) {
                          auto* b = s.mutable_score_baseline();
