@@ -1,0 +1,103 @@
+// File: daemon/daemon_server.cc
+#include "daemon/daemon_server.h"
+
+#include <chrono>
+#include <utility>
+
+#include <grpcpp/health_check_service_interface.h>
+#include <grpcpp/security/server_credentials.h>
+#include <grpc/grpc.h>
+#include <grpcpp/server_builder.h>
+
+#include "absl/status/status.h"
+#include "absl/strings/str_cat.h"
+#include "daemon/event_log.h"
+
+namespace plumbline::daemon {
+
+std::string BoundAddress(const std::string& listen, int port) {
+  const size_t colon = listen.rfind(':');
+  const std::string host =
+      colon == std::string::npos ? listen : listen.substr(0, colon);
+  return absl::StrCat(host, ":", port);
+}
+
+DaemonServer::DaemonServer(SetRegistry* registry, ScoringLimits limits)
+    : registry_(registry), service_(registry, limits) {}
+
+absl::StatusOr<std::unique_ptr<DaemonServer>> DaemonServer::Start(
+    const DaemonOptions& options, SetRegistry* registry) {
+  ScoringLimits limits;
+  limits.max_batch_records = options.max_batch_records;
+  limits.max_reasons = options.max_reasons;
+  std::unique_ptr<DaemonServer> daemon(new DaemonServer(registry, limits));
+
+  grpc::EnableDefaultHealthCheckService(true);
+  grpc::ServerBuilder builder;
+  int port = 0;
+  builder.AddListeningPort(options.listen, grpc::InsecureServerCredentials(),
+                           &port);
+  // gRPC sets SO_REUSEPORT by default, which would let a second plumbd bind
+  // the same port and silently share the traffic; refuse that instead.
+  builder.AddChannelArgument(GRPC_ARG_ALLOW_REUSEPORT, 0);
+  builder.RegisterService(&daemon->service_);
+  const int max_bytes = options.max_message_bytes > 0x7fffffffu
+                            ? 0x7fffffff
+                            : static_cast<int>(options.max_message_bytes);
+  builder.SetMaxReceiveMessageSize(max_bytes);
+  builder.SetMaxSendMessageSize(max_bytes);
+  daemon->server_ = builder.BuildAndStart();
+  if (daemon->server_ == nullptr || port == 0) {
+    return absl::UnavailableError(absl::StrCat(
+        "cannot listen on ", options.listen,
+        " (address in use, or not a HOST:PORT this machine has?)"));
+  }
+  daemon->bound_address_ = BoundAddress(options.listen, port);
+
+  grpc::HealthCheckServiceInterface* health =
+      daemon->server_->GetHealthCheckService();
+  health->SetServingStatus("", true);
+  health->SetServingStatus(kScoringServiceName, true);
+  for (const std::string& name : registry->Names()) {
+    health->SetServingStatus(name, true);
+  }
+  return daemon;
+}
+
+void DaemonServer::Reload() {
+  absl::StatusOr<ReloadReport> report = registry_->Reload();
+  if (!report.ok()) return;  // logged by the registry; nothing changed
+  {
+    absl::MutexLock lock(&mu_);
+    if (!shut_down_) {
+      grpc::HealthCheckServiceInterface* health =
+          server_->GetHealthCheckService();
+      for (const std::string& name : report->unloaded) {
+        health->SetServingStatus(name, false);
+      }
+      for (const std::string& name : report->loaded) {
+        health->SetServingStatus(name, true);
+      }
+    }
+  }
+  LogEvent(LogLevel::kInfo, "reload_done",
+           {{"sets", absl::StrCat(registry_->Names().size())},
+            {"loaded", absl::StrCat(report->loaded.size())},
+            {"unloaded", absl::StrCat(report->unloaded.size())},
+            {"rejected", absl::StrCat(report->rejected_files.size())}});
+}
+
+void DaemonServer::Shutdown(absl::Duration deadline) {
+  {
+    absl::MutexLock lock(&mu_);
+    if (shut_down_) return;
+    shut_down_ = true;
+    // Marks every name NOT_SERVING and ignores later updates.
+    server_->GetHealthCheckService()->Shutdown();
+  }
+  server_->Shutdown(absl::ToChronoTime(absl::Now() + deadline));
+}
+
+void DaemonServer::Wait() { server_->Wait(); }
+
+}  // namespace plumbline::daemon

@@ -1,0 +1,83 @@
+// File: daemon/daemon_server.h
+//
+// plumbd's gRPC server: the Scoring service, the standard gRPC health service
+// and the wiring between the set registry and health. Health names:
+//   ""                      SERVING while the server is up
+//   "plumbline.v1.Scoring"  SERVING while the server is up
+//   <set name>              SERVING while that set is loaded, NOT_SERVING
+//                           after a reload unloads it
+// Shutdown turns every name NOT_SERVING before the server stops taking calls.
+//
+//   auto server = DaemonServer::Start(options, &registry);
+//   ... (*server)->Reload(); ... (*server)->Shutdown(absl::Seconds(5));
+//   (*server)->Wait();
+//
+// Thread-safe: Reload and Shutdown may be called from any thread (plumbd calls
+// them from its signal thread) while Wait blocks in another.
+#ifndef PLUMBLINE_DAEMON_DAEMON_SERVER_H_
+#define PLUMBLINE_DAEMON_DAEMON_SERVER_H_
+
+#include <memory>
+#include <string>
+#include <vector>
+
+#include <grpcpp/server.h>
+
+#include "absl/base/thread_annotations.h"
+#include "absl/status/statusor.h"
+#include "absl/synchronization/mutex.h"
+#include "absl/time/time.h"
+#include "daemon/daemon_options.h"
+#include "daemon/scoring_service.h"
+#include "daemon/set_registry.h"
+
+namespace plumbline::daemon {
+
+// Health service name of the scoring service.
+inline constexpr char kScoringServiceName[] = "plumbline.v1.Scoring";
+
+class DaemonServer {
+ public:
+  // Builds and starts the server on options.listen. `registry` must already
+  // be loaded and must outlive the server. UNAVAILABLE if the address cannot
+  // be bound.
+  static absl::StatusOr<std::unique_ptr<DaemonServer>> Start(
+      const DaemonOptions& options, SetRegistry* registry);
+
+  DaemonServer(const DaemonServer&) = delete;
+  DaemonServer& operator=(const DaemonServer&) = delete;
+
+  // HOST:PORT actually bound (the real port when options.listen asked for 0).
+  const std::string& bound_address() const { return bound_address_; }
+
+  // Reloads the registry and updates the per-set health names.
+  void Reload();
+
+  // Turns all health names NOT_SERVING, then stops the server: calls in
+  // flight may run until `deadline` from now, later ones are refused.
+  void Shutdown(absl::Duration deadline);
+
+  // Blocks until the server has shut down.
+  void Wait();
+
+ private:
+  DaemonServer(SetRegistry* registry, ScoringLimits limits);
+
+  // Constant after Start.
+  SetRegistry* const registry_;
+  ScoringService service_;
+  std::unique_ptr<grpc::Server> server_;
+  std::string bound_address_;
+
+  // Guarded by mu_: serializes health updates against shutdown, so a reload
+  // racing with Shutdown cannot mark a set SERVING again.
+  absl::Mutex mu_;
+  bool shut_down_ ABSL_GUARDED_BY(mu_) = false;
+};
+
+// HOST:PORT from the HOST part of `listen` and `port`.
+std::string BoundAddress(const std::string& listen, int port);
+
+}  // namespace plumbline::daemon
+
+#endif  // PLUMBLINE_DAEMON_DAEMON_SERVER_H_

@@ -1,0 +1,33 @@
+// File: daemon/ledger_schema.h
+//
+// The ledger's SQL schema and its forward migrations. The schema version is
+// SQLite's PRAGMA user_version; migration i takes a ledger from version i to
+// i + 1, each in its own transaction, so a ledger written by any earlier
+// plumbd opens in a later one. A ledger newer than this build is refused
+// rather than written with a schema it does not know.
+//
+// Tables (version 1):
+//   scores(id, record_id, set_name, set_version, role, scored_at_us,
+//          log_odds, probability, features)      features: JSON as received
+//   outcomes(record_id PRIMARY KEY, label 0/1, observed_at_us, reported_at_us)
+// Times are microseconds since the Unix epoch (UTC).
+//
+// Called by Ledger::Open on the writer connection. Not thread-safe.
+#ifndef PLUMBLINE_DAEMON_LEDGER_SCHEMA_H_
+#define PLUMBLINE_DAEMON_LEDGER_SCHEMA_H_
+
+#include "absl/status/status.h"
+#include "daemon/sqlite_db.h"
+
+namespace plumbline::daemon {
+
+// The version a fully migrated ledger has.
+int LatestLedgerSchemaVersion();
+
+// Brings `db` to LatestLedgerSchemaVersion(). FAILED_PRECONDITION naming both
+// versions if the file is newer than this build.
+absl::Status MigrateLedger(SqliteDb& db);
+
+}  // namespace plumbline::daemon
+
+#endif  // PLUMBLINE_DAEMON_LEDGER_SCHEMA_H_

@@ -1,0 +1,48 @@
+// File: daemon/plumbctl_client.h
+//
+// plumbctl's connection to a running plumbd: the Scoring stub with a deadline
+// on every call, and errors turned into absl::Status whose message says which
+// daemon could not be reached.
+//
+//   ScoringClient client("127.0.0.1:7390", absl::Seconds(10));
+//   absl::StatusOr<v1::ListSetsReply> sets = client.ListSets();
+//
+// Thread-safe: yes (the gRPC stub is); each call has its own context.
+#ifndef PLUMBLINE_DAEMON_PLUMBCTL_CLIENT_H_
+#define PLUMBLINE_DAEMON_PLUMBCTL_CLIENT_H_
+
+#include <memory>
+#include <string>
+
+#include "absl/status/statusor.h"
+#include "absl/time/time.h"
+#include "plumbline/v1/scoring.grpc.pb.h"
+
+namespace plumbline::daemon {
+
+class ScoringClient {
+ public:
+  ScoringClient(std::string addr, absl::Duration timeout);
+
+  absl::StatusOr<v1::ListSetsReply> ListSets() const;
+  absl::StatusOr<v1::ScoreReply> Score(const v1::ScoreRequest& request) const;
+  absl::StatusOr<v1::ScoreBatchReply> ScoreBatch(
+      const v1::ScoreBatchRequest& request) const;
+
+  // The summary of set `name` from ListSets; NOT_FOUND naming the loaded
+  // sets if the daemon does not have it.
+  absl::StatusOr<v1::SetSummary> FindSet(const std::string& name) const;
+
+ private:
+  // Adds the address to errors that are about reaching the daemon.
+  absl::Status Annotate(const grpc::Status& status) const;
+
+  // Constant after construction.
+  const std::string addr_;
+  const absl::Duration timeout_;
+  std::unique_ptr<v1::Scoring::Stub> stub_;
+};
+
+}  // namespace plumbline::daemon
+
+#endif  // PLUMBLINE_DAEMON_PLUMBCTL_CLIENT_H_

@@ -1,0 +1,145 @@
+// File: daemon/plumbd_main.cc
+//
+// plumbd: serves the coefficient sets of a directory over gRPC.
+//
+//   plumbd [--config FILE] [--sets DIR] [--listen HOST:PORT]
+//          [--ready_file FILE]
+//
+// With no flags it loads ./sets and listens on 127.0.0.1:7390. SIGHUP reloads
+// the sets; SIGTERM or SIGINT shut down gracefully (exit 0).
+#include <signal.h>
+
+#include <cstdio>
+#include <memory>
+#include <string>
+#include <thread>
+#include <vector>
+
+#include "absl/flags/flag.h"
+#include "absl/strings/str_cat.h"
+#include "absl/time/time.h"
+#include "daemon/daemon_options.h"
+#include "daemon/daemon_server.h"
+#include "daemon/event_log.h"
+#include "daemon/file_util.h"
+#include "daemon/flag_parsing.h"
+#include "daemon/set_registry.h"
+#include "daemon/signals.h"
+
+ABSL_FLAG(std::string, config, "",
+          "JSON config file (plumbline.v1.DaemonConfig); flags override it");
+ABSL_FLAG(std::string, sets, "",
+          "directory of coefficient-set *.json files (default ./sets)");
+ABSL_FLAG(std::string, listen, "",
+          "gRPC listen address HOST:PORT (default 127.0.0.1:7390; port 0 "
+          "picks a free port)");
+ABSL_FLAG(std::string, ready_file, "",
+          "once serving, write the bound HOST:PORT to this file");
+
+namespace plumbline::daemon {
+namespace {
+
+// How long calls in flight may run after SIGTERM/SIGINT. Connections of idle
+// clients that do not react to the server's GOAWAY are closed at this
+// deadline too, so shutdown can take this long with such clients connected.
+constexpr absl::Duration kShutdownGrace = absl::Seconds(5);
+
+int Fail(absl::string_view event, const absl::Status& status) {
+  LogEvent(LogLevel::kError, event, {{"error", status.message()}});
+  return 1;
+}
+
+int Run() {
+  DaemonOptions options;
+  if (const std::string config = absl::GetFlag(FLAGS_config); !config.empty()) {
+    absl::StatusOr<DaemonOptions> loaded = LoadDaemonOptions(config);
+    if (!loaded.ok()) return Fail("config_failed", loaded.status());
+    options = *std::move(loaded);
+  }
+  if (const std::string sets = absl::GetFlag(FLAGS_sets); !sets.empty()) {
+    options.sets_dir = sets;
+  }
+  if (const std::string listen = absl::GetFlag(FLAGS_listen); !listen.empty()) {
+    options.listen = listen;
+  }
+
+  SetRegistry registry(options.sets_dir);
+  if (absl::StatusOr<ReloadReport> report = registry.Reload(); !report.ok()) {
+    return Fail("startup_failed", report.status());
+  }
+  absl::StatusOr<std::unique_ptr<DaemonServer>> server =
+      DaemonServer::Start(options, &registry);
+  if (!server.ok()) return Fail("startup_failed", server.status());
+  DaemonServer* daemon = server->get();
+
+  if (const std::string ready = absl::GetFlag(FLAGS_ready_file);
+      !ready.empty()) {
+    absl::Status written =
+        WriteFileAtomically(ready, absl::StrCat(daemon->bound_address(), "\n"));
+    if (!written.ok()) {
+      daemon->Shutdown(absl::ZeroDuration());
+      daemon->Wait();
+      return Fail("startup_failed", written);
+    }
+  }
+  LogEvent(LogLevel::kInfo, "listening",
+           {{"addr", daemon->bound_address()},
+            {"sets", absl::StrCat(registry.Names().size())}});
+
+  std::thread signal_thread([daemon] {
+    while (true) {
+      absl::StatusOr<int> signal_number = WaitForDaemonSignal();
+      if (!signal_number.ok()) {
+        // Only a programming error gets here; without signals the daemon
+        // keeps serving until it is killed.
+        LogEvent(LogLevel::kError, "signal_wait_failed",
+                 {{"error", signal_number.status().message()}});
+        return;
+      }
+      if (*signal_number == SIGHUP) {
+        LogEvent(LogLevel::kInfo, "reload_requested", {{"signal", "SIGHUP"}});
+        daemon->Reload();
+        continue;
+      }
+      LogEvent(LogLevel::kInfo, "shutting_down",
+               {{"signal", *signal_number == SIGTERM ? "SIGTERM" : "SIGINT"}});
+      daemon->Shutdown(kShutdownGrace);
+      return;
+    }
+  });
+  daemon->Wait();
+  signal_thread.join();
+  LogEvent(LogLevel::kInfo, "stopped");
+  return 0;
+}
+
+}  // namespace
+}  // namespace plumbline::daemon
+
+int main(int argc, char** argv) {
+  // Before anything can start a thread: every thread inherits the mask.
+  if (absl::Status s = plumbline::daemon::BlockDaemonSignals(); !s.ok()) {
+    std::fprintf(stderr, "plumbd: %s\n", std::string(s.message()).c_str());
+    return 1;
+  }
+  constexpr char kUsage[] =
+      "usage: plumbd [--config FILE] [--sets DIR] [--listen HOST:PORT] "
+      "[--ready_file FILE]\n"
+      "Serves the coefficient sets of a directory over gRPC (defaults: "
+      "./sets, 127.0.0.1:7390).\n"
+      "SIGHUP reloads the sets; SIGTERM or SIGINT stop gracefully.\n";
+  if (plumbline::daemon::WantsHelp(argc, argv)) {
+    std::fputs(kUsage, stdout);
+    return 0;
+  }
+  absl::StatusOr<std::vector<std::string>> args =
+      plumbline::daemon::ParseFlags(argc, argv);
+  if (!args.ok() || !args->empty()) {
+    std::fprintf(stderr, "plumbd: %s\n%s",
+                 args.ok() ? "unexpected positional argument"
+                           : std::string(args.status().message()).c_str(),
+                 kUsage);
+    return 2;
+  }
+  return plumbline::daemon::Run();
+}

@@ -1,0 +1,72 @@
+// File: daemon/scoring_core.h
+//
+// The scoring requests of plumbline.v1.Scoring answered against one compiled
+// set, without any gRPC: request checks, record conversion, scoring, reason
+// codes and the reply. The gRPC service looks the set up and calls these;
+// plumbctl's offline mode calls the same functions on a set it read itself,
+// so online and offline scores come from one code path.
+//
+//   absl::StatusOr<v1::ScoreBatchReply> reply =
+//       ScoreBatchWithPlan(*plan, request, ScoringLimits{});
+//
+// Thread-safe: pure functions; a ScoringPlan is immutable.
+#ifndef PLUMBLINE_DAEMON_SCORING_CORE_H_
+#define PLUMBLINE_DAEMON_SCORING_CORE_H_
+
+#include <cstdint>
+#include <string>
+#include <vector>
+
+#include "absl/status/status.h"
+#include "absl/status/statusor.h"
+#include "plumbline/v1/scoring.pb.h"
+#include "scorer/scoring_plan.h"
+
+namespace plumbline::daemon {
+
+// Request limits; see DaemonOptions for the daemon's defaults.
+struct ScoringLimits {
+  // Largest number of records (or dense rows) in one batch.
+  uint32_t max_batch_records = 10000;
+  // Largest ReasonOptions.top a caller may ask for.
+  uint32_t max_reasons = 20;
+};
+
+// Checks and converts the wire reason options.
+absl::StatusOr<scorer::ReasonOptions> ToReasonOptions(
+    const v1::ReasonOptions& options, const ScoringLimits& limits);
+
+// Appends the wire form of `reasons` (feature names from `plan`) to `out`.
+void AppendReasons(const scorer::ScoringPlan& plan,
+                   const std::vector<scorer::Reason>& reasons,
+                   v1::Scored* out);
+
+// Scores one named record. Errors name the feature.
+absl::StatusOr<v1::Scored> ScoreRecord(const scorer::ScoringPlan& plan,
+                                       const v1::Record& record,
+                                       const scorer::ReasonOptions& reasons);
+
+// Score: request.set is not looked at (the caller chose `plan`).
+absl::StatusOr<v1::ScoreReply> ScoreWithPlan(const scorer::ScoringPlan& plan,
+                                             const v1::ScoreRequest& request,
+                                             const ScoringLimits& limits);
+
+// ScoreBatch, named or dense form; all-or-nothing. Errors on a record start
+// with "records[i] (id 'x'): " or "dense.rows[i]: ".
+absl::StatusOr<v1::ScoreBatchReply> ScoreBatchWithPlan(
+    const scorer::ScoringPlan& plan, const v1::ScoreBatchRequest& request,
+    const ScoringLimits& limits);
+
+// The ListSets entry of `plan`.
+v1::SetSummary SummarizeSet(const scorer::ScoringPlan& plan);
+
+// INVALID_ARGUMENT for an empty set name in a request.
+absl::Status CheckSetName(const std::string& set);
+
+// NOT_FOUND "no coefficient set named 'x' is loaded; loaded: a, b".
+absl::Status SetNotFound(const std::string& set,
+                         const std::vector<std::string>& loaded);
+
+}  // namespace plumbline::daemon
+
+#endif  // PLUMBLINE_DAEMON_SCORING_CORE_H_

@@ -1,0 +1,186 @@
+#include "daemon/ledger.h"
+
+#include <atomic>
+#include <filesystem>
+#include <thread>
+#include <vector>
+
+#include "absl/strings/str_cat.h"
+#include "gmock/gmock.h"
+#include "gtest/gtest.h"
+
+namespace plumbline::daemon {
+namespace {
+
+using ::testing::HasSubstr;
+
+class LedgerTest : public ::testing::Test {
+ protected:
+  void SetUp() override {
+    dir_ = std::filesystem::path(::testing::TempDir()) /
+           absl::StrCat("ledger_test_", ::testing::UnitTest::GetInstance()
+                                            ->current_test_info()->name());
+    std::filesystem::remove_all(dir_);
+    options_.path = (dir_ / "sub" / "ledger.db").string();
+  }
+
+  std::unique_ptr<Ledger> OpenLedger() {
+    auto ledger = Ledger::Open(options_);
+    EXPECT_TRUE(ledger.ok()) << ledger.status();
+    return ledger.ok() ? *std::move(ledger) : nullptr;
+  }
+
+  static ScoreEntry Score(const std::string& id, double log_odds = 0.5) {
+    return ScoreEntry{id, "courier", "v1", "active", absl::FromUnixSeconds(1000),
+                      log_odds, 0.6, R"({"distance_km":3})"};
+  }
+
+  int64_t Count(const std::string& table) {
+    auto db = SqliteDb::Open(options_.path);
+    EXPECT_TRUE(db.ok());
+    auto n = (*db)->QueryInt64(absl::StrCat("SELECT COUNT(*) FROM ", table));
+    EXPECT_TRUE(n.ok()) << n.status();
+    return n.ok() ? *n : -1;
+  }
+
+  std::filesystem::path dir_;
+  LedgerOptions options_;
+};
+
+TEST_F(LedgerTest, CreatesAWalLedgerWithTheCurrentSchema) {
+  auto ledger = OpenLedger();
+  ASSERT_NE(ledger, nullptr);
+  auto db = SqliteDb::Open(options_.path);
+  ASSERT_TRUE(db.ok());
+  auto st = (*db)->Prepare("PRAGMA journal_mode");
+  ASSERT_TRUE(st.ok());
+  ASSERT_TRUE(*(*st)->Step());
+  EXPECT_EQ((*st)->ColumnText(0), "wal");
+  EXPECT_EQ(*(*db)->QueryInt64("PRAGMA user_version"), Ledger::SchemaVersion());
+}
+
+TEST_F(LedgerTest, OutcomesJoinToScoresWithTheDocumentedCodes) {
+  auto ledger = OpenLedger();
+  ASSERT_TRUE(ledger->AppendScores({Score("a", 0.25), Score("b")}).ok());
+  auto results = ledger->ReportOutcomes({
+      {"a", 1, absl::FromUnixSeconds(2000)},
+      {"a", 1, absl::FromUnixSeconds(2001)},  // same label again: idempotent
+      {"a", 0, absl::FromUnixSeconds(2002)},  // different label: refused
+      {"zzz", 1, absl::FromUnixSeconds(2003)},
+      {"b", 2, absl::FromUnixSeconds(2004)},
+      {"", 1, absl::FromUnixSeconds(2005)},
+  });
+  ASSERT_TRUE(results.ok()) << results.status();
+  ASSERT_EQ(results->size(), 6u);
+  const auto& r = *results;
+  EXPECT_TRUE(r[0].status.ok());
+  EXPECT_FALSE(r[0].repeat);
+  ASSERT_EQ(r[0].labelled.size(), 1u);
+  EXPECT_EQ(r[0].labelled[0].log_odds, 0.25);
+  EXPECT_EQ(r[0].labelled[0].label, 1);
+  EXPECT_EQ(r[0].labelled[0].features_json, R"({"distance_km":3})");
+  EXPECT_TRUE(r[1].status.ok());
+  EXPECT_TRUE(r[1].repeat);
+  EXPECT_TRUE(r[1].labelled.empty());
+  EXPECT_EQ(r[2].status.code(), absl::StatusCode::kFailedPrecondition);
+  EXPECT_THAT(r[2].status.message(), HasSubstr("already has outcome 1"));
+  EXPECT_EQ(r[3].status.code(), absl::StatusCode::kNotFound);
+  EXPECT_THAT(r[3].status.message(), HasSubstr("'zzz'"));
+  EXPECT_EQ(r[4].status.code(), absl::StatusCode::kInvalidArgument);
+  EXPECT_EQ(r[5].status.code(), absl::StatusCode::kInvalidArgument);
+  EXPECT_EQ(Count("outcomes"), 1);
+}
+
+TEST_F(LedgerTest, SurvivesReopenAndReadsLabelledNewestFirst) {
+  {
+    auto ledger = OpenLedger();
+    std::vector<ScoreEntry> scores;
+    for (int i = 0; i < 20; ++i) scores.push_back(Score(absl::StrCat("r", i), i));
+    ASSERT_TRUE(ledger->AppendScores(scores).ok());
+    std::vector<OutcomeEntry> outcomes;
+    for (int i = 0; i < 10; ++i) {
+      outcomes.push_back({absl::StrCat("r", i), i % 2, absl::FromUnixSeconds(5000 + i)});
+    }
+    ASSERT_TRUE(ledger->ReportOutcomes(outcomes).ok());
+  }
+  auto ledger = OpenLedger();
+  std::vector<double> seen;
+  ASSERT_TRUE(ledger
+                  ->ForEachLabelled("courier", 3, absl::InfinitePast(),
+                                    [&](const LabelledScore& s) { seen.push_back(s.log_odds); })
+                  .ok());
+  EXPECT_EQ(seen, (std::vector<double>{9, 8, 7}));
+  int scores = 0;
+  ASSERT_TRUE(ledger
+                  ->ForEachScore("courier", 100, absl::InfinitePast(),
+                                 [&](const ScoreEntry&) { ++scores; })
+                  .ok());
+  EXPECT_EQ(scores, 20);
+}
+
+TEST_F(LedgerTest, FullQueueIsResourceExhaustedNotADrop) {
+  options_.queue_capacity_rows = 10;
+  auto ledger = OpenLedger();
+  std::vector<ScoreEntry> too_many(11, Score("x"));
+  absl::Status st = ledger->AppendScores(too_many);
+  EXPECT_EQ(st.code(), absl::StatusCode::kResourceExhausted);
+  EXPECT_THAT(st.message(), HasSubstr("capacity 10"));
+  EXPECT_TRUE(ledger->AppendScores(std::vector<ScoreEntry>(10, Score("y"))).ok());
+  EXPECT_EQ(Count("scores"), 10);
+}
+
+TEST_F(LedgerTest, RefusesANewerSchema) {
+  { OpenLedger(); }
+  {
+    auto db = SqliteDb::Open(options_.path);
+    ASSERT_TRUE((*db)->Exec("PRAGMA user_version = 99").ok());
+  }
+  auto ledger = Ledger::Open(options_);
+  ASSERT_FALSE(ledger.ok());
+  EXPECT_EQ(ledger.status().code(), absl::StatusCode::kFailedPrecondition);
+  EXPECT_THAT(ledger.status().message(), HasSubstr("schema version 99"));
+}
+
+TEST_F(LedgerTest, RetentionByRowsAndByAge) {
+  absl::Time now = absl::FromUnixSeconds(100000);
+  options_.now = [&now] { return now; };
+  options_.retention_interval = absl::ZeroDuration();
+  options_.retention_rows = 5;
+  {
+    auto ledger = OpenLedger();
+    for (int i = 0; i < 10; ++i) {
+      ASSERT_TRUE(ledger->AppendScores({Score(absl::StrCat("k", i))}).ok());
+    }
+    ASSERT_TRUE(ledger->AppendScores({Score("last")}).ok());
+  }  // the destructor drains the queue; retention ran after each commit
+  EXPECT_EQ(Count("scores"), 5);
+
+  options_.retention_rows = 0;
+  options_.retention_age = absl::Hours(1);
+  auto ledger = OpenLedger();
+  ScoreEntry recent = Score("recent");
+  recent.scored_at = now - absl::Minutes(5);
+  ASSERT_TRUE(ledger->AppendScores({recent}).ok());
+  ledger.reset();
+  EXPECT_EQ(Count("scores"), 1);  // the five from 1970 are older than an hour
+}
+
+TEST_F(LedgerTest, ConcurrentWritersAreAllCommitted) {
+  auto ledger = OpenLedger();
+  std::vector<std::thread> threads;
+  std::atomic<int> failures{0};
+  for (int t = 0; t < 4; ++t) {
+    threads.emplace_back([&, t] {
+      for (int i = 0; i < 250; ++i) {
+        if (!ledger->AppendScores({Score(absl::StrCat("t", t, "-", i))}).ok()) ++failures;
+      }
+    });
+  }
+  for (auto& th : threads) th.join();
+  EXPECT_EQ(failures.load(), 0);
+  EXPECT_EQ(Count("scores"), 1000);
+  EXPECT_GE(ledger->stats().committed_rows, 1000);
+}
+
+}  // namespace
+}  // namespace plumbline::daemon
