@@ -7,17 +7,48 @@
 //
 //   absl::StatusOr<DaemonOptions> options = LoadDaemonOptions("plumbd.json");
 //
+// The ledger settings map config.proto's LedgerConfig onto the Ledger's own
+// LedgerOptions (daemon/ledger.h); windows and drift policy are carried as
+// plain structs for the health monitor.
+//
 // Thread-safe: free functions without shared state.
 #ifndef PLUMBLINE_DAEMON_DAEMON_OPTIONS_H_
 #define PLUMBLINE_DAEMON_DAEMON_OPTIONS_H_
 
 #include <cstdint>
 #include <string>
+#include <vector>
 
 #include "absl/status/statusor.h"
+#include "absl/time/time.h"
+#include "daemon/ledger.h"
 #include "plumbline/v1/config.pb.h"
 
 namespace plumbline::daemon {
+
+// The monitor's windows (config.proto WindowConfig).
+struct WindowOptions {
+  // Count window over the most recent labelled records.
+  uint32_t labelled_count = 5000;
+  // Count window over the most recent scored records (stability figures).
+  uint32_t scored_count = 10000;
+  // Time window over both.
+  absl::Duration time = absl::Seconds(86400);
+  // Buckets per window: records leave a window one bucket at a time.
+  uint32_t buckets = 20;
+};
+
+// The drift policy (config.proto DriftPolicy).
+struct DriftPolicyOptions {
+  // As written in the config; empty means the monitor's documented defaults.
+  std::vector<v1::MetricThreshold> thresholds;
+  // Labelled records a window needs before an outcome-based figure judges.
+  uint32_t min_labelled = 500;
+  // Scored records a window needs before a stability figure judges.
+  uint32_t min_scored = 500;
+  // Time between evaluations.
+  absl::Duration tick = absl::Seconds(15);
+};
 
 struct DaemonOptions {
   // gRPC listen address, HOST:PORT. Port 0 picks a free port.
@@ -26,18 +57,23 @@ struct DaemonOptions {
   std::string sets_dir = "./sets";
   // Prometheus exposition listen address, HOST:PORT.
   std::string metrics_listen = "127.0.0.1:7391";
-  // SQLite ledger file.
-  std::string ledger_path = "./var/ledger.db";
-  // Largest number of records one ScoreBatch may carry.
+  // Largest number of records one ScoreBatch (or ReportOutcomes) may carry.
   uint32_t max_batch_records = 10000;
   // Largest number of reason codes a caller may ask for per record.
   uint32_t max_reasons = 20;
   // Largest gRPC message the server accepts, in bytes.
   uint32_t max_message_bytes = 64u << 20;
+  // The SQLite ledger: ledger.path is the file (DaemonConfig.ledger_path,
+  // default ./var/ledger.db); the rest comes from DaemonConfig.ledger.
+  LedgerOptions ledger;
+  // The monitor's windows and drift policy.
+  WindowOptions windows;
+  DriftPolicyOptions drift_policy;
 };
 
 // Merges `config` over the defaults: an empty string or a zero keeps the
-// default.
+// default. LedgerConfig: durable_commits = !relaxed_commits; retention 0
+// keeps everything.
 DaemonOptions OptionsFromConfig(const v1::DaemonConfig& config);
 
 // Reads the JSON config file at `path`. NOT_FOUND if it cannot be read;

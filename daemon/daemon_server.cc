@@ -22,15 +22,20 @@ std::string BoundAddress(const std::string& listen, int port) {
   return absl::StrCat(host, ":", port);
 }
 
-DaemonServer::DaemonServer(SetRegistry* registry, ScoringLimits limits)
-    : registry_(registry), service_(registry, limits) {}
+DaemonServer::DaemonServer(SetRegistry* registry, ScoringLimits limits,
+                           Ledger* ledger, HealthSink* health_sink)
+    : registry_(registry),
+      service_(registry, limits, ledger, health_sink),
+      outcomes_(ledger, health_sink, limits.max_batch_records) {}
 
 absl::StatusOr<std::unique_ptr<DaemonServer>> DaemonServer::Start(
-    const DaemonOptions& options, SetRegistry* registry) {
+    const DaemonOptions& options, SetRegistry* registry, Ledger* ledger,
+    ServerAttachments attachments) {
   ScoringLimits limits;
   limits.max_batch_records = options.max_batch_records;
   limits.max_reasons = options.max_reasons;
-  std::unique_ptr<DaemonServer> daemon(new DaemonServer(registry, limits));
+  std::unique_ptr<DaemonServer> daemon(new DaemonServer(
+      registry, limits, ledger, attachments.health_sink));
 
   grpc::EnableDefaultHealthCheckService(true);
   grpc::ServerBuilder builder;
@@ -41,6 +46,14 @@ absl::StatusOr<std::unique_ptr<DaemonServer>> DaemonServer::Start(
   // the same port and silently share the traffic; refuse that instead.
   builder.AddChannelArgument(GRPC_ARG_ALLOW_REUSEPORT, 0);
   builder.RegisterService(&daemon->service_);
+  builder.RegisterService(&daemon->outcomes_);
+  for (const auto& [service, name] : attachments.services) {
+    builder.RegisterService(service);
+  }
+  if (!attachments.interceptors.empty()) {
+    builder.experimental().SetInterceptorCreators(
+        std::move(attachments.interceptors));
+  }
   const int max_bytes = options.max_message_bytes > 0x7fffffffu
                             ? 0x7fffffff
                             : static_cast<int>(options.max_message_bytes);
@@ -58,6 +71,10 @@ absl::StatusOr<std::unique_ptr<DaemonServer>> DaemonServer::Start(
       daemon->server_->GetHealthCheckService();
   health->SetServingStatus("", true);
   health->SetServingStatus(kScoringServiceName, true);
+  health->SetServingStatus(kOutcomesServiceName, true);
+  for (const auto& [service, name] : attachments.services) {
+    health->SetServingStatus(name, true);
+  }
   for (const std::string& name : registry->Names()) {
     health->SetServingStatus(name, true);
   }

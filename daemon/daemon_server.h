@@ -1,14 +1,17 @@
 // File: daemon/daemon_server.h
 //
-// plumbd's gRPC server: the Scoring service, the standard gRPC health service
-// and the wiring between the set registry and health. Health names:
-//   ""                      SERVING while the server is up
-//   "plumbline.v1.Scoring"  SERVING while the server is up
-//   <set name>              SERVING while that set is loaded, NOT_SERVING
-//                           after a reload unloads it
+// plumbd's gRPC server: the Scoring and Outcomes services (both writing to
+// the ledger), the standard gRPC health service and the wiring between the
+// set registry and health. Health names:
+//   ""                       SERVING while the server is up
+//   "plumbline.v1.Scoring"   SERVING while the server is up
+//   "plumbline.v1.Outcomes"  SERVING while the server is up
+//   <extra service names>    SERVING while the server is up (attachments)
+//   <set name>               SERVING while that set is loaded, NOT_SERVING
+//                            after a reload unloads it
 // Shutdown turns every name NOT_SERVING before the server stops taking calls.
 //
-//   auto server = DaemonServer::Start(options, &registry);
+//   auto server = DaemonServer::Start(options, &registry, ledger.get());
 //   ... (*server)->Reload(); ... (*server)->Shutdown(absl::Seconds(5));
 //   (*server)->Wait();
 //
@@ -19,30 +22,51 @@
 
 #include <memory>
 #include <string>
+#include <utility>
 #include <vector>
 
 #include <grpcpp/server.h>
+#include <grpcpp/support/server_interceptor.h>
 
 #include "absl/base/thread_annotations.h"
 #include "absl/status/statusor.h"
 #include "absl/synchronization/mutex.h"
 #include "absl/time/time.h"
 #include "daemon/daemon_options.h"
+#include "daemon/health_sink.h"
+#include "daemon/ledger.h"
+#include "daemon/outcomes_service.h"
 #include "daemon/scoring_service.h"
 #include "daemon/set_registry.h"
 
 namespace plumbline::daemon {
 
-// Health service name of the scoring service.
+// Health service names of the scoring and outcomes services.
 inline constexpr char kScoringServiceName[] = "plumbline.v1.Scoring";
+inline constexpr char kOutcomesServiceName[] = "plumbline.v1.Outcomes";
+
+// What plumbd attaches to the server besides its own two services.
+struct ServerAttachments {
+  // Told about every record scored and every score labelled; may be null.
+  // Must outlive the server.
+  HealthSink* health_sink = nullptr;
+  // More services to register, each with the health name that is SERVING
+  // while the server is up. Must outlive the server.
+  std::vector<std::pair<grpc::Service*, std::string>> services;
+  // Server interceptors (e.g. request metrics), in call order.
+  std::vector<
+      std::unique_ptr<grpc::experimental::ServerInterceptorFactoryInterface>>
+      interceptors;
+};
 
 class DaemonServer {
  public:
   // Builds and starts the server on options.listen. `registry` must already
-  // be loaded and must outlive the server. UNAVAILABLE if the address cannot
-  // be bound.
+  // be loaded; `registry` and `ledger` must outlive the server. UNAVAILABLE
+  // if the address cannot be bound.
   static absl::StatusOr<std::unique_ptr<DaemonServer>> Start(
-      const DaemonOptions& options, SetRegistry* registry);
+      const DaemonOptions& options, SetRegistry* registry, Ledger* ledger,
+      ServerAttachments attachments = {});
 
   DaemonServer(const DaemonServer&) = delete;
   DaemonServer& operator=(const DaemonServer&) = delete;
@@ -61,11 +85,13 @@ class DaemonServer {
   void Wait();
 
  private:
-  DaemonServer(SetRegistry* registry, ScoringLimits limits);
+  DaemonServer(SetRegistry* registry, ScoringLimits limits, Ledger* ledger,
+               HealthSink* health_sink);
 
   // Constant after Start.
   SetRegistry* const registry_;
   ScoringService service_;
+  OutcomesService outcomes_;
   std::unique_ptr<grpc::Server> server_;
   std::string bound_address_;
 

@@ -49,18 +49,7 @@ absl::StatusOr<std::vector<scorer::Reason>> DenseRowReasons(
     const std::vector<int>& column_of_feature, bool nan_is_missing,
     const scorer::ReasonOptions& reasons) {
   std::vector<scorer::RawValue> raw(static_cast<size_t>(plan.num_features()));
-  for (int f = 0; f < plan.num_features(); ++f) {
-    const int col = column_of_feature[static_cast<size_t>(f)];
-    if (col < 0) continue;  // missing
-    const double x = row.values(col);
-    if (std::isnan(x) && nan_is_missing) continue;
-    if (plan.feature_kind(f) == scorer::FeatureKind::kCategorical) {
-      raw[static_cast<size_t>(f)] = scorer::RawValue::Text(
-          plan.set().features(f).categorical().levels(static_cast<int>(x)).value());
-    } else {
-      raw[static_cast<size_t>(f)] = scorer::RawValue::Number(x);
-    }
-  }
+  DenseRowToRawValues(plan, row, column_of_feature, nan_is_missing, raw.data());
   Eigen::RowVectorXd encoded(plan.encoded_width());
   encoded.setZero();
   if (absl::Status s = plan.Encode(raw, encoded); !s.ok()) return s;
@@ -68,6 +57,26 @@ absl::StatusOr<std::vector<scorer::Reason>> DenseRowReasons(
 }
 
 }  // namespace
+
+void DenseRowToRawValues(const scorer::ScoringPlan& plan,
+                         const v1::DenseRows::Row& row,
+                         const std::vector<int>& column_of_feature,
+                         bool nan_is_missing, scorer::RawValue* out) {
+  for (int f = 0; f < plan.num_features(); ++f) {
+    scorer::RawValue& value = out[f];
+    value = scorer::RawValue::Missing();
+    const int col = column_of_feature[static_cast<size_t>(f)];
+    if (col < 0) continue;
+    const double x = row.values(col);
+    if (std::isnan(x) && nan_is_missing) continue;
+    if (plan.feature_kind(f) == scorer::FeatureKind::kCategorical) {
+      value = scorer::RawValue::Text(
+          plan.set().features(f).categorical().levels(static_cast<int>(x)).value());
+    } else {
+      value = scorer::RawValue::Number(x);
+    }
+  }
+}
 
 absl::StatusOr<std::vector<int>> DenseColumnOfFeature(
     const scorer::ScoringPlan& plan, const v1::DenseRows& dense) {
@@ -101,7 +110,8 @@ absl::StatusOr<std::vector<int>> DenseColumnOfFeature(
 absl::Status ScoreDenseRows(const scorer::ScoringPlan& plan,
                             const v1::DenseRows& dense,
                             const scorer::ReasonOptions& reasons,
-                            v1::ScoreBatchReply* reply) {
+                            v1::ScoreBatchReply* reply,
+                            RecordInputs* inputs) {
   absl::StatusOr<std::vector<int>> column_of_feature =
       DenseColumnOfFeature(plan, dense);
   if (!column_of_feature.ok()) return column_of_feature.status();
@@ -152,6 +162,20 @@ absl::Status ScoreDenseRows(const scorer::ScoringPlan& plan,
                                        row_reasons.status().message()));
     }
     AppendReasons(plan, *row_reasons, scored);
+  }
+  if (inputs != nullptr) {
+    const size_t features = static_cast<size_t>(plan.num_features());
+    const size_t first = inputs->values.size();
+    inputs->values.resize(first + features * static_cast<size_t>(rows));
+    inputs->sent.resize(first + features * static_cast<size_t>(rows));
+    for (int r = 0; r < rows; ++r) {
+      const size_t at = first + features * static_cast<size_t>(r);
+      DenseRowToRawValues(plan, dense.rows(r), *column_of_feature,
+                          dense.nan_is_missing(), &inputs->values[at]);
+      for (size_t f = 0; f < features; ++f) {
+        inputs->sent[at + f] = (*column_of_feature)[f] >= 0 ? 1 : 0;
+      }
+    }
   }
   return absl::OkStatus();
 }

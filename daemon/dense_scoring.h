@@ -14,6 +14,7 @@
 
 #include "absl/status/status.h"
 #include "absl/status/statusor.h"
+#include "daemon/scoring_core.h"
 #include "plumbline/v1/scoring.pb.h"
 #include "scorer/scoring_plan.h"
 
@@ -25,12 +26,24 @@ namespace plumbline::daemon {
 absl::StatusOr<std::vector<int>> DenseColumnOfFeature(
     const scorer::ScoringPlan& plan, const v1::DenseRows& dense);
 
+// Row `row` as named raw values in the plan's feature order: level codes
+// become level names (views into `plan`), a NaN under nan_is_missing and a
+// feature without a column are missing. `out` gets plan.num_features()
+// entries. REQUIRES: the row's width and level codes have been checked.
+void DenseRowToRawValues(const scorer::ScoringPlan& plan,
+                         const v1::DenseRows::Row& row,
+                         const std::vector<int>& column_of_feature,
+                         bool nan_is_missing, scorer::RawValue* out);
+
 // Scores every row of `dense` and appends one Scored per row to `reply`.
-// Errors start with "dense.rows[i]: " or "dense.columns[i]: ".
+// Errors start with "dense.rows[i]: " or "dense.columns[i]: ". With
+// `inputs`, appends every row's inputs once all rows have scored (a feature
+// counts as sent when it has a column).
 absl::Status ScoreDenseRows(const scorer::ScoringPlan& plan,
                             const v1::DenseRows& dense,
                             const scorer::ReasonOptions& reasons,
-                            v1::ScoreBatchReply* reply);
+                            v1::ScoreBatchReply* reply,
+                            RecordInputs* inputs = nullptr);
 
 }  // namespace plumbline::daemon
 

@@ -1,3 +1,6 @@
+// File: daemon/ledger.cc
+// The write side of the ledger: open and migrate, the writer thread, group
+// commit, outcomes and retention. The read side is in ledger_reads.cc.
 #include "daemon/ledger.h"
 
 #include <filesystem>
@@ -6,6 +9,7 @@
 #include "absl/strings/str_cat.h"
 #include "absl/synchronization/notification.h"
 #include "daemon/ledger_schema.h"
+#include "daemon/ledger_set_ids.h"
 
 namespace plumbline::daemon {
 
@@ -18,8 +22,15 @@ struct Ledger::Job {
   size_t rows() const { return scores.size() + outcomes.size(); }
 };
 
+// Scores are inserted this many rows per statement: one step of a multi-row
+// INSERT costs much less than as many single-row steps (measured with
+// tests/bench/ledger_bench).
+constexpr int kScoresPerInsert = 32;
+constexpr int kScoreColumns = 6;
+
 struct Ledger::Statements {
   std::unique_ptr<SqliteStatement> insert_score;
+  std::unique_ptr<SqliteStatement> insert_scores;  // kScoresPerInsert rows
   std::unique_ptr<SqliteStatement> find_outcome;
   std::unique_ptr<SqliteStatement> find_scores;
   std::unique_ptr<SqliteStatement> insert_outcome;
@@ -32,6 +43,19 @@ namespace {
 
 int64_t Micros(absl::Time t) { return absl::ToUnixMicros(t); }
 absl::Time FromMicros(int64_t us) { return absl::FromUnixMicros(us); }
+
+// Binds `e` with its set id to parameters first + 1 .. first +
+// kScoreColumns. The text is not copied: the job owns `e` until it is
+// notified, after the commit.
+void BindScore(SqliteStatement& ins, int first, const ScoreEntry& e,
+               int64_t set_id) {
+  ins.BindTextNoCopy(first + 1, e.record_id);
+  ins.BindInt64(first + 2, set_id);
+  ins.BindInt64(first + 3, Micros(e.scored_at));
+  ins.BindDouble(first + 4, e.log_odds);
+  ins.BindDouble(first + 5, e.probability);
+  ins.BindTextNoCopy(first + 6, e.features_json);
+}
 
 }  // namespace
 
@@ -71,15 +95,17 @@ absl::StatusOr<std::unique_ptr<Ledger>> Ledger::Open(LedgerOptions options) {
     const char* sql;
   } prepared[] = {
       {&s->insert_score,
-       "INSERT INTO scores(record_id, set_name, set_version, role, scored_at_us,"
-       " log_odds, probability, features) VALUES (?1,?2,?3,?4,?5,?6,?7,?8)"},
+       "INSERT INTO scores(record_id, set_id, scored_at_us, log_odds,"
+       " probability, features) VALUES (?1,?2,?3,?4,?5,?6)"},
       {&s->find_outcome, "SELECT label FROM outcomes WHERE record_id = ?1"},
       {&s->find_scores,
-       "SELECT set_name, set_version, role, log_odds, probability, scored_at_us,"
-       " features FROM scores WHERE record_id = ?1 ORDER BY id"},
+       "SELECT ss.set_name, ss.set_version, ss.role, s.log_odds, s.probability,"
+       " s.scored_at_us, s.features FROM scores s"
+       " JOIN score_sets ss ON ss.id = s.set_id"
+       " WHERE s.record_id = ?1 ORDER BY s.id"},
       {&s->insert_outcome,
        "INSERT INTO outcomes(record_id, label, observed_at_us, reported_at_us)"
-       " VALUES (?1,?2,?3,?4)"},
+       " VALUES (?1,?2,?3,?4) ON CONFLICT(record_id) DO NOTHING"},
       {&s->begin, "BEGIN IMMEDIATE"},
       {&s->commit, "COMMIT"},
       {&s->rollback, "ROLLBACK"},
@@ -89,6 +115,18 @@ absl::StatusOr<std::unique_ptr<Ledger>> Ledger::Open(LedgerOptions options) {
     if (!stmt.ok()) return stmt.status();
     *p.out = *std::move(stmt);
   }
+  std::string many =
+      "INSERT INTO scores(record_id, set_id, scored_at_us, log_odds,"
+      " probability, features) VALUES ";
+  for (int r = 0; r < kScoresPerInsert; ++r) {
+    absl::StrAppend(&many, r == 0 ? "" : ",", "(?,?,?,?,?,?)");
+  }
+  auto stmt = w.Prepare(many);
+  if (!stmt.ok()) return stmt.status();
+  s->insert_scores = *std::move(stmt);
+  auto set_ids = LedgerSetIds::Create(w);
+  if (!set_ids.ok()) return set_ids.status();
+  ledger->set_ids_ = *std::move(set_ids);
   ledger->stmts_ = std::move(s);
   ledger->writer_ = std::thread([l = ledger.get()] { l->WriterLoop(); });
   return ledger;
@@ -118,7 +156,15 @@ absl::Status Ledger::Enqueue(const std::shared_ptr<Job>& job) {
   absl::MutexLock lock(&mu_);
   if (stopping_) return absl::UnavailableError("ledger is shutting down");
   const auto rows = static_cast<int64_t>(job->rows());
-  if (queued_rows_ + rows > static_cast<int64_t>(options_.queue_capacity_rows)) {
+  const auto capacity = static_cast<int64_t>(options_.queue_capacity_rows);
+  if (rows > capacity) {
+    // Would never fit, however long the caller waits.
+    return absl::ResourceExhaustedError(absl::StrCat(
+        "a ledger write of ", rows, " rows is over the queue capacity of ",
+        capacity, " rows (ledger.queue_capacity_rows); send smaller batches "
+        "or raise the capacity"));
+  }
+  if (queued_rows_ + rows > capacity) {
     return absl::ResourceExhaustedError(absl::StrCat(
         "ledger write queue is full (", queued_rows_, " rows waiting, capacity ",
         options_.queue_capacity_rows, "); retry with backoff"));
@@ -203,20 +249,36 @@ absl::Status Ledger::RunGroup(std::vector<std::shared_ptr<Job>>& group) {
   Statements& s = *stmts_;
   if (absl::Status st = s.begin->Run(); !st.ok()) return st;
   absl::Status st;
-  for (auto& job : group) {
+  // Scores first, in queue order, kScoresPerInsert rows per statement.
+  std::vector<const ScoreEntry*> scores;
+  std::vector<int64_t> set_ids;
+  for (const auto& job : group) {
     for (const ScoreEntry& e : job->scores) {
-      SqliteStatement& ins = *s.insert_score;
-      ins.BindText(1, e.record_id);
-      ins.BindText(2, e.set_name);
-      ins.BindText(3, e.set_version);
-      ins.BindText(4, e.role);
-      ins.BindInt64(5, Micros(e.scored_at));
-      ins.BindDouble(6, e.log_odds);
-      ins.BindDouble(7, e.probability);
-      ins.BindText(8, e.features_json);
-      st = ins.Run();
       if (!st.ok()) break;
+      absl::StatusOr<int64_t> id = set_ids_->Id(e);
+      if (!id.ok()) {
+        st = id.status();
+        break;
+      }
+      scores.push_back(&e);
+      set_ids.push_back(*id);
     }
+  }
+  size_t next = 0;
+  for (; st.ok() && scores.size() - next >= kScoresPerInsert;
+       next += kScoresPerInsert) {
+    for (int r = 0; r < kScoresPerInsert; ++r) {
+      BindScore(*s.insert_scores, r * kScoreColumns, *scores[next + r],
+                set_ids[next + r]);
+    }
+    st = s.insert_scores->Run();
+  }
+  for (; st.ok() && next < scores.size(); ++next) {
+    BindScore(*s.insert_score, 0, *scores[next], set_ids[next]);
+    st = s.insert_score->Run();
+  }
+  for (auto& job : group) {
+    if (!st.ok()) break;
     for (size_t i = 0; st.ok() && i < job->outcomes.size(); ++i) {
       job->results[i] = OutcomeResult{};
       st = WriteOutcome(job->outcomes[i], job->results[i]);
@@ -226,6 +288,7 @@ absl::Status Ledger::RunGroup(std::vector<std::shared_ptr<Job>>& group) {
   if (st.ok()) st = s.commit->Run();
   if (!st.ok()) {
     s.rollback->Run().IgnoreError();  // the original error is what matters
+    set_ids_->Forget();  // the rollback may have undone new score_sets rows
     for (auto& job : group) {
       for (auto& r : job->results) r = OutcomeResult{};
     }
@@ -244,24 +307,10 @@ absl::Status Ledger::WriteOutcome(const OutcomeEntry& o, OutcomeResult& result) 
         "record '", o.record_id, "': label must be 0 or 1, got ", o.label));
     return absl::OkStatus();
   }
-  s.find_outcome->BindText(1, o.record_id);
-  auto found = s.find_outcome->Step();
-  const int64_t existing = found.ok() && *found ? s.find_outcome->ColumnInt64(0) : -1;
-  s.find_outcome->Reset();
-  if (!found.ok()) return found.status();
-  if (existing >= 0) {
-    if (existing == o.label) {
-      result.repeat = true;
-    } else {
-      result.status = absl::FailedPreconditionError(absl::StrCat(
-          "record '", o.record_id, "' already has outcome ", existing,
-          "; a different label (", o.label, ") is refused"));
-    }
-    return absl::OkStatus();
-  }
   const absl::Time now = options_.now();
   const absl::Time observed = o.observed_at == absl::InfinitePast() ? now : o.observed_at;
-  s.find_scores->BindText(1, o.record_id);
+  // The scores it labels (also the test that the record exists).
+  s.find_scores->BindTextNoCopy(1, o.record_id);
   for (;;) {
     auto row = s.find_scores->Step();
     if (!row.ok()) {
@@ -281,11 +330,28 @@ absl::Status Ledger::WriteOutcome(const OutcomeEntry& o, OutcomeResult& result) 
         "no score with record_id '", o.record_id, "' is in the ledger"));
     return absl::OkStatus();
   }
-  s.insert_outcome->BindText(1, o.record_id);
+  // Inserting first and reading the old label only on a conflict saves a
+  // lookup for the usual case, a new outcome.
+  s.insert_outcome->BindTextNoCopy(1, o.record_id);
   s.insert_outcome->BindInt64(2, o.label);
   s.insert_outcome->BindInt64(3, Micros(observed));
   s.insert_outcome->BindInt64(4, Micros(now));
-  return s.insert_outcome->Run();
+  if (absl::Status st = s.insert_outcome->Run(); !st.ok()) return st;
+  if (writer_db_->Changes() == 1) return absl::OkStatus();
+  result.labelled.clear();  // it labelled them before
+  s.find_outcome->BindTextNoCopy(1, o.record_id);
+  auto found = s.find_outcome->Step();
+  const int64_t existing = found.ok() && *found ? s.find_outcome->ColumnInt64(0) : -1;
+  s.find_outcome->Reset();
+  if (!found.ok()) return found.status();
+  if (existing == o.label) {
+    result.repeat = true;
+  } else {
+    result.status = absl::FailedPreconditionError(absl::StrCat(
+        "record '", o.record_id, "' already has outcome ", existing,
+        "; a different label (", o.label, ") is refused"));
+  }
+  return absl::OkStatus();
 }
 
 absl::Status Ledger::ApplyRetention() {
@@ -314,59 +380,6 @@ absl::Status Ledger::ApplyRetention() {
       w.Exec("ROLLBACK").IgnoreError();
       return st;
     }
-  }
-  return absl::OkStatus();
-}
-
-absl::Status Ledger::ForEachLabelled(
-    const std::string& set_name, int64_t limit, absl::Time since,
-    const std::function<void(const LabelledScore&)>& fn) {
-  auto db = SqliteDb::Open(options_.path);
-  if (!db.ok()) return db.status();
-  auto q = (*db)->Prepare(
-      "SELECT s.record_id, s.set_name, s.set_version, s.role, s.log_odds,"
-      " s.probability, o.label, s.scored_at_us, o.observed_at_us, s.features"
-      " FROM outcomes o JOIN scores s ON s.record_id = o.record_id"
-      " WHERE s.set_name = ?1 AND o.observed_at_us >= ?2"
-      " ORDER BY o.observed_at_us DESC, s.id DESC LIMIT ?3");
-  if (!q.ok()) return q.status();
-  SqliteStatement& s = **q;
-  s.BindText(1, set_name);
-  s.BindInt64(2, since == absl::InfinitePast() ? INT64_MIN : Micros(since));
-  s.BindInt64(3, limit);
-  for (;;) {
-    auto row = s.Step();
-    if (!row.ok()) return row.status();
-    if (!*row) break;
-    fn(LabelledScore{s.ColumnText(0), s.ColumnText(1), s.ColumnText(2),
-                     s.ColumnText(3), s.ColumnDouble(4), s.ColumnDouble(5),
-                     static_cast<int>(s.ColumnInt64(6)), FromMicros(s.ColumnInt64(7)),
-                     FromMicros(s.ColumnInt64(8)), s.ColumnText(9)});
-  }
-  return absl::OkStatus();
-}
-
-absl::Status Ledger::ForEachScore(const std::string& set_name, int64_t limit,
-                                  absl::Time since,
-                                  const std::function<void(const ScoreEntry&)>& fn) {
-  auto db = SqliteDb::Open(options_.path);
-  if (!db.ok()) return db.status();
-  auto q = (*db)->Prepare(
-      "SELECT record_id, set_name, set_version, role, scored_at_us, log_odds,"
-      " probability, features FROM scores"
-      " WHERE set_name = ?1 AND scored_at_us >= ?2 ORDER BY id DESC LIMIT ?3");
-  if (!q.ok()) return q.status();
-  SqliteStatement& s = **q;
-  s.BindText(1, set_name);
-  s.BindInt64(2, since == absl::InfinitePast() ? INT64_MIN : Micros(since));
-  s.BindInt64(3, limit);
-  for (;;) {
-    auto row = s.Step();
-    if (!row.ok()) return row.status();
-    if (!*row) break;
-    fn(ScoreEntry{s.ColumnText(0), s.ColumnText(1), s.ColumnText(2), s.ColumnText(3),
-                  FromMicros(s.ColumnInt64(4)), s.ColumnDouble(5), s.ColumnDouble(6),
-                  s.ColumnText(7)});
   }
   return absl::OkStatus();
 }

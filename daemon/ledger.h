@@ -20,7 +20,8 @@
 //                         still queued are lost if the process dies, and an
 //                         outcome that races its score may be NOT_FOUND.
 // ReportOutcomes always waits for its commit: its per-outcome results depend
-// on what is in the ledger.
+// on what is in the ledger. Within one group commit the scores are written
+// before the outcomes, so an outcome queued together with its score finds it.
 //
 // Thread-safe: all public methods may be called from any thread.
 #ifndef PLUMBLINE_DAEMON_LEDGER_H_
@@ -42,6 +43,8 @@
 #include "daemon/sqlite_db.h"
 
 namespace plumbline::daemon {
+
+class LedgerSetIds;
 
 struct LedgerOptions {
   // SQLite file; its directory is created if missing.
@@ -177,6 +180,7 @@ class Ledger {
   const LedgerOptions options_;
   std::unique_ptr<SqliteDb> writer_db_;   // used by the writer thread only
   std::unique_ptr<Statements> stmts_;     // writer thread only
+  std::unique_ptr<LedgerSetIds> set_ids_;  // writer thread only
   std::function<void(absl::Duration, size_t)> commit_observer_;
 
   mutable absl::Mutex mu_;

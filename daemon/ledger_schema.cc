@@ -29,6 +29,54 @@ constexpr const char* kMigrations[] = {
     "  observed_at_us INTEGER NOT NULL,"
     "  reported_at_us INTEGER NOT NULL);"
     "CREATE INDEX outcomes_by_time ON outcomes(observed_at_us);",
+    // 1 -> 2, for ingest speed (measured with tests/bench/ledger_bench):
+    // a score refers to its (set name, version, role) by an integer into
+    // score_sets instead of repeating the three strings, and outcomes is a
+    // WITHOUT ROWID table clustered on record_id (one b-tree per outcome
+    // instead of a rowid table plus the index of its TEXT PRIMARY KEY). The
+    // view ledger_scores shows scores as version 1 stored them.
+    "CREATE TABLE score_sets("
+    "  id INTEGER PRIMARY KEY,"
+    "  set_name TEXT NOT NULL,"
+    "  set_version TEXT NOT NULL,"
+    "  role TEXT NOT NULL,"
+    "  UNIQUE (set_name, set_version, role));"
+    "INSERT INTO score_sets(set_name, set_version, role)"
+    "  SELECT set_name, set_version, role FROM scores"
+    "  GROUP BY set_name, set_version, role ORDER BY MIN(id);"
+    "CREATE TABLE scores_v2("
+    "  id INTEGER PRIMARY KEY,"
+    "  record_id TEXT NOT NULL,"
+    "  set_id INTEGER NOT NULL,"
+    "  scored_at_us INTEGER NOT NULL,"
+    "  log_odds REAL NOT NULL,"
+    "  probability REAL NOT NULL,"
+    "  features TEXT NOT NULL);"
+    "INSERT INTO scores_v2(id, record_id, set_id, scored_at_us, log_odds,"
+    "                      probability, features)"
+    "  SELECT s.id, s.record_id, ss.id, s.scored_at_us, s.log_odds,"
+    "         s.probability, s.features"
+    "  FROM scores s JOIN score_sets ss ON ss.set_name = s.set_name"
+    "    AND ss.set_version = s.set_version AND ss.role = s.role"
+    "  ORDER BY s.id;"
+    "DROP TABLE scores;"
+    "ALTER TABLE scores_v2 RENAME TO scores;"
+    "CREATE INDEX scores_by_record ON scores(record_id);"
+    "CREATE INDEX scores_by_set_time ON scores(set_id, scored_at_us);"
+    "CREATE VIEW ledger_scores AS"
+    "  SELECT s.id, s.record_id, ss.set_name, ss.set_version, ss.role,"
+    "         s.scored_at_us, s.log_odds, s.probability, s.features"
+    "  FROM scores s JOIN score_sets ss ON ss.id = s.set_id;"
+    "CREATE TABLE outcomes_v2("
+    "  record_id TEXT PRIMARY KEY,"
+    "  label INTEGER NOT NULL CHECK (label IN (0, 1)),"
+    "  observed_at_us INTEGER NOT NULL,"
+    "  reported_at_us INTEGER NOT NULL) WITHOUT ROWID;"
+    "INSERT INTO outcomes_v2(record_id, label, observed_at_us, reported_at_us)"
+    "  SELECT record_id, label, observed_at_us, reported_at_us FROM outcomes;"
+    "DROP TABLE outcomes;"
+    "ALTER TABLE outcomes_v2 RENAME TO outcomes;"
+    "CREATE INDEX outcomes_by_time ON outcomes(observed_at_us);",
 };
 
 }  // namespace

@@ -6,10 +6,16 @@
 // plumbd opens in a later one. A ledger newer than this build is refused
 // rather than written with a schema it does not know.
 //
-// Tables (version 1):
-//   scores(id, record_id, set_name, set_version, role, scored_at_us,
-//          log_odds, probability, features)      features: JSON as received
+// Tables (version 2):
+//   score_sets(id, set_name, set_version, role)   UNIQUE (name, version, role)
+//   scores(id, record_id, set_id -> score_sets.id, scored_at_us, log_odds,
+//          probability, features)              features: JSON as received
+//     indexes scores_by_record(record_id), scores_by_set_time(set_id,
+//     scored_at_us)
 //   outcomes(record_id PRIMARY KEY, label 0/1, observed_at_us, reported_at_us)
+//     WITHOUT ROWID; index outcomes_by_time(observed_at_us)
+//   view ledger_scores: scores joined to their set name, version and role
+//     (the columns of version 1's scores table), for people reading the file
 // Times are microseconds since the Unix epoch (UTC).
 //
 // Called by Ledger::Open on the writer connection. Not thread-safe.

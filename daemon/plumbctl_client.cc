@@ -20,25 +20,35 @@ namespace {
 // what it accepts itself.
 constexpr int kMaxReplyBytes = 256 << 20;
 
-}  // namespace
-
-ScoringClient::ScoringClient(std::string addr, absl::Duration timeout)
-    : addr_(std::move(addr)), timeout_(timeout) {
+std::shared_ptr<grpc::Channel> NewChannel(const std::string& addr) {
   grpc::ChannelArguments args;
   args.SetMaxReceiveMessageSize(kMaxReplyBytes);
   args.SetMaxSendMessageSize(kMaxReplyBytes);
-  stub_ = v1::Scoring::NewStub(grpc::CreateCustomChannel(
-      addr_, grpc::InsecureChannelCredentials(), args));
+  return grpc::CreateCustomChannel(addr, grpc::InsecureChannelCredentials(),
+                                   args);
 }
 
-absl::Status ScoringClient::Annotate(const grpc::Status& status) const {
+// Adds the address to errors that are about reaching the daemon.
+absl::Status AnnotateWithAddress(const grpc::Status& status,
+                                 const std::string& addr) {
   absl::Status out = FromGrpcStatus(status);
   if (out.code() == absl::StatusCode::kUnavailable ||
       out.code() == absl::StatusCode::kDeadlineExceeded) {
-    return absl::Status(out.code(), absl::StrCat("plumbd at ", addr_, ": ",
+    return absl::Status(out.code(), absl::StrCat("plumbd at ", addr, ": ",
                                                  out.message()));
   }
   return out;
+}
+
+}  // namespace
+
+ScoringClient::ScoringClient(std::string addr, absl::Duration timeout)
+    : addr_(std::move(addr)),
+      timeout_(timeout),
+      stub_(v1::Scoring::NewStub(NewChannel(addr_))) {}
+
+absl::Status ScoringClient::Annotate(const grpc::Status& status) const {
+  return AnnotateWithAddress(status, addr_);
 }
 
 absl::StatusOr<v1::ListSetsReply> ScoringClient::ListSets() const {
@@ -80,6 +90,31 @@ absl::StatusOr<v1::SetSummary> ScoringClient::FindSet(
     loaded.push_back(set.name());
   }
   return SetNotFound(name, loaded);
+}
+
+OutcomesClient::OutcomesClient(std::string addr, absl::Duration timeout)
+    : addr_(std::move(addr)),
+      timeout_(timeout),
+      stub_(v1::Outcomes::NewStub(NewChannel(addr_))) {}
+
+absl::StatusOr<v1::ReportOutcomeReply> OutcomesClient::ReportOutcome(
+    const v1::ReportOutcomeRequest& request) const {
+  grpc::ClientContext context;
+  context.set_deadline(absl::ToChronoTime(absl::Now() + timeout_));
+  v1::ReportOutcomeReply reply;
+  grpc::Status status = stub_->ReportOutcome(&context, request, &reply);
+  if (!status.ok()) return AnnotateWithAddress(status, addr_);
+  return reply;
+}
+
+absl::StatusOr<v1::ReportOutcomesReply> OutcomesClient::ReportOutcomes(
+    const v1::ReportOutcomesRequest& request) const {
+  grpc::ClientContext context;
+  context.set_deadline(absl::ToChronoTime(absl::Now() + timeout_));
+  v1::ReportOutcomesReply reply;
+  grpc::Status status = stub_->ReportOutcomes(&context, request, &reply);
+  if (!status.ok()) return AnnotateWithAddress(status, addr_);
+  return reply;
 }
 
 }  // namespace plumbline::daemon

@@ -1,11 +1,12 @@
 // File: daemon/plumbctl_client.h
 //
-// plumbctl's connection to a running plumbd: the Scoring stub with a deadline
-// on every call, and errors turned into absl::Status whose message says which
-// daemon could not be reached.
+// plumbctl's connection to a running plumbd: the Scoring and Outcomes stubs
+// with a deadline on every call, and errors turned into absl::Status whose
+// message says which daemon could not be reached.
 //
 //   ScoringClient client("127.0.0.1:7390", absl::Seconds(10));
 //   absl::StatusOr<v1::ListSetsReply> sets = client.ListSets();
+//   OutcomesClient outcomes("127.0.0.1:7390", absl::Seconds(10));
 //
 // Thread-safe: yes (the gRPC stub is); each call has its own context.
 #ifndef PLUMBLINE_DAEMON_PLUMBCTL_CLIENT_H_
@@ -16,6 +17,7 @@
 
 #include "absl/status/statusor.h"
 #include "absl/time/time.h"
+#include "plumbline/v1/outcomes.grpc.pb.h"
 #include "plumbline/v1/scoring.grpc.pb.h"
 
 namespace plumbline::daemon {
@@ -41,6 +43,22 @@ class ScoringClient {
   const std::string addr_;
   const absl::Duration timeout_;
   std::unique_ptr<v1::Scoring::Stub> stub_;
+};
+
+class OutcomesClient {
+ public:
+  OutcomesClient(std::string addr, absl::Duration timeout);
+
+  absl::StatusOr<v1::ReportOutcomeReply> ReportOutcome(
+      const v1::ReportOutcomeRequest& request) const;
+  absl::StatusOr<v1::ReportOutcomesReply> ReportOutcomes(
+      const v1::ReportOutcomesRequest& request) const;
+
+ private:
+  // Constant after construction.
+  const std::string addr_;
+  const absl::Duration timeout_;
+  std::unique_ptr<v1::Outcomes::Stub> stub_;
 };
 
 }  // namespace plumbline::daemon

@@ -14,9 +14,11 @@
 
 #include <ostream>
 #include <string>
+#include <vector>
 
 #include "absl/status/status.h"
 #include "absl/status/statusor.h"
+#include "absl/strings/string_view.h"
 #include "absl/time/time.h"
 #include "plumbline/v1/scoring.pb.h"
 
@@ -44,6 +46,11 @@ struct ScoreCommandOptions {
   int batch = 1000;
   v1::ReasonOptions reasons;
 };
+
+// Left-aligned columns separated by two spaces, each line after `indent`;
+// trailing blanks trimmed. Shared by the commands' tables.
+std::string FormatTable(const std::vector<std::vector<std::string>>& rows,
+                        absl::string_view indent = "");
 
 // "raises" | "lowers" | "magnitude" → ReasonOrder; INVALID_ARGUMENT otherwise.
 absl::StatusOr<v1::ReasonOrder> ParseReasonOrder(const std::string& text);

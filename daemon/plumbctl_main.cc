@@ -13,7 +13,9 @@
 #include "absl/strings/str_cat.h"
 #include "absl/time/time.h"
 #include "daemon/flag_parsing.h"
+#include "daemon/csv_outcomes.h"
 #include "daemon/plumbctl_commands.h"
+#include "daemon/plumbctl_outcomes.h"
 
 ABSL_FLAG(std::string, addr, "127.0.0.1:7390", "plumbd gRPC address");
 ABSL_FLAG(int, timeout_ms, 10000, "deadline of each RPC, in milliseconds");
@@ -22,10 +24,21 @@ ABSL_FLAG(std::string, set, "", "score: name of a set loaded in plumbd");
 ABSL_FLAG(std::string, set_file, "",
           "score: score offline with this set file, without plumbd");
 ABSL_FLAG(std::string, json, "", "score: one record as a JSON object");
-ABSL_FLAG(std::string, csv, "", "score: CSV file of records (header row)");
+ABSL_FLAG(std::string, csv, "",
+          "score: CSV file of records; outcomes: CSV file of outcomes "
+          "(header row)");
 ABSL_FLAG(std::string, out, "", "score --csv: output file (default stdout)");
-ABSL_FLAG(std::string, record_id, "", "score --json: the record's id");
-ABSL_FLAG(int, batch, 1000, "score --csv: records per ScoreBatch call");
+ABSL_FLAG(std::string, record_id, "",
+          "score --json, outcome: the record's id");
+ABSL_FLAG(int, batch, 1000,
+          "score --csv, outcomes --csv: records per ScoreBatch or "
+          "ReportOutcomes call");
+ABSL_FLAG(std::string, label, "", "outcome: 1 if the event happened, else 0");
+ABSL_FLAG(std::string, observed_at, "",
+          "outcome: when it was observed, RFC 3339 or unix seconds (default: "
+          "when reported)");
+ABSL_FLAG(std::string, refusals_out, "",
+          "outcomes --csv: write every refused outcome to this CSV file");
 ABSL_FLAG(int, reasons, 0, "number of reason codes per record");
 ABSL_FLAG(std::string, reason_order, "raises",
           "reason order: raises, lowers or magnitude");
@@ -49,6 +62,13 @@ commands:
       probability and reason_1..reason_K.
   score --set-file SET.json (--csv FILE [--out FILE] | --json '{...}')
       Score offline with a set file, without plumbd.
+  outcomes --csv FILE [--batch N] [--refusals_out FILE]
+      Report outcomes from a CSV file with the columns record_id, label (0 or
+      1) and optionally observed_at (RFC 3339 or unix seconds), in batches of
+      N (default 1000). Prints "accepted N, refused M" and the first refusals;
+      --refusals_out writes them all. Exit 0 unless a call fails.
+  outcome --record_id ID --label 0|1 [--observed_at TIME]
+      Report one outcome.
 
 flags may be written with '-' or '_' (--set-file, --set_file).
 --addr defaults to 127.0.0.1:7390, --timeout_ms to 10000.
@@ -63,6 +83,48 @@ int Failure(const absl::Status& status) {
   std::cerr << "plumbctl: " << absl::StatusCodeToString(status.code()) << ": "
             << status.message() << "\n";
   return 1;
+}
+
+int OutcomesMain(const ClientOptions& client) {
+  const std::string csv_path = absl::GetFlag(FLAGS_csv);
+  if (csv_path.empty()) return UsageError("outcomes needs --csv FILE");
+  OutcomesCommandOptions options;
+  options.batch = absl::GetFlag(FLAGS_batch);
+  options.refusals_out = absl::GetFlag(FLAGS_refusals_out);
+  if (options.batch <= 0) return UsageError("--batch must be > 0");
+  absl::StatusOr<OutcomesCsv> csv = ReadOutcomesCsv(csv_path);
+  if (!csv.ok()) {
+    // A file of the wrong shape is the caller's to fix, like a bad flag.
+    if (csv.status().code() == absl::StatusCode::kInvalidArgument) {
+      return UsageError(csv.status().message());
+    }
+    return Failure(csv.status());
+  }
+  absl::Status s = RunOutcomesCsvCommand(client, *csv, options, std::cout);
+  return s.ok() ? 0 : Failure(s);
+}
+
+int OutcomeMain(const ClientOptions& client) {
+  v1::Outcome outcome;
+  outcome.set_record_id(absl::GetFlag(FLAGS_record_id));
+  if (outcome.record_id().empty()) {
+    return UsageError("outcome needs --record_id ID");
+  }
+  absl::StatusOr<int> label = ParseLabel(absl::GetFlag(FLAGS_label));
+  if (!label.ok()) {
+    return UsageError(absl::StrCat("--label: ", label.status().message()));
+  }
+  outcome.set_label(*label);
+  if (const std::string observed = absl::GetFlag(FLAGS_observed_at);
+      !observed.empty()) {
+    absl::StatusOr<absl::Time> t = ParseObservedAt(observed);
+    if (!t.ok()) {
+      return UsageError(absl::StrCat("--observed_at: ", t.status().message()));
+    }
+    SetObservedAt(*t, &outcome);
+  }
+  absl::Status s = RunOutcomeCommand(client, outcome, std::cout);
+  return s.ok() ? 0 : Failure(s);
 }
 
 int Main(int argc, char** argv) {
@@ -92,6 +154,8 @@ int Main(int argc, char** argv) {
         RunSetsCommand(client, absl::GetFlag(FLAGS_verbose), std::cout);
     return s.ok() ? 0 : Failure(s);
   }
+  if (command == "outcomes") return OutcomesMain(client);
+  if (command == "outcome") return OutcomeMain(client);
   if (command != "score") {
     return UsageError(absl::StrCat("unknown command '", command, "'"));
   }

@@ -1,12 +1,15 @@
 // File: daemon/plumbd_main.cc
 //
-// plumbd: serves the coefficient sets of a directory over gRPC.
+// plumbd: serves the coefficient sets of a directory over gRPC and keeps
+// every score and outcome in its SQLite ledger.
 //
 //   plumbd [--config FILE] [--sets DIR] [--listen HOST:PORT]
-//          [--ready_file FILE]
+//          [--ledger FILE] [--metrics_listen HOST:PORT] [--ready_file FILE]
 //
-// With no flags it loads ./sets and listens on 127.0.0.1:7390. SIGHUP reloads
-// the sets; SIGTERM or SIGINT shut down gracefully (exit 0).
+// With no flags it loads ./sets, keeps its ledger in ./var/ledger.db and
+// listens on 127.0.0.1:7390. SIGHUP reloads the sets; SIGTERM or SIGINT shut
+// down gracefully (exit 0): calls in flight finish, the ledger commits what
+// is queued.
 #include <signal.h>
 
 #include <cstdio>
@@ -23,6 +26,7 @@
 #include "daemon/event_log.h"
 #include "daemon/file_util.h"
 #include "daemon/flag_parsing.h"
+#include "daemon/ledger.h"
 #include "daemon/set_registry.h"
 #include "daemon/signals.h"
 
@@ -33,6 +37,12 @@ ABSL_FLAG(std::string, sets, "",
 ABSL_FLAG(std::string, listen, "",
           "gRPC listen address HOST:PORT (default 127.0.0.1:7390; port 0 "
           "picks a free port)");
+ABSL_FLAG(std::string, ledger, "",
+          "SQLite ledger file (default ./var/ledger.db; its directory is "
+          "created if missing)");
+ABSL_FLAG(std::string, metrics_listen, "",
+          "Prometheus metrics listen address HOST:PORT (default "
+          "127.0.0.1:7391)");
 ABSL_FLAG(std::string, ready_file, "",
           "once serving, write the bound HOST:PORT to this file");
 
@@ -62,13 +72,38 @@ int Run() {
   if (const std::string listen = absl::GetFlag(FLAGS_listen); !listen.empty()) {
     options.listen = listen;
   }
+  if (const std::string ledger = absl::GetFlag(FLAGS_ledger); !ledger.empty()) {
+    options.ledger.path = ledger;
+  }
+  if (const std::string metrics = absl::GetFlag(FLAGS_metrics_listen);
+      !metrics.empty()) {
+    options.metrics_listen = metrics;
+  }
 
   SetRegistry registry(options.sets_dir);
   if (absl::StatusOr<ReloadReport> report = registry.Reload(); !report.ok()) {
     return Fail("startup_failed", report.status());
   }
+  // Opened after the sets so that a bad sets directory leaves no ledger
+  // file behind; destroyed after the server, so it commits every row an
+  // RPC in flight at shutdown queued.
+  absl::StatusOr<std::unique_ptr<Ledger>> ledger = Ledger::Open(options.ledger);
+  if (!ledger.ok()) return Fail("startup_failed", ledger.status());
+  if (options.ledger.queue_capacity_rows < options.max_batch_records) {
+    LogEvent(LogLevel::kWarning, "ledger_queue_small",
+             {{"queue_capacity_rows",
+               absl::StrCat(options.ledger.queue_capacity_rows)},
+              {"max_batch_records", absl::StrCat(options.max_batch_records)},
+              {"effect", "batches above the queue capacity are refused"}});
+  }
+  LogEvent(LogLevel::kInfo, "ledger_open",
+           {{"file", options.ledger.path},
+            {"ack", options.ledger.ack == LedgerOptions::Ack::kCommitted
+                        ? "committed"
+                        : "queued"},
+            {"durable", options.ledger.durable_commits ? "true" : "false"}});
   absl::StatusOr<std::unique_ptr<DaemonServer>> server =
-      DaemonServer::Start(options, &registry);
+      DaemonServer::Start(options, &registry, ledger->get());
   if (!server.ok()) return Fail("startup_failed", server.status());
   DaemonServer* daemon = server->get();
 
@@ -109,6 +144,8 @@ int Run() {
   });
   daemon->Wait();
   signal_thread.join();
+  server->reset();
+  ledger->reset();  // commits what is still queued, then closes the file
   LogEvent(LogLevel::kInfo, "stopped");
   return 0;
 }
@@ -123,10 +160,13 @@ int main(int argc, char** argv) {
     return 1;
   }
   constexpr char kUsage[] =
-      "usage: plumbd [--config FILE] [--sets DIR] [--listen HOST:PORT] "
+      "usage: plumbd [--config FILE] [--sets DIR] [--listen HOST:PORT]\n"
+      "              [--ledger FILE] [--metrics_listen HOST:PORT] "
       "[--ready_file FILE]\n"
-      "Serves the coefficient sets of a directory over gRPC (defaults: "
-      "./sets, 127.0.0.1:7390).\n"
+      "Serves the coefficient sets of a directory over gRPC and records every "
+      "score and\noutcome in an SQLite ledger (defaults: ./sets, "
+      "127.0.0.1:7390, ./var/ledger.db).\n"
+      "Flags override the config file; - and _ are the same in flag names.\n"
       "SIGHUP reloads the sets; SIGTERM or SIGINT stop gracefully.\n";
   if (plumbline::daemon::WantsHelp(argc, argv)) {
     std::fputs(kUsage, stdout);

@@ -15,6 +15,16 @@ absl::Status Prefixed(absl::string_view prefix, const absl::Status& status) {
   return absl::Status(status.code(), absl::StrCat(prefix, status.message()));
 }
 
+void ResetInputs(const scorer::ScoringPlan& plan, int records,
+                 RecordInputs* inputs) {
+  if (inputs == nullptr) return;
+  inputs->num_features = plan.num_features();
+  inputs->values.clear();
+  inputs->sent.clear();
+  inputs->values.reserve(static_cast<size_t>(records) * plan.num_features());
+  inputs->sent.reserve(static_cast<size_t>(records) * plan.num_features());
+}
+
 }  // namespace
 
 absl::StatusOr<scorer::ReasonOptions> ToReasonOptions(
@@ -56,7 +66,8 @@ void AppendReasons(const scorer::ScoringPlan& plan,
 
 absl::StatusOr<v1::Scored> ScoreRecord(const scorer::ScoringPlan& plan,
                                        const v1::Record& record,
-                                       const scorer::ReasonOptions& reasons) {
+                                       const scorer::ReasonOptions& reasons,
+                                       RecordInputs* inputs) {
   std::vector<scorer::RawValue> row;
   if (absl::Status s = StructToRawValues(plan, record.features(), &row);
       !s.ok()) {
@@ -69,17 +80,28 @@ absl::StatusOr<v1::Scored> ScoreRecord(const scorer::ScoringPlan& plan,
   scored.set_log_odds(result->log_odds);
   scored.set_probability(result->probability);
   AppendReasons(plan, result->reasons, &scored);
+  if (inputs != nullptr) {
+    inputs->values.insert(inputs->values.end(), row.begin(), row.end());
+    const size_t first = inputs->sent.size();
+    inputs->sent.resize(first + row.size(), 0);
+    // Every key is a feature of the plan: StructToRawValues refused others.
+    for (const auto& [name, value] : record.features().fields()) {
+      inputs->sent[first + static_cast<size_t>(plan.FeatureIndex(name))] = 1;
+    }
+  }
   return scored;
 }
 
 absl::StatusOr<v1::ScoreReply> ScoreWithPlan(const scorer::ScoringPlan& plan,
                                              const v1::ScoreRequest& request,
-                                             const ScoringLimits& limits) {
+                                             const ScoringLimits& limits,
+                                             RecordInputs* inputs) {
   absl::StatusOr<scorer::ReasonOptions> reasons =
       ToReasonOptions(request.reasons(), limits);
   if (!reasons.ok()) return reasons.status();
+  ResetInputs(plan, 1, inputs);
   absl::StatusOr<v1::Scored> scored =
-      ScoreRecord(plan, request.record(), *reasons);
+      ScoreRecord(plan, request.record(), *reasons, inputs);
   if (!scored.ok()) return scored.status();
   v1::ScoreReply reply;
   reply.set_set(plan.name());
@@ -90,7 +112,7 @@ absl::StatusOr<v1::ScoreReply> ScoreWithPlan(const scorer::ScoringPlan& plan,
 
 absl::StatusOr<v1::ScoreBatchReply> ScoreBatchWithPlan(
     const scorer::ScoringPlan& plan, const v1::ScoreBatchRequest& request,
-    const ScoringLimits& limits) {
+    const ScoringLimits& limits, RecordInputs* inputs) {
   const int named = request.records_size();
   const int dense = request.dense().rows_size();
   if (named > 0 && dense > 0) {
@@ -112,12 +134,13 @@ absl::StatusOr<v1::ScoreBatchReply> ScoreBatchWithPlan(
       ToReasonOptions(request.reasons(), limits);
   if (!reasons.ok()) return reasons.status();
 
+  ResetInputs(plan, count, inputs);
   v1::ScoreBatchReply reply;
   reply.set_set(plan.name());
   reply.set_version(plan.version());
   if (dense > 0) {
     if (absl::Status s =
-            ScoreDenseRows(plan, request.dense(), *reasons, &reply);
+            ScoreDenseRows(plan, request.dense(), *reasons, &reply, inputs);
         !s.ok()) {
       return s;
     }
@@ -126,7 +149,8 @@ absl::StatusOr<v1::ScoreBatchReply> ScoreBatchWithPlan(
   reply.mutable_scores()->Reserve(named);
   for (int i = 0; i < named; ++i) {
     const v1::Record& record = request.records(i);
-    absl::StatusOr<v1::Scored> scored = ScoreRecord(plan, record, *reasons);
+    absl::StatusOr<v1::Scored> scored =
+        ScoreRecord(plan, record, *reasons, inputs);
     if (!scored.ok()) {
       return Prefixed(absl::StrCat("records[", i, "] (id '",
                                    record.record_id(), "'): "),

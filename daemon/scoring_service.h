@@ -1,15 +1,23 @@
 // File: daemon/scoring_service.h
 //
 // The gRPC service plumbline.v1.Scoring (synchronous API). Each call takes a
-// snapshot of its set from the registry, answers through scoring_core.h and
-// maps the absl::Status to a grpc::Status. Created and registered by
-// DaemonServer.
+// snapshot of its set from the registry and answers through scoring_core.h;
+// before it replies, every scored record goes to the ledger (one ScoreEntry
+// per record, features as JSON) and, once the ledger has accepted them, to
+// the health sink. A call whose rows the ledger refuses (queue full, failed
+// commit) fails with the ledger's status and returns no score. A record
+// without an id gets one here ("<set>-<unix micros>-<n>"), returned in
+// Scored.record_id. Created and registered by DaemonServer.
 //
 // Thread-safe: gRPC calls the handlers from many threads; the service keeps no
-// mutable state of its own.
+// mutable state of its own besides an atomic id counter.
 #ifndef PLUMBLINE_DAEMON_SCORING_SERVICE_H_
 #define PLUMBLINE_DAEMON_SCORING_SERVICE_H_
 
+#include "absl/types/span.h"
+#include "daemon/health_sink.h"
+#include "daemon/ledger.h"
+#include "daemon/ledger_entries.h"
 #include "daemon/scoring_core.h"
 #include "daemon/set_registry.h"
 #include "plumbline/v1/scoring.grpc.pb.h"
@@ -18,8 +26,10 @@ namespace plumbline::daemon {
 
 class ScoringService final : public v1::Scoring::Service {
  public:
-  // `registry` must outlive the service.
-  ScoringService(const SetRegistry* registry, ScoringLimits limits);
+  // `registry` and `ledger` must outlive the service; `health_sink` may be
+  // null (nothing is told) and must otherwise outlive it too.
+  ScoringService(const SetRegistry* registry, ScoringLimits limits,
+                 Ledger* ledger, HealthSink* health_sink);
 
   grpc::Status Score(grpc::ServerContext* context,
                      const v1::ScoreRequest* request,
@@ -35,9 +45,20 @@ class ScoringService final : public v1::Scoring::Service {
   // The loaded version of `set`, or INVALID_ARGUMENT / NOT_FOUND.
   absl::StatusOr<PlanPtr> Lookup(const std::string& set) const;
 
+  // Gives records without an id one, appends every record to the ledger
+  // and, if that succeeded, tells the health sink. `scores[i]` belongs to
+  // inputs' record i.
+  absl::Status Record(const scorer::ScoringPlan& plan,
+                      const RecordInputs& inputs,
+                      absl::Span<v1::Scored* const> scores);
+
   // Constant after construction.
   const SetRegistry* const registry_;
   const ScoringLimits limits_;
+  Ledger* const ledger_;
+  HealthSink* const health_sink_;
+
+  RecordIdGenerator record_ids_;
 };
 
 }  // namespace plumbline::daemon

@@ -12,6 +12,10 @@ void SqliteStatement::BindText(int i, absl::string_view v) {
   sqlite3_bind_text(stmt_, i, v.data(), static_cast<int>(v.size()),
                     SQLITE_TRANSIENT);
 }
+void SqliteStatement::BindTextNoCopy(int i, absl::string_view v) {
+  sqlite3_bind_text(stmt_, i, v.data(), static_cast<int>(v.size()),
+                    SQLITE_STATIC);
+}
 void SqliteStatement::BindInt64(int i, int64_t v) {
   sqlite3_bind_int64(stmt_, i, v);
 }
@@ -58,6 +62,13 @@ bool SqliteStatement::ColumnIsNull(int i) const {
 }
 
 absl::StatusOr<std::unique_ptr<SqliteDb>> SqliteDb::Open(const std::string& path) {
+  // SQLite's memory statistics take a global mutex on every allocation; the
+  // ledger never reads them, and without them its ingest needs about 15%
+  // less CPU per row (tests/bench/ledger_bench). The setting only takes
+  // before SQLite initializes, that is before the process's first
+  // connection; later calls fail harmlessly and are ignored.
+  static const bool memstatus_off [[maybe_unused]] =
+      sqlite3_config(SQLITE_CONFIG_MEMSTATUS, 0) == SQLITE_OK;
   sqlite3* db = nullptr;
   const int rc = sqlite3_open_v2(
       path.c_str(), &db,
@@ -94,6 +105,8 @@ absl::StatusOr<std::unique_ptr<SqliteStatement>> SqliteDb::Prepare(
   if (rc != SQLITE_OK) return Error(rc, sql);
   return std::unique_ptr<SqliteStatement>(new SqliteStatement(this, stmt));
 }
+
+int64_t SqliteDb::Changes() const { return sqlite3_changes64(db_); }
 
 absl::StatusOr<int64_t> SqliteDb::QueryInt64(absl::string_view sql) {
   auto st = Prepare(sql);

@@ -9,6 +9,9 @@
 //   auto st = (*db)->Prepare("INSERT INTO t(a) VALUES (?1)");
 //   st->BindText(1, "x"); absl::Status s = st->Run();
 //
+// The first Open turns off SQLite's memory statistics for the process (a
+// global mutex per allocation that nothing here reads).
+//
 // Not thread-safe: one connection per thread (the ledger's writer has its
 // own, readers open theirs).
 #ifndef PLUMBLINE_DAEMON_SQLITE_DB_H_
@@ -37,6 +40,10 @@ class SqliteStatement {
 
   // Parameters are 1-based, as in SQLite. Text is copied.
   void BindText(int i, absl::string_view v);
+  // Text is not copied: `v` must stay valid and unchanged until the
+  // statement has run and been reset (the ledger's hot path binds rows it
+  // holds until their commit).
+  void BindTextNoCopy(int i, absl::string_view v);
   void BindInt64(int i, int64_t v);
   void BindDouble(int i, double v);
   void BindNull(int i);
@@ -75,6 +82,8 @@ class SqliteDb {
   // Runs one or more statements without results.
   absl::Status Exec(absl::string_view sql);
   absl::StatusOr<std::unique_ptr<SqliteStatement>> Prepare(absl::string_view sql);
+  // Rows changed by the last INSERT, UPDATE or DELETE on this connection.
+  int64_t Changes() const;
   // Single integer result of `sql` (e.g. "PRAGMA user_version").
   absl::StatusOr<int64_t> QueryInt64(absl::string_view sql);
 

@@ -3,8 +3,9 @@
 // Every way a caller can get a request wrong, sent to the real plumbd over
 // gRPC, with the code and the part of the message that must name the
 // problem. The daemon runs with a config file that lowers the limits
-// (max_batch_records 3, max_reasons 2) and no --sets flag, so it also proves
-// that the config is read and that ./sets is the default sets directory.
+// (max_batch_records 3, max_reasons 2) and names the ledger, and no --sets
+// flag, so it also proves that the config is read and that ./sets is the
+// default sets directory. No refused request may leave a row in the ledger.
 #include <cmath>
 #include <filesystem>
 #include <functional>
@@ -12,6 +13,8 @@
 
 #include <grpcpp/client_context.h>
 
+#include "absl/strings/str_cat.h"
+#include "daemon/sqlite_db.h"
 #include "gmock/gmock.h"
 #include "google/protobuf/util/json_util.h"
 #include "gtest/gtest.h"
@@ -232,7 +235,9 @@ class BadInputTest : public ::testing::Test {
                               testing::CourierSetJson("courier", "v1"))
                     .ok());
     ASSERT_TRUE(WriteTextFile(dir_->File("plumbd.json"),
-                              R"({"max_batch_records": 3, "max_reasons": 2})")
+                              absl::StrCat(R"({"max_batch_records": 3,
+                                  "max_reasons": 2, "ledger_path": ")",
+                                           LedgerPath(), R"("})"))
                     .ok());
     absl::StatusOr<std::unique_ptr<PlumbdProcess>> plumbd =
         PlumbdProcess::Start(dir_->path(), {"--config", dir_->File("plumbd.json")});
@@ -245,6 +250,8 @@ class BadInputTest : public ::testing::Test {
     delete dir_;
     dir_ = nullptr;
   }
+
+  static std::string LedgerPath() { return dir_->File("ledger/bad_input.db"); }
 
   static TempDir* dir_;
   static PlumbdProcess* plumbd_;
@@ -288,6 +295,13 @@ TEST_F(BadInputTest, EveryBadRequestGetsItsCodeAndNamesTheProblem) {
     ++checked;
   }
   EXPECT_EQ(checked, static_cast<int>(Cases().size()));
+  // Every request above was refused: the ledger (at the config's
+  // ledger_path) holds no score.
+  absl::StatusOr<std::unique_ptr<SqliteDb>> db = SqliteDb::Open(LedgerPath());
+  ASSERT_TRUE(db.ok()) << db.status();
+  absl::StatusOr<int64_t> scores = (*db)->QueryInt64("SELECT COUNT(*) FROM scores");
+  ASSERT_TRUE(scores.ok()) << scores.status();
+  EXPECT_EQ(*scores, 0);
 }
 
 TEST_F(BadInputTest, ValidRequestsOfTheSameShapesSucceed) {

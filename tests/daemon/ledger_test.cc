@@ -124,9 +124,81 @@ TEST_F(LedgerTest, FullQueueIsResourceExhaustedNotADrop) {
   std::vector<ScoreEntry> too_many(11, Score("x"));
   absl::Status st = ledger->AppendScores(too_many);
   EXPECT_EQ(st.code(), absl::StatusCode::kResourceExhausted);
-  EXPECT_THAT(st.message(), HasSubstr("capacity 10"));
+  EXPECT_THAT(st.message(), HasSubstr("queue capacity of 10 rows"));
   EXPECT_TRUE(ledger->AppendScores(std::vector<ScoreEntry>(10, Score("y"))).ok());
   EXPECT_EQ(Count("scores"), 10);
+}
+
+TEST_F(LedgerTest, QueueHoldingRowsNotYetCommittedRefusesMore) {
+  options_.queue_capacity_rows = 10;
+  options_.ack = LedgerOptions::Ack::kQueued;
+  auto ledger = OpenLedger();
+  ASSERT_NE(ledger, nullptr);
+  // Another connection holds the write lock, so the writer cannot commit
+  // the first 3 rows (it waits on SQLite's busy timeout) and they stay
+  // counted against the capacity.
+  auto blocker = SqliteDb::Open(options_.path);
+  ASSERT_TRUE(blocker.ok());
+  ASSERT_TRUE((*blocker)->Exec("BEGIN IMMEDIATE").ok());
+  ASSERT_TRUE(ledger->AppendScores(std::vector<ScoreEntry>(3, Score("q"))).ok());
+  absl::Status st = ledger->AppendScores(std::vector<ScoreEntry>(8, Score("r")));
+  EXPECT_EQ(st.code(), absl::StatusCode::kResourceExhausted);
+  EXPECT_THAT(st.message(), HasSubstr("queue is full (3 rows waiting, capacity 10)"));
+  ASSERT_TRUE((*blocker)->Exec("COMMIT").ok());
+}
+
+TEST_F(LedgerTest, MigratesAVersion1LedgerKeepingItsRows) {
+  // A ledger as the first release wrote it (schema version 1).
+  std::filesystem::create_directories(std::filesystem::path(options_.path).parent_path());
+  {
+    auto db = SqliteDb::Open(options_.path);
+    ASSERT_TRUE(db.ok());
+    ASSERT_TRUE((*db)->Exec(
+        "CREATE TABLE scores(id INTEGER PRIMARY KEY, record_id TEXT NOT NULL,"
+        " set_name TEXT NOT NULL, set_version TEXT NOT NULL, role TEXT NOT NULL,"
+        " scored_at_us INTEGER NOT NULL, log_odds REAL NOT NULL,"
+        " probability REAL NOT NULL, features TEXT NOT NULL);"
+        "CREATE INDEX scores_by_record ON scores(record_id);"
+        "CREATE INDEX scores_by_set_time ON scores(set_name, scored_at_us);"
+        "CREATE TABLE outcomes(record_id TEXT PRIMARY KEY,"
+        " label INTEGER NOT NULL CHECK (label IN (0, 1)),"
+        " observed_at_us INTEGER NOT NULL, reported_at_us INTEGER NOT NULL);"
+        "CREATE INDEX outcomes_by_time ON outcomes(observed_at_us);"
+        "INSERT INTO scores VALUES (1, 'old', 'courier', 'v0', 'active', 5, 0.1,"
+        " 0.52, '{}');"
+        "INSERT INTO outcomes VALUES ('old', 1, 7, 8);"
+        "PRAGMA user_version = 1;").ok());
+  }
+  auto ledger = OpenLedger();
+  ASSERT_NE(ledger, nullptr);
+  auto db = SqliteDb::Open(options_.path);
+  EXPECT_EQ(*(*db)->QueryInt64("PRAGMA user_version"), Ledger::SchemaVersion());
+  EXPECT_EQ(*(*db)->QueryInt64(
+                "SELECT COUNT(*) FROM sqlite_schema WHERE name = 'outcomes'"
+                " AND sql LIKE '%WITHOUT ROWID%'"),
+            1);
+  EXPECT_EQ(*(*db)->QueryInt64(
+                "SELECT COUNT(*) FROM sqlite_schema WHERE name = 'outcomes_by_time'"),
+            1);
+  // The old score, as the view shows it and as ForEachScore reads it.
+  EXPECT_EQ(*(*db)->QueryInt64(
+                "SELECT COUNT(*) FROM ledger_scores WHERE record_id = 'old'"
+                " AND set_name = 'courier' AND set_version = 'v0'"
+                " AND role = 'active' AND features = '{}'"),
+            1);
+  std::vector<ScoreEntry> read;
+  ASSERT_TRUE(ledger
+                  ->ForEachScore("courier", 10, absl::InfinitePast(),
+                                 [&](const ScoreEntry& e) { read.push_back(e); })
+                  .ok());
+  ASSERT_EQ(read.size(), 1u);
+  EXPECT_EQ(read[0].set_version, "v0");
+  EXPECT_EQ(read[0].log_odds, 0.1);
+  // The old outcome is still there: the same label is a repeat.
+  auto results = ledger->ReportOutcomes({{"old", 1, absl::FromUnixSeconds(9)}});
+  ASSERT_TRUE(results.ok());
+  EXPECT_TRUE((*results)[0].repeat);
+  EXPECT_EQ(*(*db)->QueryInt64("SELECT observed_at_us FROM outcomes"), 7);
 }
 
 TEST_F(LedgerTest, RefusesANewerSchema) {

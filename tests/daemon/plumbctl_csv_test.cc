@@ -48,7 +48,8 @@ class PlumbctlCsvTest : public ::testing::Test {
     ASSERT_TRUE(
         WriteTextFile(set_file_, testing::CourierSetJson("courier", "v1")).ok());
     absl::StatusOr<std::unique_ptr<PlumbdProcess>> plumbd =
-        PlumbdProcess::Start(dir_.path(), {"--sets", dir_.File("sets")});
+        PlumbdProcess::Start(dir_.path(), {"--sets", dir_.File("sets"),
+                                           "--ledger", dir_.File("ledger.db")});
     ASSERT_TRUE(plumbd.ok()) << plumbd.status();
     plumbd_ = *std::move(plumbd);
   }

@@ -71,7 +71,8 @@ class PlumbdIntegrationTest : public ::testing::Test {
                               CourierSetJson("courier", "2026-11")).ok());
     ASSERT_TRUE(WriteTextFile(depot_file(), DepotSetJson("depot", "d1")).ok());
     absl::StatusOr<std::unique_ptr<PlumbdProcess>> plumbd =
-        PlumbdProcess::Start(dir_.path(), {"--sets", sets_dir_});
+        PlumbdProcess::Start(dir_.path(), {"--sets", sets_dir_, "--ledger",
+                                           dir_.File("var/ledger.db")});
     ASSERT_TRUE(plumbd.ok()) << plumbd.status();
     plumbd_ = *std::move(plumbd);
     stub_ = testing::NewScoringStub(plumbd_->addr());
@@ -267,6 +268,7 @@ TEST_F(PlumbdIntegrationTest, ListSetsDescribesTheSchemas) {
 TEST_F(PlumbdIntegrationTest, HealthServesOverallServiceAndEverySet) {
   EXPECT_EQ(Health(""), HealthCheckResponse::SERVING);
   EXPECT_EQ(Health("plumbline.v1.Scoring"), HealthCheckResponse::SERVING);
+  EXPECT_EQ(Health("plumbline.v1.Outcomes"), HealthCheckResponse::SERVING);
   EXPECT_EQ(Health("courier"), HealthCheckResponse::SERVING);
   EXPECT_EQ(Health("depot"), HealthCheckResponse::SERVING);
   EXPECT_EQ(Health("no-such-set"), HealthCheckResponse::SERVICE_UNKNOWN);
@@ -326,12 +328,29 @@ TEST_F(PlumbdIntegrationTest, SigintAlsoStopsCleanly) {
 TEST(PlumbdStartupTest, MissingSetsDirectoryExitsWithStatus1) {
   TempDir dir;
   absl::StatusOr<testing::ProcessResult> result = testing::RunProcess(
-      {PLUMBD_PATH, "--listen", "127.0.0.1:0", "--sets", dir.File("absent")},
+      {PLUMBD_PATH, "--listen", "127.0.0.1:0", "--sets", dir.File("absent"),
+       "--ledger", dir.File("ledger.db")},
       dir.path());
   ASSERT_TRUE(result.ok());
   EXPECT_EQ(result->exit_code, 1);
   EXPECT_THAT(result->err, HasSubstr("level=error event=startup_failed"));
   EXPECT_THAT(result->err, HasSubstr(dir.File("absent")));
+}
+
+TEST(PlumbdStartupTest, LedgerThatCannotBeOpenedExitsWithStatus1) {
+  // The ledger's directory would have to be created under a regular file.
+  TempDir dir;
+  std::filesystem::create_directory(dir.File("sets"));
+  ASSERT_TRUE(WriteTextFile(dir.File("not-a-dir"), "x").ok());
+  const std::string ledger = dir.File("not-a-dir/ledger.db");
+  absl::StatusOr<testing::ProcessResult> result = testing::RunProcess(
+      {PLUMBD_PATH, "--listen", "127.0.0.1:0", "--sets", dir.File("sets"),
+       "--ledger", ledger},
+      dir.path());
+  ASSERT_TRUE(result.ok());
+  EXPECT_EQ(result->exit_code, 1);
+  EXPECT_THAT(result->err, HasSubstr("level=error event=startup_failed"));
+  EXPECT_THAT(result->err, HasSubstr(ledger));
 }
 
 TEST(PlumbdStartupTest, BadConfigOrFlagIsRefused) {

@@ -218,6 +218,11 @@ std::unique_ptr<v1::Scoring::Stub> NewScoringStub(const std::string& addr) {
       grpc::CreateChannel(addr, grpc::InsecureChannelCredentials()));
 }
 
+std::unique_ptr<v1::Outcomes::Stub> NewOutcomesStub(const std::string& addr) {
+  return v1::Outcomes::NewStub(
+      grpc::CreateChannel(addr, grpc::InsecureChannelCredentials()));
+}
+
 std::unique_ptr<grpc::health::v1::Health::Stub> NewHealthStub(
     const std::string& addr) {
   return grpc::health::v1::Health::NewStub(

@@ -24,6 +24,7 @@
 #include "absl/status/statusor.h"
 #include "absl/strings/string_view.h"
 #include "grpc/health/v1/health.grpc.pb.h"
+#include "plumbline/v1/outcomes.grpc.pb.h"
 #include "plumbline/v1/scoring.grpc.pb.h"
 
 namespace plumbline::daemon::testing {
@@ -98,6 +99,7 @@ class PlumbdProcess {
 };
 
 std::unique_ptr<v1::Scoring::Stub> NewScoringStub(const std::string& addr);
+std::unique_ptr<v1::Outcomes::Stub> NewOutcomesStub(const std::string& addr);
 std::unique_ptr<grpc::health::v1::Health::Stub> NewHealthStub(
     const std::string& addr);
 

@@ -1,7 +1,13 @@
 // File: tests/daemon/test_sets.cc
 #include "tests/daemon/test_sets.h"
 
+#include <cstdio>
+#include <cstdlib>
+#include <string>
+#include <utility>
+
 #include "absl/strings/str_format.h"
+#include "scorer/coefficient_set.h"
 
 namespace plumbline::daemon::testing {
 
@@ -38,6 +44,22 @@ std::string CourierSetJson(absl::string_view name, absl::string_view version,
 }
 )json",
                          name, version, intercept);
+}
+
+std::shared_ptr<const scorer::ScoringPlan> CourierPlan(
+    absl::string_view name, absl::string_view version) {
+  auto set = scorer::ParseCoefficientSet(CourierSetJson(name, version),
+                                         "courier test set");
+  if (!set.ok()) {
+    std::fprintf(stderr, "%s\n", std::string(set.status().message()).c_str());
+    std::abort();
+  }
+  auto plan = scorer::ScoringPlan::Compile(*std::move(set), "courier.json");
+  if (!plan.ok()) {
+    std::fprintf(stderr, "%s\n", std::string(plan.status().message()).c_str());
+    std::abort();
+  }
+  return *std::move(plan);
 }
 
 std::string DepotSetJson(absl::string_view name, absl::string_view version) {

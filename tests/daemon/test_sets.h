@@ -17,14 +17,20 @@
 #ifndef PLUMBLINE_TESTS_DAEMON_TEST_SETS_H_
 #define PLUMBLINE_TESTS_DAEMON_TEST_SETS_H_
 
+#include <memory>
 #include <string>
 
 #include "absl/strings/string_view.h"
+#include "scorer/scoring_plan.h"
 
 namespace plumbline::daemon::testing {
 
 std::string CourierSetJson(absl::string_view name, absl::string_view version,
                            double intercept = -1.5);
+
+// CourierSetJson compiled (aborts the test binary if it does not compile).
+std::shared_ptr<const scorer::ScoringPlan> CourierPlan(
+    absl::string_view name = "courier", absl::string_view version = "v1");
 
 // A second, one-feature set (numeric "stops", coef 0.1, IMPUTE 0).
 std::string DepotSetJson(absl::string_view name, absl::string_view version);

@@ -1,0 +1,388 @@
+// File: tests/bench/ledger_bench.cc
+//
+// Ingest speed of the ledger (daemon/ledger.h) through its public API, with
+// group commit: scored records (features JSON of about 150 bytes, as plumbd
+// writes them) and outcomes joined to them, from several producer threads
+// sending batches, each batch acknowledged after its commit (the daemon's
+// default). Also the cost of building the features JSON per record, by hand
+// (what plumbd does) and through protobuf's JSON printer.
+//
+// Driven by tests/bench/run_ledger_bench, which also inserts the same rows
+// with Python's sqlite3 executemany in one transaction and prints the ratio.
+// By hand:
+//
+//   ledger_bench [--rows 200000] [--dir DIR] [--benchmark_* flags]
+//   ledger_bench --rows N --write_rows FILE     # the rows as TSV, then exit
+//   ledger_bench --empty_ledger FILE            # a migrated empty ledger
+//
+// Built with the project, not run by ctest: no timing in tests.
+#include <stdlib.h>
+#include <sys/resource.h>
+
+#include <cstdint>
+#include <filesystem>
+#include <fstream>
+#include <iostream>
+#include <memory>
+#include <random>
+#include <string>
+#include <thread>
+#include <vector>
+
+#include "absl/flags/flag.h"
+#include "absl/flags/parse.h"
+#include "absl/status/status.h"
+#include "absl/strings/str_cat.h"
+#include "absl/strings/str_format.h"
+#include "absl/time/clock.h"
+#include "benchmark/benchmark.h"
+#include "daemon/ledger.h"
+#include "daemon/ledger_entries.h"
+#include "google/protobuf/struct.pb.h"
+#include "google/protobuf/util/json_util.h"
+#include "scorer/coefficient_set.h"
+#include "scorer/scoring_plan.h"
+
+ABSL_FLAG(int64_t, rows, 200000, "rows per ingest run");
+ABSL_FLAG(std::string, dir, "",
+          "directory for the benchmark ledgers (default: a new one under "
+          "$TMPDIR or /tmp, removed at exit)");
+ABSL_FLAG(std::string, write_rows, "",
+          "write the --rows score rows as TSV to this file and exit");
+ABSL_FLAG(std::string, empty_ledger, "",
+          "create a migrated, empty ledger at this path and exit");
+
+namespace plumbline::daemon {
+namespace {
+
+using scorer::RawValue;
+
+// An invented courier set like the demo's: seven features, two categorical.
+constexpr char kSetJson[] = R"json({
+  "name": "courier_first_attempt", "version": "2026-12-01.1", "intercept": -2.1,
+  "features": [
+    {"name": "distance_km", "numeric": {"center": 6, "scale": 4, "clip_low": 0,
+     "clip_high": 60, "coefficient": 0.35}},
+    {"name": "parcel_kg", "numeric": {"center": 2, "scale": 1.5,
+     "coefficient": 0.1}},
+    {"name": "hour_of_day", "binned": {"edges": [10, 13, 17, 20],
+     "coefficients": [0.2, 0, -0.1, 0.15, 0.4]}},
+    {"name": "building_type", "categorical": {"levels": [
+      {"value": "house", "coefficient": 0}, {"value": "flat", "coefficient": 0.55},
+      {"value": "office", "coefficient": -0.2}, {"value": "shop", "coefficient": -0.4}]}},
+    {"name": "prior_failures", "numeric": {"center": 0, "scale": 1,
+     "coefficient": 0.45}},
+    {"name": "rainfall_mm", "numeric": {"center": 1, "scale": 3,
+     "coefficient": 0.12}},
+    {"name": "service", "categorical": {"levels": [
+      {"value": "standard", "coefficient": 0}, {"value": "express", "coefficient": 0.1},
+      {"value": "same_day", "coefficient": 0.3}]}}
+  ]})json";
+
+struct BenchData {
+  std::shared_ptr<const scorer::ScoringPlan> plan;
+  // Per row: the raw values and the same record as a Struct.
+  std::vector<std::vector<RawValue>> values;
+  std::vector<google::protobuf::Struct> structs;
+  // The ledger rows built from them.
+  std::vector<ScoreEntry> scores;
+  std::vector<OutcomeEntry> outcomes;
+  std::string dir;
+};
+
+double Rounded(double x, double unit) { return std::round(x / unit) * unit; }
+
+absl::Status MakeData(int64_t rows, BenchData& data) {
+  auto set = scorer::ParseCoefficientSet(kSetJson, "ledger_bench set");
+  if (!set.ok()) return set.status();
+  auto plan = scorer::ScoringPlan::Compile(*std::move(set), "ledger_bench");
+  if (!plan.ok()) return plan.status();
+  data.plan = *std::move(plan);
+  const scorer::ScoringPlan& p = *data.plan;
+  std::mt19937_64 rng(20261202);
+  std::uniform_real_distribution<double> u(0, 1);
+  const char* buildings[] = {"house", "flat", "office", "shop"};
+  const char* services[] = {"standard", "express", "same_day"};
+  const std::vector<uint8_t> sent(static_cast<size_t>(p.num_features()), 1);
+  const absl::Time t0 = absl::FromUnixSeconds(1796113800);
+  data.values.resize(static_cast<size_t>(rows));
+  data.structs.resize(static_cast<size_t>(rows));
+  data.scores.resize(static_cast<size_t>(rows));
+  data.outcomes.resize(static_cast<size_t>(rows));
+  for (int64_t i = 0; i < rows; ++i) {
+    std::vector<RawValue>& v = data.values[static_cast<size_t>(i)];
+    v = {RawValue::Number(Rounded(0.2 + 35 * u(rng), 0.001)),
+         RawValue::Number(Rounded(0.1 + 12 * u(rng), 0.01)),
+         RawValue::Number(Rounded(7 + 14 * u(rng), 0.25)),
+         RawValue::Text(buildings[rng() % 4]),
+         RawValue::Number(static_cast<double>(rng() % 4)),
+         RawValue::Number(Rounded(8 * u(rng) * u(rng), 0.1)),
+         RawValue::Text(services[rng() % 3])};
+    auto& fields = *data.structs[static_cast<size_t>(i)].mutable_fields();
+    for (int f = 0; f < p.num_features(); ++f) {
+      const RawValue& x = v[static_cast<size_t>(f)];
+      if (x.kind == RawValue::Kind::kNumber) {
+        fields[p.feature_name(f)].set_number_value(x.number);
+      } else {
+        fields[p.feature_name(f)].set_string_value(std::string(x.text));
+      }
+    }
+    auto scored = p.Score(v);
+    if (!scored.ok()) return scored.status();
+    ScoreEntry& e = data.scores[static_cast<size_t>(i)];
+    e.record_id = absl::StrCat("parcel-2026-", i);
+    e.set_name = p.name();
+    e.set_version = p.version();
+    e.scored_at = t0 + absl::Milliseconds(i);
+    e.log_odds = scored->log_odds;
+    e.probability = scored->probability;
+    e.features_json = FeaturesJson(p, v, sent);
+    data.outcomes[static_cast<size_t>(i)] = OutcomeEntry{
+        e.record_id, static_cast<int>(i % 2), e.scored_at + absl::Hours(1)};
+  }
+  return absl::OkStatus();
+}
+
+absl::StatusOr<std::unique_ptr<Ledger>> FreshLedger(const BenchData& data,
+                                                    bool durable) {
+  const std::string path = absl::StrCat(data.dir, "/bench.db");
+  for (const char* suffix : {"", "-wal", "-shm"}) {
+    std::filesystem::remove(path + suffix);
+  }
+  LedgerOptions options;
+  options.path = path;
+  options.durable_commits = durable;
+  return Ledger::Open(options);
+}
+
+// CPU time of the whole process (every thread), user + system.
+absl::Duration ProcessCpuTime() {
+  rusage usage{};
+  getrusage(RUSAGE_SELF, &usage);
+  return absl::DurationFromTimeval(usage.ru_utime) +
+         absl::DurationFromTimeval(usage.ru_stime);
+}
+
+// Splits `rows` over `producers` threads in batches of `batch` and sends
+// them with `send`; returns the wall time of the sending and adds the
+// process CPU time it took to `cpu`.
+template <typename Row, typename Send>
+absl::Duration Produce(const std::vector<Row>& rows, int producers, int batch,
+                       const Send& send, absl::Duration& cpu) {
+  std::vector<std::vector<std::vector<Row>>> work(static_cast<size_t>(producers));
+  for (size_t start = 0, k = 0; start < rows.size(); start += batch, ++k) {
+    const size_t end = std::min(rows.size(), start + static_cast<size_t>(batch));
+    work[k % work.size()].emplace_back(rows.begin() + static_cast<long>(start),
+                                       rows.begin() + static_cast<long>(end));
+  }
+  const absl::Duration cpu_start = ProcessCpuTime();
+  const absl::Time start = absl::Now();
+  std::vector<std::thread> threads;
+  for (auto& batches : work) {
+    threads.emplace_back([&batches, &send] {
+      for (auto& b : batches) send(std::move(b));
+    });
+  }
+  for (auto& t : threads) t.join();
+  const absl::Duration took = absl::Now() - start;
+  cpu += ProcessCpuTime() - cpu_start;
+  return took;
+}
+
+// Args: producers, batch size, durable (1 = synchronous=FULL).
+void IngestScores(benchmark::State& state, const BenchData& data) {
+  absl::Duration cpu;
+  for (auto _ : state) {
+    auto ledger = FreshLedger(data, state.range(2) != 0);
+    if (!ledger.ok()) {
+      state.SkipWithError(std::string(ledger.status().message()).c_str());
+      return;
+    }
+    std::atomic<int> failures{0};
+    const absl::Duration took = Produce(
+        data.scores, static_cast<int>(state.range(0)),
+        static_cast<int>(state.range(1)), [&](std::vector<ScoreEntry> b) {
+          if (!(*ledger)->AppendScores(std::move(b)).ok()) ++failures;
+        },
+        cpu);
+    if (failures > 0) state.SkipWithError("AppendScores failed");
+    state.SetIterationTime(absl::ToDoubleSeconds(took));
+    state.counters["commits"] =
+        static_cast<double>((*ledger)->stats().committed_transactions);
+  }
+  const auto rows = state.iterations() * static_cast<int64_t>(data.scores.size());
+  state.SetItemsProcessed(rows);
+  state.counters["cpu_us_per_row"] =
+      absl::ToDoubleMicroseconds(cpu) / static_cast<double>(rows);
+}
+
+void IngestOutcomes(benchmark::State& state, const BenchData& data) {
+  absl::Duration cpu;
+  for (auto _ : state) {
+    auto ledger = FreshLedger(data, state.range(2) != 0);
+    if (!ledger.ok() || !(*ledger)->AppendScores(data.scores).ok()) {
+      state.SkipWithError("cannot prepare the scores");
+      return;
+    }
+    std::atomic<int> failures{0};
+    const absl::Duration took = Produce(
+        data.outcomes, static_cast<int>(state.range(0)),
+        static_cast<int>(state.range(1)), [&](std::vector<OutcomeEntry> b) {
+          auto results = (*ledger)->ReportOutcomes(std::move(b));
+          if (!results.ok()) ++failures;
+          for (const auto& r : *results) {
+            if (!r.status.ok()) ++failures;
+          }
+        },
+        cpu);
+    if (failures > 0) state.SkipWithError("ReportOutcomes failed");
+    state.SetIterationTime(absl::ToDoubleSeconds(took));
+    // Less the commit that stored the scores.
+    state.counters["commits"] =
+        static_cast<double>((*ledger)->stats().committed_transactions - 1);
+  }
+  const auto rows =
+      state.iterations() * static_cast<int64_t>(data.outcomes.size());
+  state.SetItemsProcessed(rows);
+  state.counters["cpu_us_per_row"] =
+      absl::ToDoubleMicroseconds(cpu) / static_cast<double>(rows);
+}
+
+// FeaturesJson as plumbd builds it.
+void JsonByHand(benchmark::State& state, const BenchData& data) {
+  const std::vector<uint8_t> sent(data.values[0].size(), 1);
+  size_t i = 0;
+  for (auto _ : state) {
+    std::string json = FeaturesJson(*data.plan, data.values[i], sent);
+    benchmark::DoNotOptimize(json.data());
+    if (++i == data.values.size()) i = 0;
+  }
+  state.SetItemsProcessed(state.iterations());
+}
+
+// The same by hand but with %.17g numbers (absl::StrAppendFormat).
+void JsonByHandPercent17g(benchmark::State& state, const BenchData& data) {
+  const scorer::ScoringPlan& p = *data.plan;
+  size_t i = 0;
+  for (auto _ : state) {
+    std::string json = "{";
+    for (int f = 0; f < p.num_features(); ++f) {
+      if (f > 0) json.push_back(',');
+      AppendJsonString(p.feature_name(f), &json);
+      json.push_back(':');
+      const RawValue& v = data.values[i][static_cast<size_t>(f)];
+      if (v.kind == RawValue::Kind::kNumber) {
+        absl::StrAppendFormat(&json, "%.17g", v.number);
+      } else {
+        AppendJsonString(v.text, &json);
+      }
+    }
+    json.push_back('}');
+    benchmark::DoNotOptimize(json.data());
+    if (++i == data.values.size()) i = 0;
+  }
+  state.SetItemsProcessed(state.iterations());
+}
+
+// protobuf's JSON printer on the record's Struct (which a named record
+// already is; the dense form would first have to build one).
+void JsonByProtobuf(benchmark::State& state, const BenchData& data) {
+  size_t i = 0;
+  for (auto _ : state) {
+    std::string json;
+    auto st = google::protobuf::util::MessageToJsonString(data.structs[i], &json);
+    benchmark::DoNotOptimize(json.data());
+    if (!st.ok()) state.SkipWithError("MessageToJsonString failed");
+    if (++i == data.structs.size()) i = 0;
+  }
+  state.SetItemsProcessed(state.iterations());
+}
+
+absl::Status WriteRowsTsv(const BenchData& data, const std::string& path) {
+  std::ofstream out(path, std::ios::trunc);
+  for (const ScoreEntry& e : data.scores) {
+    out << absl::StrFormat("%s\t%s\t%s\t%s\t%d\t%.17g\t%.17g\t%s\n",
+                           e.record_id, e.set_name, e.set_version, e.role,
+                           absl::ToUnixMicros(e.scored_at), e.log_odds,
+                           e.probability, e.features_json);
+  }
+  out.close();
+  if (!out) return absl::UnavailableError(absl::StrCat(path, ": cannot write"));
+  return absl::OkStatus();
+}
+
+absl::Status Run(BenchData& data) {
+  if (const std::string path = absl::GetFlag(FLAGS_empty_ledger);
+      !path.empty()) {
+    LedgerOptions options;
+    options.path = path;
+    return Ledger::Open(options).status();
+  }
+  if (absl::Status s = MakeData(absl::GetFlag(FLAGS_rows), data); !s.ok()) {
+    return s;
+  }
+  if (const std::string path = absl::GetFlag(FLAGS_write_rows); !path.empty()) {
+    return WriteRowsTsv(data, path);
+  }
+  size_t json_bytes = 0;
+  for (const ScoreEntry& e : data.scores) json_bytes += e.features_json.size();
+  std::cerr << "ledger_bench: " << data.scores.size() << " rows, features JSON "
+            << json_bytes / std::max<size_t>(1, data.scores.size())
+            << " bytes on average, ledger in " << data.dir << "\n";
+
+  // The lambdas hold `data` by reference: it outlives the benchmark run.
+  for (auto* b : {benchmark::RegisterBenchmark(
+                      "LedgerIngest/scores",
+                      [&data](benchmark::State& s) { IngestScores(s, data); }),
+                  benchmark::RegisterBenchmark(
+                      "LedgerIngest/outcomes",
+                      [&data](benchmark::State& s) { IngestOutcomes(s, data); })}) {
+    b->ArgNames({"producers", "batch", "durable"})
+        ->Args({2, 500, 1})
+        ->Args({2, 500, 0})
+        ->Args({1, 500, 1})
+        ->Iterations(1)
+        ->UseManualTime()
+        ->Unit(benchmark::kMillisecond);
+  }
+  benchmark::RegisterBenchmark(
+      "FeaturesJson/by_hand",
+      [&data](benchmark::State& s) { JsonByHand(s, data); });
+  benchmark::RegisterBenchmark(
+      "FeaturesJson/by_hand_percent17g",
+      [&data](benchmark::State& s) { JsonByHandPercent17g(s, data); });
+  benchmark::RegisterBenchmark(
+      "FeaturesJson/protobuf_printer",
+      [&data](benchmark::State& s) { JsonByProtobuf(s, data); });
+  benchmark::RunSpecifiedBenchmarks();
+  return absl::OkStatus();
+}
+
+}  // namespace
+}  // namespace plumbline::daemon
+
+int main(int argc, char** argv) {
+  benchmark::Initialize(&argc, argv);  // takes the --benchmark_* flags
+  absl::ParseCommandLine(argc, argv);  // takes the rest
+  plumbline::daemon::BenchData data;
+  std::string made_dir;
+  data.dir = absl::GetFlag(FLAGS_dir);
+  if (data.dir.empty()) {
+    const char* base = std::getenv("TMPDIR");
+    std::string pattern = absl::StrCat(
+        base != nullptr && *base != '\0' ? base : "/tmp", "/ledger-bench-XXXXXX");
+    if (mkdtemp(pattern.data()) == nullptr) {
+      std::cerr << "ledger_bench: cannot create " << pattern << "\n";
+      return 1;
+    }
+    data.dir = made_dir = pattern;
+  }
+  absl::Status status = plumbline::daemon::Run(data);
+  benchmark::Shutdown();
+  if (!made_dir.empty()) std::filesystem::remove_all(made_dir);
+  if (!status.ok()) {
+    std::cerr << "ledger_bench: " << status << "\n";
+    return 1;
+  }
+  return 0;
+}
