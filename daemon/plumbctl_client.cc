@@ -117,4 +117,21 @@ absl::StatusOr<v1::ReportOutcomesReply> OutcomesClient::ReportOutcomes(
   return reply;
 }
 
+MonitorClient::MonitorClient(std::string addr, absl::Duration timeout)
+    : addr_(std::move(addr)),
+      timeout_(timeout),
+      stub_(v1::Monitor::NewStub(NewChannel(addr_))) {}
+
+absl::StatusOr<v1::SetHealth> MonitorClient::GetSetHealth(
+    const std::string& set) const {
+  grpc::ClientContext context;
+  context.set_deadline(absl::ToChronoTime(absl::Now() + timeout_));
+  v1::GetSetHealthRequest request;
+  request.set_set(set);
+  v1::SetHealth reply;
+  grpc::Status status = stub_->GetSetHealth(&context, request, &reply);
+  if (!status.ok()) return AnnotateWithAddress(status, addr_);
+  return reply;
+}
+
 }  // namespace plumbline::daemon

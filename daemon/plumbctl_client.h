@@ -1,12 +1,13 @@
 // File: daemon/plumbctl_client.h
 //
-// plumbctl's connection to a running plumbd: the Scoring and Outcomes stubs
-// with a deadline on every call, and errors turned into absl::Status whose
+// plumbctl's connection to a running plumbd: the Scoring, Outcomes and
+// Monitor stubs with a deadline on every call, and errors turned into absl::Status whose
 // message says which daemon could not be reached.
 //
 //   ScoringClient client("127.0.0.1:7390", absl::Seconds(10));
 //   absl::StatusOr<v1::ListSetsReply> sets = client.ListSets();
 //   OutcomesClient outcomes("127.0.0.1:7390", absl::Seconds(10));
+//   MonitorClient monitor("127.0.0.1:7390", absl::Seconds(10));
 //
 // Thread-safe: yes (the gRPC stub is); each call has its own context.
 #ifndef PLUMBLINE_DAEMON_PLUMBCTL_CLIENT_H_
@@ -17,6 +18,7 @@
 
 #include "absl/status/statusor.h"
 #include "absl/time/time.h"
+#include "plumbline/v1/monitor.grpc.pb.h"
 #include "plumbline/v1/outcomes.grpc.pb.h"
 #include "plumbline/v1/scoring.grpc.pb.h"
 
@@ -59,6 +61,19 @@ class OutcomesClient {
   const std::string addr_;
   const absl::Duration timeout_;
   std::unique_ptr<v1::Outcomes::Stub> stub_;
+};
+
+class MonitorClient {
+ public:
+  MonitorClient(std::string addr, absl::Duration timeout);
+
+  absl::StatusOr<v1::SetHealth> GetSetHealth(const std::string& set) const;
+
+ private:
+  // Constant after construction.
+  const std::string addr_;
+  const absl::Duration timeout_;
+  std::unique_ptr<v1::Monitor::Stub> stub_;
 };
 
 }  // namespace plumbline::daemon

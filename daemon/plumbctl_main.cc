@@ -15,12 +15,14 @@
 #include "daemon/flag_parsing.h"
 #include "daemon/csv_outcomes.h"
 #include "daemon/plumbctl_commands.h"
+#include "daemon/plumbctl_health.h"
 #include "daemon/plumbctl_outcomes.h"
 
 ABSL_FLAG(std::string, addr, "127.0.0.1:7390", "plumbd gRPC address");
 ABSL_FLAG(int, timeout_ms, 10000, "deadline of each RPC, in milliseconds");
 ABSL_FLAG(bool, verbose, false, "sets: also list each set's features");
-ABSL_FLAG(std::string, set, "", "score: name of a set loaded in plumbd");
+ABSL_FLAG(std::string, set, "",
+          "score, health: name of a set loaded in plumbd");
 ABSL_FLAG(std::string, set_file, "",
           "score: score offline with this set file, without plumbd");
 ABSL_FLAG(std::string, json, "", "score: one record as a JSON object");
@@ -69,6 +71,11 @@ commands:
       --refusals_out writes them all. Exit 0 unless a call fails.
   outcome --record_id ID --label 0|1 [--observed_at TIME]
       Report one outcome.
+  health --set NAME
+      The set's model health as plumbd's monitor last evaluated it: the drift
+      state (steady, watch, drifting) and why, the figures of the count and
+      time windows (log-loss, Brier score, AUC, calibration, Hosmer-Lemeshow,
+      score PSI) and per feature the PSI, missing and out-of-range rates.
 
 flags may be written with '-' or '_' (--set-file, --set_file).
 --addr defaults to 127.0.0.1:7390, --timeout_ms to 10000.
@@ -155,6 +162,12 @@ int Main(int argc, char** argv) {
     return s.ok() ? 0 : Failure(s);
   }
   if (command == "outcomes") return OutcomesMain(client);
+  if (command == "health") {
+    const std::string set = absl::GetFlag(FLAGS_set);
+    if (set.empty()) return UsageError("health needs --set NAME");
+    absl::Status s = RunHealthCommand(client, set, std::cout);
+    return s.ok() ? 0 : Failure(s);
+  }
   if (command == "outcome") return OutcomeMain(client);
   if (command != "score") {
     return UsageError(absl::StrCat("unknown command '", command, "'"));

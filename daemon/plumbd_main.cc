@@ -1,15 +1,21 @@
 // File: daemon/plumbd_main.cc
 //
-// plumbd: serves the coefficient sets of a directory over gRPC and keeps
-// every score and outcome in its SQLite ledger.
+// plumbd: serves the coefficient sets of a directory over gRPC, keeps every
+// score and outcome in its SQLite ledger and watches each set's health
+// (windows of recent records, drift policy, Prometheus metrics).
 //
 //   plumbd [--config FILE] [--sets DIR] [--listen HOST:PORT]
 //          [--ledger FILE] [--metrics_listen HOST:PORT] [--ready_file FILE]
 //
-// With no flags it loads ./sets, keeps its ledger in ./var/ledger.db and
-// listens on 127.0.0.1:7390. SIGHUP reloads the sets; SIGTERM or SIGINT shut
-// down gracefully (exit 0): calls in flight finish, the ledger commits what
-// is queued.
+// With no flags it loads ./sets, keeps its ledger in ./var/ledger.db,
+// listens on 127.0.0.1:7390 and serves metrics on 127.0.0.1:7391. Startup:
+// sets, ledger, the monitor's windows rebuilt from the ledger, the metrics
+// endpoint (logged as event=metrics_listening addr=HOST:PORT), the gRPC
+// server, then the ready file and event=listening. The monitor evaluates
+// every drift_policy.tick_seconds on its own thread. SIGHUP reloads the
+// sets (a new version starts its own windows); SIGTERM or SIGINT shut down
+// gracefully (exit 0): calls in flight finish, the ledger commits what is
+// queued.
 #include <signal.h>
 
 #include <cstdio>
@@ -19,14 +25,24 @@
 #include <vector>
 
 #include "absl/flags/flag.h"
+#include "absl/strings/match.h"
 #include "absl/strings/str_cat.h"
+#include "absl/synchronization/mutex.h"
 #include "absl/time/time.h"
 #include "daemon/daemon_options.h"
 #include "daemon/daemon_server.h"
 #include "daemon/event_log.h"
 #include "daemon/file_util.h"
 #include "daemon/flag_parsing.h"
+#include "daemon/health_monitor.h"
+#include "daemon/health_options.h"
+#include "daemon/health_ticker.h"
 #include "daemon/ledger.h"
+#include "daemon/metrics_exporter.h"
+#include "daemon/metrics_health.h"
+#include "daemon/metrics_ledger.h"
+#include "daemon/monitor_service.h"
+#include "daemon/request_metrics.h"
 #include "daemon/set_registry.h"
 #include "daemon/signals.h"
 
@@ -42,7 +58,8 @@ ABSL_FLAG(std::string, ledger, "",
           "created if missing)");
 ABSL_FLAG(std::string, metrics_listen, "",
           "Prometheus metrics listen address HOST:PORT (default "
-          "127.0.0.1:7391)");
+          "127.0.0.1:7391; port 0 picks a free port, and so does a gRPC "
+          "--listen on port 0 when no metrics address is configured)");
 ABSL_FLAG(std::string, ready_file, "",
           "once serving, write the bound HOST:PORT to this file");
 
@@ -54,6 +71,9 @@ namespace {
 // deadline too, so shutdown can take this long with such clients connected.
 constexpr absl::Duration kShutdownGrace = absl::Seconds(5);
 
+// Health service name of the monitor service.
+constexpr char kMonitorServiceName[] = "plumbline.v1.Monitor";
+
 int Fail(absl::string_view event, const absl::Status& status) {
   LogEvent(LogLevel::kError, event, {{"error", status.message()}});
   return 1;
@@ -61,10 +81,14 @@ int Fail(absl::string_view event, const absl::Status& status) {
 
 int Run() {
   DaemonOptions options;
+  // Whether a metrics address was configured (file or flag), as opposed to
+  // the default.
+  bool metrics_configured = false;
   if (const std::string config = absl::GetFlag(FLAGS_config); !config.empty()) {
-    absl::StatusOr<DaemonOptions> loaded = LoadDaemonOptions(config);
+    absl::StatusOr<v1::DaemonConfig> loaded = ReadDaemonConfigFile(config);
     if (!loaded.ok()) return Fail("config_failed", loaded.status());
-    options = *std::move(loaded);
+    options = OptionsFromConfig(*loaded);
+    metrics_configured = !loaded->metrics_listen().empty();
   }
   if (const std::string sets = absl::GetFlag(FLAGS_sets); !sets.empty()) {
     options.sets_dir = sets;
@@ -78,7 +102,16 @@ int Run() {
   if (const std::string metrics = absl::GetFlag(FLAGS_metrics_listen);
       !metrics.empty()) {
     options.metrics_listen = metrics;
+    metrics_configured = true;
   }
+  if (!metrics_configured && absl::EndsWith(options.listen, ":0")) {
+    // An ephemeral gRPC port (tests, several daemons on one machine) asks
+    // for no fixed port: the metrics endpoint takes a free one too.
+    options.metrics_listen = BoundAddress(options.listen, 0);
+  }
+  absl::StatusOr<HealthMonitorOptions> health_options =
+      HealthMonitorOptionsFrom(options.windows, options.drift_policy);
+  if (!health_options.ok()) return Fail("config_failed", health_options.status());
 
   SetRegistry registry(options.sets_dir);
   if (absl::StatusOr<ReloadReport> report = registry.Reload(); !report.ok()) {
@@ -102,10 +135,51 @@ int Run() {
                         ? "committed"
                         : "queued"},
             {"durable", options.ledger.durable_commits ? "true" : "false"}});
-  absl::StatusOr<std::unique_ptr<DaemonServer>> server =
-      DaemonServer::Start(options, &registry, ledger->get());
+
+  // The monitor: one version's windows per loaded set, refilled from the
+  // ledger, evaluated once before serving so the first scrape has figures.
+  const absl::Duration tick = health_options->policy.tick();
+  absl::StatusOr<std::unique_ptr<HealthMonitor>> monitor =
+      HealthMonitor::Create(*std::move(health_options));
+  if (!monitor.ok()) return Fail("startup_failed", monitor.status());
+  (*monitor)->SyncPlans(registry.All());
+  if (absl::Status s = (*monitor)->Rebuild(**ledger); !s.ok()) {
+    return Fail("startup_failed", s);
+  }
+  (*monitor)->Evaluate();
+
+  // Metrics: destroyed before the ledger (whose queue gauge it reads) and
+  // the monitor; the ledger's commit metrics outlive it.
+  absl::StatusOr<std::unique_ptr<MetricsExporter>> exporter =
+      MetricsExporter::Start(options.metrics_listen);
+  if (!exporter.ok()) return Fail("startup_failed", exporter.status());
+  ExportLedgerMetrics(ledger->get(), exporter->get());
+  (*exporter)->Add(std::make_shared<HealthMetrics>(monitor->get()));
+  RequestMetrics request_metrics((*exporter)->registry());
+  LogEvent(LogLevel::kInfo, "metrics_listening",
+           {{"addr", (*exporter)->bound_address()}});
+
+  MonitorService monitor_service(&registry, monitor->get());
+  ServerAttachments attachments;
+  attachments.health_sink = monitor->get();
+  attachments.services.emplace_back(&monitor_service, kMonitorServiceName);
+  attachments.interceptors = MakeInterceptorCreators(&request_metrics);
+  absl::StatusOr<std::unique_ptr<DaemonServer>> server = DaemonServer::Start(
+      options, &registry, ledger->get(), std::move(attachments));
   if (!server.ok()) return Fail("startup_failed", server.status());
   DaemonServer* daemon = server->get();
+  HealthMonitor* health = monitor->get();
+  // Reloads (signal thread) and ticks (ticker thread) both sync the
+  // monitor's versions with the registry; one at a time.
+  absl::Mutex sync_mu;
+  auto sync = [&registry, health, &sync_mu] {
+    absl::MutexLock lock(&sync_mu);
+    health->SyncPlans(registry.All());
+  };
+  HealthTicker ticker(tick, [health, &sync] {
+    sync();
+    health->Evaluate();
+  });
 
   if (const std::string ready = absl::GetFlag(FLAGS_ready_file);
       !ready.empty()) {
@@ -121,7 +195,7 @@ int Run() {
            {{"addr", daemon->bound_address()},
             {"sets", absl::StrCat(registry.Names().size())}});
 
-  std::thread signal_thread([daemon] {
+  std::thread signal_thread([daemon, &sync] {
     while (true) {
       absl::StatusOr<int> signal_number = WaitForDaemonSignal();
       if (!signal_number.ok()) {
@@ -134,6 +208,7 @@ int Run() {
       if (*signal_number == SIGHUP) {
         LogEvent(LogLevel::kInfo, "reload_requested", {{"signal", "SIGHUP"}});
         daemon->Reload();
+        sync();  // a new version starts its own windows at once
         continue;
       }
       LogEvent(LogLevel::kInfo, "shutting_down",
@@ -144,8 +219,11 @@ int Run() {
   });
   daemon->Wait();
   signal_thread.join();
+  ticker.Stop();
   server->reset();
+  exporter->reset();
   ledger->reset();  // commits what is still queued, then closes the file
+  monitor->reset();
   LogEvent(LogLevel::kInfo, "stopped");
   return 0;
 }
@@ -154,6 +232,10 @@ int Run() {
 }  // namespace plumbline::daemon
 
 int main(int argc, char** argv) {
+  // Abseil's mutex deadlock detection (on in Debian's build of Abseil) is a
+  // debugging aid that costs every lock a lookup in a global graph; the
+  // request path takes several locks per record.
+  absl::SetMutexDeadlockDetectionMode(absl::OnDeadlockCycle::kIgnore);
   // Before anything can start a thread: every thread inherits the mask.
   if (absl::Status s = plumbline::daemon::BlockDaemonSignals(); !s.ok()) {
     std::fprintf(stderr, "plumbd: %s\n", std::string(s.message()).c_str());
@@ -163,9 +245,10 @@ int main(int argc, char** argv) {
       "usage: plumbd [--config FILE] [--sets DIR] [--listen HOST:PORT]\n"
       "              [--ledger FILE] [--metrics_listen HOST:PORT] "
       "[--ready_file FILE]\n"
-      "Serves the coefficient sets of a directory over gRPC and records every "
-      "score and\noutcome in an SQLite ledger (defaults: ./sets, "
-      "127.0.0.1:7390, ./var/ledger.db).\n"
+      "Serves the coefficient sets of a directory over gRPC, records every "
+      "score and\noutcome in an SQLite ledger and exports model-health "
+      "metrics (defaults: ./sets,\n127.0.0.1:7390, ./var/ledger.db, metrics "
+      "on 127.0.0.1:7391).\n"
       "Flags override the config file; - and _ are the same in flag names.\n"
       "SIGHUP reloads the sets; SIGTERM or SIGINT stop gracefully.\n";
   if (plumbline::daemon::WantsHelp(argc, argv)) {

@@ -9,8 +9,20 @@ set's baselines and training figures. No real deliveries are involved.
 
 Outputs (paths relative to the repository root):
   sets/courier_first_attempt.json  plumbline.v1.CoefficientSet (protobuf JSON)
-  var/demo/parcels.csv             300 records to score, some cells missing
-  var/demo/outcomes.csv            whether each demo parcel's attempt failed
+                                   with baselines (bins, min and max per
+                                   feature, score baseline) and the training
+                                   log-loss
+  var/demo/parcels.csv             2000 records to score, some cells missing
+  var/demo/outcomes.csv            record_id,label: whether each parcel's
+                                   first attempt failed (1) or not (0), drawn
+                                   from the set's own probabilities
+  var/demo/parcels_drift.csv       2000 later records from the storm season:
+                                   rainfall far above anything in training
+                                   and a new building type, "locker_bank",
+                                   that the set has never seen
+  var/demo/outcomes_drift.csv      their outcomes, drawn from a changed "true"
+                                   model: more failures in the rain, almost
+                                   none at locker banks
 
 Deterministic: the same seed gives byte-identical files.
 
@@ -26,7 +38,8 @@ import numpy as np
 
 SEED = 20261201
 TRAINING_ROWS = 20000
-DEMO_ROWS = 300
+DEMO_ROWS = 2000
+DRIFT_ROWS = 2000
 INVENTED = "INVENTED DEMO DATA"
 
 HOUR_EDGES = [10.0, 13.0, 17.0, 20.0]
@@ -34,8 +47,12 @@ LEVELS = ["house", "flat", "office", "shop"]
 LEVEL_SHARES = [0.48, 0.30, 0.14, 0.08]
 
 
-def draw_parcels(rng, n, demo=False):
-    """Raw feature values of n synthetic parcels; NaN / None mark missing."""
+def draw_parcels(rng, n, demo=False, drift=False):
+    """Raw feature values of n synthetic parcels; NaN / None mark missing.
+
+    drift: the storm season, when rainfall is far higher and parcel lockers
+    ("locker_bank", a level the set does not know) take a share of parcels.
+    """
     distance = np.clip(rng.gamma(2.0, 4.0, n), 0.1, 80.0).round(1)
     weight = np.clip(rng.lognormal(math.log(2.0), 0.8, n), 0.05, 40.0).round(2)
     weight[rng.random(n) < 0.04] = np.nan
@@ -46,8 +63,12 @@ def draw_parcels(rng, n, demo=False):
     if demo:
         # A building type the set has never seen: treated as missing.
         building[rng.choice(n, 3, replace=False)] = "warehouse"
+    if drift:
+        building[rng.random(n) < 0.25] = "locker_bank"
     prior = np.minimum(rng.poisson(0.35, n), 8).astype(float)
     rain = np.where(rng.random(n) < 0.6, 0.0, rng.gamma(1.2, 3.0, n)).round(1)
+    if drift:
+        rain = (rng.gamma(3.0, 5.0, n) + 6.0).round(1)
     rain[rng.random(n) < 0.07] = np.nan
     return {
         "distance_km": distance,
@@ -147,14 +168,17 @@ def log_odds(model, rows):
 
 
 def binned_distribution(x, edges, count):
-    """Proportions per bin, with the bin convention of BinnedTransform."""
+    """Proportions per bin, with the bin convention of BinnedTransform, and
+    the range of the values seen (a live value outside it is out of range)."""
     present = x[~np.isnan(x)]
     bins = np.searchsorted(edges, present, side="right")
     counts = np.bincount(bins, minlength=len(edges) + 1)
     return {"edges": [float(e) for e in edges],
             "proportions": [float(c) / len(present) for c in counts],
             "missing_proportion": (count - len(present)) / count,
-            "count": count}
+            "count": count,
+            "min": float(present.min()),
+            "max": float(present.max())}
 
 
 def decile_edges(x, digits):
@@ -185,6 +209,24 @@ def add_baselines(model, train, probability):
             f["baseline"] = binned_distribution(x, decile_edges(x, 1), n)
     model["score_baseline"] = binned_distribution(
         probability, decile_edges(probability, 4), n)
+
+
+def storm_season_log_odds(model, rows):
+    """The invented "true" model of the storm season: rain hurts three times
+    as much as the set believes, and locker banks (which the set treats as a
+    missing building type) almost never fail."""
+    eta = log_odds(model, rows)
+    rain = np.nan_to_num(rows["rainfall_mm"])
+    eta = eta + 2.0 * 0.12 * np.clip(rain, 0.0, 40.0) / 5.0
+    lockers = np.array([v == "locker_bank" for v in rows["building_type"]])
+    return np.where(lockers, eta - 0.25 - 2.0, eta)
+
+
+def write_outcomes(path, ids, failed):
+    with open(path, "w", newline="") as out:
+        w = csv.writer(out)
+        w.writerow(["record_id", "label"])
+        w.writerows(zip(ids, failed.astype(int)))
 
 
 def write_records(path, rows, ids):
@@ -248,14 +290,20 @@ def main():
     ids = [f"parcel-{i:06d}" for i in range(1, DEMO_ROWS + 1)]
     os.makedirs(args.demo_dir, exist_ok=True)
     write_records(os.path.join(args.demo_dir, "parcels.csv"), demo, ids)
-    with open(os.path.join(args.demo_dir, "outcomes.csv"), "w",
-              newline="") as out:
-        w = csv.writer(out)
-        w.writerow(["record_id", "first_attempt_failed"])
-        w.writerows(zip(ids, failed.astype(int)))
-    print(f"wrote {os.path.relpath(args.set_out, root)} and "
-          f"{os.path.relpath(args.demo_dir, root)}/parcels.csv "
-          f"({DEMO_ROWS} records) -- {INVENTED}")
+    write_outcomes(os.path.join(args.demo_dir, "outcomes.csv"), ids, failed)
+
+    drift = draw_parcels(rng, DRIFT_ROWS, drift=True)
+    drift_eta = storm_season_log_odds(model, drift)
+    drift_failed = rng.random(DRIFT_ROWS) < 1.0 / (1.0 + np.exp(-drift_eta))
+    drift_ids = [f"parcel-storm-{i:06d}" for i in range(1, DRIFT_ROWS + 1)]
+    write_records(os.path.join(args.demo_dir, "parcels_drift.csv"), drift,
+                  drift_ids)
+    write_outcomes(os.path.join(args.demo_dir, "outcomes_drift.csv"),
+                   drift_ids, drift_failed)
+    rel = os.path.relpath(args.demo_dir, root)
+    print(f"wrote {os.path.relpath(args.set_out, root)}, {rel}/parcels.csv "
+          f"({DEMO_ROWS} records) and {rel}/parcels_drift.csv ({DRIFT_ROWS} "
+          f"storm-season records) with their outcomes -- {INVENTED}")
 
 
 if __name__ == "__main__":

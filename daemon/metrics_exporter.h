@@ -1,0 +1,69 @@
+// File: daemon/metrics_exporter.h
+//
+// plumbd's Prometheus endpoint: an HTTP server (prometheus-cpp's Exposer)
+// answering GET /metrics in the text exposition format, with one registry
+// for the metrics the daemon updates as it goes (requests, ledger commits)
+// and any number of collectables computed at scrape time (the health
+// figures, the ledger queue).
+//
+//   auto exporter = MetricsExporter::Start("127.0.0.1:7391");
+//   RequestMetrics requests((*exporter)->registry());
+//   (*exporter)->Add(std::make_shared<HealthMetrics>(monitor));
+//   LogEvent(..., {{"addr", (*exporter)->bound_address()}});
+//
+// Thread-safe: the registry is; Add may be called while scrapes run.
+// Collectables are scraped on the exporter's own threads until it is
+// destroyed, so whatever they read must outlive the exporter.
+#ifndef PLUMBLINE_DAEMON_METRICS_EXPORTER_H_
+#define PLUMBLINE_DAEMON_METRICS_EXPORTER_H_
+
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "absl/base/thread_annotations.h"
+#include "absl/status/statusor.h"
+#include "absl/synchronization/mutex.h"
+#include "prometheus/collectable.h"
+#include "prometheus/exposer.h"
+#include "prometheus/registry.h"
+
+namespace plumbline::daemon {
+
+class MetricsExporter {
+ public:
+  // Serves /metrics on `listen` (HOST:PORT; port 0 picks a free port).
+  // UNAVAILABLE naming the address when it cannot be bound.
+  static absl::StatusOr<std::unique_ptr<MetricsExporter>> Start(
+      const std::string& listen);
+
+  // Stops the HTTP server (waits for scrapes in flight).
+  ~MetricsExporter();
+  MetricsExporter(const MetricsExporter&) = delete;
+  MetricsExporter& operator=(const MetricsExporter&) = delete;
+
+  // HOST:PORT actually bound.
+  const std::string& bound_address() const { return bound_address_; }
+
+  prometheus::Registry& registry() { return *registry_; }
+  // The same registry, for callers that update its metrics after the
+  // exporter is gone (the ledger's last commits at shutdown).
+  std::shared_ptr<prometheus::Registry> shared_registry() { return registry_; }
+
+  // Adds `collectable` to every later scrape; the exporter keeps it alive.
+  void Add(std::shared_ptr<prometheus::Collectable> collectable);
+
+ private:
+  MetricsExporter() = default;
+
+  std::unique_ptr<prometheus::Exposer> exposer_;
+  std::shared_ptr<prometheus::Registry> registry_;
+  std::string bound_address_;
+  absl::Mutex mu_;
+  std::vector<std::shared_ptr<prometheus::Collectable>> owned_
+      ABSL_GUARDED_BY(mu_);
+};
+
+}  // namespace plumbline::daemon
+
+#endif  // PLUMBLINE_DAEMON_METRICS_EXPORTER_H_

@@ -1,0 +1,63 @@
+// File: daemon/metrics_ledger.cc
+#include "daemon/metrics_ledger.h"
+
+#include <memory>
+#include <vector>
+
+#include "prometheus/client_metric.h"
+#include "prometheus/counter.h"
+#include "prometheus/histogram.h"
+#include "prometheus/metric_family.h"
+
+namespace plumbline::daemon {
+namespace {
+
+class LedgerQueueGauge final : public prometheus::Collectable {
+ public:
+  explicit LedgerQueueGauge(const Ledger* ledger) : ledger_(ledger) {}
+
+  std::vector<prometheus::MetricFamily> Collect() const override {
+    prometheus::MetricFamily family;
+    family.name = "plumbline_ledger_queue_rows";
+    family.help = "Rows (scores and outcomes) waiting for the ledger writer.";
+    family.type = prometheus::MetricType::Gauge;
+    prometheus::ClientMetric metric;
+    metric.gauge.value = static_cast<double>(ledger_->stats().queued_rows);
+    family.metric.push_back(metric);
+    return {family};
+  }
+
+ private:
+  const Ledger* const ledger_;
+};
+
+}  // namespace
+
+void ExportLedgerMetrics(Ledger* ledger, MetricsExporter* exporter) {
+  prometheus::Registry& registry = exporter->registry();
+  prometheus::Histogram* commit =
+      &prometheus::BuildHistogram()
+           .Name("plumbline_ledger_commit_duration_seconds")
+           .Help("Time one ledger transaction (a group of queued writes) took "
+                 "to commit.")
+           .Register(registry)
+           .Add({}, prometheus::Histogram::BucketBoundaries{
+                        0.0005, 0.001, 0.0025, 0.005, 0.01, 0.025, 0.05, 0.1,
+                        0.25, 0.5, 1, 2.5, 5});
+  prometheus::Counter* rows =
+      &prometheus::BuildCounter()
+           .Name("plumbline_ledger_committed_rows_total")
+           .Help("Rows (scores and outcomes) committed to the ledger.")
+           .Register(registry)
+           .Add({});
+  // The observer keeps the registry alive: the ledger's last commits at
+  // shutdown come after the exporter has stopped.
+  ledger->set_commit_observer([commit, rows, keep = exporter->shared_registry()](
+                                  absl::Duration latency, size_t committed) {
+    commit->Observe(absl::ToDoubleSeconds(latency));
+    rows->Increment(static_cast<double>(committed));
+  });
+  exporter->Add(std::make_shared<LedgerQueueGauge>(ledger));
+}
+
+}  // namespace plumbline::daemon

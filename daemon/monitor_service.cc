@@ -1,0 +1,30 @@
+// File: daemon/monitor_service.cc
+#include "daemon/monitor_service.h"
+
+#include <utility>
+
+#include "daemon/grpc_status.h"
+#include "daemon/scoring_core.h"
+
+namespace plumbline::daemon {
+
+MonitorService::MonitorService(const SetRegistry* registry,
+                               const HealthMonitor* monitor)
+    : registry_(registry), monitor_(monitor) {}
+
+grpc::Status MonitorService::GetSetHealth(
+    grpc::ServerContext* /*context*/, const v1::GetSetHealthRequest* request,
+    v1::SetHealth* reply) {
+  if (absl::Status s = CheckSetName(request->set()); !s.ok()) {
+    return ToGrpcStatus(s);
+  }
+  if (registry_->Find(request->set()) == nullptr) {
+    return ToGrpcStatus(SetNotFound(request->set(), registry_->Names()));
+  }
+  absl::StatusOr<v1::SetHealth> health = monitor_->Health(request->set());
+  if (!health.ok()) return ToGrpcStatus(health.status());
+  *reply = *std::move(health);
+  return grpc::Status::OK;
+}
+
+}  // namespace plumbline::daemon
