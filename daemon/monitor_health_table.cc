@@ -9,33 +9,12 @@
 #include "absl/time/time.h"
 #include "daemon/drift_policy.h"
 #include "daemon/health_figures.h"
+#include "daemon/text_table.h"
 
 namespace plumbline::daemon {
 namespace {
 
 using Row = std::vector<std::string>;
-
-// Left-aligned columns two spaces apart.
-std::string Columns(const std::vector<Row>& rows, absl::string_view indent) {
-  std::vector<size_t> widths;
-  for (const Row& row : rows) {
-    if (widths.size() < row.size()) widths.resize(row.size(), 0);
-    for (size_t c = 0; c < row.size(); ++c) {
-      widths[c] = std::max(widths[c], row[c].size());
-    }
-  }
-  std::string out;
-  for (const Row& row : rows) {
-    std::string line(indent);
-    for (size_t c = 0; c < row.size(); ++c) {
-      line += row[c];
-      if (c + 1 < row.size()) line.append(widths[c] - row[c].size() + 2, ' ');
-    }
-    while (!line.empty() && line.back() == ' ') line.pop_back();
-    absl::StrAppend(&out, line, "\n");
-  }
-  return out;
-}
 
 std::string Cell(const v1::Figure& f) {
   return f.defined() ? absl::StrFormat("%.6g", f.value()) : "n/a";
@@ -51,7 +30,7 @@ std::string FormatSetHealth(const v1::SetHealth& health) {
         absl::FromUnixSeconds(health.evaluated_at().seconds()),
         absl::UTCTimeZone());
   }
-  std::string out = Columns({{"set:", health.set()},
+  std::string out = FormatTable({{"set:", health.set()},
                              {"version:", health.version()},
                              {"state:", DriftStateName(health.state())},
                              {"evaluated:", evaluated}},
@@ -104,7 +83,7 @@ std::string FormatSetHealth(const v1::SetHealth& health) {
   }
   rows.push_back(refused_labelled);
   rows.push_back(refused_scored);
-  absl::StrAppend(&out, "\n", Columns(rows, ""));
+  absl::StrAppend(&out, "\n", FormatTable(rows, ""));
 
   std::vector<Row> features = {{"feature", "window", "psi", "missing_rate",
                                 "out_of_range_rate"}};
@@ -125,7 +104,7 @@ std::string FormatSetHealth(const v1::SetHealth& health) {
       }
     }
   }
-  if (num_features > 0) absl::StrAppend(&out, "\n", Columns(features, ""));
+  if (num_features > 0) absl::StrAppend(&out, "\n", FormatTable(features, ""));
   if (!undefined.empty()) {
     absl::StrAppend(&out, "\nundefined (n/a):\n");
     for (const std::string& u : undefined) absl::StrAppend(&out, "  ", u, "\n");

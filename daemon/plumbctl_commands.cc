@@ -125,28 +125,6 @@ absl::Status ScoreCsv(const ClientOptions& client,
 
 }  // namespace
 
-std::string FormatTable(const std::vector<std::vector<std::string>>& rows,
-                        absl::string_view indent) {
-  std::vector<size_t> widths;
-  for (const auto& row : rows) {
-    if (widths.size() < row.size()) widths.resize(row.size(), 0);
-    for (size_t c = 0; c < row.size(); ++c) {
-      widths[c] = std::max(widths[c], row[c].size());
-    }
-  }
-  std::string out;
-  for (const auto& row : rows) {
-    std::string line(indent);
-    for (size_t c = 0; c < row.size(); ++c) {
-      line += row[c];
-      if (c + 1 < row.size()) line.append(widths[c] - row[c].size() + 2, ' ');
-    }
-    while (!line.empty() && line.back() == ' ') line.pop_back();
-    absl::StrAppend(&out, line, "\n");
-  }
-  return out;
-}
-
 absl::StatusOr<v1::ReasonOrder> ParseReasonOrder(const std::string& text) {
   if (text == "raises") return v1::RAISES_LOG_ODDS;
   if (text == "lowers") return v1::LOWERS_LOG_ODDS;

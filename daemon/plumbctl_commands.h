@@ -19,6 +19,7 @@
 #include "absl/status/status.h"
 #include "absl/status/statusor.h"
 #include "absl/strings/string_view.h"
+#include "daemon/text_table.h"
 #include "absl/time/time.h"
 #include "plumbline/v1/scoring.pb.h"
 
@@ -47,10 +48,6 @@ struct ScoreCommandOptions {
   v1::ReasonOptions reasons;
 };
 
-// Left-aligned columns separated by two spaces, each line after `indent`;
-// trailing blanks trimmed. Shared by the commands' tables.
-std::string FormatTable(const std::vector<std::vector<std::string>>& rows,
-                        absl::string_view indent = "");
 
 // "raises" | "lowers" | "magnitude" → ReasonOrder; INVALID_ARGUMENT otherwise.
 absl::StatusOr<v1::ReasonOrder> ParseReasonOrder(const std::string& text);
