@@ -356,30 +356,27 @@ absl::Status Ledger::WriteOutcome(const OutcomeEntry& o, OutcomeResult& result) 
 
 absl::Status Ledger::ApplyRetention() {
   SqliteDb& w = *writer_db_;
+  // Deletes the scores matching `where` and their outcomes, in one transaction.
+  auto delete_scores = [&w](const std::string& where) {
+    absl::Status st = w.Exec(absl::StrCat(
+        "BEGIN IMMEDIATE;"
+        "DELETE FROM outcomes WHERE record_id IN (SELECT record_id FROM scores"
+        " WHERE ", where, ");"
+        "DELETE FROM scores WHERE ", where, ";COMMIT"));
+    if (!st.ok()) w.Exec("ROLLBACK").IgnoreError();
+    return st;
+  };
   if (options_.retention_age != absl::InfiniteDuration()) {
     const int64_t cutoff = Micros(options_.now() - options_.retention_age);
-    if (absl::Status st = w.Exec(absl::StrCat(
-            "BEGIN IMMEDIATE;"
-            "DELETE FROM outcomes WHERE record_id IN (SELECT record_id FROM scores"
-            " WHERE scored_at_us < ", cutoff, ");"
-            "DELETE FROM scores WHERE scored_at_us < ", cutoff, ";COMMIT"));
+    if (absl::Status st = delete_scores(absl::StrCat("scored_at_us < ", cutoff));
         !st.ok()) {
-      w.Exec("ROLLBACK").IgnoreError();
       return st;
     }
   }
   if (options_.retention_rows > 0) {
-    const std::string keep_from = absl::StrCat(
-        "(SELECT COALESCE(MAX(id), 0) - ", options_.retention_rows, " FROM scores)");
-    if (absl::Status st = w.Exec(absl::StrCat(
-            "BEGIN IMMEDIATE;"
-            "DELETE FROM outcomes WHERE record_id IN (SELECT record_id FROM scores"
-            " WHERE id <= ", keep_from, ");"
-            "DELETE FROM scores WHERE id <= ", keep_from, ";COMMIT"));
-        !st.ok()) {
-      w.Exec("ROLLBACK").IgnoreError();
-      return st;
-    }
+    return delete_scores(absl::StrCat(
+        "id <= (SELECT COALESCE(MAX(id), 0) - ", options_.retention_rows,
+        " FROM scores)"));
   }
   return absl::OkStatus();
 }
