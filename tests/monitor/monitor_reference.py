@@ -32,8 +32,8 @@ import scipy
 import sklearn
 import statsmodels
 import statsmodels.api as sm
-from scipy.special import expit, rel_entr
-from scipy.stats import chi2
+from scipy.special import expit, log_expit, rel_entr
+from scipy.stats import chi2, norm, sem
 from sklearn.calibration import calibration_curve
 from sklearn.datasets import load_breast_cancer
 from sklearn.linear_model import LogisticRegression
@@ -96,6 +96,22 @@ def labelled_case(name, z, y):
         p, y, np.percentile(p, np.linspace(0, 1, 11) * 100))
     out["hosmer_lemeshow_uniform"] = grouped_hosmer_lemeshow(
         p, y, np.linspace(0.0, 1.0, 11))
+    # A second model of the same records (a shrunken, shifted copy) for the
+    # paired log-loss comparison: per-record losses from log_loss with
+    # normalize=False one record at a time would be slow, so the mean losses
+    # come from log_loss and the per-record ones from scipy's log_expit.
+    z2 = 0.7 * z + 0.2
+    loss1 = -np.where(y == 1, log_expit(z), log_expit(-z))
+    loss2 = -np.where(y == 1, log_expit(z2), log_expit(-z2))
+    d = loss2 - loss1
+    half = norm.ppf(0.975) * sem(d)
+    out["paired"] = {"candidate_log_odds": floats(z2),
+                     "active_log_loss": float(log_loss(y, p)),
+                     "candidate_log_loss": float(log_loss(y, expit(z2))),
+                     "mean_difference": float(np.mean(d)),
+                     "standard_error": float(sem(d)),
+                     "lower_95": float(np.mean(d) - half),
+                     "upper_95": float(np.mean(d) + half)}
     return out
 
 

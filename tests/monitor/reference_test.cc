@@ -24,6 +24,7 @@
 #include "monitor/hosmer_lemeshow.h"
 #include "monitor/incomplete_gamma.h"
 #include "monitor/metrics.h"
+#include "monitor/paired_comparison.h"
 #include "monitor/reliability.h"
 #include "monitor/stability.h"
 #include "tests/testing/json_file.h"
@@ -123,6 +124,30 @@ TEST_F(MonitorReferenceTest, LossAucAndCalibrationInTheLarge) {
     // reference: numpy.mean(p) - numpy.mean(y), numpy 1.24; absolute
     // tolerance since the difference of two means can be near 0.
     EXPECT_NEAR(*citl, Number(c, "citl"), kRel) << name;
+  }
+}
+
+TEST_F(MonitorReferenceTest, PairedLogLossComparison) {
+  for (const Struct& c : LabelledCases()) {
+    const std::string name = Field(c, "name").string_value();
+    const Struct& ref = Object(c, "paired");
+    absl::StatusOr<PairedLogLoss> got = ComparePairedLogLoss(
+        Numbers(c, "log_odds"), Numbers(ref, "candidate_log_odds"), Labels(c));
+    ASSERT_TRUE(got.ok()) << got.status();
+    // reference: sklearn.metrics.log_loss, scikit-learn 1.2
+    ExpectRelative(got->active_log_loss, Number(ref, "active_log_loss"), kRel,
+                   name);
+    ExpectRelative(got->candidate_log_loss, Number(ref, "candidate_log_loss"),
+                   kRel, name);
+    // reference: numpy.mean of per-record scipy.special.log_expit losses;
+    // scipy.stats.sem (ddof 1); scipy.stats.norm.ppf(0.975) for the interval.
+    // Absolute tolerance on the mean difference, which can be near 0.
+    EXPECT_NEAR(got->mean_difference, Number(ref, "mean_difference"), 1e-12)
+        << name;
+    ExpectRelative(got->standard_error, Number(ref, "standard_error"), 1e-10,
+                   name);
+    EXPECT_NEAR(got->lower_95, Number(ref, "lower_95"), 1e-12) << name;
+    EXPECT_NEAR(got->upper_95, Number(ref, "upper_95"), 1e-12) << name;
   }
 }
 
