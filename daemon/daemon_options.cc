@@ -67,6 +67,25 @@ void MergeDriftPolicy(const v1::DriftPolicy& config,
   }
 }
 
+LogOptions LogOptionsFrom(const v1::LogConfig& config) {
+  LogOptions log;
+  switch (config.level()) {
+    case v1::LogConfig::WARNING:
+      log.min_level = LogLevel::kWarning;
+      break;
+    case v1::LogConfig::ERROR:
+      log.min_level = LogLevel::kError;
+      break;
+    default:
+      log.min_level = LogLevel::kInfo;
+  }
+  log.format = config.format() == v1::LogConfig::JSON_LINES
+                   ? LogFormat::kJsonLines
+                   : LogFormat::kKeyValue;
+  log.record_values = config.log_record_values();
+  return log;
+}
+
 }  // namespace
 
 DaemonOptions OptionsFromConfig(const v1::DaemonConfig& config) {
@@ -87,6 +106,10 @@ DaemonOptions OptionsFromConfig(const v1::DaemonConfig& config) {
   MergeLedger(config.ledger(), options.ledger);
   MergeWindows(config.windows(), options.windows);
   MergeDriftPolicy(config.drift_policy(), options.drift_policy);
+  options.refit = config.refit();
+  options.security = config.security();
+  options.grpc = config.grpc();
+  options.log = LogOptionsFrom(config.log());
   return options;
 }
 

@@ -21,8 +21,10 @@
 
 #include "absl/status/statusor.h"
 #include "absl/time/time.h"
+#include "daemon/event_log.h"
 #include "daemon/ledger.h"
 #include "plumbline/v1/config.pb.h"
+#include "plumbline/v1/security.pb.h"
 
 namespace plumbline::daemon {
 
@@ -69,6 +71,18 @@ struct DaemonOptions {
   // The monitor's windows and drift policy.
   WindowOptions windows;
   DriftPolicyOptions drift_policy;
+  // Refit jobs (config.proto RefitPolicy) as written; zeros mean the
+  // documented defaults (daemon/refit_options.h applies them).
+  v1::RefitPolicy refit;
+  // TLS, access control and metrics basic auth (config.proto security) as
+  // written; daemon/transport_security.h, daemon/access_control.h and
+  // daemon/metrics_exporter.h check them and apply the defaults.
+  v1::SecurityConfig security;
+  // Standard gRPC server settings (config.proto grpc): reflection,
+  // keepalive; zeros keep gRPC's defaults (daemon/server_settings.h).
+  v1::GrpcServerConfig grpc;
+  // The event log (config.proto log): level, format, record values.
+  LogOptions log;
 };
 
 // Merges `config` over the defaults: an empty string or a zero keeps the

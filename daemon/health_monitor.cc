@@ -258,7 +258,7 @@ absl::StatusOr<v1::SetHealth> HealthMonitor::Health(absl::string_view name) cons
     return absl::NotFoundError(
         absl::StrCat("no coefficient set named '", name, "' is monitored"));
   }
-  v1::SetHealth health = it->second.back()->health;
+  v1::SetHealth health = it->second.front()->health;
   if (!health.has_evaluated_at()) {
     health.add_notes("not evaluated yet: figures appear after the first tick");
   }

@@ -77,7 +77,9 @@ class HealthMonitor final : public HealthSink {
 
   // Makes the monitored versions exactly those of `plans`: new versions get
   // empty windows, versions not among them are dropped with their windows
-  // and their last evaluation.
+  // and their last evaluation. Per set name the first plan listed is the
+  // serving (active) version; the others are its shadows
+  // (SetRegistry::AllMonitored lists them so).
   void SyncPlans(const std::vector<std::shared_ptr<const scorer::ScoringPlan>>& plans);
 
   // Refills the windows of every monitored version from the ledger
@@ -94,7 +96,8 @@ class HealthMonitor final : public HealthSink {
   // keeps them for Health/AllHealth and logs each change of drift state.
   void Evaluate();
 
-  // The last evaluation of set `name` (its newest monitored version).
+  // The last evaluation of set `name` (its active version: the first
+  // SyncPlans listed).
   // NOT_FOUND when no version of it is monitored.
   absl::StatusOr<v1::SetHealth> Health(absl::string_view name) const;
   // The last evaluation of every monitored version, by set name.

@@ -77,6 +77,37 @@ constexpr const char* kMigrations[] = {
     "DROP TABLE outcomes;"
     "ALTER TABLE outcomes_v2 RENAME TO outcomes;"
     "CREATE INDEX outcomes_by_time ON outcomes(observed_at_us);",
+    // 2 -> 3: the life of coefficient sets (daemon/version_store.h): every
+    // version with its state and document, the order of activations (for
+    // rollback) and the audit history. Retention never deletes from these.
+    "CREATE TABLE set_versions("
+    "  set_name TEXT NOT NULL,"
+    "  version TEXT NOT NULL,"
+    "  state TEXT NOT NULL"
+    "    CHECK (state IN ('active', 'candidate', 'shadow', 'retired')),"
+    "  created_at_us INTEGER NOT NULL,"
+    "  created_by TEXT NOT NULL,"
+    "  reason TEXT NOT NULL,"
+    "  comparison TEXT NOT NULL,"
+    "  source TEXT NOT NULL,"
+    "  document TEXT NOT NULL,"
+    "  PRIMARY KEY (set_name, version)) WITHOUT ROWID;"
+    "CREATE UNIQUE INDEX one_active_version ON set_versions(set_name)"
+    "  WHERE state = 'active';"
+    "CREATE TABLE set_activations("
+    "  seq INTEGER PRIMARY KEY,"
+    "  set_name TEXT NOT NULL,"
+    "  version TEXT NOT NULL,"
+    "  at_us INTEGER NOT NULL);"
+    "CREATE TABLE audit("
+    "  id INTEGER PRIMARY KEY,"
+    "  at_us INTEGER NOT NULL,"
+    "  set_name TEXT NOT NULL,"
+    "  version TEXT NOT NULL,"
+    "  action TEXT NOT NULL,"
+    "  actor TEXT NOT NULL,"
+    "  detail TEXT NOT NULL);"
+    "CREATE INDEX audit_by_set ON audit(set_name, id);",
 };
 
 }  // namespace

@@ -6,7 +6,7 @@
 // plumbd opens in a later one. A ledger newer than this build is refused
 // rather than written with a schema it does not know.
 //
-// Tables (version 2):
+// Tables (version 3):
 //   score_sets(id, set_name, set_version, role)   UNIQUE (name, version, role)
 //   scores(id, record_id, set_id -> score_sets.id, scored_at_us, log_odds,
 //          probability, features)              features: JSON as received
@@ -16,6 +16,11 @@
 //     WITHOUT ROWID; index outcomes_by_time(observed_at_us)
 //   view ledger_scores: scores joined to their set name, version and role
 //     (the columns of version 1's scores table), for people reading the file
+//   set_versions(set_name, version, state, created_at_us, created_by,
+//          reason, comparison, source, document)  PRIMARY KEY (name, version);
+//     at most one 'active' version per set (partial unique index)
+//   set_activations(seq, set_name, version, at_us)  every activation, in order
+//   audit(id, at_us, set_name, version, action, actor, detail)
 // Times are microseconds since the Unix epoch (UTC).
 //
 // Called by Ledger::Open on the writer connection. Not thread-safe.

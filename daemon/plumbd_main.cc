@@ -19,7 +19,9 @@
 #include <signal.h>
 
 #include <cstdio>
+#include <filesystem>
 #include <memory>
+#include <system_error>
 #include <string>
 #include <thread>
 #include <vector>
@@ -43,8 +45,13 @@
 #include "daemon/metrics_ledger.h"
 #include "daemon/monitor_service.h"
 #include "daemon/request_metrics.h"
+#include "daemon/lifecycle.h"
+#include "daemon/refit_job.h"
+#include "daemon/refit_worker.h"
+#include "daemon/registry_service.h"
 #include "daemon/set_registry.h"
 #include "daemon/signals.h"
+#include "daemon/version_store.h"
 
 ABSL_FLAG(std::string, config, "",
           "JSON config file (plumbline.v1.DaemonConfig); flags override it");
@@ -71,8 +78,9 @@ namespace {
 // deadline too, so shutdown can take this long with such clients connected.
 constexpr absl::Duration kShutdownGrace = absl::Seconds(5);
 
-// Health service name of the monitor service.
+// Health service names of the monitor and registry services.
 constexpr char kMonitorServiceName[] = "plumbline.v1.Monitor";
+constexpr char kRegistryServiceName[] = "plumbline.v1.Registry";
 
 int Fail(absl::string_view event, const absl::Status& status) {
   LogEvent(LogLevel::kError, event, {{"error", status.message()}});
@@ -113,13 +121,19 @@ int Run() {
       HealthMonitorOptionsFrom(options.windows, options.drift_policy);
   if (!health_options.ok()) return Fail("config_failed", health_options.status());
 
-  SetRegistry registry(options.sets_dir);
-  if (absl::StatusOr<ReloadReport> report = registry.Reload(); !report.ok()) {
-    return Fail("startup_failed", report.status());
+  absl::StatusOr<RefitSettings> refit_settings = RefitSettingsFrom(options.refit);
+  if (!refit_settings.ok()) return Fail("config_failed", refit_settings.status());
+
+  // The sets directory is checked before the ledger is opened, so that a bad
+  // directory leaves no ledger file behind.
+  if (std::error_code ec; !std::filesystem::is_directory(options.sets_dir, ec)) {
+    return Fail("startup_failed",
+                absl::NotFoundError(absl::StrCat(
+                    "sets directory ", options.sets_dir,
+                    ": cannot list: not a directory this user can read")));
   }
-  // Opened after the sets so that a bad sets directory leaves no ledger
-  // file behind; destroyed after the server, so it commits every row an
-  // RPC in flight at shutdown queued.
+  // Destroyed after the server, so it commits every row an RPC in flight at
+  // shutdown queued.
   absl::StatusOr<std::unique_ptr<Ledger>> ledger = Ledger::Open(options.ledger);
   if (!ledger.ok()) return Fail("startup_failed", ledger.status());
   if (options.ledger.queue_capacity_rows < options.max_batch_records) {
@@ -136,13 +150,24 @@ int Run() {
                         : "queued"},
             {"durable", options.ledger.durable_commits ? "true" : "false"}});
 
+  // The versions of every set live in the ledger; the lifecycle decides
+  // which one serves (daemon/lifecycle.h).
+  absl::StatusOr<std::unique_ptr<VersionStore>> versions =
+      VersionStore::Open(options.ledger.path);
+  if (!versions.ok()) return Fail("startup_failed", versions.status());
+  Lifecycle lifecycle(versions->get());
+  SetRegistry registry(options.sets_dir, &lifecycle);
+  if (absl::StatusOr<ReloadReport> report = registry.Reload(); !report.ok()) {
+    return Fail("startup_failed", report.status());
+  }
+
   // The monitor: one version's windows per loaded set, refilled from the
   // ledger, evaluated once before serving so the first scrape has figures.
   const absl::Duration tick = health_options->policy.tick();
   absl::StatusOr<std::unique_ptr<HealthMonitor>> monitor =
       HealthMonitor::Create(*std::move(health_options));
   if (!monitor.ok()) return Fail("startup_failed", monitor.status());
-  (*monitor)->SyncPlans(registry.All());
+  (*monitor)->SyncPlans(registry.AllMonitored());
   if (absl::Status s = (*monitor)->Rebuild(**ledger); !s.ok()) {
     return Fail("startup_failed", s);
   }
@@ -159,10 +184,18 @@ int Run() {
   LogEvent(LogLevel::kInfo, "metrics_listening",
            {{"addr", (*exporter)->bound_address()}});
 
+  // Refit jobs run on their own thread, off the request path.
+  RefitRunner refit_runner(ledger->get(), &lifecycle, &registry,
+                           *refit_settings);
+  auto refits = std::make_unique<RefitWorker>(&refit_runner,
+                                              &(*exporter)->registry());
+
   MonitorService monitor_service(&registry, monitor->get());
+  RegistryService registry_service(&lifecycle, refits.get());
   ServerAttachments attachments;
   attachments.health_sink = monitor->get();
   attachments.services.emplace_back(&monitor_service, kMonitorServiceName);
+  attachments.services.emplace_back(&registry_service, kRegistryServiceName);
   attachments.interceptors = MakeInterceptorCreators(&request_metrics);
   absl::StatusOr<std::unique_ptr<DaemonServer>> server = DaemonServer::Start(
       options, &registry, ledger->get(), std::move(attachments));
@@ -174,11 +207,22 @@ int Run() {
   absl::Mutex sync_mu;
   auto sync = [&registry, health, &sync_mu] {
     absl::MutexLock lock(&sync_mu);
-    health->SyncPlans(registry.All());
+    health->SyncPlans(registry.AllMonitored());
   };
-  HealthTicker ticker(tick, [health, &sync] {
+  // After an activation, approval, rollback or shadowing: health names and
+  // the monitor's versions follow at once.
+  lifecycle.Attach(&registry, [daemon, &sync](const ReloadReport& report) {
+    daemon->UpdateHealth(report);
+    sync();
+  });
+  HealthTicker ticker(tick, [health, &sync, &registry, worker = refits.get()] {
     sync();
     health->Evaluate();
+    std::vector<std::string> active;
+    for (const PlanPtr& plan : registry.All()) {
+      active.push_back(absl::StrCat(plan->name(), "\n", plan->version()));
+    }
+    worker->OnEvaluated(health->AllHealth(), active);
   });
 
   if (const std::string ready = absl::GetFlag(FLAGS_ready_file);
@@ -220,6 +264,7 @@ int Run() {
   daemon->Wait();
   signal_thread.join();
   ticker.Stop();
+  refits.reset();  // finishes a running job; the server object still exists
   server->reset();
   exporter->reset();
   ledger->reset();  // commits what is still queued, then closes the file

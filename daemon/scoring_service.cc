@@ -1,10 +1,13 @@
 // File: daemon/scoring_service.cc
 #include "daemon/scoring_service.h"
 
+#include <type_traits>
 #include <utility>
 #include <vector>
 
+#include "absl/strings/str_cat.h"
 #include "absl/time/clock.h"
+#include "daemon/access_control.h"
 #include "daemon/event_log.h"
 #include "daemon/grpc_status.h"
 
@@ -25,11 +28,57 @@ absl::StatusOr<PlanPtr> ScoringService::Lookup(const std::string& set) const {
   return plan;
 }
 
+void ScoringService::LogShadowFailure(const scorer::ScoringPlan& plan,
+                                      const absl::Status& status) {
+  {
+    absl::MutexLock lock(&shadow_mu_);
+    if (!shadow_failures_logged_
+             .insert(absl::StrCat(plan.name(), "\n", plan.version()))
+             .second) {
+      return;
+    }
+  }
+  LogEvent(LogLevel::kWarning, "shadow_failed",
+           {{"set", plan.name()},
+            {"version", plan.version()},
+            {"error", status.message()},
+            {"effect", "this shadow's scores of such requests are not kept; "
+                       "logged once per version"}});
+}
+
+template <typename Reply, typename ScoreFn>
+std::vector<ScoringService::ShadowRun> ScoringService::ScoreShadows(
+    const std::string& set, ScoreFn score) {
+  std::vector<ShadowRun> runs;
+  for (PlanPtr& plan : registry_->Shadows(set)) {
+    ShadowRun run;
+    run.plan = std::move(plan);
+    absl::StatusOr<Reply> reply = score(*run.plan, &run.inputs);
+    if (!reply.ok()) {
+      LogShadowFailure(*run.plan, reply.status());
+      continue;
+    }
+    if constexpr (std::is_same_v<Reply, v1::ScoreReply>) {
+      run.log_odds.push_back(reply->score().log_odds());
+      run.probability.push_back(reply->score().probability());
+    } else {
+      for (const v1::Scored& scored : reply->scores()) {
+        run.log_odds.push_back(scored.log_odds());
+        run.probability.push_back(scored.probability());
+      }
+    }
+    runs.push_back(std::move(run));
+  }
+  return runs;
+}
+
 absl::Status ScoringService::Record(const scorer::ScoringPlan& plan,
                                     const RecordInputs& inputs,
-                                    absl::Span<v1::Scored* const> scores) {
+                                    absl::Span<v1::Scored* const> scores,
+                                    const std::vector<ShadowRun>& shadows) {
   const absl::Time now = absl::Now();
   std::vector<ScoreEntry> entries(scores.size());
+  entries.reserve(scores.size() * (1 + shadows.size()));
   for (size_t i = 0; i < scores.size(); ++i) {
     v1::Scored& scored = *scores[i];
     if (scored.record_id().empty()) {
@@ -46,6 +95,21 @@ absl::Status ScoringService::Record(const scorer::ScoringPlan& plan,
     entry.features_json =
         FeaturesJson(plan, inputs.Values(record), inputs.Sent(record));
   }
+  for (const ShadowRun& run : shadows) {
+    for (size_t i = 0; i < scores.size(); ++i) {
+      ScoreEntry& entry = entries.emplace_back();
+      entry.record_id = scores[i]->record_id();
+      entry.set_name = run.plan->name();
+      entry.set_version = run.plan->version();
+      entry.role = "shadow";
+      entry.scored_at = now;
+      entry.log_odds = run.log_odds[i];
+      entry.probability = run.probability[i];
+      const int record = static_cast<int>(i);
+      entry.features_json = FeaturesJson(*run.plan, run.inputs.Values(record),
+                                         run.inputs.Sent(record));
+    }
+  }
   if (absl::Status s = ledger_->AppendScores(std::move(entries)); !s.ok()) {
     // A full queue is the caller's to retry and would flood the log; any
     // other refusal is a ledger problem the operator must see.
@@ -60,48 +124,68 @@ absl::Status ScoringService::Record(const scorer::ScoringPlan& plan,
       health_sink_->OnScored(plan, inputs.Values(static_cast<int>(i)),
                              scores[i]->log_odds(), now);
     }
+    for (const ShadowRun& run : shadows) {
+      for (size_t i = 0; i < scores.size(); ++i) {
+        health_sink_->OnScored(*run.plan,
+                               run.inputs.Values(static_cast<int>(i)),
+                               run.log_odds[i], now);
+      }
+    }
   }
   return absl::OkStatus();
 }
 
-grpc::Status ScoringService::Score(grpc::ServerContext* /*context*/,
+grpc::Status ScoringService::Score(grpc::ServerContext* context,
                                    const v1::ScoreRequest* request,
                                    v1::ScoreReply* reply) {
+  if (grpc::Status s = Admit(context, Role::kScore); !s.ok()) return s;
   absl::StatusOr<PlanPtr> plan = Lookup(request->set());
   if (!plan.ok()) return ToGrpcStatus(plan.status());
   RecordInputs inputs;
   absl::StatusOr<v1::ScoreReply> result =
       ScoreWithPlan(**plan, *request, limits_, &inputs);
   if (!result.ok()) return ToGrpcStatus(result.status());
+  std::vector<ShadowRun> shadows = ScoreShadows<v1::ScoreReply>(
+      request->set(), [&](const scorer::ScoringPlan& shadow,
+                          RecordInputs* shadow_inputs) {
+        return ScoreWithPlan(shadow, *request, limits_, shadow_inputs);
+      });
   v1::Scored* const scored[] = {result->mutable_score()};
-  if (absl::Status s = Record(**plan, inputs, scored); !s.ok()) {
+  if (absl::Status s = Record(**plan, inputs, scored, shadows); !s.ok()) {
     return ToGrpcStatus(s);
   }
   *reply = *std::move(result);
   return grpc::Status::OK;
 }
 
-grpc::Status ScoringService::ScoreBatch(grpc::ServerContext* /*context*/,
+grpc::Status ScoringService::ScoreBatch(grpc::ServerContext* context,
                                         const v1::ScoreBatchRequest* request,
                                         v1::ScoreBatchReply* reply) {
+  if (grpc::Status s = Admit(context, Role::kScore); !s.ok()) return s;
   absl::StatusOr<PlanPtr> plan = Lookup(request->set());
   if (!plan.ok()) return ToGrpcStatus(plan.status());
   RecordInputs inputs;
   absl::StatusOr<v1::ScoreBatchReply> result =
       ScoreBatchWithPlan(**plan, *request, limits_, &inputs);
   if (!result.ok()) return ToGrpcStatus(result.status());
+  std::vector<ShadowRun> shadows = ScoreShadows<v1::ScoreBatchReply>(
+      request->set(), [&](const scorer::ScoringPlan& shadow,
+                          RecordInputs* shadow_inputs) {
+        return ScoreBatchWithPlan(shadow, *request, limits_, shadow_inputs);
+      });
   std::vector<v1::Scored*> scored(result->mutable_scores()->pointer_begin(),
                                   result->mutable_scores()->pointer_end());
-  if (absl::Status s = Record(**plan, inputs, scored); !s.ok()) {
+  if (absl::Status s = Record(**plan, inputs, scored, shadows); !s.ok()) {
     return ToGrpcStatus(s);
   }
   *reply = *std::move(result);
   return grpc::Status::OK;
 }
 
-grpc::Status ScoringService::ListSets(grpc::ServerContext* /*context*/,
+grpc::Status ScoringService::ListSets(grpc::ServerContext* context,
                                       const v1::ListSetsRequest* /*request*/,
                                       v1::ListSetsReply* reply) {
+  if (grpc::Status s = Admit(context, Role::kScore); !s.ok()) return s;
   for (const PlanPtr& plan : registry_->All()) {
     *reply->add_sets() = SummarizeSet(*plan);
   }

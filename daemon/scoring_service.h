@@ -9,11 +9,25 @@
 // without an id gets one here ("<set>-<unix micros>-<n>"), returned in
 // Scored.record_id. Created and registered by DaemonServer.
 //
+// Shadow versions of the set (daemon/lifecycle.h) score the same request
+// after the active version; their scores go to the ledger under the same
+// record ids with role "shadow", in the same transaction, and to the health
+// sink, and are never returned. A shadow that cannot score the request
+// (e.g. it needs a feature the caller did not send) never fails the call:
+// the first failure per version is logged and its rows are left out.
+//
 // Thread-safe: gRPC calls the handlers from many threads; the service keeps no
-// mutable state of its own besides an atomic id counter.
+// mutable state of its own besides an atomic id counter and the set of
+// shadow versions whose failure was logged.
 #ifndef PLUMBLINE_DAEMON_SCORING_SERVICE_H_
 #define PLUMBLINE_DAEMON_SCORING_SERVICE_H_
 
+#include <string>
+#include <vector>
+
+#include "absl/base/thread_annotations.h"
+#include "absl/container/flat_hash_set.h"
+#include "absl/synchronization/mutex.h"
 #include "absl/types/span.h"
 #include "daemon/health_sink.h"
 #include "daemon/ledger.h"
@@ -45,12 +59,29 @@ class ScoringService final : public v1::Scoring::Service {
   // The loaded version of `set`, or INVALID_ARGUMENT / NOT_FOUND.
   absl::StatusOr<PlanPtr> Lookup(const std::string& set) const;
 
-  // Gives records without an id one, appends every record to the ledger
-  // and, if that succeeded, tells the health sink. `scores[i]` belongs to
-  // inputs' record i.
+  // One shadow version's scores of a call's records.
+  struct ShadowRun {
+    PlanPtr plan;
+    RecordInputs inputs;
+    std::vector<double> log_odds;
+    std::vector<double> probability;
+  };
+
+  // Runs `score(plan, &inputs)` (the call's own scoring function) for each
+  // shadow of `set` and collects the runs that scored every record.
+  template <typename Reply, typename ScoreFn>
+  std::vector<ShadowRun> ScoreShadows(const std::string& set, ScoreFn score);
+
+  // Gives records without an id one, appends every record (and every shadow
+  // score) to the ledger and, if that succeeded, tells the health sink.
+  // `scores[i]` belongs to inputs' record i.
   absl::Status Record(const scorer::ScoringPlan& plan,
                       const RecordInputs& inputs,
-                      absl::Span<v1::Scored* const> scores);
+                      absl::Span<v1::Scored* const> scores,
+                      const std::vector<ShadowRun>& shadows);
+
+  void LogShadowFailure(const scorer::ScoringPlan& plan,
+                        const absl::Status& status);
 
   // Constant after construction.
   const SetRegistry* const registry_;
@@ -59,6 +90,11 @@ class ScoringService final : public v1::Scoring::Service {
   HealthSink* const health_sink_;
 
   RecordIdGenerator record_ids_;
+
+  absl::Mutex shadow_mu_;
+  // "set\nversion" of shadows whose failure was logged.
+  absl::flat_hash_set<std::string> shadow_failures_logged_
+      ABSL_GUARDED_BY(shadow_mu_);
 };
 
 }  // namespace plumbline::daemon

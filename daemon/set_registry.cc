@@ -44,8 +44,8 @@ absl::StatusOr<PlanPtr> LoadSetFile(const std::string& path) {
   return scorer::ScoringPlan::Compile(*std::move(set), path);
 }
 
-SetRegistry::SetRegistry(std::string sets_dir)
-    : sets_dir_(std::move(sets_dir)) {}
+SetRegistry::SetRegistry(std::string sets_dir, VersionResolver* resolver)
+    : sets_dir_(std::move(sets_dir)), resolver_(resolver) {}
 
 absl::StatusOr<ReloadReport> SetRegistry::Reload() {
   absl::MutexLock reload_lock(&reload_mu_);
@@ -55,15 +55,12 @@ absl::StatusOr<ReloadReport> SetRegistry::Reload() {
              {{"dir", sets_dir_}, {"error", files.status().message()}});
     return files.status();
   }
-  // Only reloads write plans_, and they are serialized by reload_mu_, so this
-  // copy stays current until the swap below.
-  const std::map<std::string, PlanPtr, std::less<>> current = [&] {
-    absl::MutexLock lock(&mu_);
-    return plans_;
-  }();
+  // What the files provided last time: the file that already serves a name
+  // keeps it against a duplicate, and a refused file's set keeps its plan.
+  const PlanMap& current = last_files_;
 
   ReloadReport report;
-  std::map<std::string, PlanPtr, std::less<>> next;
+  PlanMap next;
   std::set<std::string> failed_files;
   for (const std::string& file : *files) {
     absl::StatusOr<PlanPtr> plan = LoadSetFile(file);
@@ -103,6 +100,45 @@ absl::StatusOr<ReloadReport> SetRegistry::Reload() {
              {{"set", name}, {"version", plan->version()},
               {"file", plan->source()}});
   }
+  ServingMap serving;
+  if (resolver_ != nullptr) {
+    absl::StatusOr<ServingMap> resolved = resolver_->Resolve(next);
+    if (!resolved.ok()) {
+      LogEvent(LogLevel::kError, "reload_failed",
+               {{"dir", sets_dir_}, {"error", resolved.status().message()}});
+      return resolved.status();
+    }
+    serving = *std::move(resolved);
+  } else {
+    for (const auto& [name, plan] : next) serving[name].active = plan;
+  }
+  last_files_ = std::move(next);
+  Swap(std::move(serving), report);
+  return report;
+}
+
+absl::StatusOr<ReloadReport> SetRegistry::Refresh() {
+  absl::MutexLock reload_lock(&reload_mu_);
+  ReloadReport report;
+  if (resolver_ == nullptr) return report;
+  absl::StatusOr<ServingMap> resolved = resolver_->Resolve(last_files_);
+  if (!resolved.ok()) return resolved.status();
+  Swap(*std::move(resolved), report);
+  return report;
+}
+
+void SetRegistry::Swap(ServingMap serving, ReloadReport& report) {
+  PlanMap next;
+  std::map<std::string, std::vector<PlanPtr>, std::less<>> next_shadows;
+  for (auto& [name, set] : serving) {
+    next.emplace(name, set.active);
+    if (!set.shadows.empty()) next_shadows.emplace(name, std::move(set.shadows));
+  }
+  // Only reloads and refreshes write plans_, serialized by reload_mu_.
+  const PlanMap current = [&] {
+    absl::MutexLock lock(&mu_);
+    return plans_;
+  }();
   for (const auto& [name, plan] : next) {
     auto old = current.find(name);
     if (old != current.end() && old->second == plan) continue;
@@ -124,21 +160,42 @@ absl::StatusOr<ReloadReport> SetRegistry::Reload() {
     LogEvent(LogLevel::kInfo, "set_unloaded",
              {{"set", name}, {"version", plan->version()},
               {"file", plan->source()},
-              {"reason", "no file in the sets directory provides it"}});
+              {"reason", resolver_ == nullptr
+                             ? "no file in the sets directory provides it"
+                             : "no active version"}});
   }
   {
     absl::MutexLock lock(&mu_);
     plans_.swap(next);
+    shadows_.swap(next_shadows);
   }
   // `next` now holds the old plans; they are freed here unless a request in
   // flight still holds its snapshot.
-  return report;
 }
 
 PlanPtr SetRegistry::Find(absl::string_view name) const {
   absl::MutexLock lock(&mu_);
   auto it = plans_.find(name);
   return it == plans_.end() ? nullptr : it->second;
+}
+
+std::vector<PlanPtr> SetRegistry::Shadows(absl::string_view name) const {
+  absl::MutexLock lock(&mu_);
+  if (shadows_.empty()) return {};
+  auto it = shadows_.find(name);
+  return it == shadows_.end() ? std::vector<PlanPtr>() : it->second;
+}
+
+std::vector<PlanPtr> SetRegistry::AllMonitored() const {
+  absl::MutexLock lock(&mu_);
+  std::vector<PlanPtr> all;
+  for (const auto& [name, plan] : plans_) {
+    all.push_back(plan);
+    if (auto it = shadows_.find(name); it != shadows_.end()) {
+      all.insert(all.end(), it->second.begin(), it->second.end());
+    }
+  }
+  return all;
 }
 
 std::vector<PlanPtr> SetRegistry::All() const {

@@ -1,0 +1,139 @@
+// File: daemon/refit_worker.cc
+#include "daemon/refit_worker.h"
+
+#include <utility>
+
+#include "absl/strings/str_cat.h"
+#include "absl/strings/str_join.h"
+#include "daemon/event_log.h"
+
+namespace plumbline::daemon {
+
+RefitWorker::RefitWorker(RefitRunner* runner, prometheus::Registry* metrics,
+                         std::function<absl::Time()> now)
+    : runner_(runner), now_(std::move(now)), started_(now_()) {
+  if (metrics != nullptr) {
+    jobs_metric_ = &prometheus::BuildCounter()
+                        .Name("plumbline_refit_jobs_total")
+                        .Help("Refit jobs finished, by set and result: "
+                              "promoted, proposed (waiting for approval), "
+                              "not_better (lost on the holdout) or failed.")
+                        .Register(*metrics);
+  }
+  thread_ = std::thread([this] { Loop(); });
+}
+
+RefitWorker::~RefitWorker() {
+  {
+    absl::MutexLock lock(&mu_);
+    stopping_ = true;
+    for (const std::shared_ptr<Job>& job : queue_) {
+      job->outcome.result = RefitOutcome::Result::kFailed;
+      job->outcome.summary = "plumbd is shutting down; the job did not run";
+      job->done = true;
+    }
+    queue_.clear();
+  }
+  thread_.join();
+}
+
+std::shared_ptr<RefitWorker::Job> RefitWorker::Enqueue(RefitTrigger trigger) {
+  auto job = std::make_shared<Job>();
+  job->id = next_id_++;
+  pending_.insert(trigger.set);
+  job->trigger = std::move(trigger);
+  queue_.push_back(job);
+  LogEvent(LogLevel::kInfo, "refit_queued",
+           {{"set", job->trigger.set}, {"job", absl::StrCat(job->id)},
+            {"trigger", job->trigger.kind}});
+  return job;
+}
+
+void RefitWorker::OnEvaluated(const std::vector<v1::SetHealth>& health,
+                              const std::vector<std::string>& active_versions) {
+  const RefitSettings& settings = runner_->settings();
+  if (settings.mode == v1::RefitPolicy::OFF) return;
+  const absl::Time now = now_();
+  absl::MutexLock lock(&mu_);
+  if (stopping_) return;
+  for (const v1::SetHealth& h : health) {
+    // Only the active version's state starts a refit, not a shadow's.
+    const std::string key = absl::StrCat(h.set(), "\n", h.version());
+    bool active = false;
+    for (const std::string& a : active_versions) active = active || a == key;
+    if (!active || pending_.contains(h.set())) continue;
+    if (h.state() != v1::DRIFTING && settings.schedule == absl::ZeroDuration()) {
+      continue;
+    }
+    if (runner_->HasWaitingCandidate(h.set())) continue;
+    if (settings.schedule > absl::ZeroDuration()) {
+      auto [it, inserted] = last_scheduled_.try_emplace(h.set(), started_);
+      if (now - it->second >= settings.schedule) {
+        it->second = now;
+        Enqueue({h.set(), "schedule", "",
+                 absl::StrCat("scheduled every ",
+                              absl::FormatDuration(settings.schedule))});
+        continue;
+      }
+    }
+    if (h.state() != v1::DRIFTING) continue;
+    if (auto it = last_ended_.find(h.set());
+        it != last_ended_.end() && now - it->second < settings.cooldown) {
+      continue;
+    }
+    std::vector<std::string> reasons;
+    for (const v1::DriftReason& r : h.reasons()) {
+      if (r.state() == v1::DRIFTING) reasons.push_back(r.text());
+    }
+    Enqueue({h.set(), "drift", "",
+             absl::StrCat("drifting: ", absl::StrJoin(reasons, "; "))});
+  }
+}
+
+RefitOutcome RefitWorker::RunNow(RefitTrigger trigger) {
+  absl::MutexLock lock(&mu_);
+  if (stopping_) {
+    return {RefitOutcome::Result::kFailed, std::nullopt,
+            "plumbd is shutting down"};
+  }
+  std::shared_ptr<Job> job = Enqueue(std::move(trigger));
+  mu_.Await(absl::Condition(+[](Job* j) { return j->done; }, job.get()));
+  return job->outcome;
+}
+
+int64_t RefitWorker::finished() const {
+  absl::MutexLock lock(&mu_);
+  return finished_;
+}
+
+void RefitWorker::Loop() {
+  for (;;) {
+    std::shared_ptr<Job> job;
+    {
+      absl::MutexLock lock(&mu_);
+      mu_.Await(absl::Condition(
+          +[](RefitWorker* w) {
+            return w->stopping_ || !w->queue_.empty();
+          },
+          this));
+      if (stopping_) return;
+      job = queue_.front();
+      queue_.pop_front();
+    }
+    RefitOutcome outcome = runner_->Run(job->trigger, job->id);
+    if (jobs_metric_ != nullptr) {
+      jobs_metric_
+          ->Add({{"set", job->trigger.set},
+                 {"result", std::string(RefitResultName(outcome.result))}})
+          .Increment();
+    }
+    absl::MutexLock lock(&mu_);
+    pending_.erase(job->trigger.set);
+    last_ended_[job->trigger.set] = now_();
+    ++finished_;
+    job->outcome = std::move(outcome);
+    job->done = true;
+  }
+}
+
+}  // namespace plumbline::daemon
