@@ -171,6 +171,15 @@ bool InHoldout(absl::string_view record_id, double holdout_fraction) {
     h ^= c;
     h *= 1099511628211ull;
   }
+  // FNV-1a alone leaves the high bits of similar ids ("parcel-000123",
+  // "parcel-000124") close together; MurmurHash3's 64-bit finalizer mixes
+  // every input bit into every output bit, so the share held out is the
+  // fraction asked for.
+  h ^= h >> 33;
+  h *= 0xff51afd7ed558ccdull;
+  h ^= h >> 33;
+  h *= 0xc4ceb9fe1a85ec53ull;
+  h ^= h >> 33;
   return static_cast<double>(h >> 11) * 0x1.0p-53 < holdout_fraction;
 }
 

@@ -6,8 +6,9 @@
 //
 //   1. Data: the most recent `window_labelled` labelled records the active
 //      role of the set scored (any version), their features as received.
-//   2. Holdout: a record is held out when the FNV-1a hash of its id, as a
-//      fraction of 2^64, is below holdout_fraction: the same record always
+//   2. Holdout: a record is held out when the FNV-1a hash of its id, mixed
+//      by MurmurHash3's 64-bit finalizer, as a fraction of 2^64, is below
+//      holdout_fraction: the same record always
 //      falls on the same side, in every job and on every machine.
 //   3. Fit: the active version's features with the same kinds and missing
 //      rules; transforms, levels (including levels the active version never

@@ -5,8 +5,8 @@ usage: lifecycle_check.py LEDGER SET VERSION HOLDOUT_FRACTION
 
 Reads the labelled records the active role of SET scored (SQLite, the
 ledger_scores view joined to outcomes), splits them with the documented
-holdout rule (FNV-1a 64 of the record id, as a fraction of 2**64, below
-HOLDOUT_FRACTION: daemon/refit_job.h) and prints, as JSON, the number of
+holdout rule (FNV-1a 64 of the record id mixed by MurmurHash3's fmix64, as
+a fraction of 2**64, below HOLDOUT_FRACTION: daemon/refit_job.h) and prints, as JSON, the number of
 records on each side and the log-loss of VERSION's stored scores on the
 holdout by scikit-learn's sklearn.metrics.log_loss.
 """
@@ -19,11 +19,18 @@ from scipy.special import expit
 from sklearn.metrics import log_loss
 
 
-def fnv1a64(text: str) -> int:
+def holdout_hash(text: str) -> int:
+    """FNV-1a 64 of the id, then MurmurHash3's fmix64 finalizer."""
+    mask = (1 << 64) - 1
     h = 14695981039346656037
     for byte in text.encode("utf-8"):
         h ^= byte
-        h = (h * 1099511628211) % (1 << 64)
+        h = (h * 1099511628211) & mask
+    h ^= h >> 33
+    h = (h * 0xff51afd7ed558ccd) & mask
+    h ^= h >> 33
+    h = (h * 0xc4ceb9fe1a85ec53) & mask
+    h ^= h >> 33
     return h
 
 
@@ -43,7 +50,7 @@ def main() -> None:
             continue
         seen.add(record_id)
         # (h >> 11) * 2**-53: the top 53 bits as a double in [0, 1).
-        if (fnv1a64(record_id) >> 11) * 2.0 ** -53 < fraction:
+        if (holdout_hash(record_id) >> 11) * 2.0 ** -53 < fraction:
             if set_version != version:
                 raise SystemExit(f"{record_id} was scored by {set_version}")
             z.append(log_odds)

@@ -261,6 +261,9 @@ TEST_F(LifecycleTest, DriftRefitApproveSteadyRollbackAudit) {
   EXPECT_EQ(reference.fields().at("train").number_value() +
                 reference.fields().at("holdout").number_value(),
             4000);
+  // The split holds out the share asked for: within 4 binomial standard
+  // deviations (sqrt(4000 * 0.3 * 0.7) = 29) of 1200.
+  EXPECT_NEAR(static_cast<double>(holdout), 1200.0, 4 * 29.0) << comparison;
 
   // Approve: the candidate serves at once.
   ProcessResult approve = Plumbctl({"approve", "--set", kSet, "--version",
