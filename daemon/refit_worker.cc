@@ -1,6 +1,12 @@
 // File: daemon/refit_worker.cc
 #include "daemon/refit_worker.h"
 
+#include <sys/resource.h>
+#include <sys/syscall.h>
+#include <unistd.h>
+
+#include <cerrno>
+#include <cstring>
 #include <utility>
 
 #include "absl/strings/str_cat.h"
@@ -8,6 +14,12 @@
 #include "daemon/event_log.h"
 
 namespace plumbline::daemon {
+namespace {
+
+// Nice value of the refit thread (the request path keeps 0).
+constexpr int kRefitNice = 10;
+
+}  // namespace
 
 RefitWorker::RefitWorker(RefitRunner* runner, prometheus::Registry* metrics,
                          std::function<absl::Time()> now)
@@ -107,6 +119,14 @@ int64_t RefitWorker::finished() const {
 }
 
 void RefitWorker::Loop() {
+  // Refits yield the CPU to the request path: on Linux the nice value is per
+  // thread, so only this thread runs at the lower priority. Failure (e.g. a
+  // sandbox that forbids it) only costs that preference.
+  if (setpriority(PRIO_PROCESS, static_cast<id_t>(syscall(SYS_gettid)),
+                  kRefitNice) != 0) {
+    LogEvent(LogLevel::kWarning, "refit_priority_unchanged",
+             {{"error", std::strerror(errno)}});
+  }
   for (;;) {
     std::shared_ptr<Job> job;
     {

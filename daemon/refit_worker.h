@@ -1,7 +1,7 @@
 // File: daemon/refit_worker.h
 //
 // Runs refit jobs (daemon/refit_job.h) on one thread of their own, off the
-// request path, one at a time, and decides when the drift policy or the
+// request path and at nice 10, one at a time, and decides when the drift policy or the
 // schedule starts one:
 //   - drift: after each evaluation, a set whose active version is in state
 //     `drifting` gets a job unless mode is OFF, a job for it is queued or
