@@ -108,45 +108,36 @@ grpc::Status RegistryService::LoadCandidate(
   return Reply(lifecycle_->AddCandidate(std::move(version)), reply);
 }
 
-grpc::Status RegistryService::Activate(grpc::ServerContext* context,
-                                       const v1::VersionRequest* request,
-                                       v1::VersionInfo* reply) {
+grpc::Status RegistryService::ChangeVersion(
+    grpc::ServerContext* context, const v1::VersionRequest& request,
+    absl::StatusOr<VersionRecord> (Lifecycle::*change)(const StateChange&),
+    v1::VersionInfo* reply) {
   if (grpc::Status s = Admit(context, Role::kAdmin); !s.ok()) return s;
-  if (absl::Status s = CheckTarget(request->set(), request->version(), true);
+  if (absl::Status s = CheckTarget(request.set(), request.version(), true);
       !s.ok()) {
     return ToGrpcStatus(s);
   }
-  return Reply(lifecycle_->Activate({request->set(), request->version(),
-                                     Actor(request->actor()),
-                                     request->reason()}),
+  return Reply((lifecycle_->*change)({request.set(), request.version(),
+                                      Actor(request.actor()), request.reason()}),
                reply);
+}
+
+grpc::Status RegistryService::Activate(grpc::ServerContext* context,
+                                       const v1::VersionRequest* request,
+                                       v1::VersionInfo* reply) {
+  return ChangeVersion(context, *request, &Lifecycle::Activate, reply);
 }
 
 grpc::Status RegistryService::Approve(grpc::ServerContext* context,
                                       const v1::VersionRequest* request,
                                       v1::VersionInfo* reply) {
-  if (grpc::Status s = Admit(context, Role::kAdmin); !s.ok()) return s;
-  if (absl::Status s = CheckTarget(request->set(), request->version(), true);
-      !s.ok()) {
-    return ToGrpcStatus(s);
-  }
-  return Reply(lifecycle_->Approve({request->set(), request->version(),
-                                    Actor(request->actor()),
-                                    request->reason()}),
-               reply);
+  return ChangeVersion(context, *request, &Lifecycle::Approve, reply);
 }
 
 grpc::Status RegistryService::Shadow(grpc::ServerContext* context,
                                      const v1::VersionRequest* request,
                                      v1::VersionInfo* reply) {
-  if (grpc::Status s = Admit(context, Role::kAdmin); !s.ok()) return s;
-  if (absl::Status s = CheckTarget(request->set(), request->version(), true);
-      !s.ok()) {
-    return ToGrpcStatus(s);
-  }
-  return Reply(lifecycle_->Shadow({request->set(), request->version(),
-                                   Actor(request->actor()), request->reason()}),
-               reply);
+  return ChangeVersion(context, *request, &Lifecycle::Shadow, reply);
 }
 
 grpc::Status RegistryService::Rollback(grpc::ServerContext* context,

@@ -51,6 +51,12 @@ class RegistryService final : public v1::Registry::Service {
                      v1::AuditReply* reply) override;
 
  private:
+  // Activate, Approve and Shadow: admission, checks, then `change`.
+  grpc::Status ChangeVersion(
+      grpc::ServerContext* context, const v1::VersionRequest& request,
+      absl::StatusOr<VersionRecord> (Lifecycle::*change)(const StateChange&),
+      v1::VersionInfo* reply);
+
   Lifecycle* const lifecycle_;
   RefitWorker* const refits_;
 };

@@ -111,7 +111,7 @@ class HealthEndToEndTest : public ::testing::Test {
     auto plumbd = PlumbdProcess::Start(dir_.path(), {"--config", config});
     ASSERT_TRUE(plumbd.ok()) << plumbd.status();
     plumbd_ = *std::move(plumbd);
-    metrics_addr_ = MetricsAddress(plumbd_->Log());
+    metrics_addr_ = plumbd_->MetricsAddress();
     ASSERT_FALSE(metrics_addr_.empty()) << plumbd_->Log();
     auto channel =
         grpc::CreateChannel(plumbd_->addr(), grpc::InsecureChannelCredentials());
@@ -120,18 +120,6 @@ class HealthEndToEndTest : public ::testing::Test {
     monitor_ = v1::Monitor::NewStub(channel);
   }
   void TearDown() override { plumbd_.reset(); }
-
-  // HOST:PORT from the "event=metrics_listening addr=..." log line.
-  static std::string MetricsAddress(const std::string& log) {
-    for (absl::string_view line : absl::StrSplit(log, '\n')) {
-      if (line.find("event=metrics_listening") == absl::string_view::npos) continue;
-      const size_t at = line.find("addr=");
-      if (at == absl::string_view::npos) continue;
-      absl::string_view addr = line.substr(at + 5);
-      return std::string(addr.substr(0, addr.find(' ')));
-    }
-    return "";
-  }
 
   // Scores one phase's records in batches of 500 and reports their outcomes;
   // returns the probabilities plumbd answered, in order.

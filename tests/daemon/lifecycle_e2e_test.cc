@@ -155,21 +155,10 @@ class LifecycleTest : public ::testing::Test {
 
   std::optional<double> Metric(const std::string& name,
                                const std::map<std::string, std::string>& labels) {
-    const std::string addr = MetricsAddress();
+    const std::string addr = plumbd_->MetricsAddress();
     absl::StatusOr<std::string> body = testing::HttpGet(addr, "/metrics");
     if (!body.ok()) return std::nullopt;
     return FindSample(ParseExposition(*body), name, labels);
-  }
-
-  std::string MetricsAddress() {
-    for (absl::string_view line : absl::StrSplit(plumbd_->Log(), '\n')) {
-      if (!absl::StrContains(line, "event=metrics_listening")) continue;
-      const size_t at = line.find("addr=");
-      if (at == absl::string_view::npos) continue;
-      absl::string_view addr = line.substr(at + 5);
-      return std::string(addr.substr(0, addr.find(' ')));
-    }
-    return "";
   }
 
   TempDir dir_;

@@ -205,6 +205,17 @@ absl::StatusOr<int> PlumbdProcess::WaitForExit() {
 
 std::string PlumbdProcess::Log() const { return ReadTextFile(log_path_); }
 
+std::string PlumbdProcess::MetricsAddress() const {
+  for (absl::string_view line : absl::StrSplit(Log(), '\n')) {
+    if (!absl::StrContains(line, "event=metrics_listening")) continue;
+    const size_t at = line.find("addr=");
+    if (at == absl::string_view::npos) continue;
+    absl::string_view addr = line.substr(at + 5);
+    return std::string(addr.substr(0, addr.find(' ')));
+  }
+  return "";
+}
+
 int PlumbdProcess::CountLogLines(absl::string_view needle) const {
   int count = 0;
   for (absl::string_view line : absl::StrSplit(Log(), '\n')) {

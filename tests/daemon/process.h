@@ -86,6 +86,9 @@ class PlumbdProcess {
   std::string Log() const;
   // Number of log lines containing `needle`.
   int CountLogLines(absl::string_view needle) const;
+  // HOST:PORT of the metrics endpoint, from the "event=metrics_listening
+  // addr=..." log line (key=value log format); "" before that line.
+  std::string MetricsAddress() const;
 
  private:
   PlumbdProcess(pid_t pid, std::string log_path)

@@ -76,18 +76,6 @@ bool WaitFor(const std::function<bool()>& condition) {
   return true;
 }
 
-// HOST:PORT from plumbd's "event=metrics_listening addr=..." log line.
-std::string MetricsAddress(const std::string& log) {
-  for (absl::string_view line : absl::StrSplit(log, '\n')) {
-    if (!absl::StrContains(line, "event=metrics_listening")) continue;
-    const size_t at = line.find("addr=");
-    if (at == absl::string_view::npos) continue;
-    absl::string_view addr = line.substr(at + 5);
-    return std::string(addr.substr(0, addr.find(' ')));
-  }
-  return "";
-}
-
 // `text` with the one occurrence of `from` replaced by `to`; an error naming
 // `file` if `from` occurs other than exactly once.
 absl::StatusOr<std::string> ReplaceOnce(const std::string& text,
@@ -212,7 +200,7 @@ class PrometheusEndToEndTest : public ::testing::Test {
     auto plumbd = PlumbdProcess::Start(dir_.path(), {"--config", config});
     ASSERT_TRUE(plumbd.ok()) << plumbd.status();
     plumbd_ = *std::move(plumbd);
-    metrics_addr_ = MetricsAddress(plumbd_->Log());
+    metrics_addr_ = plumbd_->MetricsAddress();
     ASSERT_FALSE(metrics_addr_.empty()) << plumbd_->Log();
   }
 
