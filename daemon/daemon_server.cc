@@ -1,17 +1,19 @@
 // File: daemon/daemon_server.cc
 #include "daemon/daemon_server.h"
 
-#include <chrono>
-#include <utility>
-
+#include <grpc/grpc.h>
 #include <grpcpp/health_check_service_interface.h>
 #include <grpcpp/security/server_credentials.h>
-#include <grpc/grpc.h>
 #include <grpcpp/server_builder.h>
+
+#include <chrono>
+#include <utility>
 
 #include "absl/status/status.h"
 #include "absl/strings/str_cat.h"
 #include "daemon/event_log.h"
+#include "daemon/server_settings.h"
+#include "daemon/transport_security.h"
 
 namespace plumbline::daemon {
 
@@ -31,17 +33,20 @@ DaemonServer::DaemonServer(SetRegistry* registry, ScoringLimits limits,
 absl::StatusOr<std::unique_ptr<DaemonServer>> DaemonServer::Start(
     const DaemonOptions& options, SetRegistry* registry, Ledger* ledger,
     ServerAttachments attachments) {
+  // Checked first: a refused transport must not leave a half-built server.
+  absl::StatusOr<ServerTransport> transport =
+      ServerTransportFor(options.listen, options.security);
+  if (!transport.ok()) return transport.status();
   ScoringLimits limits;
   limits.max_batch_records = options.max_batch_records;
   limits.max_reasons = options.max_reasons;
-  std::unique_ptr<DaemonServer> daemon(new DaemonServer(
-      registry, limits, ledger, attachments.health_sink));
+  std::unique_ptr<DaemonServer> daemon(
+      new DaemonServer(registry, limits, ledger, attachments.health_sink));
 
   grpc::EnableDefaultHealthCheckService(true);
   grpc::ServerBuilder builder;
   int port = 0;
-  builder.AddListeningPort(options.listen, grpc::InsecureServerCredentials(),
-                           &port);
+  builder.AddListeningPort(options.listen, transport->credentials, &port);
   // gRPC sets SO_REUSEPORT by default, which would let a second plumbd bind
   // the same port and silently share the traffic; refuse that instead.
   builder.AddChannelArgument(GRPC_ARG_ALLOW_REUSEPORT, 0);
@@ -54,11 +59,7 @@ absl::StatusOr<std::unique_ptr<DaemonServer>> DaemonServer::Start(
     builder.experimental().SetInterceptorCreators(
         std::move(attachments.interceptors));
   }
-  const int max_bytes = options.max_message_bytes > 0x7fffffffu
-                            ? 0x7fffffff
-                            : static_cast<int>(options.max_message_bytes);
-  builder.SetMaxReceiveMessageSize(max_bytes);
-  builder.SetMaxSendMessageSize(max_bytes);
+  ApplyServerSettings(options.grpc, options.max_message_bytes, &builder);
   daemon->server_ = builder.BuildAndStart();
   if (daemon->server_ == nullptr || port == 0) {
     return absl::UnavailableError(absl::StrCat(
@@ -66,6 +67,17 @@ absl::StatusOr<std::unique_ptr<DaemonServer>> DaemonServer::Start(
         " (address in use, or not a HOST:PORT this machine has?)"));
   }
   daemon->bound_address_ = BoundAddress(options.listen, port);
+  LogEvent(LogLevel::kInfo, "grpc_transport",
+           {{"addr", daemon->bound_address_},
+            {"mode", transport->mode},
+            {"reflection", options.grpc.reflection() ? "on" : "off"}});
+  if (transport->mode == "plaintext" && !IsLoopbackListen(options.listen)) {
+    LogEvent(LogLevel::kWarning, "plaintext_non_loopback",
+             {{"addr", daemon->bound_address_},
+              {"effect",
+               "records, scores and bearer tokens cross the network "
+               "unencrypted (security.allow_plaintext_non_loopback is true)"}});
+  }
 
   grpc::HealthCheckServiceInterface* health =
       daemon->server_->GetHealthCheckService();
@@ -84,24 +96,24 @@ absl::StatusOr<std::unique_ptr<DaemonServer>> DaemonServer::Start(
 void DaemonServer::Reload() {
   absl::StatusOr<ReloadReport> report = registry_->Reload();
   if (!report.ok()) return;  // logged by the registry; nothing changed
-  {
-    absl::MutexLock lock(&mu_);
-    if (!shut_down_) {
-      grpc::HealthCheckServiceInterface* health =
-          server_->GetHealthCheckService();
-      for (const std::string& name : report->unloaded) {
-        health->SetServingStatus(name, false);
-      }
-      for (const std::string& name : report->loaded) {
-        health->SetServingStatus(name, true);
-      }
-    }
-  }
+  UpdateHealth(*report);
   LogEvent(LogLevel::kInfo, "reload_done",
            {{"sets", absl::StrCat(registry_->Names().size())},
             {"loaded", absl::StrCat(report->loaded.size())},
             {"unloaded", absl::StrCat(report->unloaded.size())},
             {"rejected", absl::StrCat(report->rejected_files.size())}});
+}
+
+void DaemonServer::UpdateHealth(const ReloadReport& report) {
+  absl::MutexLock lock(&mu_);
+  if (shut_down_) return;
+  grpc::HealthCheckServiceInterface* health = server_->GetHealthCheckService();
+  for (const std::string& name : report.unloaded) {
+    health->SetServingStatus(name, false);
+  }
+  for (const std::string& name : report.loaded) {
+    health->SetServingStatus(name, true);
+  }
 }
 
 void DaemonServer::Shutdown(absl::Duration deadline) {

@@ -10,6 +10,11 @@
 //   <set name>               SERVING while that set is loaded, NOT_SERVING
 //                            after a reload unloads it
 // Shutdown turns every name NOT_SERVING before the server stops taking calls.
+// The transport follows options.security (daemon/transport_security.h: TLS,
+// mutual TLS, or plain text only on loopback unless allowed) and the server
+// settings options.grpc (daemon/server_settings.h: keepalive, reflection);
+// Start logs event=grpc_transport with the mode. Access control is not set
+// here: the handlers call Admit (daemon/access_control.h).
 //
 //   auto server = DaemonServer::Start(options, &registry, ledger.get());
 //   ... (*server)->Reload(); ... (*server)->Shutdown(absl::Seconds(5));
@@ -20,13 +25,13 @@
 #ifndef PLUMBLINE_DAEMON_DAEMON_SERVER_H_
 #define PLUMBLINE_DAEMON_DAEMON_SERVER_H_
 
+#include <grpcpp/server.h>
+#include <grpcpp/support/server_interceptor.h>
+
 #include <memory>
 #include <string>
 #include <utility>
 #include <vector>
-
-#include <grpcpp/server.h>
-#include <grpcpp/support/server_interceptor.h>
 
 #include "absl/base/thread_annotations.h"
 #include "absl/status/statusor.h"
@@ -63,7 +68,9 @@ class DaemonServer {
  public:
   // Builds and starts the server on options.listen. `registry` must already
   // be loaded; `registry` and `ledger` must outlive the server. UNAVAILABLE
-  // if the address cannot be bound.
+  // if the address cannot be bound; INVALID_ARGUMENT or NOT_FOUND naming the
+  // config field if options.security's TLS files are wrong or plain text
+  // is refused on a non-loopback address.
   static absl::StatusOr<std::unique_ptr<DaemonServer>> Start(
       const DaemonOptions& options, SetRegistry* registry, Ledger* ledger,
       ServerAttachments attachments = {});
@@ -76,6 +83,10 @@ class DaemonServer {
 
   // Reloads the registry and updates the per-set health names.
   void Reload();
+
+  // Updates the per-set health names after the registry changed in another
+  // way (a lifecycle refresh: activation, rollback).
+  void UpdateHealth(const ReloadReport& report);
 
   // Turns all health names NOT_SERVING, then stops the server: calls in
   // flight may run until `deadline` from now, later ones are refused.

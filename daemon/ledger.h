@@ -6,7 +6,9 @@
 // rows and, under the default acknowledgement, wait until the transaction
 // holding them has committed, so an RPC that returned OK has its rows on
 // disk. A full queue refuses new rows at once with RESOURCE_EXHAUSTED rather
-// than growing without bound.
+// than growing without bound. The fsync that makes a commit durable and the
+// WAL checkpoints run on their own threads (daemon/wal_io.h), so the writer
+// builds the next group while the last one is being synced.
 //
 //   auto ledger = Ledger::Open(LedgerOptions{.path = "var/ledger.db"});
 //   absl::Status st = (*ledger)->AppendScores({entry});        // committed
@@ -45,6 +47,8 @@
 namespace plumbline::daemon {
 
 class LedgerSetIds;
+class WalCheckpointer;
+class WalSyncer;
 
 struct LedgerOptions {
   // SQLite file; its directory is created if missing.
@@ -57,8 +61,10 @@ struct LedgerOptions {
   enum class Ack { kCommitted, kQueued };
   // When AppendScores returns; see the file comment. Safe choice first.
   Ack ack = Ack::kCommitted;
-  // synchronous=FULL (true: durable on power loss) or NORMAL (false: durable
-  // when the process dies, may lose the last commits on power loss).
+  // true: a commit is acknowledged after the WAL is fsynced (what
+  // synchronous=FULL does, done by WalSyncer off the writer thread): durable
+  // on power loss. false: synchronous=NORMAL alone, durable when the process
+  // dies, may lose the last commits on power loss.
   bool durable_commits = true;
   // Scores older than this (and their outcomes) are deleted; infinite keeps all.
   absl::Duration retention_age = absl::InfiniteDuration();
@@ -173,6 +179,9 @@ class Ledger {
   absl::Status Enqueue(const std::shared_ptr<Job>& job);
   void WriterLoop();
   absl::Status RunGroup(std::vector<std::shared_ptr<Job>>& group);
+  // Counts a group's commit (when `st` is OK) and acknowledges its jobs.
+  void Finish(const std::vector<std::shared_ptr<Job>>& group, absl::Status st,
+              absl::Time start, size_t rows);
   absl::Status WriteOutcome(const OutcomeEntry& o, OutcomeResult& result);
   absl::Status ApplyRetention();
 
@@ -181,6 +190,9 @@ class Ledger {
   std::unique_ptr<SqliteDb> writer_db_;   // used by the writer thread only
   std::unique_ptr<Statements> stmts_;     // writer thread only
   std::unique_ptr<LedgerSetIds> set_ids_;  // writer thread only
+  // Both thread-safe; syncer_ is null unless durable_commits.
+  std::unique_ptr<WalCheckpointer> checkpointer_;
+  std::unique_ptr<WalSyncer> syncer_;
   std::function<void(absl::Duration, size_t)> commit_observer_;
 
   mutable absl::Mutex mu_;

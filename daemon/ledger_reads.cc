@@ -61,9 +61,12 @@ absl::Status Ledger::ForEachScore(const std::string& set_name, int64_t limit,
                                   const std::function<void(const ScoreEntry&)>& fn) {
   return ReadRows(
       options_.path,
+      // Newest id first, stopping at the limit (schema 4 has no index by set
+      // and time); CROSS JOIN keeps scores the outer loop so the planner
+      // cannot choose a scan of the whole set followed by a sort.
       "SELECT s.record_id, ss.set_name, ss.set_version, ss.role, s.scored_at_us,"
       " s.log_odds, s.probability, s.features FROM scores s"
-      " JOIN score_sets ss ON ss.id = s.set_id"
+      " CROSS JOIN score_sets ss ON ss.id = s.set_id"
       " WHERE ss.set_name = ?1 AND s.scored_at_us >= ?2"
       " ORDER BY s.id DESC LIMIT ?3",
       set_name, limit, since, [&fn](const SqliteStatement& s) {

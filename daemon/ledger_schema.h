@@ -6,12 +6,13 @@
 // plumbd opens in a later one. A ledger newer than this build is refused
 // rather than written with a schema it does not know.
 //
-// Tables (version 3):
+// Tables (version 4):
 //   score_sets(id, set_name, set_version, role)   UNIQUE (name, version, role)
 //   scores(id, record_id, set_id -> score_sets.id, scored_at_us, log_odds,
 //          probability, features)              features: JSON as received
-//     indexes scores_by_record(record_id), scores_by_set_time(set_id,
-//     scored_at_us)
+//     index scores_by_record(record_id); ids grow with scored_at_us, so
+//     reads by time walk the id order (version 4 dropped the index
+//     scores_by_set_time that versions 1-3 kept, for ingest speed)
 //   outcomes(record_id PRIMARY KEY, label 0/1, observed_at_us, reported_at_us)
 //     WITHOUT ROWID; index outcomes_by_time(observed_at_us)
 //   view ledger_scores: scores joined to their set name, version and role

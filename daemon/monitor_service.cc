@@ -3,6 +3,7 @@
 
 #include <utility>
 
+#include "daemon/access_control.h"
 #include "daemon/grpc_status.h"
 #include "daemon/scoring_core.h"
 
@@ -13,8 +14,10 @@ MonitorService::MonitorService(const SetRegistry* registry,
     : registry_(registry), monitor_(monitor) {}
 
 grpc::Status MonitorService::GetSetHealth(
-    grpc::ServerContext* /*context*/, const v1::GetSetHealthRequest* request,
+    grpc::ServerContext* context, const v1::GetSetHealthRequest* request,
     v1::SetHealth* reply) {
+  // Read-only figures a scoring service may watch: the score role suffices.
+  if (grpc::Status s = Admit(context, Role::kScore); !s.ok()) return s;
   if (absl::Status s = CheckSetName(request->set()); !s.ok()) {
     return ToGrpcStatus(s);
   }

@@ -10,6 +10,7 @@
 #include "absl/status/statusor.h"
 #include "absl/strings/str_cat.h"
 #include "absl/time/time.h"
+#include "daemon/access_control.h"
 #include "daemon/event_log.h"
 #include "daemon/grpc_status.h"
 
@@ -77,8 +78,9 @@ void OutcomesService::Notify(const OutcomeResult& result) const {
 }
 
 grpc::Status OutcomesService::ReportOutcome(
-    grpc::ServerContext* /*context*/, const v1::ReportOutcomeRequest* request,
+    grpc::ServerContext* context, const v1::ReportOutcomeRequest* request,
     v1::ReportOutcomeReply* reply) {
+  if (grpc::Status s = Admit(context, Role::kScore); !s.ok()) return s;
   absl::StatusOr<OutcomeEntry> entry =
       ToOutcomeEntry(request->outcome(), "outcome");
   if (!entry.ok()) return ToGrpcStatus(entry.status());
@@ -97,8 +99,9 @@ grpc::Status OutcomesService::ReportOutcome(
 }
 
 grpc::Status OutcomesService::ReportOutcomes(
-    grpc::ServerContext* /*context*/, const v1::ReportOutcomesRequest* request,
+    grpc::ServerContext* context, const v1::ReportOutcomesRequest* request,
     v1::ReportOutcomesReply* reply) {
+  if (grpc::Status s = Admit(context, Role::kScore); !s.ok()) return s;
   const int count = request->outcomes_size();
   if (count == 0) {
     return ToGrpcStatus(absl::InvalidArgumentError(

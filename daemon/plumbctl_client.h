@@ -1,15 +1,25 @@
 // File: daemon/plumbctl_client.h
 //
 // plumbctl's connection to a running plumbd: the Scoring, Outcomes and
-// Monitor stubs with a deadline on every call, and errors turned into absl::Status whose
-// message says which daemon could not be reached.
+// Monitor stubs with a deadline on every call, and errors turned into
+// absl::Status whose message says which daemon could not be reached.
 //
 //   ScoringClient client("127.0.0.1:7390", absl::Seconds(10));
 //   absl::StatusOr<v1::ListSetsReply> sets = client.ListSets();
 //   OutcomesClient outcomes("127.0.0.1:7390", absl::Seconds(10));
 //   MonitorClient monitor("127.0.0.1:7390", absl::Seconds(10));
 //
+// How plumbctl reaches plumbd (TLS files, bearer token) is set once,
+// process-wide, by plumbctl's main from --tls_ca, --tls_cert, --tls_key and
+// --token / PLUMBLINE_TOKEN, before any client is made; every channel to
+// plumbd is made by NewPlumbdChannel, which applies it (the token goes out
+// as `authorization: Bearer <token>` metadata on every call).
+//
+//   if (absl::Status s = SetClientSecurity(security); !s.ok()) ...
+//   auto stub = v1::Registry::NewStub(NewPlumbdChannel(addr));
+//
 // Thread-safe: yes (the gRPC stub is); each call has its own context.
+// SetClientSecurity must not run while clients are being made.
 #ifndef PLUMBLINE_DAEMON_PLUMBCTL_CLIENT_H_
 #define PLUMBLINE_DAEMON_PLUMBCTL_CLIENT_H_
 
@@ -18,11 +28,34 @@
 
 #include "absl/status/statusor.h"
 #include "absl/time/time.h"
+#include "daemon/transport_security.h"
 #include "plumbline/v1/monitor.grpc.pb.h"
 #include "plumbline/v1/outcomes.grpc.pb.h"
 #include "plumbline/v1/scoring.grpc.pb.h"
 
 namespace plumbline::daemon {
+
+struct ClientSecurity {
+  // TLS to plumbd; off (plain text) unless ca_file or cert_file is set.
+  ClientTlsFiles tls;
+  // Bearer token sent on every call; empty sends none.
+  std::string token;
+};
+
+// Makes `security` the process-wide way to reach plumbd. INVALID_ARGUMENT
+// naming the flag if a TLS file is wrong or the token holds characters
+// that cannot travel as gRPC metadata.
+absl::Status SetClientSecurity(const ClientSecurity& security);
+
+// A channel to plumbd at `addr` with the process-wide security, the
+// token interceptor and plumbctl's message-size limits.
+std::shared_ptr<grpc::Channel> NewPlumbdChannel(const std::string& addr);
+
+// A failed call's status for plumbctl's output: the address added to
+// errors about reaching plumbd, and a hint about --tls_ca or --token where
+// plumbctl's own flags may be the cause.
+absl::Status FromPlumbdStatus(const grpc::Status& status,
+                              const std::string& addr);
 
 class ScoringClient {
  public:

@@ -31,6 +31,7 @@
 #include "absl/strings/str_cat.h"
 #include "absl/synchronization/mutex.h"
 #include "absl/time/time.h"
+#include "daemon/access_control.h"
 #include "daemon/daemon_options.h"
 #include "daemon/daemon_server.h"
 #include "daemon/event_log.h"
@@ -117,6 +118,7 @@ int Run() {
     // for no fixed port: the metrics endpoint takes a free one too.
     options.metrics_listen = BoundAddress(options.listen, 0);
   }
+  ConfigureEventLog(options.log);
   absl::StatusOr<HealthMonitorOptions> health_options =
       HealthMonitorOptionsFrom(options.windows, options.drift_policy);
   if (!health_options.ok()) return Fail("config_failed", health_options.status());
@@ -176,8 +178,14 @@ int Run() {
   // Metrics: destroyed before the ledger (whose queue gauge it reads) and
   // the monitor; the ledger's commit metrics outlive it.
   absl::StatusOr<std::unique_ptr<MetricsExporter>> exporter =
-      MetricsExporter::Start(options.metrics_listen);
+      MetricsExporter::Start(options.metrics_listen,
+                             options.security.metrics_auth());
   if (!exporter.ok()) return Fail("startup_failed", exporter.status());
+  if (absl::Status s = InstallAccessControl(options.security.access(),
+                                            (*exporter)->shared_registry());
+      !s.ok()) {
+    return Fail("config_failed", s);
+  }
   ExportLedgerMetrics(ledger->get(), exporter->get());
   (*exporter)->Add(std::make_shared<HealthMetrics>(monitor->get()));
   RequestMetrics request_metrics((*exporter)->registry());

@@ -41,7 +41,7 @@ void ScoringService::LogShadowFailure(const scorer::ScoringPlan& plan,
   LogEvent(LogLevel::kWarning, "shadow_failed",
            {{"set", plan.name()},
             {"version", plan.version()},
-            {"error", status.message()},
+            RecordValueField("error", status.message()),
             {"effect", "this shadow's scores of such requests are not kept; "
                        "logged once per version"}});
 }

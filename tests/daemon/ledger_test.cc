@@ -2,6 +2,7 @@
 
 #include <atomic>
 #include <filesystem>
+#include <string>
 #include <thread>
 #include <vector>
 
@@ -199,6 +200,71 @@ TEST_F(LedgerTest, MigratesAVersion1LedgerKeepingItsRows) {
   ASSERT_TRUE(results.ok());
   EXPECT_TRUE((*results)[0].repeat);
   EXPECT_EQ(*(*db)->QueryInt64("SELECT observed_at_us FROM outcomes"), 7);
+}
+
+TEST_F(LedgerTest, MigratesAVersion3LedgerDroppingTheSetTimeIndex) {
+  // A version 3 ledger: today's tables plus the index scores_by_set_time
+  // that version 4 drops.
+  {
+    auto ledger = OpenLedger();
+    ASSERT_NE(ledger, nullptr);
+    ASSERT_TRUE(ledger->AppendScores({Score("kept-1"), Score("kept-2", 0.7)}).ok());
+  }
+  {
+    auto db = SqliteDb::Open(options_.path);
+    ASSERT_TRUE(db.ok());
+    ASSERT_TRUE((*db)->Exec(
+        "CREATE INDEX scores_by_set_time ON scores(set_id, scored_at_us);"
+        "PRAGMA user_version = 3;").ok());
+  }
+  auto ledger = OpenLedger();
+  ASSERT_NE(ledger, nullptr);
+  auto db = SqliteDb::Open(options_.path);
+  EXPECT_EQ(*(*db)->QueryInt64("PRAGMA user_version"), Ledger::SchemaVersion());
+  EXPECT_EQ(*(*db)->QueryInt64("SELECT COUNT(*) FROM sqlite_schema"
+                               " WHERE name = 'scores_by_set_time'"),
+            0);
+  // The rows are still there and read newest first.
+  std::vector<ScoreEntry> read;
+  ASSERT_TRUE(ledger
+                  ->ForEachScore("courier", 10, absl::InfinitePast(),
+                                 [&](const ScoreEntry& e) { read.push_back(e); })
+                  .ok());
+  ASSERT_EQ(read.size(), 2u);
+  EXPECT_EQ(read[0].record_id, "kept-2");
+  EXPECT_EQ(read[1].record_id, "kept-1");
+}
+
+TEST_F(LedgerTest, ForEachScoreKeepsToItsSetTimeAndLimit) {
+  auto ledger = OpenLedger();
+  ASSERT_NE(ledger, nullptr);
+  std::vector<ScoreEntry> scores;
+  for (int i = 0; i < 6; ++i) {
+    ScoreEntry e = Score(absl::StrCat("r", i));
+    e.scored_at = absl::FromUnixSeconds(1000 + i);
+    if (i % 2 == 1) e.set_name = "other";
+    scores.push_back(e);
+  }
+  ASSERT_TRUE(ledger->AppendScores(scores).ok());
+  std::vector<std::string> ids;
+  auto collect = [&](const ScoreEntry& e) { ids.push_back(e.record_id); };
+  ASSERT_TRUE(ledger->ForEachScore("courier", 2, absl::InfinitePast(), collect).ok());
+  EXPECT_EQ(ids, (std::vector<std::string>{"r4", "r2"}));
+  ids.clear();
+  ASSERT_TRUE(ledger->ForEachScore("courier", 10, absl::FromUnixSeconds(1002),
+                                   collect).ok());
+  EXPECT_EQ(ids, (std::vector<std::string>{"r4", "r2"}));
+}
+
+TEST_F(LedgerTest, RelaxedCommitsAreCommittedToo) {
+  options_.durable_commits = false;
+  {
+    auto ledger = OpenLedger();
+    ASSERT_NE(ledger, nullptr);
+    ASSERT_TRUE(ledger->AppendScores({Score("a"), Score("b")}).ok());
+    EXPECT_EQ(ledger->stats().committed_rows, 2);
+  }
+  EXPECT_EQ(Count("scores"), 2);
 }
 
 TEST_F(LedgerTest, RefusesANewerSchema) {
