@@ -1,21 +1,35 @@
 #!/usr/bin/env python3
 """Recomputes a refit job's holdout figures from plumbd's ledger.
 
-usage: lifecycle_check.py LEDGER SET VERSION HOLDOUT_FRACTION
+usage: lifecycle_check.py LEDGER SET VERSION HOLDOUT_FRACTION [OUT_DIR]
+       lifecycle_check.py --compare OUT_DIR SCORED_CSV
 
 Reads the labelled records the active role of SET scored (SQLite, the
 ledger_scores view joined to outcomes), splits them with the documented
 holdout rule (FNV-1a 64 of the record id mixed by MurmurHash3's fmix64, as
 a fraction of 2**64, below HOLDOUT_FRACTION: daemon/refit_job.h) and prints, as JSON, the number of
 records on each side and the log-loss of VERSION's stored scores on the
-holdout by scikit-learn's sklearn.metrics.log_loss.
+holdout by scikit-learn's sklearn.metrics.log_loss. With OUT_DIR it also
+writes the held-out records as OUT_DIR/holdout.csv (record_id and the stored
+feature values; null -> empty cell) with their labels and VERSION's log-odds
+(OUT_DIR/holdout.json), and the newest candidate's document from the ledger
+as OUT_DIR/candidate.json, for `plumbctl score --set-file`.
+
+--compare reads those and the candidate's scores of holdout.csv (SCORED_CSV,
+written by plumbctl score) and prints the paired comparison of the two
+versions on the holdout: log-losses (sklearn.metrics.log_loss), the mean
+per-record difference, its standard error (scipy.stats.sem) and the 95%
+interval with scipy.stats.norm.ppf(0.975).
 """
+import csv
 import json
+import os
 import sqlite3
 import sys
 
 import numpy as np
-from scipy.special import expit
+from scipy.special import expit, log_expit
+from scipy.stats import norm, sem
 from sklearn.metrics import log_loss
 
 
@@ -34,18 +48,45 @@ def holdout_hash(text: str) -> int:
     return h
 
 
+def compare(out_dir: str, scored_csv: str) -> None:
+    with open(os.path.join(out_dir, "holdout.json")) as f:
+        held = json.load(f)
+    with open(scored_csv, newline="") as f:
+        candidate = {row["record_id"]: float(row["log_odds"])
+                     for row in csv.DictReader(f)}
+    y = np.array(held["labels"])
+    za = np.array(held["log_odds"])
+    zc = np.array([candidate[r] for r in held["record_ids"]])
+    loss_a = -np.where(y == 1, log_expit(za), log_expit(-za))
+    loss_c = -np.where(y == 1, log_expit(zc), log_expit(-zc))
+    d = loss_c - loss_a
+    half = norm.ppf(0.975) * sem(d)
+    print(json.dumps({
+        "records": int(len(y)),
+        "active_log_loss": float(log_loss(y, expit(za), labels=[0, 1])),
+        "candidate_log_loss": float(log_loss(y, expit(zc), labels=[0, 1])),
+        "difference": float(np.mean(d)),
+        "lower_95": float(np.mean(d) - half),
+        "upper_95": float(np.mean(d) + half),
+    }))
+
+
 def main() -> None:
+    if sys.argv[1] == "--compare":
+        compare(sys.argv[2], sys.argv[3])
+        return
     ledger, set_name, version, fraction = sys.argv[1:5]
+    out_dir = sys.argv[5] if len(sys.argv) > 5 else None
     fraction = float(fraction)
     db = sqlite3.connect(ledger)
     rows = db.execute(
-        "SELECT s.record_id, s.set_version, s.log_odds, o.label"
+        "SELECT s.record_id, s.set_version, s.log_odds, o.label, s.features"
         " FROM ledger_scores s JOIN outcomes o ON o.record_id = s.record_id"
         " WHERE s.set_name = ? AND s.role = 'active'", (set_name,)).fetchall()
     seen = set()
     train = 0
-    z, y = [], []
-    for record_id, set_version, log_odds, label in rows:
+    z, y, ids, features = [], [], [], []
+    for record_id, set_version, log_odds, label, feature_json in rows:
         if record_id in seen:
             continue
         seen.add(record_id)
@@ -55,8 +96,29 @@ def main() -> None:
                 raise SystemExit(f"{record_id} was scored by {set_version}")
             z.append(log_odds)
             y.append(label)
+            ids.append(record_id)
+            features.append(json.loads(feature_json))
         else:
             train += 1
+    if out_dir is not None:
+        (document,) = db.execute(
+            "SELECT document FROM set_versions WHERE set_name = ? AND"
+            " state = 'candidate' ORDER BY created_at_us DESC, version DESC"
+            " LIMIT 1", (set_name,)).fetchone()
+        with open(os.path.join(out_dir, "candidate.json"), "w") as f:
+            f.write(document)
+        names = [feature["name"] for feature in json.loads(document)["features"]]
+        with open(os.path.join(out_dir, "holdout.csv"), "w", newline="") as f:
+            w = csv.writer(f)
+            w.writerow(["record_id"] + names)
+            for record_id, values in zip(ids, features):
+                cells = [record_id]
+                for name in names:
+                    v = values.get(name)
+                    cells.append("" if v is None else str(v))
+                w.writerow(cells)
+        with open(os.path.join(out_dir, "holdout.json"), "w") as f:
+            json.dump({"record_ids": ids, "labels": y, "log_odds": z}, f)
     print(json.dumps({
         "train": train,
         "holdout": len(y),

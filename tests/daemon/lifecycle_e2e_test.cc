@@ -167,20 +167,47 @@ class LifecycleTest : public ::testing::Test {
   std::unique_ptr<v1::Monitor::Stub> monitor_;
 };
 
-// "... holdout of 1200 records: log-loss active V 0.534905, candidate ..."
-void ParseComparison(const std::string& text, int64_t* records,
-                     double* active_log_loss) {
+// The figures of a comparison text: "holdout of 1200 records: log-loss
+// active V 0.534905, candidate 0.486883, difference -0.048021 (95% interval
+// -0.064742 to -0.031301); margin ...".
+struct Comparison {
+  int64_t records = 0;
+  double active = 0, candidate = 0, difference = 0, lower = 0, upper = 0;
+};
+
+Comparison ParseComparison(const std::string& text) {
+  Comparison c;
   std::vector<std::string> words = absl::StrSplit(text, ' ', absl::SkipEmpty());
-  for (size_t i = 0; i + 3 < words.size(); ++i) {
-    if (words[i] == "holdout" && words[i + 1] == "of") {
-      ASSERT_TRUE(absl::SimpleAtoi(words[i + 2], records)) << text;
+  auto number = [&](size_t i, double* out) {
+    std::string value = i < words.size() ? words[i] : "";
+    while (!value.empty() && (value.back() == ',' || value.back() == ')' ||
+                              value.back() == ';')) {
+      value.pop_back();
     }
-    if (words[i] == "log-loss" && words[i + 1] == "active") {
-      std::string value = words[i + 3];
-      if (!value.empty() && value.back() == ',') value.pop_back();
-      ASSERT_TRUE(absl::SimpleAtod(value, active_log_loss)) << text;
+    EXPECT_TRUE(absl::SimpleAtod(value, out)) << "'" << value << "' in " << text;
+  };
+  for (size_t i = 0; i + 1 < words.size(); ++i) {
+    if (words[i] == "holdout" && words[i + 1] == "of") {
+      EXPECT_TRUE(absl::SimpleAtoi(words[i + 2], &c.records)) << text;
+    } else if (words[i] == "active" && words[i - 1] == "log-loss") {
+      number(i + 2, &c.active);
+    } else if (words[i] == "candidate" && words[i - 1] != "log-loss" &&
+               i + 1 < words.size() && absl::EndsWith(words[i + 1], ",")) {
+      number(i + 1, &c.candidate);
+    } else if (words[i] == "difference") {
+      number(i + 1, &c.difference);
+    } else if (words[i] == "interval") {
+      number(i + 1, &c.lower);
+      number(i + 3, &c.upper);
     }
   }
+  return c;
+}
+
+double Field(const google::protobuf::Struct& s, const std::string& key) {
+  auto it = s.fields().find(key);
+  EXPECT_TRUE(it != s.fields().end()) << key;
+  return it == s.fields().end() ? 0 : it->second.number_value();
 }
 
 TEST_F(LifecycleTest, DriftRefitApproveSteadyRollbackAudit) {
@@ -224,35 +251,53 @@ TEST_F(LifecycleTest, DriftRefitApproveSteadyRollbackAudit) {
   }
   ASSERT_FALSE(candidate.empty()) << refit.out;
 
-  // The holdout: records and the active version's log-loss, recomputed from
-  // the ledger (scikit-learn 1.2 sklearn.metrics.log_loss, the documented
-  // FNV-1a split re-implemented in Python).
+  // The holdout comparison recomputed outside plumbd: lifecycle_check.py
+  // re-implements the documented split in Python, takes the active
+  // version's stored log-odds and the candidate's document from the ledger,
+  // the candidate's holdout scores come from `plumbctl score --set-file`,
+  // and the figures from scikit-learn 1.2 sklearn.metrics.log_loss,
+  // scipy.stats.sem and scipy.stats.norm.ppf(0.975).
+  const std::string out_dir = dir_.File("check");
+  std::filesystem::create_directories(out_dir);
   absl::StatusOr<ProcessResult> check = testing::RunProcess(
       {PLUMBLINE_PYTHON, LIFECYCLE_CHECK_PY, dir_.File("ledger.db"), kSet,
-       original, kHoldoutFraction},
+       original, kHoldoutFraction, out_dir},
       dir_.path());
   ASSERT_TRUE(check.ok()) << check.status();
   ASSERT_EQ(check->exit_code, 0) << check->err;
+  google::protobuf::Struct split;
+  ASSERT_TRUE(
+      google::protobuf::util::JsonStringToMessage(check->out, &split).ok())
+      << check->out;
+  EXPECT_EQ(Field(split, "train") + Field(split, "holdout"), 4000);
+  ProcessResult offline =
+      Plumbctl({"score", "--set-file", out_dir + "/candidate.json", "--csv",
+                out_dir + "/holdout.csv", "--out", out_dir + "/scored.csv"});
+  ASSERT_EQ(offline.exit_code, 0) << offline.err;
+  absl::StatusOr<ProcessResult> recomputed = testing::RunProcess(
+      {PLUMBLINE_PYTHON, LIFECYCLE_CHECK_PY, "--compare", out_dir,
+       out_dir + "/scored.csv"},
+      dir_.path());
+  ASSERT_TRUE(recomputed.ok()) << recomputed.status();
+  ASSERT_EQ(recomputed->exit_code, 0) << recomputed->err;
   google::protobuf::Struct reference;
   ASSERT_TRUE(
-      google::protobuf::util::JsonStringToMessage(check->out, &reference).ok())
-      << check->out;
-  int64_t holdout = 0;
-  double active_log_loss = 0;
-  ParseComparison(comparison, &holdout, &active_log_loss);
-  EXPECT_EQ(holdout, static_cast<int64_t>(
-                         reference.fields().at("holdout").number_value()))
+      google::protobuf::util::JsonStringToMessage(recomputed->out, &reference).ok())
+      << recomputed->out;
+  const Comparison got = ParseComparison(comparison);
+  EXPECT_EQ(got.records, static_cast<int64_t>(Field(reference, "records")))
       << comparison;
-  // Printed with 6 decimals.
-  EXPECT_NEAR(active_log_loss,
-              reference.fields().at("active_log_loss").number_value(), 5.1e-7)
-      << comparison;
-  EXPECT_EQ(reference.fields().at("train").number_value() +
-                reference.fields().at("holdout").number_value(),
-            4000);
+  EXPECT_EQ(got.records, static_cast<int64_t>(Field(split, "holdout")));
+  // plumbd prints 6 decimals.
+  constexpr double kPrinted = 5.1e-7;
+  EXPECT_NEAR(got.active, Field(reference, "active_log_loss"), kPrinted);
+  EXPECT_NEAR(got.candidate, Field(reference, "candidate_log_loss"), kPrinted);
+  EXPECT_NEAR(got.difference, Field(reference, "difference"), kPrinted);
+  EXPECT_NEAR(got.lower, Field(reference, "lower_95"), kPrinted);
+  EXPECT_NEAR(got.upper, Field(reference, "upper_95"), kPrinted);
   // The split holds out the share asked for: within 4 binomial standard
   // deviations (sqrt(4000 * 0.3 * 0.7) = 29) of 1200.
-  EXPECT_NEAR(static_cast<double>(holdout), 1200.0, 4 * 29.0) << comparison;
+  EXPECT_NEAR(static_cast<double>(got.records), 1200.0, 4 * 29.0) << comparison;
 
   // Approve: the candidate serves at once.
   ProcessResult approve = Plumbctl({"approve", "--set", kSet, "--version",
