@@ -61,13 +61,14 @@ std::shared_ptr<RefitWorker::Job> RefitWorker::Enqueue(RefitTrigger trigger) {
   return job;
 }
 
-void RefitWorker::OnEvaluated(const std::vector<v1::SetHealth>& health,
+int RefitWorker::OnEvaluated(const std::vector<v1::SetHealth>& health,
                               const std::vector<std::string>& active_versions) {
   const RefitSettings& settings = runner_->settings();
-  if (settings.mode == v1::RefitPolicy::OFF) return;
+  if (settings.mode == v1::RefitPolicy::OFF) return 0;
   const absl::Time now = now_();
   absl::MutexLock lock(&mu_);
-  if (stopping_) return;
+  if (stopping_) return 0;
+  int queued = 0;
   for (const v1::SetHealth& h : health) {
     // Only the active version's state starts a refit, not a shadow's.
     const std::string key = absl::StrCat(h.set(), "\n", h.version());
@@ -85,6 +86,7 @@ void RefitWorker::OnEvaluated(const std::vector<v1::SetHealth>& health,
         Enqueue({h.set(), "schedule", "",
                  absl::StrCat("scheduled every ",
                               absl::FormatDuration(settings.schedule))});
+        ++queued;
         continue;
       }
     }
@@ -99,7 +101,9 @@ void RefitWorker::OnEvaluated(const std::vector<v1::SetHealth>& health,
     }
     Enqueue({h.set(), "drift", "",
              absl::StrCat("drifting: ", absl::StrJoin(reasons, "; "))});
+    ++queued;
   }
+  return queued;
 }
 
 RefitOutcome RefitWorker::RunNow(RefitTrigger trigger) {

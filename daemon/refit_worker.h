@@ -55,8 +55,10 @@ class RefitWorker {
   RefitWorker& operator=(const RefitWorker&) = delete;
 
   // Starts drift- and schedule-triggered jobs as the file comment says.
-  // `health`: the last evaluation of every monitored version.
-  void OnEvaluated(const std::vector<v1::SetHealth>& health,
+  // `health`: the last evaluation of every monitored version;
+  // `active_versions_by_set`: "set\nversion" of each active version.
+  // Returns how many jobs it queued.
+  int OnEvaluated(const std::vector<v1::SetHealth>& health,
                    const std::vector<std::string>& active_versions_by_set);
 
   // Queues a job and waits for its outcome.
