@@ -184,6 +184,10 @@ class Ledger {
               absl::Time start, size_t rows);
   absl::Status WriteOutcome(const OutcomeEntry& o, OutcomeResult& result);
   absl::Status ApplyRetention();
+  // SQLite's WAL hook on the writer connection (after each commit, with the
+  // WAL's size in pages): asks for checkpoints.
+  static int OnWalCommit(void* ledger, sqlite3* db, const char* name,
+                         int frames);
 
   // Constant after Open.
   const LedgerOptions options_;
@@ -203,6 +207,7 @@ class Ledger {
 
   // Writer thread only.
   absl::Time last_retention_ = absl::InfinitePast();
+  int wal_frames_ = 0;  // the WAL's size after the last commit
 
   std::thread writer_;
 };

@@ -13,18 +13,22 @@
 //                    syncs the WAL after each commit, NORMAL does not, and
 //                    both keep the database consistent), so an acknowledged
 //                    row is on disk as before; one fdatasync covers every
-//                    commit handed over before it began.
+//                    commit handed over before it began. Unlike FULL, other
+//                    connections may read a commit a few ms before its
+//                    fsync; nothing is acknowledged before it.
 //   WalCheckpointer  copies the WAL back into the database file (a PASSIVE
 //                    checkpoint, which never blocks the writer) on its own
 //                    connection and thread when the writer's WAL hook asks
 //                    for one, instead of SQLite's automatic checkpoint, which
 //                    runs inside the writer's COMMIT and fsyncs twice.
 //
-// Measured with tests/bench/ledger_bench (2-core machine, 1000-row groups):
-// the fsync of a commit took 3-5 ms and the automatic checkpoints added
-// about as much again, against 2.5 us of writer CPU per row.
+// Measured with tests/bench/ledger_bench's rows (2-core machine, 1000-row
+// groups): an fdatasync took 3.9 ms (median; an appending file), the
+// automatic checkpoints added 2-4 us of writer wall time per row, against
+// about 2.2 us of SQLite CPU per row.
 //
-// Thread-safe: After() and Request() may be called from any thread.
+// Thread-safe: After(), Request() and CheckpointOn() may be called from any
+// thread.
 #ifndef PLUMBLINE_DAEMON_WAL_IO_H_
 #define PLUMBLINE_DAEMON_WAL_IO_H_
 
@@ -88,11 +92,19 @@ class WalCheckpointer {
   // Asks for a checkpoint soon; requests while one is pending merge.
   void Request();
 
+  // Checkpoints now on `db` (the writer's connection, between its
+  // transactions), after the background checkpoint in progress: SQLite
+  // refuses a second concurrent checkpoint. The WAL starts over only when a
+  // checkpoint has copied all of it before the writer's next transaction
+  // begins, which background checkpoints racing a busy writer rarely do.
+  void CheckpointOn(SqliteDb& db);
+
  private:
   explicit WalCheckpointer(std::unique_ptr<SqliteDb> db) : db_(std::move(db)) {}
   void Loop();
 
   std::unique_ptr<SqliteDb> db_;  // checkpointer thread only
+  absl::Mutex run_mu_;  // held while a checkpoint runs
   absl::Mutex mu_;
   bool wanted_ ABSL_GUARDED_BY(mu_) = false;
   bool stopping_ ABSL_GUARDED_BY(mu_) = false;

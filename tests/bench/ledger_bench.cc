@@ -7,6 +7,11 @@
 // default). Also the cost of building the features JSON per record, by hand
 // (what plumbd does) and through protobuf's JSON printer.
 //
+// The ledger runs with plumbd's default LedgerOptions; only the load
+// changes: 1, 2, 4 or 8 producers, each waiting for the acknowledgement of
+// its batch of 500 before sending the next (rows in flight = producers x
+// 500). 4 producers stand for a busy server (see run_ledger_bench).
+//
 // Driven by tests/bench/run_ledger_bench, which also inserts the same rows
 // with Python's sqlite3 executemany in one transaction and prints the ratio.
 // By hand:
@@ -341,6 +346,9 @@ absl::Status Run(BenchData& data) {
         ->Args({2, 500, 1})
         ->Args({2, 500, 0})
         ->Args({1, 500, 1})
+        ->Args({4, 500, 1})
+        ->Args({8, 500, 1})
+        ->Args({8, 500, 0})
         ->Iterations(1)
         ->UseManualTime()
         ->Unit(benchmark::kMillisecond);

@@ -248,7 +248,8 @@ TEST_F(LedgerTest, ForEachScoreKeepsToItsSetTimeAndLimit) {
   ASSERT_TRUE(ledger->AppendScores(scores).ok());
   std::vector<std::string> ids;
   auto collect = [&](const ScoreEntry& e) { ids.push_back(e.record_id); };
-  ASSERT_TRUE(ledger->ForEachScore("courier", 2, absl::InfinitePast(), collect).ok());
+  ASSERT_TRUE(
+      ledger->ForEachScore("courier", 2, absl::InfinitePast(), collect).ok());
   EXPECT_EQ(ids, (std::vector<std::string>{"r4", "r2"}));
   ids.clear();
   ASSERT_TRUE(ledger->ForEachScore("courier", 10, absl::FromUnixSeconds(1002),
