@@ -14,11 +14,13 @@
 //
 // Waits poll (no timing assertions); each daemon is killed in TearDown.
 #include <algorithm>
+#include <atomic>
 #include <cstdlib>
 #include <filesystem>
 #include <map>
 #include <memory>
 #include <string>
+#include <thread>
 #include <vector>
 
 #include "absl/strings/match.h"
@@ -34,6 +36,7 @@
 #include "gtest/gtest.h"
 #include "plumbline/v1/monitor.grpc.pb.h"
 #include "plumbline/v1/registry.grpc.pb.h"
+#include "plumbline/v1/scoring.grpc.pb.h"
 #include "tests/daemon/health_http.h"
 #include "tests/daemon/process.h"
 
@@ -419,6 +422,70 @@ TEST_F(LifecycleTest, RefitWithTooFewLabelsChangesNothing) {
   EXPECT_EQ(Metric("plumbline_refit_jobs_total",
                    {{"set", kSet}, {"result", "failed"}}),
             1.0);
+}
+
+TEST_F(LifecycleTest, SwapsUnderLoadFailNoRequest) {
+  Start(R"({"mode": "OFF"})");
+  const std::string original = ActiveVersion();
+  // A second version of the same set, loaded as a candidate.
+  std::string json = testing::ReadTextFile(
+      absl::StrCat(DataDir(), "/sets/", kSet, ".json"));
+  const std::string from = absl::StrCat("\"version\": \"", original, "\"");
+  const size_t at = json.find(from);
+  ASSERT_NE(at, std::string::npos) << from;
+  json.replace(at, from.size(), "\"version\": \"swap-test\"");
+  ASSERT_TRUE(testing::WriteTextFile(dir_.File("swap.json"), json).ok());
+  ProcessResult load = Plumbctl({"load", "--set-file", dir_.File("swap.json")});
+  ASSERT_EQ(load.exit_code, 0) << load.err;
+
+  // One client scores batches without pause while the versions swap.
+  std::atomic<bool> stop{false};
+  std::atomic<int> calls{0}, failures{0};
+  std::string first_failure;
+  std::thread client([&] {
+    auto scoring = v1::Scoring::NewStub(grpc::CreateChannel(
+        plumbd_->addr(), grpc::InsecureChannelCredentials()));
+    v1::ScoreBatchRequest request;
+    request.set_set(kSet);
+    for (int i = 0; i < 20; ++i) {
+      auto& f = *request.add_records()->mutable_features()->mutable_fields();
+      f["distance_km"].set_number_value(2.0 + i);
+      f["parcel_weight_kg"].set_number_value(1.5);
+      f["hour_of_day"].set_number_value(10);
+      f["building_type"].set_string_value("flat");
+      f["prior_failed_attempts"].set_number_value(0);
+      f["rainfall_mm"].set_number_value(1.0);
+    }
+    while (!stop) {
+      grpc::ClientContext context;
+      v1::ScoreBatchReply reply;
+      grpc::Status status = scoring->ScoreBatch(&context, request, &reply);
+      ++calls;
+      if (!status.ok() && failures++ == 0) first_failure = status.error_message();
+    }
+  });
+  ASSERT_TRUE(PollUntil([&] { return calls >= 20; }));
+  for (int round = 0; round < 10; ++round) {
+    // Traffic between swaps, so calls overlap every swap.
+    const int before = calls;
+    ASSERT_TRUE(PollUntil([&] { return calls >= before + 5; }));
+    grpc::ClientContext c1;
+    v1::VersionRequest activate;
+    activate.set_set(kSet);
+    activate.set_version("swap-test");
+    v1::VersionInfo info;
+    ASSERT_TRUE(registry_->Activate(&c1, activate, &info).ok());
+    grpc::ClientContext c2;
+    v1::RollbackRequest rollback;
+    rollback.set_set(kSet);
+    ASSERT_TRUE(registry_->Rollback(&c2, rollback, &info).ok());
+    EXPECT_EQ(info.version(), original);
+  }
+  stop = true;
+  client.join();
+  EXPECT_GE(calls.load(), 70);
+  EXPECT_EQ(failures.load(), 0) << first_failure;
+  EXPECT_EQ(ActiveVersion(), original);
 }
 
 }  // namespace
