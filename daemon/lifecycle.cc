@@ -91,6 +91,12 @@ absl::StatusOr<ServingMap> Lifecycle::Resolve(const PlanMap& from_files) {
   const absl::Time now = now_();
   absl::Status written = store_->InTransaction([&]() -> absl::Status {
     for (const auto& [name, plan] : from_files) {
+      // A file plan already recorded (every refresh after the reload that
+      // read it) needs neither the JSON nor the comparison below.
+      if (auto it = plans_.find(Key(name, plan->version()));
+          it != plans_.end() && it->second == plan) {
+        continue;
+      }
       absl::StatusOr<std::string> document =
           scorer::CoefficientSetToJson(plan->set());
       if (!document.ok()) return document.status();

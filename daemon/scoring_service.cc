@@ -21,11 +21,11 @@ ScoringService::ScoringService(const SetRegistry* registry,
       ledger_(ledger),
       health_sink_(health_sink) {}
 
-absl::StatusOr<PlanPtr> ScoringService::Lookup(const std::string& set) const {
+absl::StatusOr<ServingSet> ScoringService::Lookup(const std::string& set) const {
   if (absl::Status s = CheckSetName(set); !s.ok()) return s;
-  PlanPtr plan = registry_->Find(set);
-  if (plan == nullptr) return SetNotFound(set, registry_->Names());
-  return plan;
+  ServingSet serving = registry_->FindServing(set);
+  if (serving.active == nullptr) return SetNotFound(set, registry_->Names());
+  return serving;
 }
 
 void ScoringService::LogShadowFailure(const scorer::ScoringPlan& plan,
@@ -48,9 +48,9 @@ void ScoringService::LogShadowFailure(const scorer::ScoringPlan& plan,
 
 template <typename Reply, typename ScoreFn>
 std::vector<ScoringService::ShadowRun> ScoringService::ScoreShadows(
-    const std::string& set, ScoreFn score) {
+    std::vector<PlanPtr> shadows, ScoreFn score) {
   std::vector<ShadowRun> runs;
-  for (PlanPtr& plan : registry_->Shadows(set)) {
+  for (PlanPtr& plan : shadows) {
     ShadowRun run;
     run.plan = std::move(plan);
     absl::StatusOr<Reply> reply = score(*run.plan, &run.inputs);
@@ -139,19 +139,20 @@ grpc::Status ScoringService::Score(grpc::ServerContext* context,
                                    const v1::ScoreRequest* request,
                                    v1::ScoreReply* reply) {
   if (grpc::Status s = Admit(context, Role::kScore); !s.ok()) return s;
-  absl::StatusOr<PlanPtr> plan = Lookup(request->set());
-  if (!plan.ok()) return ToGrpcStatus(plan.status());
+  absl::StatusOr<ServingSet> serving = Lookup(request->set());
+  if (!serving.ok()) return ToGrpcStatus(serving.status());
+  const PlanPtr& plan = serving->active;
   RecordInputs inputs;
   absl::StatusOr<v1::ScoreReply> result =
-      ScoreWithPlan(**plan, *request, limits_, &inputs);
+      ScoreWithPlan(*plan, *request, limits_, &inputs);
   if (!result.ok()) return ToGrpcStatus(result.status());
   std::vector<ShadowRun> shadows = ScoreShadows<v1::ScoreReply>(
-      request->set(), [&](const scorer::ScoringPlan& shadow,
+      std::move(serving->shadows), [&](const scorer::ScoringPlan& shadow,
                           RecordInputs* shadow_inputs) {
         return ScoreWithPlan(shadow, *request, limits_, shadow_inputs);
       });
   v1::Scored* const scored[] = {result->mutable_score()};
-  if (absl::Status s = Record(**plan, inputs, scored, shadows); !s.ok()) {
+  if (absl::Status s = Record(*plan, inputs, scored, shadows); !s.ok()) {
     return ToGrpcStatus(s);
   }
   *reply = *std::move(result);
@@ -162,20 +163,21 @@ grpc::Status ScoringService::ScoreBatch(grpc::ServerContext* context,
                                         const v1::ScoreBatchRequest* request,
                                         v1::ScoreBatchReply* reply) {
   if (grpc::Status s = Admit(context, Role::kScore); !s.ok()) return s;
-  absl::StatusOr<PlanPtr> plan = Lookup(request->set());
-  if (!plan.ok()) return ToGrpcStatus(plan.status());
+  absl::StatusOr<ServingSet> serving = Lookup(request->set());
+  if (!serving.ok()) return ToGrpcStatus(serving.status());
+  const PlanPtr& plan = serving->active;
   RecordInputs inputs;
   absl::StatusOr<v1::ScoreBatchReply> result =
-      ScoreBatchWithPlan(**plan, *request, limits_, &inputs);
+      ScoreBatchWithPlan(*plan, *request, limits_, &inputs);
   if (!result.ok()) return ToGrpcStatus(result.status());
   std::vector<ShadowRun> shadows = ScoreShadows<v1::ScoreBatchReply>(
-      request->set(), [&](const scorer::ScoringPlan& shadow,
+      std::move(serving->shadows), [&](const scorer::ScoringPlan& shadow,
                           RecordInputs* shadow_inputs) {
         return ScoreBatchWithPlan(shadow, *request, limits_, shadow_inputs);
       });
   std::vector<v1::Scored*> scored(result->mutable_scores()->pointer_begin(),
                                   result->mutable_scores()->pointer_end());
-  if (absl::Status s = Record(**plan, inputs, scored, shadows); !s.ok()) {
+  if (absl::Status s = Record(*plan, inputs, scored, shadows); !s.ok()) {
     return ToGrpcStatus(s);
   }
   *reply = *std::move(result);

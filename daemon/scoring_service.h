@@ -57,7 +57,7 @@ class ScoringService final : public v1::Scoring::Service {
 
  private:
   // The loaded version of `set`, or INVALID_ARGUMENT / NOT_FOUND.
-  absl::StatusOr<PlanPtr> Lookup(const std::string& set) const;
+  absl::StatusOr<ServingSet> Lookup(const std::string& set) const;
 
   // One shadow version's scores of a call's records.
   struct ShadowRun {
@@ -68,9 +68,10 @@ class ScoringService final : public v1::Scoring::Service {
   };
 
   // Runs `score(plan, &inputs)` (the call's own scoring function) for each
-  // shadow of `set` and collects the runs that scored every record.
+  // of `shadows` and collects the runs that scored every record.
   template <typename Reply, typename ScoreFn>
-  std::vector<ShadowRun> ScoreShadows(const std::string& set, ScoreFn score);
+  std::vector<ShadowRun> ScoreShadows(std::vector<PlanPtr> shadows,
+                                      ScoreFn score);
 
   // Gives records without an id one, appends every record (and every shadow
   // score) to the ledger and, if that succeeded, tells the health sink.

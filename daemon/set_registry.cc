@@ -186,6 +186,20 @@ std::vector<PlanPtr> SetRegistry::Shadows(absl::string_view name) const {
   return it == shadows_.end() ? std::vector<PlanPtr>() : it->second;
 }
 
+ServingSet SetRegistry::FindServing(absl::string_view name) const {
+  absl::MutexLock lock(&mu_);
+  ServingSet serving;
+  if (auto it = plans_.find(name); it != plans_.end()) {
+    serving.active = it->second;
+  }
+  if (!shadows_.empty()) {
+    if (auto it = shadows_.find(name); it != shadows_.end()) {
+      serving.shadows = it->second;
+    }
+  }
+  return serving;
+}
+
 std::vector<PlanPtr> SetRegistry::AllMonitored() const {
   absl::MutexLock lock(&mu_);
   std::vector<PlanPtr> all;

@@ -98,6 +98,10 @@ class SetRegistry {
   // The shadow versions of `name` (usually none).
   std::vector<PlanPtr> Shadows(absl::string_view name) const;
 
+  // The active version of `name` and its shadows, from one snapshot (active
+  // is nullptr when the set is not loaded). The request path's one lookup.
+  ServingSet FindServing(absl::string_view name) const;
+
   // All active versions, sorted by name.
   std::vector<PlanPtr> All() const;
 
