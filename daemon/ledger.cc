@@ -8,6 +8,7 @@
 
 #include "absl/strings/str_cat.h"
 #include "absl/synchronization/notification.h"
+#include "daemon/ledger_lookup.h"
 #include "daemon/ledger_schema.h"
 #include "daemon/ledger_set_ids.h"
 #include "daemon/wal_io.h"
@@ -18,6 +19,16 @@ struct Ledger::Job {
   std::vector<ScoreEntry> scores;
   std::vector<OutcomeEntry> outcomes;
   std::vector<OutcomeResult> results;
+  // Per outcome, what ReportOutcomes did before queueing it.
+  enum Checked : uint8_t {
+    kUnchecked,  // for the writer to look up
+    kFound,      // its scores are in results[i].labelled
+    kRefused,    // invalid; results[i].status says why
+  };
+  std::vector<uint8_t> checked;
+  // Ledger::retention_passes_ before the lookups: if retention ran since,
+  // it may have deleted scores found, and the writer looks again.
+  int64_t retention_passes = 0;
   absl::Status status;
   absl::Notification done;
   size_t rows() const { return scores.size() + outcomes.size(); }
@@ -38,13 +49,18 @@ constexpr int kCheckpointFrames = 1000;
 // 400,000-row run; with this, 17 MB); most pages are copied already.
 constexpr int kWriterCheckpointFrames = 4 * kCheckpointFrames;
 constexpr int kScoreColumns = 6;
+// Outcomes, likewise, per INSERT.
+constexpr int kOutcomesPerInsert = 128;
+constexpr int kOutcomeColumns = 4;
 
 struct Ledger::Statements {
   std::unique_ptr<SqliteStatement> insert_score;
   std::unique_ptr<SqliteStatement> insert_scores;  // kScoresPerInsert rows
   std::unique_ptr<SqliteStatement> find_outcome;
-  std::unique_ptr<SqliteStatement> find_scores;
+  std::unique_ptr<SqliteStatement> find_scores;  // kFindScoresSql
   std::unique_ptr<SqliteStatement> insert_outcome;
+  std::unique_ptr<SqliteStatement> insert_outcomes;  // kOutcomesPerInsert rows
+  std::unique_ptr<SqliteStatement> savepoint, rollback_to, release;
   std::unique_ptr<SqliteStatement> begin;
   std::unique_ptr<SqliteStatement> commit;
   std::unique_ptr<SqliteStatement> rollback;
@@ -53,7 +69,6 @@ struct Ledger::Statements {
 namespace {
 
 int64_t Micros(absl::Time t) { return absl::ToUnixMicros(t); }
-absl::Time FromMicros(int64_t us) { return absl::FromUnixMicros(us); }
 
 // Binds `e` with its set id to parameters first + 1 .. first +
 // kScoreColumns. The text is not copied: the job owns `e` until it is
@@ -117,14 +132,13 @@ absl::StatusOr<std::unique_ptr<Ledger>> Ledger::Open(LedgerOptions options) {
        "INSERT INTO scores(record_id, set_id, scored_at_us, log_odds,"
        " probability, features) VALUES (?1,?2,?3,?4,?5,?6)"},
       {&s->find_outcome, "SELECT label FROM outcomes WHERE record_id = ?1"},
-      {&s->find_scores,
-       "SELECT ss.set_name, ss.set_version, ss.role, s.log_odds, s.probability,"
-       " s.scored_at_us, s.features FROM scores s"
-       " JOIN score_sets ss ON ss.id = s.set_id"
-       " WHERE s.record_id = ?1 ORDER BY s.id"},
+      {&s->find_scores, kFindScoresSql},
       {&s->insert_outcome,
        "INSERT INTO outcomes(record_id, label, observed_at_us, reported_at_us)"
        " VALUES (?1,?2,?3,?4) ON CONFLICT(record_id) DO NOTHING"},
+      {&s->savepoint, "SAVEPOINT outcomes"},
+      {&s->rollback_to, "ROLLBACK TO outcomes"},
+      {&s->release, "RELEASE outcomes"},
       {&s->begin, "BEGIN IMMEDIATE"},
       {&s->commit, "COMMIT"},
       {&s->rollback, "ROLLBACK"},
@@ -143,10 +157,20 @@ absl::StatusOr<std::unique_ptr<Ledger>> Ledger::Open(LedgerOptions options) {
   auto stmt = w.Prepare(many);
   if (!stmt.ok()) return stmt.status();
   s->insert_scores = *std::move(stmt);
+  many = "INSERT INTO outcomes(record_id, label, observed_at_us, reported_at_us)"
+         " VALUES ";
+  for (int r = 0; r < kOutcomesPerInsert; ++r) {
+    absl::StrAppend(&many, r == 0 ? "" : ",", "(?,?,?,?)");
+  }
+  absl::StrAppend(&many, " ON CONFLICT(record_id) DO NOTHING");
+  stmt = w.Prepare(many);
+  if (!stmt.ok()) return stmt.status();
+  s->insert_outcomes = *std::move(stmt);
   auto set_ids = LedgerSetIds::Create(w);
   if (!set_ids.ok()) return set_ids.status();
   ledger->set_ids_ = *std::move(set_ids);
   ledger->stmts_ = std::move(s);
+  ledger->lookup_ = std::make_unique<ScoreLookup>(ledger->options_.path);
   ledger->writer_ = std::thread([l = ledger.get()] { l->WriterLoop(); });
   return ledger;
 }
@@ -219,8 +243,29 @@ absl::StatusOr<std::vector<OutcomeResult>> Ledger::ReportOutcomes(
     std::vector<OutcomeEntry> outcomes) {
   auto job = std::make_shared<Job>();
   job->outcomes = std::move(outcomes);
-  job->results.resize(job->outcomes.size());
-  if (job->outcomes.empty()) return std::move(job->results);
+  const size_t n = job->outcomes.size();
+  job->results.resize(n);
+  if (n == 0) return std::move(job->results);
+  // The checks and the lookups run here, on the caller's thread, so that
+  // callers do them in parallel and the writer only inserts.
+  job->checked.assign(n, Job::kUnchecked);
+  std::vector<uint8_t> wanted(n, 0);
+  for (size_t i = 0; i < n; ++i) {
+    absl::Status invalid = CheckOutcome(job->outcomes[i]);
+    if (!invalid.ok()) {
+      job->results[i].status = std::move(invalid);
+      job->checked[i] = Job::kRefused;
+    } else {
+      wanted[i] = 1;
+    }
+  }
+  job->retention_passes = retention_passes_.load(std::memory_order_acquire);
+  std::vector<uint8_t> found(n, 0);
+  // On an error nothing is marked found and the writer looks them up.
+  lookup_->Find(job->outcomes, wanted, job->results, found).IgnoreError();
+  for (size_t i = 0; i < n; ++i) {
+    if (found[i]) job->checked[i] = Job::kFound;
+  }
   if (absl::Status st = Enqueue(job); !st.ok()) return st;
   job->done.WaitForNotification();
   if (!job->status.ok()) return job->status;
@@ -269,6 +314,8 @@ void Ledger::WriterLoop() {
       // Retention failing leaves extra rows, never loses acknowledged ones;
       // the next interval tries again.
       ApplyRetention().IgnoreError();
+      // After the pass's commit: a lookup that began before it is redone.
+      retention_passes_.fetch_add(1, std::memory_order_release);
     }
     if (wal_frames_ >= kWriterCheckpointFrames) {
       checkpointer_->CheckpointOn(*writer_db_);
@@ -328,73 +375,118 @@ absl::Status Ledger::RunGroup(std::vector<std::shared_ptr<Job>>& group) {
     BindScore(*s.insert_score, 0, *scores[next], set_ids[next]);
     st = s.insert_score->Run();
   }
-  for (auto& job : group) {
-    if (!st.ok()) break;
-    for (size_t i = 0; st.ok() && i < job->outcomes.size(); ++i) {
-      job->results[i] = OutcomeResult{};
-      st = WriteOutcome(job->outcomes[i], job->results[i]);
-    }
-    if (!st.ok()) break;
-  }
+  if (st.ok()) st = WriteOutcomes(group);
   if (st.ok()) st = s.commit->Run();
   if (!st.ok()) {
     s.rollback->Run().IgnoreError();  // the original error is what matters
     set_ids_->Forget();  // the rollback may have undone new score_sets rows
     for (auto& job : group) {
-      for (auto& r : job->results) r = OutcomeResult{};
+      for (size_t i = 0; i < job->results.size(); ++i) {
+        if (job->checked[i] != Job::kRefused) job->results[i] = OutcomeResult{};
+      }
     }
   }
   return st;
 }
 
-absl::Status Ledger::WriteOutcome(const OutcomeEntry& o, OutcomeResult& result) {
-  Statements& s = *stmts_;
+absl::Status Ledger::CheckOutcome(const OutcomeEntry& o) {
   if (o.record_id.empty()) {
-    result.status = absl::InvalidArgumentError("record_id must not be empty");
-    return absl::OkStatus();
+    return absl::InvalidArgumentError("record_id must not be empty");
   }
   if (o.label != 0 && o.label != 1) {
-    result.status = absl::InvalidArgumentError(absl::StrCat(
+    return absl::InvalidArgumentError(absl::StrCat(
         "record '", o.record_id, "': label must be 0 or 1, got ", o.label));
-    return absl::OkStatus();
   }
+  return absl::OkStatus();
+}
+
+absl::Status Ledger::WriteOutcomes(std::vector<std::shared_ptr<Job>>& group) {
+  Statements& s = *stmts_;
   const absl::Time now = options_.now();
-  const absl::Time observed = o.observed_at == absl::InfinitePast() ? now : o.observed_at;
-  // The scores it labels (also the test that the record exists).
-  s.find_scores->BindTextNoCopy(1, o.record_id);
-  for (;;) {
-    auto row = s.find_scores->Step();
-    if (!row.ok()) {
-      s.find_scores->Reset();
-      return row.status();
+  // The outcomes to insert, in queue order, with their observed time.
+  struct Pending {
+    const OutcomeEntry* o;
+    OutcomeResult* result;
+    int64_t observed_us;
+  };
+  std::vector<Pending> pending;
+  for (auto& job : group) {
+    // Scores found before a retention pass deleted some may be gone.
+    const bool stale = job->retention_passes != retention_passes_.load();
+    for (size_t i = 0; i < job->outcomes.size(); ++i) {
+      if (job->checked[i] == Job::kRefused) continue;
+      const OutcomeEntry& o = job->outcomes[i];
+      OutcomeResult& result = job->results[i];
+      if (stale || job->checked[i] != Job::kFound) {
+        // Not found by the caller's lookup: its score may have been
+        // queued with it, and the writer's connection sees this
+        // transaction's rows.
+        result.labelled.clear();
+        absl::StatusOr<bool> any =
+            FindScores(*s.find_scores, o.record_id, o.label, result.labelled);
+        if (!any.ok()) return any.status();
+        if (!*any) {
+          result.status = absl::NotFoundError(absl::StrCat(
+              "no score with record_id '", o.record_id, "' is in the ledger"));
+          continue;
+        }
+      }
+      const absl::Time observed =
+          o.observed_at == absl::InfinitePast() ? now : o.observed_at;
+      for (LabelledScore& l : result.labelled) l.observed_at = observed;
+      pending.push_back(Pending{&o, &result, Micros(observed)});
     }
-    if (!*row) break;
-    const SqliteStatement& q = *s.find_scores;
-    result.labelled.push_back(LabelledScore{
-        o.record_id, q.ColumnText(0), q.ColumnText(1), q.ColumnText(2),
-        q.ColumnDouble(3), q.ColumnDouble(4), o.label,
-        FromMicros(q.ColumnInt64(5)), observed, q.ColumnText(6)});
   }
-  s.find_scores->Reset();
-  if (result.labelled.empty()) {
-    result.status = absl::NotFoundError(absl::StrCat(
-        "no score with record_id '", o.record_id, "' is in the ledger"));
-    return absl::OkStatus();
+  const int64_t now_us = Micros(now);
+  auto bind = [now_us](SqliteStatement& ins, int first, const Pending& p) {
+    ins.BindTextNoCopy(first + 1, p.o->record_id);
+    ins.BindInt64(first + 2, p.o->label);
+    ins.BindInt64(first + 3, p.observed_us);
+    ins.BindInt64(first + 4, now_us);
+  };
+  // Usually every outcome is new and kOutcomesPerInsert go in one
+  // statement. When fewer rows went in than were sent (a repeat, a label
+  // already there, or one record twice in the statement), the statement is
+  // undone and its rows go one by one, so each gets its own answer.
+  size_t next = 0;
+  for (; pending.size() - next >= kOutcomesPerInsert; next += kOutcomesPerInsert) {
+    if (absl::Status st = s.savepoint->Run(); !st.ok()) return st;
+    for (int r = 0; r < kOutcomesPerInsert; ++r) {
+      bind(*s.insert_outcomes, r * kOutcomeColumns, pending[next + r]);
+    }
+    if (absl::Status st = s.insert_outcomes->Run(); !st.ok()) return st;
+    const bool all_new = writer_db_->Changes() == kOutcomesPerInsert;
+    if (!all_new) {
+      if (absl::Status st = s.rollback_to->Run(); !st.ok()) return st;
+    }
+    if (absl::Status st = s.release->Run(); !st.ok()) return st;
+    if (all_new) continue;
+    for (int r = 0; r < kOutcomesPerInsert; ++r) {
+      const Pending& p = pending[next + r];
+      bind(*s.insert_outcome, 0, p);
+      if (absl::Status st = InsertOutcome(*p.o, *p.result); !st.ok()) return st;
+    }
   }
+  for (; next < pending.size(); ++next) {
+    const Pending& p = pending[next];
+    bind(*s.insert_outcome, 0, p);
+    if (absl::Status st = InsertOutcome(*p.o, *p.result); !st.ok()) return st;
+  }
+  return absl::OkStatus();
+}
+
+absl::Status Ledger::InsertOutcome(const OutcomeEntry& o, OutcomeResult& result) {
+  Statements& s = *stmts_;
   // Inserting first and reading the old label only on a conflict saves a
   // lookup for the usual case, a new outcome.
-  s.insert_outcome->BindTextNoCopy(1, o.record_id);
-  s.insert_outcome->BindInt64(2, o.label);
-  s.insert_outcome->BindInt64(3, Micros(observed));
-  s.insert_outcome->BindInt64(4, Micros(now));
   if (absl::Status st = s.insert_outcome->Run(); !st.ok()) return st;
   if (writer_db_->Changes() == 1) return absl::OkStatus();
   result.labelled.clear();  // it labelled them before
   s.find_outcome->BindTextNoCopy(1, o.record_id);
-  auto found = s.find_outcome->Step();
-  const int64_t existing = found.ok() && *found ? s.find_outcome->ColumnInt64(0) : -1;
+  auto old = s.find_outcome->Step();
+  const int64_t existing = old.ok() && *old ? s.find_outcome->ColumnInt64(0) : -1;
   s.find_outcome->Reset();
-  if (!found.ok()) return found.status();
+  if (!old.ok()) return old.status();
   if (existing == o.label) {
     result.repeat = true;
   } else {

@@ -29,6 +29,7 @@
 #ifndef PLUMBLINE_DAEMON_LEDGER_H_
 #define PLUMBLINE_DAEMON_LEDGER_H_
 
+#include <atomic>
 #include <cstdint>
 #include <deque>
 #include <functional>
@@ -47,6 +48,7 @@
 namespace plumbline::daemon {
 
 class LedgerSetIds;
+class ScoreLookup;
 class WalCheckpointer;
 class WalSyncer;
 
@@ -118,7 +120,9 @@ struct OutcomeResult {
   absl::Status status;
   // True when the same label had already been recorded (nothing changed).
   bool repeat = false;
-  // For a new outcome: the scores of that record it now labels.
+  // For a new outcome: the scores of that record it now labels (without
+  // their features_json, which the monitor does not need; refits read them
+  // with Ledger::ForEachLabelled).
   std::vector<LabelledScore> labelled;
 };
 
@@ -182,7 +186,14 @@ class Ledger {
   // Counts a group's commit (when `st` is OK) and acknowledges its jobs.
   void Finish(const std::vector<std::shared_ptr<Job>>& group, absl::Status st,
               absl::Time start, size_t rows);
-  absl::Status WriteOutcome(const OutcomeEntry& o, OutcomeResult& result);
+  // INVALID_ARGUMENT when `o` can never be stored (empty id, label not 0/1).
+  static absl::Status CheckOutcome(const OutcomeEntry& o);
+  // Stores the group's outcomes (after its scores), looking up the scores
+  // the callers did not find.
+  absl::Status WriteOutcomes(std::vector<std::shared_ptr<Job>>& group);
+  // Runs the single-row insert bound for `o`; on a conflict, a repeat or
+  // FAILED_PRECONDITION in `result`.
+  absl::Status InsertOutcome(const OutcomeEntry& o, OutcomeResult& result);
   absl::Status ApplyRetention();
   // SQLite's WAL hook on the writer connection (after each commit, with the
   // WAL's size in pages): asks for checkpoints.
@@ -194,6 +205,7 @@ class Ledger {
   std::unique_ptr<SqliteDb> writer_db_;   // used by the writer thread only
   std::unique_ptr<Statements> stmts_;     // writer thread only
   std::unique_ptr<LedgerSetIds> set_ids_;  // writer thread only
+  std::unique_ptr<ScoreLookup> lookup_;    // thread-safe
   // Both thread-safe; syncer_ is null unless durable_commits.
   std::unique_ptr<WalCheckpointer> checkpointer_;
   std::unique_ptr<WalSyncer> syncer_;
@@ -204,6 +216,9 @@ class Ledger {
   int64_t queued_rows_ ABSL_GUARDED_BY(mu_) = 0;
   bool stopping_ ABSL_GUARDED_BY(mu_) = false;
   LedgerStats stats_ ABSL_GUARDED_BY(mu_);
+
+  // Retention passes run so far (written by the writer after each pass).
+  std::atomic<int64_t> retention_passes_{0};
 
   // Writer thread only.
   absl::Time last_retention_ = absl::InfinitePast();

@@ -148,16 +148,21 @@ absl::Status MakeData(int64_t rows, BenchData& data) {
   return absl::OkStatus();
 }
 
+absl::StatusOr<std::unique_ptr<Ledger>> OpenLedger(const BenchData& data,
+                                                   bool durable) {
+  LedgerOptions options;
+  options.path = absl::StrCat(data.dir, "/bench.db");
+  options.durable_commits = durable;
+  return Ledger::Open(options);
+}
+
 absl::StatusOr<std::unique_ptr<Ledger>> FreshLedger(const BenchData& data,
                                                     bool durable) {
   const std::string path = absl::StrCat(data.dir, "/bench.db");
   for (const char* suffix : {"", "-wal", "-shm"}) {
     std::filesystem::remove(path + suffix);
   }
-  LedgerOptions options;
-  options.path = path;
-  options.durable_commits = durable;
-  return Ledger::Open(options);
+  return OpenLedger(data, durable);
 }
 
 // CPU time of the whole process (every thread), user + system.
@@ -229,6 +234,16 @@ void IngestOutcomes(benchmark::State& state, const BenchData& data) {
       state.SkipWithError("cannot prepare the scores");
       return;
     }
+    // Closed and opened again, so the outcomes start on a checkpointed
+    // ledger holding the scores, as on a server that has been running: the
+    // copy of the scores' 40 MB of WAL into the database belongs to the
+    // scores (Python's reference pays it in the scores' COMMIT too).
+    ledger->reset();
+    ledger = OpenLedger(data, state.range(2) != 0);
+    if (!ledger.ok()) {
+      state.SkipWithError(std::string(ledger.status().message()).c_str());
+      return;
+    }
     std::atomic<int> failures{0};
     const absl::Duration took = Produce(
         data.outcomes, static_cast<int>(state.range(0)),
@@ -242,9 +257,8 @@ void IngestOutcomes(benchmark::State& state, const BenchData& data) {
         cpu);
     if (failures > 0) state.SkipWithError("ReportOutcomes failed");
     state.SetIterationTime(absl::ToDoubleSeconds(took));
-    // Less the commit that stored the scores.
     state.counters["commits"] =
-        static_cast<double>((*ledger)->stats().committed_transactions - 1);
+        static_cast<double>((*ledger)->stats().committed_transactions);
   }
   const auto rows =
       state.iterations() * static_cast<int64_t>(data.outcomes.size());

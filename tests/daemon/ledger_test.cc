@@ -7,6 +7,7 @@
 #include <vector>
 
 #include "absl/strings/str_cat.h"
+#include "absl/time/clock.h"
 #include "gmock/gmock.h"
 #include "gtest/gtest.h"
 
@@ -79,7 +80,12 @@ TEST_F(LedgerTest, OutcomesJoinToScoresWithTheDocumentedCodes) {
   ASSERT_EQ(r[0].labelled.size(), 1u);
   EXPECT_EQ(r[0].labelled[0].log_odds, 0.25);
   EXPECT_EQ(r[0].labelled[0].label, 1);
-  EXPECT_EQ(r[0].labelled[0].features_json, R"({"distance_km":3})");
+  EXPECT_EQ(r[0].labelled[0].set_name, "courier");
+  EXPECT_EQ(r[0].labelled[0].set_version, "v1");
+  EXPECT_EQ(r[0].labelled[0].role, "active");
+  EXPECT_EQ(r[0].labelled[0].scored_at, absl::FromUnixSeconds(1000));
+  // Not read for the monitor (ledger.h); ForEachLabelled gives them.
+  EXPECT_EQ(r[0].labelled[0].features_json, "");
   EXPECT_TRUE(r[1].status.ok());
   EXPECT_TRUE(r[1].repeat);
   EXPECT_TRUE(r[1].labelled.empty());
@@ -111,6 +117,12 @@ TEST_F(LedgerTest, SurvivesReopenAndReadsLabelledNewestFirst) {
                                     [&](const LabelledScore& s) { seen.push_back(s.log_odds); })
                   .ok());
   EXPECT_EQ(seen, (std::vector<double>{9, 8, 7}));
+  std::string features;
+  ASSERT_TRUE(ledger
+                  ->ForEachLabelled("courier", 1, absl::InfinitePast(),
+                                    [&](const LabelledScore& s) { features = s.features_json; })
+                  .ok());
+  EXPECT_EQ(features, R"({"distance_km":3})");
   int scores = 0;
   ASSERT_TRUE(ledger
                   ->ForEachScore("courier", 100, absl::InfinitePast(),
@@ -319,6 +331,151 @@ TEST_F(LedgerTest, ConcurrentWritersAreAllCommitted) {
   EXPECT_EQ(failures.load(), 0);
   EXPECT_EQ(Count("scores"), 1000);
   EXPECT_GE(ledger->stats().committed_rows, 1000);
+}
+
+// Callers look up the scores of their outcomes on their own read
+// connections (daemon/ledger_lookup.h); what they miss, the writer looks up.
+// An outcome queued right behind its uncommitted score is found that way.
+TEST_F(LedgerTest, OutcomeQueuedBehindItsUncommittedScoreIsFound) {
+  options_.ack = LedgerOptions::Ack::kQueued;
+  auto ledger = OpenLedger();
+  ASSERT_NE(ledger, nullptr);
+  auto blocker = SqliteDb::Open(options_.path);
+  ASSERT_TRUE(blocker.ok());
+  ASSERT_TRUE((*blocker)->Exec("BEGIN IMMEDIATE").ok());
+  ASSERT_TRUE(ledger->AppendScores({Score("late", 1.5)}).ok());  // queued only
+  absl::StatusOr<std::vector<OutcomeResult>> results;
+  std::thread reporter([&] { results = ledger->ReportOutcomes({{"late", 1}}); });
+  while (ledger->stats().queued_rows < 2) absl::SleepFor(absl::Milliseconds(1));
+  ASSERT_TRUE((*blocker)->Exec("COMMIT").ok());
+  reporter.join();
+  ASSERT_TRUE(results.ok()) << results.status();
+  ASSERT_TRUE((*results)[0].status.ok()) << (*results)[0].status;
+  ASSERT_EQ((*results)[0].labelled.size(), 1u);
+  EXPECT_EQ((*results)[0].labelled[0].log_odds, 1.5);
+  EXPECT_EQ(Count("outcomes"), 1);
+}
+
+// A caller found the score, then a retention pass deleted it before the
+// writer stored the outcome: the writer notices and looks again, so no
+// outcome is stored without its score.
+TEST_F(LedgerTest, RetentionBetweenLookupAndWriteIsNoticed) {
+  options_.retention_interval = absl::ZeroDuration();
+  options_.retention_rows = 1;
+  options_.ack = LedgerOptions::Ack::kQueued;
+  auto ledger = OpenLedger();
+  ASSERT_NE(ledger, nullptr);
+  ASSERT_TRUE(ledger->AppendScores({Score("old")}).ok());
+  while (ledger->stats().committed_rows < 1) absl::SleepFor(absl::Milliseconds(1));
+  auto blocker = SqliteDb::Open(options_.path);
+  ASSERT_TRUE(blocker.ok());
+  ASSERT_TRUE((*blocker)->Exec("BEGIN IMMEDIATE").ok());
+  // Committed after the lock is released, then retention keeps only it.
+  ASSERT_TRUE(ledger->AppendScores({Score("new")}).ok());
+  absl::StatusOr<std::vector<OutcomeResult>> results;
+  std::thread reporter([&] { results = ledger->ReportOutcomes({{"old", 1}}); });
+  while (ledger->stats().queued_rows < 2) absl::SleepFor(absl::Milliseconds(1));
+  ASSERT_TRUE((*blocker)->Exec("COMMIT").ok());
+  reporter.join();
+  ASSERT_TRUE(results.ok()) << results.status();
+  EXPECT_EQ((*results)[0].status.code(), absl::StatusCode::kNotFound)
+      << (*results)[0].status;
+  EXPECT_TRUE((*results)[0].labelled.empty());
+  EXPECT_EQ(Count("outcomes"), 0);
+  EXPECT_EQ(Count("scores"), 1);
+}
+
+// Outcomes go in 128 rows per statement; a statement holding a repeat, a
+// conflicting label or one record twice is redone row by row, so every
+// outcome still gets its own answer.
+TEST_F(LedgerTest, LargeBatchesAnswerRepeatsAndConflictsOneByOne) {
+  auto ledger = OpenLedger();
+  ASSERT_NE(ledger, nullptr);
+  std::vector<ScoreEntry> scores;
+  for (int i = 0; i < 400; ++i) scores.push_back(Score(absl::StrCat("p", i), i));
+  ASSERT_TRUE(ledger->AppendScores(scores).ok());
+  std::vector<OutcomeEntry> first;
+  for (int i = 0; i < 10; ++i) first.push_back({absl::StrCat("p", i), 1});
+  ASSERT_TRUE(ledger->ReportOutcomes(first).ok());
+
+  // p0..p4 repeat their label, p5..p9 contradict it; after p199 come p100
+  // again with the same label, p101 with another and an unknown id, inside
+  // the second statement's rows.
+  std::vector<OutcomeEntry> batch;
+  std::vector<int> record;  // batch[k] is about p<record[k]> (-1: unknown)
+  for (int i = 0; i < 400; ++i) {
+    batch.push_back({absl::StrCat("p", i), i < 5 ? 1 : i < 10 ? 0 : i % 2});
+    record.push_back(i);
+    if (i == 199) {
+      batch.push_back({"p100", 0});
+      batch.push_back({"p101", 0});
+      batch.push_back({"nobody", 1});
+      record.insert(record.end(), {-100, -101, -1});
+    }
+  }
+  auto results = ledger->ReportOutcomes(batch);
+  ASSERT_TRUE(results.ok()) << results.status();
+  const auto& r = *results;
+  ASSERT_EQ(r.size(), 403u);
+  int fresh = 0;
+  for (size_t k = 0; k < r.size(); ++k) {
+    SCOPED_TRACE(k);
+    const int i = record[k];
+    if (i == -100) {  // p100 is 0 from earlier in this batch
+      EXPECT_TRUE(r[k].status.ok()) << r[k].status;
+      EXPECT_TRUE(r[k].repeat);
+    } else if (i == -101) {  // p101 went in as 1 earlier in this batch
+      EXPECT_EQ(r[k].status.code(), absl::StatusCode::kFailedPrecondition);
+      EXPECT_THAT(r[k].status.message(), HasSubstr("already has outcome 1"));
+    } else if (i == -1) {
+      EXPECT_EQ(r[k].status.code(), absl::StatusCode::kNotFound);
+    } else if (i < 5) {
+      EXPECT_TRUE(r[k].status.ok());
+      EXPECT_TRUE(r[k].repeat);
+      EXPECT_TRUE(r[k].labelled.empty());
+    } else if (i < 10) {
+      EXPECT_EQ(r[k].status.code(), absl::StatusCode::kFailedPrecondition);
+      EXPECT_TRUE(r[k].labelled.empty());
+    } else {
+      ASSERT_TRUE(r[k].status.ok()) << r[k].status;
+      EXPECT_FALSE(r[k].repeat);
+      ASSERT_EQ(r[k].labelled.size(), 1u);
+      EXPECT_EQ(r[k].labelled[0].record_id, absl::StrCat("p", i));
+      EXPECT_EQ(r[k].labelled[0].log_odds, i);
+      EXPECT_EQ(r[k].labelled[0].label, i % 2);
+      ++fresh;
+    }
+  }
+  EXPECT_EQ(fresh, 390);
+  EXPECT_EQ(Count("outcomes"), 400);
+  auto db = SqliteDb::Open(options_.path);
+  ASSERT_TRUE(db.ok());
+  EXPECT_EQ(*(*db)->QueryInt64("SELECT label FROM outcomes WHERE record_id = 'p7'"), 1);
+  EXPECT_EQ(*(*db)->QueryInt64("SELECT label FROM outcomes WHERE record_id = 'p101'"), 1);
+}
+
+// The lookup names sets from a cache of score_sets; a set first seen after
+// the cache was filled is read in, and a record scored by two versions
+// (active and shadow) labels both, in the order they were stored.
+TEST_F(LedgerTest, OutcomesLabelEveryScoreOfTheirRecordWithItsSet) {
+  auto ledger = OpenLedger();
+  ASSERT_NE(ledger, nullptr);
+  ASSERT_TRUE(ledger->AppendScores({Score("a", 0.1)}).ok());
+  ASSERT_TRUE(ledger->ReportOutcomes({{"a", 1}}).ok());
+  ScoreEntry shadow = Score("b", 0.3);
+  shadow.set_version = "v2";
+  shadow.role = "shadow";
+  ASSERT_TRUE(ledger->AppendScores({Score("b", 0.2), shadow}).ok());
+  auto results = ledger->ReportOutcomes({{"b", 0}});
+  ASSERT_TRUE(results.ok()) << results.status();
+  const auto& l = (*results)[0].labelled;
+  ASSERT_EQ(l.size(), 2u);
+  EXPECT_EQ(l[0].set_version, "v1");
+  EXPECT_EQ(l[0].role, "active");
+  EXPECT_EQ(l[0].log_odds, 0.2);
+  EXPECT_EQ(l[1].set_version, "v2");
+  EXPECT_EQ(l[1].role, "shadow");
+  EXPECT_EQ(l[1].log_odds, 0.3);
 }
 
 }  // namespace
