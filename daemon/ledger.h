@@ -168,6 +168,9 @@ class Ledger {
 
   LedgerStats stats() const;
 
+  // Rows the queue holds at most (LedgerOptions::queue_capacity_rows).
+  size_t queue_capacity_rows() const { return options_.queue_capacity_rows; }
+
   // Called by the writer after every commit with its latency and row count
   // (for metrics). Set before the first write; must be thread-safe.
   void set_commit_observer(std::function<void(absl::Duration, size_t)> fn);

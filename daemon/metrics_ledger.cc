@@ -12,19 +12,32 @@
 namespace plumbline::daemon {
 namespace {
 
+prometheus::MetricFamily Gauge(const char* name, const char* help, double value) {
+  prometheus::MetricFamily family;
+  family.name = name;
+  family.help = help;
+  family.type = prometheus::MetricType::Gauge;
+  prometheus::ClientMetric metric;
+  metric.gauge.value = value;
+  family.metric.push_back(metric);
+  return family;
+}
+
+// The queue's depth and capacity, read at scrape time.
 class LedgerQueueGauge final : public prometheus::Collectable {
  public:
   explicit LedgerQueueGauge(const Ledger* ledger) : ledger_(ledger) {}
 
   std::vector<prometheus::MetricFamily> Collect() const override {
-    prometheus::MetricFamily family;
-    family.name = "plumbline_ledger_queue_rows";
-    family.help = "Rows (scores and outcomes) waiting for the ledger writer.";
-    family.type = prometheus::MetricType::Gauge;
-    prometheus::ClientMetric metric;
-    metric.gauge.value = static_cast<double>(ledger_->stats().queued_rows);
-    family.metric.push_back(metric);
-    return {family};
+    return {
+        Gauge("plumbline_ledger_queue_rows",
+              "Rows (scores and outcomes) waiting for the ledger writer.",
+              static_cast<double>(ledger_->stats().queued_rows)),
+        Gauge("plumbline_ledger_queue_capacity_rows",
+              "Rows the ledger queue holds at most (ledger.queue_capacity_rows); "
+              "beyond it writes are refused with RESOURCE_EXHAUSTED.",
+              static_cast<double>(ledger_->queue_capacity_rows())),
+    };
   }
 
  private:

@@ -3,6 +3,7 @@
 // The ledger's Prometheus metrics:
 //
 //   plumbline_ledger_queue_rows                   gauge, read at scrape time
+//   plumbline_ledger_queue_capacity_rows          gauge, the configured limit
 //   plumbline_ledger_commit_duration_seconds      histogram, per commit
 //   plumbline_ledger_committed_rows_total         counter
 //

@@ -28,6 +28,7 @@
 #include "gmock/gmock.h"
 #include "gtest/gtest.h"
 #include "daemon/health_figures.h"
+#include "daemon/ledger.h"
 #include "plumbline/v1/monitor.grpc.pb.h"
 #include "plumbline/v1/outcomes.grpc.pb.h"
 #include "tests/daemon/health_http.h"
@@ -291,6 +292,9 @@ TEST_F(HealthEndToEndTest, FiguresMatchScikitLearnAndSciPyEverywhere) {
   ASSERT_TRUE(committed.has_value());
   EXPECT_GE(*committed, 6000.0);  // 3000 scores and 3000 outcomes
   EXPECT_TRUE(FindSample(later, "plumbline_ledger_queue_rows", {}).has_value());
+  // The default capacity (LedgerOptions; this test's config sets none).
+  EXPECT_EQ(FindSample(later, "plumbline_ledger_queue_capacity_rows", {}),
+            static_cast<double>(LedgerOptions{}.queue_capacity_rows));
   EXPECT_GT(FindSample(later, "plumbline_ledger_commit_duration_seconds_count", {})
                 .value_or(0),
             0.0);
