@@ -3,8 +3,8 @@
 
 #include <fcntl.h>
 #include <signal.h>
-#include <spawn.h>
 #include <stdlib.h>
+#include <sys/prctl.h>
 #include <sys/wait.h>
 #include <unistd.h>
 
@@ -25,8 +25,6 @@
 #include "absl/time/clock.h"
 #include "absl/time/time.h"
 
-extern char** environ;
-
 namespace plumbline::daemon::testing {
 namespace {
 
@@ -37,53 +35,52 @@ int DecodeStatus(int status) {
   return -1000;
 }
 
-// Spawns `argv` with stdout to `out_path` and stderr to `err_path` (which
-// may be equal), in working directory `cwd` (empty: unchanged), with the
-// default disposition and no blocked signals.
+}  // namespace
+
 absl::StatusOr<pid_t> Spawn(const std::vector<std::string>& argv,
-                            const std::string& out_path,
-                            const std::string& err_path,
-                            const std::string& cwd) {
+                            const SpawnOptions& options) {
   std::vector<char*> args;
   for (const std::string& arg : argv) args.push_back(const_cast<char*>(arg.c_str()));
   args.push_back(nullptr);
-
-  posix_spawn_file_actions_t actions;
-  posix_spawn_file_actions_init(&actions);
-  posix_spawn_file_actions_addopen(&actions, 1, out_path.c_str(),
-                                   O_WRONLY | O_CREAT | O_TRUNC, 0644);
-  if (err_path == out_path) {
-    posix_spawn_file_actions_adddup2(&actions, 1, 2);
-  } else {
-    posix_spawn_file_actions_addopen(&actions, 2, err_path.c_str(),
-                                     O_WRONLY | O_CREAT | O_TRUNC, 0644);
-  }
-  if (!cwd.empty()) posix_spawn_file_actions_addchdir_np(&actions, cwd.c_str());
-  posix_spawnattr_t attr;
-  posix_spawnattr_init(&attr);
+  // Everything the child needs is made before fork: between fork and exec
+  // it makes only async-signal-safe calls (the test process has gRPC
+  // threads, whose locks a forked child may find held).
+  const int flags = O_WRONLY | O_CREAT | (options.append ? O_APPEND : O_TRUNC);
+  const char* out = options.out_path.c_str();
+  const char* err = options.err_path.c_str();
+  const bool same = options.out_path == options.err_path;
+  const char* cwd = options.cwd.empty() ? nullptr : options.cwd.c_str();
+  struct sigaction dfl {};
+  dfl.sa_handler = SIG_DFL;
+  sigemptyset(&dfl.sa_mask);
   sigset_t none;
   sigemptyset(&none);
-  sigset_t defaults;
-  sigemptyset(&defaults);
-  sigaddset(&defaults, SIGHUP);
-  sigaddset(&defaults, SIGTERM);
-  sigaddset(&defaults, SIGINT);
-  sigaddset(&defaults, SIGPIPE);
-  posix_spawnattr_setsigmask(&attr, &none);
-  posix_spawnattr_setsigdefault(&attr, &defaults);
-  posix_spawnattr_setflags(&attr, POSIX_SPAWN_SETSIGMASK | POSIX_SPAWN_SETSIGDEF);
-
-  pid_t pid = 0;
-  const int err = posix_spawn(&pid, args[0], &actions, &attr, args.data(), environ);
-  posix_spawn_file_actions_destroy(&actions);
-  posix_spawnattr_destroy(&attr);
-  if (err != 0) {
-    return absl::ErrnoToStatus(err, absl::StrCat("cannot start ", argv[0]));
+  const pid_t parent = getpid();
+  const pid_t pid = fork();
+  if (pid < 0) return absl::ErrnoToStatus(errno, absl::StrCat("cannot start ", argv[0]));
+  if (pid == 0) {
+    // SIGKILL when the parent dies (a crashed test, or one ctest killed at
+    // its timeout), so no plumbd or server outlives its test. The kernel
+    // sends it when the forking *thread* ends: tests start children that
+    // must outlive a call from their main thread.
+    if (prctl(PR_SET_PDEATHSIG, SIGKILL) != 0 || getppid() != parent) _exit(126);
+    const int in_fd = open("/dev/null", O_RDONLY);
+    const int out_fd = open(out, flags, 0644);
+    const int err_fd = same ? out_fd : open(err, flags, 0644);
+    if (in_fd < 0 || out_fd < 0 || err_fd < 0 || dup2(in_fd, 0) < 0 ||
+        dup2(out_fd, 1) < 0 || dup2(err_fd, 2) < 0) {
+      _exit(126);
+    }
+    if (cwd != nullptr && chdir(cwd) != 0) _exit(126);
+    // The default disposition and no blocked signals, whatever the test
+    // process set (plumbd waits for SIGTERM and SIGHUP itself).
+    for (int sig : {SIGHUP, SIGTERM, SIGINT, SIGPIPE}) sigaction(sig, &dfl, nullptr);
+    sigprocmask(SIG_SETMASK, &none, nullptr);
+    execv(args[0], args.data());
+    _exit(127);
   }
   return pid;
 }
-
-}  // namespace
 
 TempDir::TempDir() {
   const char* base = std::getenv("TMPDIR");
@@ -133,7 +130,8 @@ absl::StatusOr<ProcessResult> RunProcess(const std::vector<std::string>& argv,
   ++counter;
   const std::string out_path = absl::StrCat(scratch_dir, "/run", counter, ".out");
   const std::string err_path = absl::StrCat(scratch_dir, "/run", counter, ".err");
-  absl::StatusOr<pid_t> pid = Spawn(argv, out_path, err_path, "");
+  absl::StatusOr<pid_t> pid =
+      Spawn(argv, {out_path, err_path, /*cwd=*/"", /*append=*/false});
   if (!pid.ok()) return pid.status();
   int status = 0;
   while (waitpid(*pid, &status, 0) < 0) {
@@ -154,7 +152,8 @@ absl::StatusOr<std::unique_ptr<PlumbdProcess>> PlumbdProcess::Start(
   std::vector<std::string> argv = {PLUMBD_PATH, "--listen", "127.0.0.1:0",
                                    "--ready_file", ready_file};
   argv.insert(argv.end(), args.begin(), args.end());
-  absl::StatusOr<pid_t> pid = Spawn(argv, log_path, log_path, work_dir);
+  absl::StatusOr<pid_t> pid =
+      Spawn(argv, {log_path, log_path, work_dir, /*append=*/false});
   if (!pid.ok()) return pid.status();
   std::unique_ptr<PlumbdProcess> process(new PlumbdProcess(*pid, log_path));
 

@@ -49,6 +49,20 @@ class TempDir {
 absl::Status WriteTextFile(const std::string& path, absl::string_view text);
 std::string ReadTextFile(const std::string& path);  // "" if unreadable
 
+struct SpawnOptions {
+  std::string out_path;  // the child's stdout
+  std::string err_path;  // its stderr; may equal out_path
+  std::string cwd;       // empty: the test's
+  bool append = false;   // append to the files instead of truncating them
+};
+
+// Starts `argv` (argv[0] a path; the environment is the test's) with stdin
+// from /dev/null, the default disposition for every signal and none
+// blocked. The child is killed (SIGKILL) when the thread that started it
+// ends, so a test that crashes or is killed leaves no process behind.
+absl::StatusOr<pid_t> Spawn(const std::vector<std::string>& argv,
+                            const SpawnOptions& options);
+
 // Calls `condition` every 20 ms until it returns true. Gives up after 30 s:
 // a safety net so a broken daemon fails the test instead of hanging it, not
 // a speed requirement.

@@ -23,38 +23,11 @@ namespace plumbline::ops::testing {
 namespace {
 
 using daemon::testing::PollUntil;
+using daemon::testing::Spawn;
 
 // Attempts at a free port: another process may take the port between
 // PickFreeLoopbackPort and the server's bind.
 constexpr int kStartAttempts = 3;
-
-// fork + exec rather than posix_spawn: the child asks the kernel for
-// SIGKILL when the test process dies (PR_SET_PDEATHSIG), so a crashed or
-// killed test leaves no server behind. Between fork and exec the child makes
-// only async-signal-safe calls (the test process has gRPC threads).
-absl::StatusOr<pid_t> Spawn(const std::vector<std::string>& argv,
-                            const std::string& log_path) {
-  std::vector<char*> args;
-  for (const std::string& arg : argv)
-    args.push_back(const_cast<char*>(arg.c_str()));
-  args.push_back(nullptr);
-  const pid_t parent = getpid();
-  const pid_t pid = fork();
-  if (pid < 0) return absl::ErrnoToStatus(errno, "fork");
-  if (pid == 0) {
-    if (prctl(PR_SET_PDEATHSIG, SIGKILL) != 0 || getppid() != parent)
-      _exit(126);
-    const int log = open(log_path.c_str(), O_WRONLY | O_CREAT | O_APPEND, 0644);
-    const int null = open("/dev/null", O_RDONLY);
-    if (log < 0 || null < 0 || dup2(null, 0) < 0 || dup2(log, 1) < 0 ||
-        dup2(log, 2) < 0) {
-      _exit(126);
-    }
-    execv(args[0], args.data());
-    _exit(127);
-  }
-  return pid;
-}
 
 }  // namespace
 
@@ -89,7 +62,7 @@ absl::StatusOr<std::unique_ptr<PrometheusServer>> PrometheusServer::Start(
         Spawn({binary, absl::StrCat("--config.file=", config_file),
                absl::StrCat("--storage.tsdb.path=", work_dir, "/data"),
                absl::StrCat("--web.listen-address=", addr)},
-              log_path);
+              {log_path, log_path, /*cwd=*/"", /*append=*/true});
     if (!pid.ok()) return pid.status();
     std::unique_ptr<PrometheusServer> server(
         new PrometheusServer(*pid, addr, log_path));
