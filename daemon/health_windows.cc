@@ -163,6 +163,7 @@ void HealthWindows::AddLabelled(double log_odds, int label,
                                 absl::Time observed_at, absl::Time now) {
   const absl::Time at = Clamp(observed_at, now);
   absl::MutexLock lock(&labelled_mu_);
+  ++labelled_since_start_;
   if (!labelled_count_.Add(log_odds, label).ok()) {
     refused_[kLabelled][0].fetch_add(1, std::memory_order_relaxed);
   }
@@ -207,10 +208,12 @@ absl::Time HealthWindows::TimeWindowStart(absl::Time now) const {
 
 v1::SetHealth HealthWindows::Figures(absl::Time now) const {
   std::optional<monitor::OutcomeAccumulator> outcome[2];
+  int64_t labelled_since_start = 0;
   {
     absl::MutexLock lock(&labelled_mu_);
     outcome[0].emplace(labelled_count_.Merged());
     outcome[1].emplace(labelled_time_.Merged(now));
+    labelled_since_start = labelled_since_start_;
   }
   std::optional<ScoredAccumulator> scored[2];
   {
@@ -221,6 +224,7 @@ v1::SetHealth HealthWindows::Figures(absl::Time now) const {
   v1::SetHealth health;
   health.set_set(plan_->name());
   health.set_version(plan_->version());
+  health.set_labelled_since_start(labelled_since_start);
   for (int i = 0; i < 2; ++i) {
     v1::WindowHealth* w = health.add_windows();
     if (i == 0) {

@@ -125,6 +125,9 @@ class HealthWindows {
   ScoredCount scored_count_ ABSL_GUARDED_BY(scored_mu_);
   ScoredTime scored_time_ ABSL_GUARDED_BY(scored_mu_);
 
+  // AddLabelled calls so far (SetHealth.labelled_since_start).
+  int64_t labelled_since_start_ ABSL_GUARDED_BY(labelled_mu_) = 0;
+
   // Refused records, per [labelled 0 / scored 1][count 0 / time 1].
   std::atomic<int64_t> refused_[2][2] = {{0, 0}, {0, 0}};
 };

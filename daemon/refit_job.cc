@@ -141,6 +141,7 @@ absl::StatusOr<RefitSettings> RefitSettingsFrom(const v1::RefitPolicy& p) {
   if (p.holdout_fraction() != 0) s.holdout_fraction = p.holdout_fraction();
   if (p.margin() != 0) s.margin = p.margin();
   s.l2 = p.l2();
+  s.min_new_labelled = p.min_new_labelled();
   if (!(s.holdout_fraction > 0 && s.holdout_fraction < 1)) {
     return absl::InvalidArgumentError(absl::StrCat(
         "refit.holdout_fraction: ", s.holdout_fraction,

@@ -54,6 +54,7 @@ struct RefitSettings {
   double holdout_fraction = 0.3;
   double margin = 0.001;
   double l2 = 0;
+  int64_t min_new_labelled = 0;  // 0: a drift-started refit starts at once
 };
 
 // INVALID_ARGUMENT naming the field for a holdout_fraction outside (0, 1),

@@ -9,6 +9,7 @@
 #include <cstring>
 #include <utility>
 
+#include "absl/strings/match.h"
 #include "absl/strings/str_cat.h"
 #include "absl/strings/str_join.h"
 #include "daemon/event_log.h"
@@ -74,7 +75,19 @@ int RefitWorker::OnEvaluated(const std::vector<v1::SetHealth>& health,
     const std::string key = absl::StrCat(h.set(), "\n", h.version());
     bool active = false;
     for (const std::string& a : active_versions) active = active || a == key;
-    if (!active || pending_.contains(h.set())) continue;
+    if (!active) continue;
+    // min_new_labelled counts from the first evaluation that finds the
+    // version drifting after the set's last job ended.
+    if (h.state() != v1::DRIFTING) {
+      drift_marks_.erase(key);
+    } else if (settings.min_new_labelled > 0 &&
+               drift_marks_.try_emplace(key, h.labelled_since_start()).second) {
+      LogEvent(LogLevel::kInfo, "refit_waits_for_labels",
+               {{"set", h.set()},
+                {"version", h.version()},
+                {"new_labelled_needed", absl::StrCat(settings.min_new_labelled)}});
+    }
+    if (pending_.contains(h.set())) continue;
     if (h.state() != v1::DRIFTING && settings.schedule == absl::ZeroDuration()) {
       continue;
     }
@@ -95,9 +108,18 @@ int RefitWorker::OnEvaluated(const std::vector<v1::SetHealth>& health,
         it != last_ended_.end() && now - it->second < settings.cooldown) {
       continue;
     }
+    int64_t fresh = 0;  // outcomes since the mark (min_new_labelled > 0)
+    if (settings.min_new_labelled > 0) {
+      fresh = h.labelled_since_start() - drift_marks_[key];
+      if (fresh < settings.min_new_labelled) continue;
+    }
     std::vector<std::string> reasons;
     for (const v1::DriftReason& r : h.reasons()) {
       if (r.state() == v1::DRIFTING) reasons.push_back(r.text());
+    }
+    if (settings.min_new_labelled > 0) {
+      reasons.push_back(
+          absl::StrCat(fresh, " new outcomes since the drift was seen"));
     }
     Enqueue({h.set(), "drift", "",
              absl::StrCat("drifting: ", absl::StrJoin(reasons, "; "))});
@@ -154,6 +176,14 @@ void RefitWorker::Loop() {
     absl::MutexLock lock(&mu_);
     pending_.erase(job->trigger.set);
     last_ended_[job->trigger.set] = now_();
+    // A new drift-started job counts its labels from after this one.
+    for (auto it = drift_marks_.begin(); it != drift_marks_.end();) {
+      if (absl::StartsWith(it->first, absl::StrCat(job->trigger.set, "\n"))) {
+        drift_marks_.erase(it++);
+      } else {
+        ++it;
+      }
+    }
     ++finished_;
     job->outcome = std::move(outcome);
     job->done = true;

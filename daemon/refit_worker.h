@@ -5,7 +5,10 @@
 // schedule starts one:
 //   - drift: after each evaluation, a set whose active version is in state
 //     `drifting` gets a job unless mode is OFF, a job for it is queued or
-//     running, or its last job (of any kind) ended less than `cooldown` ago;
+//     running, or its last job (of any kind) ended less than `cooldown` ago,
+//     or (min_new_labelled > 0) fewer than min_new_labelled outcomes have
+//     labelled the version since the first evaluation that found it drifting
+//     after the set's last job ended (SetHealth.labelled_since_start);
 //   - schedule: with schedule > 0, every set gets a job `schedule` after
 //     plumbd started and after each of its scheduled jobs (mode OFF: none);
 //   - neither drift nor schedule starts a job while the set has a refit
@@ -92,6 +95,9 @@ class RefitWorker {
   absl::flat_hash_map<std::string, absl::Time> last_ended_ ABSL_GUARDED_BY(mu_);
   absl::flat_hash_map<std::string, absl::Time> last_scheduled_
       ABSL_GUARDED_BY(mu_);
+  // "set\nversion" of a drifting active version -> its labelled_since_start
+  // when first seen drifting after the set's last job (min_new_labelled).
+  absl::flat_hash_map<std::string, int64_t> drift_marks_ ABSL_GUARDED_BY(mu_);
   int64_t next_id_ ABSL_GUARDED_BY(mu_) = 1;
   int64_t finished_ ABSL_GUARDED_BY(mu_) = 0;
   bool stopping_ ABSL_GUARDED_BY(mu_) = false;

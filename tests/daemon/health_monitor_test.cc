@@ -135,6 +135,7 @@ TEST_F(HealthMonitorTest, ScoredAndLabelledRecordsReachBothWindows) {
   }
   EXPECT_TRUE(h.has_evaluated_at());
   EXPECT_EQ(h.evaluated_at().seconds(), absl::ToUnixSeconds(now_));
+  EXPECT_EQ(h.labelled_since_start(), 4);
 }
 
 TEST_F(HealthMonitorTest, DenseLevelIndicesCountAsTheirLevels) {
@@ -368,6 +369,9 @@ TEST_F(HealthRebuildTest, RebuiltWindowsEqualLiveOnes) {
   EXPECT_EQ(got.windows(0).scored(), 10);
   EXPECT_EQ(got.windows(1).labelled(), 15);
   EXPECT_EQ(got.windows(1).scored(), 15);
+  // Outcomes since start count live ones only: rebuilt ones are not new.
+  EXPECT_EQ(want.labelled_since_start(), 15);
+  EXPECT_EQ(got.labelled_since_start(), 0);
   for (int w = 0; w < 2; ++w) {
     SCOPED_TRACE(w);
     EXPECT_DOUBLE_EQ(got.windows(w).log_loss().value(),

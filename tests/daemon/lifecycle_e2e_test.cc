@@ -121,13 +121,21 @@ class LifecycleTest : public ::testing::Test {
   }
 
   // Scores a parcels CSV and reports its outcomes through plumbctl.
-  void ScoreAndReport(const std::string& parcels, const std::string& outcomes) {
+  void Score(const std::string& parcels) {
     ProcessResult scored = Plumbctl({"score", "--set", kSet, "--csv", parcels,
                                      "--out", dir_.File("scored.csv")});
     ASSERT_EQ(scored.exit_code, 0) << scored.err;
+  }
+
+  void Report(const std::string& outcomes) {
     ProcessResult reported = Plumbctl({"outcomes", "--csv", outcomes});
     ASSERT_EQ(reported.exit_code, 0) << reported.err;
     ASSERT_TRUE(absl::StrContains(reported.out, "refused 0")) << reported.out;
+  }
+
+  void ScoreAndReport(const std::string& parcels, const std::string& outcomes) {
+    Score(parcels);
+    Report(outcomes);
   }
 
   std::vector<v1::VersionInfo> Versions() {
@@ -215,15 +223,24 @@ double Field(const google::protobuf::Struct& s, const std::string& key) {
 
 TEST_F(LifecycleTest, DriftRefitApproveSteadyRollbackAudit) {
   Start(R"({"mode": "PROPOSE", "min_labelled": 500, "l2": 1.0,
-            "holdout_fraction": 0.3, "cooldown_seconds": 5})");
+            "holdout_fraction": 0.3, "min_new_labelled": 1500})");
   const std::string original = ActiveVersion();
   ASSERT_FALSE(original.empty());
   const std::string data = DataDir();
 
-  // Normal weeks, then the storm season: the monitor judges drifting and the
-  // drift policy starts a refit job by itself.
+  // Normal weeks, then the storm season. Its inputs alone make the monitor
+  // judge drifting (stability figures); the drift policy's refit waits for
+  // 1500 outcomes after that (min_new_labelled), then starts by itself and
+  // fits the storm's labels too.
   ScoreAndReport(data + "/parcels.csv", data + "/outcomes.csv");
-  ScoreAndReport(data + "/parcels_drift.csv", data + "/outcomes_drift.csv");
+  Score(data + "/parcels_drift.csv");
+  ASSERT_TRUE(PollUntil([&] {
+    return absl::StrContains(plumbd_->Log(), "event=refit_waits_for_labels");
+  })) << plumbd_->Log();
+  EXPECT_EQ(Health().state(), v1::DRIFTING);
+  EXPECT_FALSE(Metric("plumbline_refit_jobs_total",
+                      {{"set", kSet}, {"result", "failed"}}).has_value());
+  Report(data + "/outcomes_drift.csv");
   std::string drift_candidate;
   ASSERT_TRUE(PollUntil([&] {
     for (const v1::VersionInfo& v : Versions()) {
@@ -236,7 +253,15 @@ TEST_F(LifecycleTest, DriftRefitApproveSteadyRollbackAudit) {
     EXPECT_TRUE(absl::StartsWith(v.created_by(), "refit job")) << v.created_by();
     EXPECT_TRUE(absl::StrContains(v.created_by(), "(drift)")) << v.created_by();
     EXPECT_TRUE(absl::StartsWith(v.reason(), "drifting:")) << v.reason();
+    EXPECT_TRUE(absl::StrContains(v.reason(), "new outcomes since the drift was seen"))
+        << v.reason();
     EXPECT_TRUE(absl::StrContains(v.comparison(), "candidate wins"));
+  }
+  // The first job won: none was spent on the labels from before the storm.
+  for (const v1::VersionInfo& v : Versions()) {
+    if (v.version() == drift_candidate) {
+      EXPECT_EQ(v.created_by(), "refit job 1 (drift)");
+    }
   }
   EXPECT_EQ(ActiveVersion(), original) << "mode PROPOSE must not promote";
 

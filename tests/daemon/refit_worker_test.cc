@@ -34,7 +34,8 @@ using testing::TempDir;
 
 class RefitWorkerTest : public ::testing::Test {
  protected:
-  void Start(v1::RefitPolicy::Mode mode, absl::Duration schedule) {
+  void Start(v1::RefitPolicy::Mode mode, absl::Duration schedule,
+             int64_t min_new_labelled = 0) {
     std::filesystem::create_directories(dir_.File("sets"));
     ASSERT_TRUE(testing::WriteTextFile(dir_.File("sets/courier.json"),
                                        testing::CourierSetJson("courier", "v1"))
@@ -51,6 +52,7 @@ class RefitWorkerTest : public ::testing::Test {
     settings.mode = mode;
     settings.schedule = schedule;
     settings.cooldown = absl::Minutes(10);
+    settings.min_new_labelled = min_new_labelled;
     auto now = [this] {
       absl::MutexLock lock(&clock_mu_);
       return now_;
@@ -65,20 +67,23 @@ class RefitWorkerTest : public ::testing::Test {
     now_ += d;
   }
 
-  static v1::SetHealth Health(const std::string& version, v1::DriftState state) {
+  static v1::SetHealth Health(const std::string& version, v1::DriftState state,
+                              int64_t labelled_since_start = 0) {
     v1::SetHealth h;
     h.set_set("courier");
     h.set_version(version);
     h.set_state(state);
+    h.set_labelled_since_start(labelled_since_start);
     return h;
   }
 
   // Evaluates once with the active version in `state` and waits until the
   // worker has finished every job it started; returns how many it started.
   int64_t Evaluate(v1::DriftState state,
-                   const std::vector<v1::SetHealth>& extra = {}) {
+                   const std::vector<v1::SetHealth>& extra = {},
+                   int64_t labelled_since_start = 0) {
     const int64_t before = worker_->finished();
-    std::vector<v1::SetHealth> health = {Health("v1", state)};
+    std::vector<v1::SetHealth> health = {Health("v1", state, labelled_since_start)};
     health.insert(health.end(), extra.begin(), extra.end());
     const int queued = worker_->OnEvaluated(health, {"courier\nv1"});
     EXPECT_TRUE(PollUntil([&] { return worker_->finished() - before >= queued; }));
@@ -124,6 +129,34 @@ TEST_F(RefitWorkerTest, DriftStartsAJobThenWaitsForTheCooldown) {
           << r.detail;
     }
   }
+}
+
+// With min_new_labelled, a drift-started job waits for that many outcomes
+// after the drift was first seen, and counts again after each job and after
+// a return to steady.
+TEST_F(RefitWorkerTest, DriftWaitsForNewLabelsWhenAsked) {
+  Start(v1::RefitPolicy::PROPOSE, absl::ZeroDuration(), /*min_new_labelled=*/100);
+  EXPECT_EQ(Evaluate(v1::DRIFTING, {}, 1000), 0) << "counting starts at 1000";
+  EXPECT_EQ(Evaluate(v1::DRIFTING, {}, 1099), 0);
+  EXPECT_EQ(Evaluate(v1::DRIFTING, {}, 1100), 1);
+  const std::vector<AuditRecord> audit = *lifecycle_->Audit("courier");
+  bool named = false;
+  for (const AuditRecord& r : audit) {
+    named = named || absl::StrContains(r.detail, "100 new outcomes since the drift was seen");
+  }
+  EXPECT_TRUE(named) << "the job's reason says how many new outcomes it had";
+
+  Advance(absl::Minutes(11));  // past the cool-down
+  EXPECT_EQ(Evaluate(v1::DRIFTING, {}, 1150), 0) << "counting again from 1150";
+  EXPECT_EQ(Evaluate(v1::DRIFTING, {}, 1249), 0);
+  EXPECT_EQ(Evaluate(v1::DRIFTING, {}, 1250), 1);
+
+  Advance(absl::Minutes(11));
+  EXPECT_EQ(Evaluate(v1::DRIFTING, {}, 1300), 0);
+  EXPECT_EQ(Evaluate(v1::STEADY, {}, 1350), 0);
+  EXPECT_EQ(Evaluate(v1::DRIFTING, {}, 1390), 0) << "steady in between: from 1390";
+  EXPECT_EQ(Evaluate(v1::DRIFTING, {}, 1489), 0);
+  EXPECT_EQ(Evaluate(v1::DRIFTING, {}, 1490), 1);
 }
 
 TEST_F(RefitWorkerTest, AShadowsDriftStartsNothing) {
