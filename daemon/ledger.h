@@ -22,8 +22,11 @@
 //                         still queued are lost if the process dies, and an
 //                         outcome that races its score may be NOT_FOUND.
 // ReportOutcomes always waits for its commit: its per-outcome results depend
-// on what is in the ledger. Within one group commit the scores are written
-// before the outcomes, so an outcome queued together with its score finds it.
+// on what is in the ledger. It looks up the outcomes' scores on the calling
+// thread (daemon/ledger_lookup.h), so the writer only inserts; within one
+// group commit the scores are written before the outcomes, and the writer
+// looks up what the caller did not find, so an outcome queued together with
+// its score finds it.
 //
 // Thread-safe: all public methods may be called from any thread.
 #ifndef PLUMBLINE_DAEMON_LEDGER_H_
