@@ -398,6 +398,12 @@ absl::StatusOr<std::vector<AuditRecord>> Lifecycle::Audit(
   return store_->Audit(set);
 }
 
+absl::StatusOr<std::vector<std::string>> Lifecycle::AuditActors(
+    const std::string& prefix) {
+  absl::MutexLock lock(&mu_);
+  return store_->AuditActors(prefix);
+}
+
 absl::Status Lifecycle::AppendAudit(AuditRecord record) {
   absl::MutexLock lock(&mu_);
   if (record.at == absl::UnixEpoch()) record.at = now_();

@@ -107,6 +107,8 @@ class Lifecycle final : public VersionResolver {
   absl::StatusOr<VersionRecord> Rollback(const StateChange& change);
 
   absl::StatusOr<std::vector<AuditRecord>> Audit(const std::string& set);
+  // VersionStore::AuditActors.
+  absl::StatusOr<std::vector<std::string>> AuditActors(const std::string& prefix);
   // Appends an entry (refit jobs record fits, failures and comparisons).
   absl::Status AppendAudit(AuditRecord record);
 

@@ -1,6 +1,7 @@
 // File: daemon/refit_job.cc
 #include "daemon/refit_job.h"
 
+#include <algorithm>
 #include <cmath>
 #include <cstdint>
 #include <deque>
@@ -10,6 +11,7 @@
 #include "absl/container/flat_hash_set.h"
 #include "absl/status/status.h"
 #include "absl/strings/match.h"
+#include "absl/strings/numbers.h"
 #include "absl/strings/str_cat.h"
 #include "absl/strings/str_format.h"
 #include "daemon/event_log.h"
@@ -21,6 +23,9 @@
 
 namespace plumbline::daemon {
 namespace {
+
+// Audit actor and created_by of a job: "refit job N (kind[, actor])".
+constexpr char kJobActorPrefix[] = "refit job ";
 
 // The labelled records a job works on. Text values view into `arena`.
 struct RefitRows {
@@ -212,16 +217,33 @@ bool RefitRunner::HasWaitingCandidate(const std::string& set) {
   if (!versions.ok()) return false;
   for (const VersionRecord& v : *versions) {
     if (v.state == VersionState::kCandidate &&
-        absl::StartsWith(v.created_by, "refit job")) {
+        absl::StartsWith(v.created_by, kJobActorPrefix)) {
       return true;
     }
   }
   return false;
 }
 
+int64_t RefitRunner::LastJobId() {
+  absl::StatusOr<std::vector<std::string>> actors =
+      lifecycle_->AuditActors(kJobActorPrefix);
+  int64_t last = 0;
+  if (!actors.ok()) return last;  // numbering restarts; names stay unique
+  for (const std::string& actor : *actors) {
+    // "refit job N (kind...)"
+    absl::string_view rest = absl::string_view(actor).substr(
+        absl::string_view(kJobActorPrefix).size());
+    int64_t id = 0;
+    if (absl::SimpleAtoi(rest.substr(0, rest.find(' ')), &id)) {
+      last = std::max(last, id);
+    }
+  }
+  return last;
+}
+
 RefitOutcome RefitRunner::Run(const RefitTrigger& trigger, int64_t job_id) {
   const std::string actor =
-      absl::StrCat("refit job ", job_id, " (", trigger.kind,
+      absl::StrCat(kJobActorPrefix, job_id, " (", trigger.kind,
                    trigger.actor.empty() ? "" : ", ", trigger.actor, ")");
   RefitOutcome outcome;
   PlanPtr active = registry_->Find(trigger.set);

@@ -95,6 +95,10 @@ class RefitRunner {
   // an outcome (kFailed) with its reason, also written to the audit table.
   RefitOutcome Run(const RefitTrigger& trigger, int64_t job_id);
 
+  // The highest job id in the audit of every set (0 if none), so job ids
+  // keep growing across restarts.
+  int64_t LastJobId();
+
   const RefitSettings& settings() const { return settings_; }
 
   // Whether `set` has a candidate from a refit job waiting for approval:

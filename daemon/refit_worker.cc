@@ -24,7 +24,10 @@ constexpr int kRefitNice = 10;
 
 RefitWorker::RefitWorker(RefitRunner* runner, prometheus::Registry* metrics,
                          std::function<absl::Time()> now)
-    : runner_(runner), now_(std::move(now)), started_(now_()) {
+    : runner_(runner),
+      now_(std::move(now)),
+      started_(now_()),
+      next_id_(runner->LastJobId() + 1) {
   if (metrics != nullptr) {
     jobs_metric_ = &prometheus::BuildCounter()
                         .Name("plumbline_refit_jobs_total")

@@ -98,7 +98,7 @@ class RefitWorker {
   // "set\nversion" of a drifting active version -> its labelled_since_start
   // when first seen drifting after the set's last job (min_new_labelled).
   absl::flat_hash_map<std::string, int64_t> drift_marks_ ABSL_GUARDED_BY(mu_);
-  int64_t next_id_ ABSL_GUARDED_BY(mu_) = 1;
+  int64_t next_id_ ABSL_GUARDED_BY(mu_);  // after the audit's last job
   int64_t finished_ ABSL_GUARDED_BY(mu_) = 0;
   bool stopping_ ABSL_GUARDED_BY(mu_) = false;
 

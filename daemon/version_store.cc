@@ -208,6 +208,17 @@ absl::Status VersionStore::AppendAudit(const AuditRecord& r) {
   return s.Run();
 }
 
+absl::StatusOr<std::vector<std::string>> VersionStore::AuditActors(
+    absl::string_view prefix) {
+  auto q = db_->Prepare(
+      "SELECT DISTINCT actor FROM audit"
+      " WHERE substr(actor, 1, length(?1)) = ?1");
+  if (!q.ok()) return q.status();
+  (*q)->BindText(1, prefix);
+  return Collect<std::string>(
+      **q, [](const SqliteStatement& s) { return s.ColumnText(0); });
+}
+
 absl::StatusOr<std::vector<AuditRecord>> VersionStore::Audit(
     absl::string_view set) {
   auto q = db_->Prepare(

@@ -159,6 +159,22 @@ TEST_F(RefitWorkerTest, DriftWaitsForNewLabelsWhenAsked) {
   EXPECT_EQ(Evaluate(v1::DRIFTING, {}, 1490), 1);
 }
 
+// Job ids go on from the audit after a restart, so "refit job N" names one
+// job in the whole history of the ledger.
+TEST_F(RefitWorkerTest, JobIdsGoOnAcrossRestarts) {
+  Start(v1::RefitPolicy::OFF, absl::ZeroDuration());
+  worker_->RunNow({"courier", "manual", "alice", "first"});
+  worker_->RunNow({"courier", "manual", "alice", "second"});
+  worker_.reset();  // plumbd stops; the ledger keeps the audit
+  worker_ = std::make_unique<RefitWorker>(runner_.get(), nullptr,
+                                          [] { return absl::Now(); });
+  worker_->RunNow({"courier", "manual", "alice", "after restart"});
+  EXPECT_EQ(FailedJobActors(),
+            (std::vector<std::string>{"refit job 1 (manual, alice)",
+                                       "refit job 2 (manual, alice)",
+                                       "refit job 3 (manual, alice)"}));
+}
+
 TEST_F(RefitWorkerTest, AShadowsDriftStartsNothing) {
   Start(v1::RefitPolicy::PROPOSE, absl::ZeroDuration());
   EXPECT_EQ(Evaluate(v1::STEADY, {Health("shadow-1", v1::DRIFTING)}), 0);
