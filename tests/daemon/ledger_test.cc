@@ -37,6 +37,30 @@ class LedgerTest : public ::testing::Test {
                       log_odds, 0.6, R"({"distance_km":3})"};
   }
 
+  // Another connection holding the write lock: the writer waits on SQLite's
+  // busy timeout and what is queued stays queued until "COMMIT" on it.
+  std::unique_ptr<SqliteDb> HoldWriteLock() {
+    auto blocker = SqliteDb::Open(options_.path);
+    EXPECT_TRUE(blocker.ok()) << blocker.status();
+    if (!blocker.ok()) return nullptr;
+    EXPECT_TRUE((*blocker)->Exec("BEGIN IMMEDIATE").ok());
+    return *std::move(blocker);
+  }
+
+  // Reports `outcomes` from another thread while `blocker` holds the write
+  // lock; releases it once `queued` rows wait (the outcomes' job among
+  // them), and returns what ReportOutcomes answered.
+  static absl::StatusOr<std::vector<OutcomeResult>> ReportBehindLock(
+      Ledger& ledger, SqliteDb& blocker, std::vector<OutcomeEntry> outcomes,
+      int64_t queued) {
+    absl::StatusOr<std::vector<OutcomeResult>> results;
+    std::thread reporter([&] { results = ledger.ReportOutcomes(outcomes); });
+    while (ledger.stats().queued_rows < queued) absl::SleepFor(absl::Milliseconds(1));
+    EXPECT_TRUE(blocker.Exec("COMMIT").ok());
+    reporter.join();
+    return results;
+  }
+
   int64_t Count(const std::string& table) {
     auto db = SqliteDb::Open(options_.path);
     EXPECT_TRUE(db.ok());
@@ -147,17 +171,15 @@ TEST_F(LedgerTest, QueueHoldingRowsNotYetCommittedRefusesMore) {
   options_.ack = LedgerOptions::Ack::kQueued;
   auto ledger = OpenLedger();
   ASSERT_NE(ledger, nullptr);
-  // Another connection holds the write lock, so the writer cannot commit
-  // the first 3 rows (it waits on SQLite's busy timeout) and they stay
-  // counted against the capacity.
-  auto blocker = SqliteDb::Open(options_.path);
-  ASSERT_TRUE(blocker.ok());
-  ASSERT_TRUE((*blocker)->Exec("BEGIN IMMEDIATE").ok());
+  // The writer cannot commit the first 3 rows, so they stay counted
+  // against the capacity.
+  auto blocker = HoldWriteLock();
+  ASSERT_NE(blocker, nullptr);
   ASSERT_TRUE(ledger->AppendScores(std::vector<ScoreEntry>(3, Score("q"))).ok());
   absl::Status st = ledger->AppendScores(std::vector<ScoreEntry>(8, Score("r")));
   EXPECT_EQ(st.code(), absl::StatusCode::kResourceExhausted);
   EXPECT_THAT(st.message(), HasSubstr("queue is full (3 rows waiting, capacity 10)"));
-  ASSERT_TRUE((*blocker)->Exec("COMMIT").ok());
+  ASSERT_TRUE(blocker->Exec("COMMIT").ok());
 }
 
 TEST_F(LedgerTest, MigratesAVersion1LedgerKeepingItsRows) {
@@ -340,15 +362,10 @@ TEST_F(LedgerTest, OutcomeQueuedBehindItsUncommittedScoreIsFound) {
   options_.ack = LedgerOptions::Ack::kQueued;
   auto ledger = OpenLedger();
   ASSERT_NE(ledger, nullptr);
-  auto blocker = SqliteDb::Open(options_.path);
-  ASSERT_TRUE(blocker.ok());
-  ASSERT_TRUE((*blocker)->Exec("BEGIN IMMEDIATE").ok());
+  auto blocker = HoldWriteLock();
+  ASSERT_NE(blocker, nullptr);
   ASSERT_TRUE(ledger->AppendScores({Score("late", 1.5)}).ok());  // queued only
-  absl::StatusOr<std::vector<OutcomeResult>> results;
-  std::thread reporter([&] { results = ledger->ReportOutcomes({{"late", 1}}); });
-  while (ledger->stats().queued_rows < 2) absl::SleepFor(absl::Milliseconds(1));
-  ASSERT_TRUE((*blocker)->Exec("COMMIT").ok());
-  reporter.join();
+  auto results = ReportBehindLock(*ledger, *blocker, {{"late", 1}}, 2);
   ASSERT_TRUE(results.ok()) << results.status();
   ASSERT_TRUE((*results)[0].status.ok()) << (*results)[0].status;
   ASSERT_EQ((*results)[0].labelled.size(), 1u);
@@ -367,16 +384,11 @@ TEST_F(LedgerTest, RetentionBetweenLookupAndWriteIsNoticed) {
   ASSERT_NE(ledger, nullptr);
   ASSERT_TRUE(ledger->AppendScores({Score("old")}).ok());
   while (ledger->stats().committed_rows < 1) absl::SleepFor(absl::Milliseconds(1));
-  auto blocker = SqliteDb::Open(options_.path);
-  ASSERT_TRUE(blocker.ok());
-  ASSERT_TRUE((*blocker)->Exec("BEGIN IMMEDIATE").ok());
+  auto blocker = HoldWriteLock();
+  ASSERT_NE(blocker, nullptr);
   // Committed after the lock is released, then retention keeps only it.
   ASSERT_TRUE(ledger->AppendScores({Score("new")}).ok());
-  absl::StatusOr<std::vector<OutcomeResult>> results;
-  std::thread reporter([&] { results = ledger->ReportOutcomes({{"old", 1}}); });
-  while (ledger->stats().queued_rows < 2) absl::SleepFor(absl::Milliseconds(1));
-  ASSERT_TRUE((*blocker)->Exec("COMMIT").ok());
-  reporter.join();
+  auto results = ReportBehindLock(*ledger, *blocker, {{"old", 1}}, 2);
   ASSERT_TRUE(results.ok()) << results.status();
   EXPECT_EQ((*results)[0].status.code(), absl::StatusCode::kNotFound)
       << (*results)[0].status;
