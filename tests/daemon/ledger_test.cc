@@ -376,6 +376,14 @@ TEST_F(LedgerTest, OutcomeQueuedBehindItsUncommittedScoreIsFound) {
 // A caller found the score, then a retention pass deleted it before the
 // writer stored the outcome: the writer notices and looks again, so no
 // outcome is stored without its score.
+//
+// The usual order: the writer takes "new" alone into a group and waits for
+// the lock; the outcome's job is queued behind it; "new" commits, the pass
+// deletes "old", the writer looks again: NOT_FOUND. On a loaded machine the
+// writer may wake only after both jobs are queued and take them in one
+// group: the outcome then goes in before the pass, which deletes it with
+// its score. Either way no outcome is left without its score. (With the
+// writer's check removed, the usual order leaves one: checked.)
 TEST_F(LedgerTest, RetentionBetweenLookupAndWriteIsNoticed) {
   options_.retention_interval = absl::ZeroDuration();
   options_.retention_rows = 1;
@@ -390,9 +398,16 @@ TEST_F(LedgerTest, RetentionBetweenLookupAndWriteIsNoticed) {
   ASSERT_TRUE(ledger->AppendScores({Score("new")}).ok());
   auto results = ReportBehindLock(*ledger, *blocker, {{"old", 1}}, 2);
   ASSERT_TRUE(results.ok()) << results.status();
-  EXPECT_EQ((*results)[0].status.code(), absl::StatusCode::kNotFound)
-      << (*results)[0].status;
-  EXPECT_TRUE((*results)[0].labelled.empty());
+  const OutcomeResult& r = (*results)[0];
+  if (r.status.ok()) {
+    EXPECT_EQ(r.labelled.size(), 1u);  // stored with its score, in one group
+  } else {
+    EXPECT_EQ(r.status.code(), absl::StatusCode::kNotFound) << r.status;
+    EXPECT_TRUE(r.labelled.empty());
+  }
+  ledger.reset();  // every retention pass has run
+  EXPECT_EQ(Count("outcomes WHERE record_id NOT IN (SELECT record_id FROM scores)"), 0)
+      << "an outcome without its score";
   EXPECT_EQ(Count("outcomes"), 0);
   EXPECT_EQ(Count("scores"), 1);
 }
