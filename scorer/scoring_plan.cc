@@ -249,18 +249,20 @@ absl::Status ScoringPlan::ScoreDense(const Eigen::Ref<const RowMatrix>& raw,
   const Eigen::Index rows = raw.rows();
   if (column_of_feature.size() != features_.size()) {
     return absl::InvalidArgumentError(absl::StrFormat(
-        "set '%s': column map has %d entries for %d features", name(),
+        "%s: set '%s': column map has %d entries for %d features",
+        options.rows_path, name(),
         column_of_feature.size(), features_.size()));
   }
   for (int col : column_of_feature) {
     if (col < -1 || col >= raw.cols()) {
       return absl::InvalidArgumentError(absl::StrFormat(
-          "set '%s': column %d is outside the %d columns given", name(), col,
-          raw.cols()));
+          "%s: set '%s': column %d is outside the %d columns given",
+          options.rows_path, name(), col, raw.cols()));
     }
   }
   if (log_odds.size() != rows || probability.size() != rows) {
-    return absl::InvalidArgumentError("output vectors must have one entry per row");
+    return absl::InvalidArgumentError(absl::StrCat(
+        options.rows_path, ": output vectors must have one entry per row"));
   }
   // Fast path: every feature numeric and present, the common shape of a
   // high-volume batch. Same arithmetic as EncodeNumber.
@@ -292,7 +294,7 @@ absl::Status ScoringPlan::ScoreDense(const Eigen::Ref<const RowMatrix>& raw,
                                                  false, options, out);
             if (!st.ok()) {
               return absl::InvalidArgumentError(absl::StrCat(
-                  "rows[", start + r, "]: ", st.message()));
+                  options.rows_path, "[", start + r, "]: ", st.message()));
             }
           }
         }
@@ -307,8 +309,8 @@ absl::Status ScoringPlan::ScoreDense(const Eigen::Ref<const RowMatrix>& raw,
           absl::Status st = EncodeDenseFeature(
               f, col >= 0 ? in[col] : 0.0, col < 0, options, out);
           if (!st.ok()) {
-            return absl::InvalidArgumentError(
-                absl::StrCat("rows[", start + r, "]: ", st.message()));
+            return absl::InvalidArgumentError(absl::StrCat(
+                options.rows_path, "[", start + r, "]: ", st.message()));
           }
         }
       }

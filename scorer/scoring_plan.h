@@ -88,6 +88,9 @@ struct DenseOptions {
   // If true NaN means "missing" and the feature's missing rule applies;
   // otherwise a NaN is refused.
   bool nan_is_missing = false;
+  // What messages call the rows: a bad value of row i is reported as
+  // "<rows_path>[i]: ...", a bad shape as "<rows_path>: ...".
+  std::string rows_path = "rows";
 };
 
 class ScoringPlan {

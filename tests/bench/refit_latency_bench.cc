@@ -25,7 +25,7 @@
 #include "absl/strings/str_split.h"
 #include "plumbline/v1/registry.grpc.pb.h"
 #include "plumbline/v1/scoring.grpc.pb.h"
-#include "tests/daemon/process.h"
+#include "tests/testing/process.h"
 
 namespace plumbline::daemon {
 namespace {

@@ -13,10 +13,10 @@
 #include "absl/strings/str_cat.h"
 #include "absl/strings/str_format.h"
 #include "absl/strings/str_split.h"
-#include "daemon/daemon_options.h"
-#include "daemon/health_options.h"
+#include "daemon/server/options.h"
+#include "daemon/server/health_options.h"
 #include "gtest/gtest.h"
-#include "tests/daemon/process.h"
+#include "tests/testing/process.h"
 
 namespace plumbline::ops {
 namespace {

@@ -40,9 +40,9 @@
 #include "google/protobuf/util/json_util.h"
 #include "gtest/gtest.h"
 #include "plumbline/v1/scoring.grpc.pb.h"
-#include "tests/daemon/health_http.h"
-#include "tests/daemon/health_test_sets.h"
-#include "tests/daemon/process.h"
+#include "tests/testing/http.h"
+#include "tests/testing/health_test_sets.h"
+#include "tests/testing/process.h"
 #include "tests/ops/prometheus_server.h"
 
 namespace plumbline::ops {

@@ -16,8 +16,8 @@
 #include "absl/strings/str_cat.h"
 #include "absl/time/clock.h"
 #include "absl/time/time.h"
-#include "tests/daemon/health_http.h"
-#include "tests/daemon/process.h"
+#include "tests/testing/http.h"
+#include "tests/testing/process.h"
 
 namespace plumbline::ops::testing {
 namespace {

@@ -1,0 +1,18 @@
+// File: daemon/cli/health.cc
+#include "daemon/cli/health.h"
+
+#include "daemon/cli/health_table.h"
+#include "daemon/cli/client.h"
+
+namespace plumbline::daemon {
+
+absl::Status RunHealthCommand(const ClientOptions& client,
+                              const std::string& set, std::ostream& out) {
+  MonitorClient monitor(client.addr, client.timeout);
+  absl::StatusOr<v1::SetHealth> health = monitor.GetSetHealth(set);
+  if (!health.ok()) return health.status();
+  out << FormatSetHealth(*health);
+  return absl::OkStatus();
+}
+
+}  // namespace plumbline::daemon

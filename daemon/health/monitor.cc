@@ -1,0 +1,282 @@
+// File: daemon/health/monitor.cc
+#include "daemon/health/monitor.h"
+
+#include <algorithm>
+#include <tuple>
+#include <utility>
+
+#include "absl/strings/str_cat.h"
+#include "daemon/util/event_log.h"
+#include "daemon/health/rebuild.h"
+#include "daemon/util/time.h"
+
+namespace plumbline::daemon {
+namespace {
+
+SetVersion VersionKey(absl::string_view set, absl::string_view version) {
+  return SetVersion{std::string(set), std::string(version)};
+}
+
+void LogStateChange(const v1::SetHealth& before, const v1::SetHealth& after) {
+  const bool first = !before.has_evaluated_at();
+  if (first ? after.state() == v1::STEADY : before.state() == after.state()) {
+    return;
+  }
+  const std::string reasons = absl::StrCat(after.reasons_size());
+  const std::string from = first ? "none" : DriftStateName(before.state());
+  const std::string to = DriftStateName(after.state());
+  LogEvent(after.state() == v1::STEADY ? LogLevel::kInfo : LogLevel::kWarning,
+           "drift_state",
+           {{"set", after.set()},
+            {"version", after.version()},
+            {"from", from},
+            {"to", to},
+            {"reasons", reasons},
+            {"first_reason",
+             after.reasons_size() > 0 ? absl::string_view(after.reasons(0).text())
+                                      : absl::string_view()}});
+}
+
+}  // namespace
+
+HealthMonitor::HealthMonitor(HealthMonitorOptions options)
+    : options_(std::move(options)) {}
+
+absl::StatusOr<std::unique_ptr<HealthMonitor>> HealthMonitor::Create(
+    HealthMonitorOptions options) {
+  if (options.windows.buckets < 1 ||
+      options.windows.labelled_count % options.windows.buckets != 0 ||
+      options.windows.scored_count % options.windows.buckets != 0 ||
+      options.windows.time_span / options.windows.buckets <=
+          absl::ZeroDuration()) {
+    return absl::InvalidArgumentError(absl::StrCat(
+        "windows: ", options.windows.labelled_count, " labelled and ",
+        options.windows.scored_count, " scored records over ",
+        absl::FormatDuration(options.windows.time_span),
+        " cannot be split into ", options.windows.buckets,
+        " buckets; buckets must divide both counts"));
+  }
+  return std::unique_ptr<HealthMonitor>(new HealthMonitor(std::move(options)));
+}
+
+void HealthMonitor::SyncPlans(const std::vector<PlanPtr>& plans) {
+  absl::flat_hash_map<std::string, std::vector<std::shared_ptr<Version>>> next;
+  absl::MutexLock lock(&mu_);
+  for (const PlanPtr& plan : plans) {
+    std::shared_ptr<Version> kept;
+    if (auto it = versions_.find(plan->name()); it != versions_.end()) {
+      for (const auto& v : it->second) {
+        if (v->windows->plan()->version() == plan->version()) kept = v;
+      }
+    }
+    if (kept == nullptr) {
+      absl::StatusOr<std::unique_ptr<HealthWindows>> windows =
+          HealthWindows::Create(plan, options_.windows);
+      if (!windows.ok()) {  // options were checked by Create: not expected
+        LogEvent(LogLevel::kError, "health_windows_failed",
+                 {{"set", plan->name()}, {"error", windows.status().message()}});
+        continue;
+      }
+      kept = std::make_shared<Version>();
+      kept->windows = *std::move(windows);
+      kept->health.set_set(plan->name());
+      kept->health.set_version(plan->version());
+    }
+    retired_.erase(VersionKey(plan->name(), plan->version()));
+    next[plan->name()].push_back(std::move(kept));
+  }
+  for (const auto& [name, list] : versions_) {
+    for (const auto& v : list) {
+      const std::string& version = v->windows->plan()->version();
+      auto it = next.find(name);
+      const bool loaded =
+          it != next.end() &&
+          std::any_of(it->second.begin(), it->second.end(), [&](const auto& n) {
+            return n->windows->plan()->version() == version;
+          });
+      if (!loaded) retired_.insert(VersionKey(name, version));
+    }
+  }
+  versions_ = std::move(next);
+}
+
+HealthWindows* HealthMonitor::Find(absl::string_view set,
+                                   absl::string_view version) const {
+  auto it = versions_.find(set);
+  if (it == versions_.end()) return nullptr;
+  for (const auto& v : it->second) {
+    if (v->windows->plan()->version() == version) return v->windows.get();
+  }
+  return nullptr;
+}
+
+HealthWindows* HealthMonitor::Find(const scorer::ScoringPlan& plan) const {
+  auto it = versions_.find(plan.name());
+  if (it == versions_.end()) return nullptr;
+  for (const auto& v : it->second) {
+    // The registry's own plan object, or an equal version.
+    if (v->windows->plan().get() == &plan ||
+        v->windows->plan()->version() == plan.version()) {
+      return v->windows.get();
+    }
+  }
+  return nullptr;
+}
+
+void HealthMonitor::CountUnmonitored(absl::string_view set,
+                                     absl::string_view version,
+                                     absl::string_view kind) {
+  absl::MutexLock lock(&unmonitored_mu_);
+  UnmonitoredCount& c = unmonitored_[{VersionKey(set, version), std::string(kind)}];
+  if (c.records == 0) {
+    c.set = std::string(set);
+    c.version = std::string(version);
+    c.kind = std::string(kind);
+  }
+  ++c.records;
+}
+
+void HealthMonitor::OnScored(const scorer::ScoringPlan& plan,
+                             absl::Span<const scorer::RawValue> values,
+                             double log_odds, absl::Time scored_at) {
+  const absl::Time now = options_.now();
+  for (int attempt = 0; attempt < 2; ++attempt) {
+    {
+      absl::ReaderMutexLock lock(&mu_);
+      if (HealthWindows* w = Find(plan); w != nullptr) {
+        w->AddScored(log_odds, values, scored_at, now);
+        return;
+      }
+    }
+    if (attempt == 0 && !EnsureWindows(plan)) break;
+  }
+  CountUnmonitored(plan.name(), plan.version(), "scored");
+}
+
+bool HealthMonitor::EnsureWindows(const scorer::ScoringPlan& plan) {
+  {
+    absl::ReaderMutexLock lock(&mu_);
+    if (Find(plan.name(), plan.version()) != nullptr) return true;
+    if (retired_.contains(VersionKey(plan.name(), plan.version()))) {
+      return false;
+    }
+  }
+  // The caller lends the plan only for the call; the windows keep their own
+  // compiled copy (a version is immutable, so it is the same set).
+  absl::StatusOr<PlanPtr> copy =
+      scorer::ScoringPlan::Compile(plan.set(), plan.source());
+  if (!copy.ok()) return false;
+  absl::StatusOr<std::unique_ptr<HealthWindows>> windows =
+      HealthWindows::Create(*copy, options_.windows);
+  if (!windows.ok()) return false;
+  absl::MutexLock lock(&mu_);
+  if (Find(plan.name(), plan.version()) != nullptr) return true;
+  if (retired_.contains(VersionKey(plan.name(), plan.version()))) {
+    return false;
+  }
+  auto version = std::make_shared<Version>();
+  version->windows = *std::move(windows);
+  version->health.set_set(plan.name());
+  version->health.set_version(plan.version());
+  versions_[plan.name()].push_back(std::move(version));
+  return true;
+}
+
+void HealthMonitor::OnLabelled(const LabelledScore& labelled) {
+  const absl::Time now = options_.now();
+  {
+    absl::ReaderMutexLock lock(&mu_);
+    if (HealthWindows* w = Find(labelled.set_name, labelled.set_version)) {
+      w->AddLabelled(labelled.log_odds, labelled.label, labelled.observed_at,
+                     now);
+      return;
+    }
+  }
+  CountUnmonitored(labelled.set_name, labelled.set_version, "labelled");
+}
+
+absl::Status HealthMonitor::Rebuild(Ledger& ledger) {
+  std::vector<std::shared_ptr<Version>> all;
+  {
+    absl::ReaderMutexLock lock(&mu_);
+    for (const auto& [name, list] : versions_) {
+      all.insert(all.end(), list.begin(), list.end());
+    }
+  }
+  for (const auto& v : all) {
+    if (absl::Status s = RebuildWindows(ledger, *v->windows, options_.now());
+        !s.ok()) {
+      return s;
+    }
+  }
+  return absl::OkStatus();
+}
+
+void HealthMonitor::Evaluate() {
+  const absl::Time now = options_.now();
+  std::vector<std::shared_ptr<Version>> all;
+  {
+    absl::ReaderMutexLock lock(&mu_);
+    for (const auto& [name, list] : versions_) {
+      all.insert(all.end(), list.begin(), list.end());
+    }
+  }
+  std::vector<v1::SetHealth> results;
+  results.reserve(all.size());
+  for (const auto& v : all) {
+    v1::SetHealth health = v->windows->Figures(now);
+    options_.policy.Judge(v->windows->plan()->set().provenance(), &health);
+    *health.mutable_evaluated_at() = ToTimestamp(now);
+    results.push_back(std::move(health));
+  }
+  std::vector<v1::SetHealth> before(all.size());
+  {
+    absl::MutexLock lock(&mu_);
+    for (size_t i = 0; i < all.size(); ++i) {
+      before[i] = std::move(all[i]->health);
+      all[i]->health = results[i];
+    }
+  }
+  for (size_t i = 0; i < all.size(); ++i) LogStateChange(before[i], results[i]);
+}
+
+absl::StatusOr<v1::SetHealth> HealthMonitor::Health(absl::string_view name) const {
+  absl::ReaderMutexLock lock(&mu_);
+  auto it = versions_.find(name);
+  if (it == versions_.end() || it->second.empty()) {
+    return absl::NotFoundError(
+        absl::StrCat("no coefficient set named '", name, "' is monitored"));
+  }
+  v1::SetHealth health = it->second.front()->health;
+  if (!health.has_evaluated_at()) {
+    health.add_notes("not evaluated yet: figures appear after the first tick");
+  }
+  return health;
+}
+
+std::vector<v1::SetHealth> HealthMonitor::AllHealth() const {
+  std::vector<v1::SetHealth> out;
+  {
+    absl::ReaderMutexLock lock(&mu_);
+    for (const auto& [name, list] : versions_) {
+      for (const auto& v : list) out.push_back(v->health);
+    }
+  }
+  std::stable_sort(out.begin(), out.end(),
+                   [](const v1::SetHealth& a, const v1::SetHealth& b) {
+                     return a.set() < b.set();
+                   });
+  return out;
+}
+
+std::vector<UnmonitoredCount> HealthMonitor::Unmonitored() const {
+  std::vector<UnmonitoredCount> out;
+  absl::MutexLock lock(&unmonitored_mu_);
+  for (const auto& [key, c] : unmonitored_) out.push_back(c);
+  std::sort(out.begin(), out.end(), [](const auto& a, const auto& b) {
+    return std::tie(a.set, a.version, a.kind) < std::tie(b.set, b.version, b.kind);
+  });
+  return out;
+}
+
+}  // namespace plumbline::daemon

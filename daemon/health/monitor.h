@@ -1,0 +1,150 @@
+// File: daemon/health/monitor.h
+//
+// plumbd's model-health monitor. It is the server's HealthSink: the scoring
+// and outcomes services hand it every scored record and every newly
+// labelled score, which go into the windows of their set version
+// (daemon/health_windows.h). On each tick the daemon calls SyncPlans (the
+// loaded versions) and Evaluate, which computes every version's figures,
+// applies the drift policy and keeps the result; the Monitor RPC, the
+// Prometheus exposition and the event log all read that one result, so
+// they always show the same numbers.
+//
+//   auto monitor = HealthMonitor::Create(options);
+//   (*monitor)->SyncPlans(registry.All());
+//   (*monitor)->Rebuild(*ledger);         // at startup
+//   ... server runs, calling OnScored / OnLabelled ...
+//   (*monitor)->Evaluate();              // every tick
+//   absl::StatusOr<v1::SetHealth> h = (*monitor)->Health("courier");
+//
+// Versions: windows belong to a set *version*. A version that appears on the
+// request path before SyncPlans has seen it (right after a reload) gets its
+// windows at once; SyncPlans drops the windows of versions no longer loaded.
+// Records of a version without windows (an outcome for a score of a replaced
+// version) are counted as unmonitored, not silently dropped.
+//
+// Thread-safe: every method may be called from any thread. OnScored and
+// OnLabelled take a shared lock on the version map and the mutex of one
+// window pair for one record.
+#ifndef PLUMBLINE_DAEMON_HEALTH_MONITOR_H_
+#define PLUMBLINE_DAEMON_HEALTH_MONITOR_H_
+
+#include <cstdint>
+#include <functional>
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "absl/base/thread_annotations.h"
+#include "absl/container/flat_hash_map.h"
+#include "absl/container/flat_hash_set.h"
+#include "absl/status/status.h"
+#include "absl/status/statusor.h"
+#include "absl/strings/string_view.h"
+#include "absl/synchronization/mutex.h"
+#include "absl/time/time.h"
+#include "daemon/policy/drift_policy.h"
+#include "daemon/health/sink.h"
+#include "daemon/health/windows.h"
+#include "daemon/ledger/ledger.h"
+#include "daemon/util/set_version.h"
+#include "plumbline/v1/monitor.pb.h"
+#include "scorer/scoring_plan.h"
+
+namespace plumbline::daemon {
+
+struct HealthMonitorOptions {
+  HealthWindowOptions windows;
+  DriftPolicy policy;
+  // The clock; tests pass a fake one.
+  std::function<absl::Time()> now = [] { return absl::Now(); };
+};
+
+// Records that reached the monitor for a set version it has no windows for.
+struct UnmonitoredCount {
+  std::string set;
+  std::string version;
+  std::string kind;  // "scored" or "labelled"
+  int64_t records = 0;
+};
+
+class HealthMonitor final : public HealthSink {
+ public:
+  // INVALID_ARGUMENT for window options the windows refuse.
+  static absl::StatusOr<std::unique_ptr<HealthMonitor>> Create(
+      HealthMonitorOptions options);
+
+  HealthMonitor(const HealthMonitor&) = delete;
+  HealthMonitor& operator=(const HealthMonitor&) = delete;
+
+  // Makes the monitored versions exactly those of `plans`: new versions get
+  // empty windows, versions not among them are dropped with their windows
+  // and their last evaluation. Per set name the first plan listed is the
+  // serving (active) version; the others are its shadows
+  // (SetRegistry::AllMonitored lists them so).
+  void SyncPlans(const std::vector<std::shared_ptr<const scorer::ScoringPlan>>& plans);
+
+  // Refills the windows of every monitored version from the ledger
+  // (daemon/health_rebuild.h). Call before serving.
+  absl::Status Rebuild(Ledger& ledger);
+
+  // HealthSink.
+  void OnScored(const scorer::ScoringPlan& plan,
+                absl::Span<const scorer::RawValue> values, double log_odds,
+                absl::Time scored_at) override;
+  void OnLabelled(const LabelledScore& labelled) override;
+
+  // Computes and judges the figures of every monitored version at now(),
+  // keeps them for Health/AllHealth and logs each change of drift state.
+  void Evaluate();
+
+  // The last evaluation of set `name` (its active version: the first
+  // SyncPlans listed).
+  // NOT_FOUND when no version of it is monitored.
+  absl::StatusOr<v1::SetHealth> Health(absl::string_view name) const;
+  // The last evaluation of every monitored version, by set name.
+  std::vector<v1::SetHealth> AllHealth() const;
+  std::vector<UnmonitoredCount> Unmonitored() const;
+
+  const HealthMonitorOptions& options() const { return options_; }
+
+ private:
+  using PlanPtr = std::shared_ptr<const scorer::ScoringPlan>;
+  struct Version {
+    std::unique_ptr<HealthWindows> windows;
+    // Last evaluation; unset evaluated_at before the first.
+    v1::SetHealth health;  // guarded by HealthMonitor::mu_
+  };
+
+  explicit HealthMonitor(HealthMonitorOptions options);
+
+  // Creates windows for `plan`'s version unless it has them. False for a
+  // retired version (one SyncPlans dropped) or if they cannot be created.
+  bool EnsureWindows(const scorer::ScoringPlan& plan);
+  // REQUIRES: mu_ held (shared is enough).
+  HealthWindows* Find(absl::string_view set, absl::string_view version) const
+      ABSL_SHARED_LOCKS_REQUIRED(mu_);
+  HealthWindows* Find(const scorer::ScoringPlan& plan) const
+      ABSL_SHARED_LOCKS_REQUIRED(mu_);
+  void CountUnmonitored(absl::string_view set, absl::string_view version,
+                        absl::string_view kind);
+
+  // Constant after construction.
+  const HealthMonitorOptions options_;
+
+  mutable absl::Mutex mu_;
+  // Set name -> its monitored versions, oldest first.
+  absl::flat_hash_map<std::string, std::vector<std::shared_ptr<Version>>>
+      versions_ ABSL_GUARDED_BY(mu_);
+  // Versions SyncPlans dropped: not revived by a late record.
+  absl::flat_hash_set<SetVersion> retired_ ABSL_GUARDED_BY(mu_);
+
+  mutable absl::Mutex unmonitored_mu_;
+  // By version and kind.
+  absl::flat_hash_map<std::pair<SetVersion, std::string>, UnmonitoredCount>
+      unmonitored_
+      ABSL_GUARDED_BY(unmonitored_mu_);
+};
+
+}  // namespace plumbline::daemon
+
+#endif  // PLUMBLINE_DAEMON_HEALTH_MONITOR_H_

@@ -1,0 +1,543 @@
+// File: daemon/ledger/ledger.cc
+// The write side of the ledger: open and migrate, the writer thread, group
+// commit, outcomes and retention. The read side is in ledger_reads.cc.
+#include "daemon/ledger/ledger.h"
+
+#include <filesystem>
+#include <utility>
+
+#include "absl/strings/str_cat.h"
+#include "absl/synchronization/notification.h"
+#include "daemon/ledger/lookup.h"
+#include "daemon/ledger/schema.h"
+#include "daemon/ledger/set_ids.h"
+#include "daemon/ledger/wal_io.h"
+#include "daemon/util/event_log.h"
+
+namespace plumbline::daemon {
+
+struct Ledger::Job {
+  std::vector<ScoreEntry> scores;
+  std::vector<OutcomeEntry> outcomes;
+  std::vector<OutcomeResult> results;
+  // Per outcome, what ReportOutcomes did before queueing it.
+  enum Checked : uint8_t {
+    kUnchecked,  // for the writer to look up
+    kFound,      // its scores are in results[i].labelled
+    kRefused,    // invalid; results[i].status says why
+  };
+  std::vector<uint8_t> checked;
+  // Ledger::retention_passes_ before the lookups: if retention ran since,
+  // it may have deleted scores found, and the writer looks again.
+  int64_t retention_passes = 0;
+  absl::Status status;
+  absl::Notification done;
+  size_t rows() const { return scores.size() + outcomes.size(); }
+};
+
+// Scores are inserted this many rows per statement: one step of a multi-row
+// INSERT costs much less than as many single-row steps (measured with
+// tests/bench/ledger_bench's rows: 128 rows per statement took 2.50 us of
+// writer CPU per row where 32 took 2.80 and 64 took 2.70).
+constexpr int kScoresPerInsert = 128;
+// The WAL size (in pages) past which the writer asks WalCheckpointer for a
+// checkpoint: SQLite's own automatic checkpoint size.
+constexpr int kCheckpointFrames = 1000;
+// The WAL size past which the writer checkpoints itself, between groups.
+// The WAL only starts over once a checkpoint has copied all of it before the
+// writer's next transaction, which a background checkpoint racing a writer
+// under sustained load rarely does (the WAL reached 108-112 MB in a
+// 400,000-row run; with this, 17 MB); most pages are copied already.
+constexpr int kWriterCheckpointFrames = 4 * kCheckpointFrames;
+constexpr int kScoreColumns = 6;
+// Outcomes, likewise, per INSERT.
+constexpr int kOutcomesPerInsert = 128;
+constexpr int kOutcomeColumns = 4;
+
+struct Ledger::Statements {
+  std::unique_ptr<SqliteStatement> insert_score;
+  std::unique_ptr<SqliteStatement> insert_scores;  // kScoresPerInsert rows
+  std::unique_ptr<SqliteStatement> find_outcome;
+  std::unique_ptr<SqliteStatement> find_scores;  // kFindScoresSql
+  std::unique_ptr<SqliteStatement> insert_outcome;
+  std::unique_ptr<SqliteStatement> insert_outcomes;  // kOutcomesPerInsert rows
+  std::unique_ptr<SqliteStatement> savepoint, rollback_to, release;
+  std::unique_ptr<SqliteStatement> begin;
+  std::unique_ptr<SqliteStatement> commit;
+  std::unique_ptr<SqliteStatement> rollback;
+};
+
+namespace {
+
+int64_t Micros(absl::Time t) { return absl::ToUnixMicros(t); }
+
+// Binds `e` with its set id to parameters first + 1 .. first +
+// kScoreColumns. The text is not copied: the job owns `e` until it is
+// notified, after the commit.
+void BindScore(SqliteStatement& ins, int first, const ScoreEntry& e,
+               int64_t set_id) {
+  ins.BindTextNoCopy(first + 1, e.record_id);
+  ins.BindInt64(first + 2, set_id);
+  ins.BindInt64(first + 3, Micros(e.scored_at));
+  ins.BindDouble(first + 4, e.log_odds);
+  ins.BindDouble(first + 5, e.probability);
+  ins.BindTextNoCopy(first + 6, e.features_json);
+}
+
+}  // namespace
+
+int Ledger::SchemaVersion() { return LatestLedgerSchemaVersion(); }
+
+Ledger::Ledger(LedgerOptions options) : options_(std::move(options)) {}
+
+absl::StatusOr<std::unique_ptr<Ledger>> Ledger::Open(LedgerOptions options) {
+  const std::filesystem::path dir =
+      std::filesystem::path(options.path).parent_path();
+  if (!dir.empty()) {
+    std::error_code ec;
+    std::filesystem::create_directories(dir, ec);
+    if (ec) {
+      return absl::UnavailableError(absl::StrCat(
+          "ledger ", options.path, ": cannot create directory ", dir.string(),
+          ": ", ec.message()));
+    }
+  }
+  std::unique_ptr<Ledger> ledger(new Ledger(std::move(options)));
+  auto db = SqliteDb::Open(ledger->options_.path);
+  if (!db.ok()) return db.status();
+  ledger->writer_db_ = *std::move(db);
+  SqliteDb& w = *ledger->writer_db_;
+  if (absl::Status st = w.Exec("PRAGMA journal_mode=WAL"); !st.ok()) return st;
+  // NORMAL: COMMIT does not fsync; with durable_commits WalSyncer does it
+  // before the acknowledgement (see daemon/wal_io.h).
+  if (absl::Status st = w.Exec("PRAGMA synchronous=NORMAL"); !st.ok()) {
+    return st;
+  }
+  if (absl::Status st = MigrateLedger(w); !st.ok()) return st;
+  auto checkpointer = WalCheckpointer::Start(ledger->options_.path);
+  if (!checkpointer.ok()) return checkpointer.status();
+  ledger->checkpointer_ = *std::move(checkpointer);
+  // Replaces SQLite's automatic checkpoint inside COMMIT.
+  sqlite3_wal_hook(w.handle(), &Ledger::OnWalCommit, ledger.get());
+  if (ledger->options_.durable_commits) {
+    ledger->syncer_ =
+        std::make_unique<WalSyncer>(absl::StrCat(ledger->options_.path, "-wal"));
+  }
+
+  auto s = std::make_unique<Statements>();
+  struct {
+    std::unique_ptr<SqliteStatement>* out;
+    const char* sql;
+  } prepared[] = {
+      {&s->insert_score,
+       "INSERT INTO scores(record_id, set_id, scored_at_us, log_odds,"
+       " probability, features) VALUES (?1,?2,?3,?4,?5,?6)"},
+      {&s->find_outcome, "SELECT label FROM outcomes WHERE record_id = ?1"},
+      {&s->find_scores, kFindScoresSql},
+      {&s->insert_outcome,
+       "INSERT INTO outcomes(record_id, label, observed_at_us, reported_at_us)"
+       " VALUES (?1,?2,?3,?4) ON CONFLICT(record_id) DO NOTHING"},
+      {&s->savepoint, "SAVEPOINT outcomes"},
+      {&s->rollback_to, "ROLLBACK TO outcomes"},
+      {&s->release, "RELEASE outcomes"},
+      {&s->begin, "BEGIN IMMEDIATE"},
+      {&s->commit, "COMMIT"},
+      {&s->rollback, "ROLLBACK"},
+  };
+  for (auto& p : prepared) {
+    auto stmt = w.Prepare(p.sql);
+    if (!stmt.ok()) return stmt.status();
+    *p.out = *std::move(stmt);
+  }
+  std::string many =
+      "INSERT INTO scores(record_id, set_id, scored_at_us, log_odds,"
+      " probability, features) VALUES ";
+  for (int r = 0; r < kScoresPerInsert; ++r) {
+    absl::StrAppend(&many, r == 0 ? "" : ",", "(?,?,?,?,?,?)");
+  }
+  auto stmt = w.Prepare(many);
+  if (!stmt.ok()) return stmt.status();
+  s->insert_scores = *std::move(stmt);
+  many = "INSERT INTO outcomes(record_id, label, observed_at_us, reported_at_us)"
+         " VALUES ";
+  for (int r = 0; r < kOutcomesPerInsert; ++r) {
+    absl::StrAppend(&many, r == 0 ? "" : ",", "(?,?,?,?)");
+  }
+  absl::StrAppend(&many, " ON CONFLICT(record_id) DO NOTHING");
+  stmt = w.Prepare(many);
+  if (!stmt.ok()) return stmt.status();
+  s->insert_outcomes = *std::move(stmt);
+  auto set_ids = LedgerSetIds::Create(w);
+  if (!set_ids.ok()) return set_ids.status();
+  ledger->set_ids_ = *std::move(set_ids);
+  ledger->stmts_ = std::move(s);
+  ledger->lookup_ = std::make_unique<ScoreLookup>(ledger->options_.path);
+  ledger->writer_ = std::thread([l = ledger.get()] { l->WriterLoop(); });
+  return ledger;
+}
+
+Ledger::~Ledger() {
+  {
+    absl::MutexLock lock(&mu_);
+    stopping_ = true;
+  }
+  if (writer_.joinable()) writer_.join();
+  syncer_.reset();  // acknowledges the last commits
+  if (writer_db_ != nullptr) {
+    sqlite3_wal_hook(writer_db_->handle(), nullptr, nullptr);
+  }
+  checkpointer_.reset();
+}
+
+int Ledger::OnWalCommit(void* ledger, sqlite3*, const char*, int frames) {
+  auto* l = static_cast<Ledger*>(ledger);
+  l->wal_frames_ = frames;
+  if (frames >= kCheckpointFrames) l->checkpointer_->Request();
+  return SQLITE_OK;
+}
+
+void Ledger::set_commit_observer(std::function<void(absl::Duration, size_t)> fn) {
+  absl::MutexLock lock(&mu_);
+  commit_observer_ = std::move(fn);
+}
+
+LedgerStats Ledger::stats() const {
+  absl::MutexLock lock(&mu_);
+  LedgerStats s = stats_;
+  s.queued_rows = queued_rows_;
+  return s;
+}
+
+absl::Status Ledger::Enqueue(const std::shared_ptr<Job>& job) {
+  absl::MutexLock lock(&mu_);
+  if (stopping_) return absl::UnavailableError("ledger is shutting down");
+  const auto rows = static_cast<int64_t>(job->rows());
+  const auto capacity = static_cast<int64_t>(options_.queue_capacity_rows);
+  if (rows > capacity) {
+    // Would never fit, however long the caller waits.
+    return absl::ResourceExhaustedError(absl::StrCat(
+        "a ledger write of ", rows, " rows is over the queue capacity of ",
+        capacity, " rows (ledger.queue_capacity_rows); send smaller batches "
+        "or raise the capacity"));
+  }
+  if (queued_rows_ + rows > capacity) {
+    return absl::ResourceExhaustedError(absl::StrCat(
+        "ledger write queue is full (", queued_rows_, " rows waiting, capacity ",
+        options_.queue_capacity_rows, "); retry with backoff"));
+  }
+  queued_rows_ += rows;
+  queue_.push_back(job);
+  return absl::OkStatus();
+}
+
+absl::Status Ledger::AppendScores(std::vector<ScoreEntry> scores) {
+  if (scores.empty()) return absl::OkStatus();
+  auto job = std::make_shared<Job>();
+  job->scores = std::move(scores);
+  if (absl::Status st = Enqueue(job); !st.ok()) return st;
+  if (options_.ack == LedgerOptions::Ack::kQueued) return absl::OkStatus();
+  job->done.WaitForNotification();
+  return job->status;
+}
+
+absl::StatusOr<std::vector<OutcomeResult>> Ledger::ReportOutcomes(
+    std::vector<OutcomeEntry> outcomes) {
+  auto job = std::make_shared<Job>();
+  job->outcomes = std::move(outcomes);
+  const size_t n = job->outcomes.size();
+  job->results.resize(n);
+  if (n == 0) return std::move(job->results);
+  // The checks and the lookups run here, on the caller's thread, so that
+  // callers do them in parallel and the writer only inserts.
+  job->checked.assign(n, Job::kUnchecked);
+  std::vector<uint8_t> wanted(n, 0);
+  for (size_t i = 0; i < n; ++i) {
+    absl::Status invalid = CheckOutcome(job->outcomes[i]);
+    if (!invalid.ok()) {
+      job->results[i].status = std::move(invalid);
+      job->checked[i] = Job::kRefused;
+    } else {
+      wanted[i] = 1;
+    }
+  }
+  job->retention_passes = retention_passes_.load(std::memory_order_acquire);
+  std::vector<uint8_t> found(n, 0);
+  // On an error nothing is marked found and the writer looks them up.
+  lookup_->Find(job->outcomes, wanted, job->results, found).IgnoreError();
+  for (size_t i = 0; i < n; ++i) {
+    if (found[i]) job->checked[i] = Job::kFound;
+  }
+  if (absl::Status st = Enqueue(job); !st.ok()) return st;
+  job->done.WaitForNotification();
+  if (!job->status.ok()) return job->status;
+  return std::move(job->results);
+}
+
+void Ledger::WriterLoop() {
+  for (;;) {
+    std::vector<std::shared_ptr<Job>> group;
+    {
+      absl::MutexLock lock(&mu_);
+      mu_.Await(absl::Condition(
+          +[](Ledger* l) ABSL_EXCLUSIVE_LOCKS_REQUIRED(l->mu_) {
+            return !l->queue_.empty() || l->stopping_;
+          },
+          this));
+      if (queue_.empty()) return;  // stopping and drained
+      size_t rows = 0;
+      while (!queue_.empty() &&
+             (group.empty() || rows + queue_.front()->rows() <= options_.max_group_rows)) {
+        rows += queue_.front()->rows();
+        group.push_back(std::move(queue_.front()));
+        queue_.pop_front();
+      }
+    }
+    const absl::Time start = absl::Now();
+    absl::Status st = RunGroup(group);
+    size_t rows = 0;
+    for (const auto& job : group) rows += job->rows();
+    {
+      absl::MutexLock lock(&mu_);
+      queued_rows_ -= static_cast<int64_t>(rows);
+    }
+    if (st.ok() && syncer_ != nullptr) {
+      // Acknowledged once the WAL is on disk; meanwhile this thread goes on
+      // with the next group.
+      syncer_->After(
+          [this, group = std::move(group), start, rows](absl::Status synced) {
+            Finish(group, std::move(synced), start, rows);
+          });
+    } else {
+      Finish(group, st, start, rows);
+    }
+    if (st.ok() && options_.now() - last_retention_ >= options_.retention_interval) {
+      last_retention_ = options_.now();
+      // Retention failing leaves extra rows, never loses acknowledged ones;
+      // the next interval tries again. Logged and counted.
+      if (absl::Status r = ApplyRetention(); !r.ok()) {
+        LogEvent(LogLevel::kError, "ledger_retention_failed",
+                 {{"file", options_.path},
+                  {"error", r.message()},
+                  {"effect", "rows past retention stay until a later pass"}});
+        absl::MutexLock lock(&mu_);
+        ++stats_.retention_failures;
+      }
+      // After the pass's commit: a lookup that began before it is redone.
+      retention_passes_.fetch_add(1, std::memory_order_release);
+    }
+    if (wal_frames_ >= kWriterCheckpointFrames) {
+      checkpointer_->CheckpointOn(*writer_db_);
+    }
+  }
+}
+
+void Ledger::Finish(const std::vector<std::shared_ptr<Job>>& group,
+                    absl::Status st, absl::Time start, size_t rows) {
+  const absl::Duration latency = absl::Now() - start;
+  std::function<void(absl::Duration, size_t)> observer;
+  {
+    absl::MutexLock lock(&mu_);
+    if (st.ok()) {
+      ++stats_.committed_transactions;
+      stats_.committed_rows += static_cast<int64_t>(rows);
+      stats_.last_commit_latency = latency;
+    }
+    observer = commit_observer_;
+  }
+  if (st.ok() && observer) observer(latency, rows);
+  for (const auto& job : group) {
+    job->status = st;
+    job->done.Notify();
+  }
+}
+
+absl::Status Ledger::RunGroup(std::vector<std::shared_ptr<Job>>& group) {
+  Statements& s = *stmts_;
+  if (absl::Status st = s.begin->Run(); !st.ok()) return st;
+  absl::Status st;
+  // Scores first, in queue order, kScoresPerInsert rows per statement.
+  std::vector<const ScoreEntry*> scores;
+  std::vector<int64_t> set_ids;
+  for (const auto& job : group) {
+    for (const ScoreEntry& e : job->scores) {
+      if (!st.ok()) break;
+      absl::StatusOr<int64_t> id = set_ids_->Id(e);
+      if (!id.ok()) {
+        st = id.status();
+        break;
+      }
+      scores.push_back(&e);
+      set_ids.push_back(*id);
+    }
+  }
+  size_t next = 0;
+  for (; st.ok() && scores.size() - next >= kScoresPerInsert;
+       next += kScoresPerInsert) {
+    for (int r = 0; r < kScoresPerInsert; ++r) {
+      BindScore(*s.insert_scores, r * kScoreColumns, *scores[next + r],
+                set_ids[next + r]);
+    }
+    st = s.insert_scores->Run();
+  }
+  for (; st.ok() && next < scores.size(); ++next) {
+    BindScore(*s.insert_score, 0, *scores[next], set_ids[next]);
+    st = s.insert_score->Run();
+  }
+  if (st.ok()) st = WriteOutcomes(group);
+  if (st.ok()) st = s.commit->Run();
+  if (!st.ok()) {
+    s.rollback->Run().IgnoreError();  // the original error is what matters
+    set_ids_->Forget();  // the rollback may have undone new score_sets rows
+    for (auto& job : group) {
+      for (size_t i = 0; i < job->results.size(); ++i) {
+        if (job->checked[i] != Job::kRefused) job->results[i] = OutcomeResult{};
+      }
+    }
+  }
+  return st;
+}
+
+absl::Status Ledger::CheckOutcome(const OutcomeEntry& o) {
+  if (o.record_id.empty()) {
+    return absl::InvalidArgumentError("record_id must not be empty");
+  }
+  if (o.label != 0 && o.label != 1) {
+    return absl::InvalidArgumentError(absl::StrCat(
+        "record '", o.record_id, "': label must be 0 or 1, got ", o.label));
+  }
+  return absl::OkStatus();
+}
+
+absl::Status Ledger::WriteOutcomes(std::vector<std::shared_ptr<Job>>& group) {
+  Statements& s = *stmts_;
+  const absl::Time now = options_.now();
+  // The outcomes to insert, in queue order, with their observed time.
+  struct Pending {
+    const OutcomeEntry* o;
+    OutcomeResult* result;
+    int64_t observed_us;
+  };
+  std::vector<Pending> pending;
+  for (auto& job : group) {
+    // Scores found before a retention pass deleted some may be gone.
+    const bool stale = job->retention_passes != retention_passes_.load();
+    for (size_t i = 0; i < job->outcomes.size(); ++i) {
+      if (job->checked[i] == Job::kRefused) continue;
+      const OutcomeEntry& o = job->outcomes[i];
+      OutcomeResult& result = job->results[i];
+      if (stale || job->checked[i] != Job::kFound) {
+        // Not found by the caller's lookup: its score may have been
+        // queued with it, and the writer's connection sees this
+        // transaction's rows.
+        result.labelled.clear();
+        absl::StatusOr<bool> any =
+            FindScores(*s.find_scores, o.record_id, o.label, result.labelled);
+        if (!any.ok()) return any.status();
+        if (!*any) {
+          result.status = absl::NotFoundError(absl::StrCat(
+              "no score with record_id '", o.record_id, "' is in the ledger"));
+          continue;
+        }
+      }
+      const absl::Time observed =
+          OrNow(o.observed_at, now);
+      for (LabelledScore& l : result.labelled) l.observed_at = observed;
+      pending.push_back(Pending{&o, &result, Micros(observed)});
+    }
+  }
+  const int64_t now_us = Micros(now);
+  auto bind = [now_us](SqliteStatement& ins, int first, const Pending& p) {
+    ins.BindTextNoCopy(first + 1, p.o->record_id);
+    ins.BindInt64(first + 2, p.o->label);
+    ins.BindInt64(first + 3, p.observed_us);
+    ins.BindInt64(first + 4, now_us);
+  };
+  // Usually every outcome is new and kOutcomesPerInsert go in one
+  // statement. When fewer rows went in than were sent (a repeat, a label
+  // already there, or one record twice in the statement), the statement is
+  // undone and its rows go one by one, so each gets its own answer.
+  size_t next = 0;
+  for (; pending.size() - next >= kOutcomesPerInsert; next += kOutcomesPerInsert) {
+    if (absl::Status st = s.savepoint->Run(); !st.ok()) return st;
+    for (int r = 0; r < kOutcomesPerInsert; ++r) {
+      bind(*s.insert_outcomes, r * kOutcomeColumns, pending[next + r]);
+    }
+    if (absl::Status st = s.insert_outcomes->Run(); !st.ok()) return st;
+    const bool all_new = writer_db_->Changes() == kOutcomesPerInsert;
+    if (!all_new) {
+      if (absl::Status st = s.rollback_to->Run(); !st.ok()) return st;
+    }
+    if (absl::Status st = s.release->Run(); !st.ok()) return st;
+    if (all_new) continue;
+    for (int r = 0; r < kOutcomesPerInsert; ++r) {
+      const Pending& p = pending[next + r];
+      bind(*s.insert_outcome, 0, p);
+      if (absl::Status st = InsertOutcome(*p.o, *p.result); !st.ok()) return st;
+    }
+  }
+  for (; next < pending.size(); ++next) {
+    const Pending& p = pending[next];
+    bind(*s.insert_outcome, 0, p);
+    if (absl::Status st = InsertOutcome(*p.o, *p.result); !st.ok()) return st;
+  }
+  return absl::OkStatus();
+}
+
+absl::Status Ledger::InsertOutcome(const OutcomeEntry& o, OutcomeResult& result) {
+  Statements& s = *stmts_;
+  // Inserting first and reading the old label only on a conflict saves a
+  // lookup for the usual case, a new outcome.
+  if (absl::Status st = s.insert_outcome->Run(); !st.ok()) return st;
+  if (writer_db_->Changes() == 1) return absl::OkStatus();
+  result.labelled.clear();  // it labelled them before
+  s.find_outcome->BindTextNoCopy(1, o.record_id);
+  auto old = s.find_outcome->Step();
+  const int64_t existing = old.ok() && *old ? s.find_outcome->ColumnInt64(0) : -1;
+  s.find_outcome->Reset();
+  if (!old.ok()) return old.status();
+  if (existing == o.label) {
+    result.repeat = true;
+  } else {
+    result.status = absl::FailedPreconditionError(absl::StrCat(
+        "record '", o.record_id, "' already has outcome ", existing,
+        "; a different label (", o.label, ") is refused"));
+  }
+  return absl::OkStatus();
+}
+
+absl::Status Ledger::ApplyRetention() {
+  SqliteDb& w = *writer_db_;
+  // Deletes the scores matching `where` and their outcomes, in one transaction.
+  auto delete_scores = [&w](const std::string& where) {
+    absl::Status st = w.Exec(absl::StrCat(
+        "BEGIN IMMEDIATE;"
+        "DELETE FROM outcomes WHERE record_id IN (SELECT record_id FROM scores"
+        " WHERE ", where, ");"
+        "DELETE FROM scores WHERE ", where, ";COMMIT"));
+    if (!st.ok()) w.Exec("ROLLBACK").IgnoreError();
+    return st;
+  };
+  if (options_.retention_age != absl::InfiniteDuration()) {
+    // Ids grow with scored_at_us (schema 4 has no index by time): delete
+    // the oldest ids up to the first score within the age, walking only the
+    // rows to delete. A score stored just after a newer one (scored a few
+    // milliseconds earlier by another thread) goes in a later pass.
+    const int64_t cutoff = Micros(options_.now() - options_.retention_age);
+    auto first_kept = w.QueryInt64(absl::StrCat(
+        "SELECT COALESCE((SELECT id FROM scores WHERE scored_at_us >= ", cutoff,
+        " ORDER BY id LIMIT 1), (SELECT COALESCE(MAX(id), 0) + 1 FROM scores))"));
+    if (!first_kept.ok()) return first_kept.status();
+    if (absl::Status st = delete_scores(absl::StrCat("id < ", *first_kept));
+        !st.ok()) {
+      return st;
+    }
+  }
+  if (options_.retention_rows > 0) {
+    return delete_scores(absl::StrCat(
+        "id <= (SELECT COALESCE(MAX(id), 0) - ", options_.retention_rows,
+        " FROM scores)"));
+  }
+  return absl::OkStatus();
+}
+
+}  // namespace plumbline::daemon

@@ -1,0 +1,242 @@
+// File: daemon/ledger/ledger.h
+//
+// The ledger: plumbd's SQLite database (WAL mode) of every score it returned
+// and every outcome reported later, joined by record id. Writes go through a
+// single writer thread with a bounded queue and group commit: callers enqueue
+// rows and, under the default acknowledgement, wait until the transaction
+// holding them has committed, so an RPC that returned OK has its rows on
+// disk. A full queue refuses new rows at once with RESOURCE_EXHAUSTED rather
+// than growing without bound. The fsync that makes a commit durable and the
+// WAL checkpoints run on their own threads (daemon/wal_io.h), so the writer
+// builds the next group while the last one is being synced.
+//
+//   auto ledger = Ledger::Open(LedgerOptions{.path = "var/ledger.db"});
+//   absl::Status st = (*ledger)->AppendScores({entry});        // committed
+//   auto results = (*ledger)->ReportOutcomes({{"parcel-1", 1, now}});
+//
+// Acknowledgement (LedgerOptions::ack):
+//   kCommitted (default)  AppendScores returns after COMMIT; with
+//                         durable_commits (default) the WAL is fsynced, so an
+//                         acknowledged row survives a crash or power loss.
+//   kQueued               AppendScores returns once the rows are queued; rows
+//                         still queued are lost if the process dies, and an
+//                         outcome that races its score may be NOT_FOUND.
+// ReportOutcomes always waits for its commit: its per-outcome results depend
+// on what is in the ledger. It looks up the outcomes' scores on the calling
+// thread (daemon/ledger_lookup.h), so the writer only inserts; within one
+// group commit the scores are written before the outcomes, and the writer
+// looks up what the caller did not find, so an outcome queued together with
+// its score finds it.
+//
+// Thread-safe: all public methods may be called from any thread.
+#ifndef PLUMBLINE_DAEMON_LEDGER_LEDGER_H_
+#define PLUMBLINE_DAEMON_LEDGER_LEDGER_H_
+
+#include <atomic>
+#include <cstdint>
+#include <deque>
+#include <functional>
+#include <memory>
+#include <string>
+#include <thread>
+#include <vector>
+
+#include "absl/base/thread_annotations.h"
+#include "absl/status/status.h"
+#include "absl/status/statusor.h"
+#include "absl/synchronization/mutex.h"
+#include "absl/time/time.h"
+#include "daemon/ledger/sqlite_db.h"
+#include "daemon/util/set_version.h"
+#include "daemon/util/time.h"
+
+namespace plumbline::daemon {
+
+class LedgerSetIds;
+class ScoreLookup;
+class WalCheckpointer;
+class WalSyncer;
+
+struct LedgerOptions {
+  // SQLite file; its directory is created if missing.
+  std::string path = "./var/ledger.db";
+  // Rows (scores + outcomes) that may wait for the writer; beyond this new
+  // writes get RESOURCE_EXHAUSTED.
+  size_t queue_capacity_rows = 200000;
+  // Most rows one transaction takes (group commit).
+  size_t max_group_rows = 50000;
+  enum class Ack { kCommitted, kQueued };
+  // When AppendScores returns; see the file comment. Safe choice first.
+  Ack ack = Ack::kCommitted;
+  // true: a commit is acknowledged after the WAL is fsynced (what
+  // synchronous=FULL does, done by WalSyncer off the writer thread): durable
+  // on power loss. false: synchronous=NORMAL alone, durable when the process
+  // dies, may lose the last commits on power loss.
+  bool durable_commits = true;
+  // Scores older than this (and their outcomes) are deleted; infinite keeps all.
+  absl::Duration retention_age = absl::InfiniteDuration();
+  // Keep at most this many scores (oldest deleted first); 0 keeps all.
+  int64_t retention_rows = 0;
+  // How often the writer applies retention.
+  absl::Duration retention_interval = absl::Minutes(1);
+  // Clock for retention and for outcomes without an observed time.
+  std::function<absl::Time()> now = [] { return absl::Now(); };
+};
+
+// One score as plumbd returned it.
+struct ScoreEntry {
+  std::string record_id;
+  std::string set_name;
+  std::string set_version;
+  ScoreRole role = ScoreRole::kActive;
+  absl::Time scored_at;
+  double log_odds = 0;
+  double probability = 0;
+  // The feature values as received, as a JSON object.
+  std::string features_json;
+};
+
+struct OutcomeEntry {
+  std::string record_id;
+  int label = 0;
+  // kNoTime: when the ledger records it.
+  absl::Time observed_at = kNoTime;
+};
+
+// A score joined to its outcome.
+struct LabelledScore {
+  std::string record_id;
+  std::string set_name;
+  std::string set_version;
+  ScoreRole role = ScoreRole::kActive;
+  double log_odds = 0;
+  double probability = 0;
+  int label = 0;
+  absl::Time scored_at;
+  absl::Time observed_at;
+  std::string features_json;
+};
+
+struct OutcomeResult {
+  // OK (new or identical repeat), NOT_FOUND (no score with that id),
+  // FAILED_PRECONDITION (a different label was already recorded),
+  // INVALID_ARGUMENT (label not 0/1, empty id).
+  absl::Status status;
+  // True when the same label had already been recorded (nothing changed).
+  bool repeat = false;
+  // For a new outcome: the scores of that record it now labels (without
+  // their features_json, which the monitor does not need; refits read them
+  // with Ledger::ForEachLabelled).
+  std::vector<LabelledScore> labelled;
+};
+
+struct LedgerStats {
+  int64_t queued_rows = 0;
+  int64_t committed_transactions = 0;
+  int64_t committed_rows = 0;
+  absl::Duration last_commit_latency;
+  // Retention passes that failed (logged as event=ledger_retention_failed;
+  // rows past retention stay until a later pass succeeds).
+  int64_t retention_failures = 0;
+};
+
+class Ledger {
+ public:
+  // Opens or creates the ledger, applies forward schema migrations and starts
+  // the writer. FAILED_PRECONDITION if the file's schema is newer than this
+  // build knows.
+  static absl::StatusOr<std::unique_ptr<Ledger>> Open(LedgerOptions options);
+
+  // Commits everything queued, then stops the writer.
+  ~Ledger();
+  Ledger(const Ledger&) = delete;
+  Ledger& operator=(const Ledger&) = delete;
+
+  // Records scores. RESOURCE_EXHAUSTED when the queue is full; the error of
+  // the transaction when it failed to commit (nothing was acknowledged).
+  absl::Status AppendScores(std::vector<ScoreEntry> scores);
+
+  // Records outcomes; one result per outcome, in order. The call itself fails
+  // only when the queue is full or the transaction could not commit.
+  absl::StatusOr<std::vector<OutcomeResult>> ReportOutcomes(
+      std::vector<OutcomeEntry> outcomes);
+
+  // Calls `fn` with the most recent labelled scores of `set_name` (newest
+  // first, by outcome time), at most `limit` of them, observed at or after
+  // `since`. Reads on its own connection; sees committed rows only.
+  absl::Status ForEachLabelled(const std::string& set_name, int64_t limit,
+                               absl::Time since,
+                               const std::function<void(const LabelledScore&)>& fn);
+
+  // Calls `fn` with the most recent scores of `set_name`, newest first.
+  absl::Status ForEachScore(const std::string& set_name, int64_t limit,
+                            absl::Time since,
+                            const std::function<void(const ScoreEntry&)>& fn);
+
+  LedgerStats stats() const;
+
+  // Rows the queue holds at most (LedgerOptions::queue_capacity_rows).
+  size_t queue_capacity_rows() const { return options_.queue_capacity_rows; }
+
+  // Called by the writer after every commit with its latency and row count
+  // (for metrics). Set before the first write; must be thread-safe.
+  void set_commit_observer(std::function<void(absl::Duration, size_t)> fn);
+
+  // The schema version this build writes.
+  static int SchemaVersion();
+
+ private:
+  struct Job;
+  struct Statements;
+
+  explicit Ledger(LedgerOptions options);
+  absl::Status Enqueue(const std::shared_ptr<Job>& job);
+  void WriterLoop();
+  absl::Status RunGroup(std::vector<std::shared_ptr<Job>>& group);
+  // Counts a group's commit (when `st` is OK) and acknowledges its jobs.
+  void Finish(const std::vector<std::shared_ptr<Job>>& group, absl::Status st,
+              absl::Time start, size_t rows);
+  // INVALID_ARGUMENT when `o` can never be stored (empty id, label not 0/1).
+  static absl::Status CheckOutcome(const OutcomeEntry& o);
+  // Stores the group's outcomes (after its scores), looking up the scores
+  // the callers did not find.
+  absl::Status WriteOutcomes(std::vector<std::shared_ptr<Job>>& group);
+  // Runs the single-row insert bound for `o`; on a conflict, a repeat or
+  // FAILED_PRECONDITION in `result`.
+  absl::Status InsertOutcome(const OutcomeEntry& o, OutcomeResult& result);
+  absl::Status ApplyRetention();
+  // SQLite's WAL hook on the writer connection (after each commit, with the
+  // WAL's size in pages): asks for checkpoints.
+  static int OnWalCommit(void* ledger, sqlite3* db, const char* name,
+                         int frames);
+
+  // Constant after Open.
+  const LedgerOptions options_;
+  std::unique_ptr<SqliteDb> writer_db_;   // used by the writer thread only
+  std::unique_ptr<Statements> stmts_;     // writer thread only
+  std::unique_ptr<LedgerSetIds> set_ids_;  // writer thread only
+  std::unique_ptr<ScoreLookup> lookup_;    // thread-safe
+  // Both thread-safe; syncer_ is null unless durable_commits.
+  std::unique_ptr<WalCheckpointer> checkpointer_;
+  std::unique_ptr<WalSyncer> syncer_;
+  std::function<void(absl::Duration, size_t)> commit_observer_;
+
+  mutable absl::Mutex mu_;
+  std::deque<std::shared_ptr<Job>> queue_ ABSL_GUARDED_BY(mu_);
+  int64_t queued_rows_ ABSL_GUARDED_BY(mu_) = 0;
+  bool stopping_ ABSL_GUARDED_BY(mu_) = false;
+  LedgerStats stats_ ABSL_GUARDED_BY(mu_);
+
+  // Retention passes run so far (written by the writer after each pass).
+  std::atomic<int64_t> retention_passes_{0};
+
+  // Writer thread only.
+  absl::Time last_retention_ = absl::InfinitePast();
+  int wal_frames_ = 0;  // the WAL's size after the last commit
+
+  std::thread writer_;
+};
+
+}  // namespace plumbline::daemon
+
+#endif  // PLUMBLINE_DAEMON_LEDGER_LEDGER_H_

@@ -1,0 +1,149 @@
+#include "daemon/ledger/schema.h"
+
+#include <iterator>
+
+#include "absl/strings/str_cat.h"
+
+namespace plumbline::daemon {
+namespace {
+
+// kMigrations[i] takes the schema from version i to i + 1. Append only:
+// never edit a migration that has shipped.
+constexpr const char* kMigrations[] = {
+    // 0 -> 1: scores and outcomes.
+    "CREATE TABLE scores("
+    "  id INTEGER PRIMARY KEY,"
+    "  record_id TEXT NOT NULL,"
+    "  set_name TEXT NOT NULL,"
+    "  set_version TEXT NOT NULL,"
+    "  role TEXT NOT NULL,"
+    "  scored_at_us INTEGER NOT NULL,"
+    "  log_odds REAL NOT NULL,"
+    "  probability REAL NOT NULL,"
+    "  features TEXT NOT NULL);"
+    "CREATE INDEX scores_by_record ON scores(record_id);"
+    "CREATE INDEX scores_by_set_time ON scores(set_name, scored_at_us);"
+    "CREATE TABLE outcomes("
+    "  record_id TEXT PRIMARY KEY,"
+    "  label INTEGER NOT NULL CHECK (label IN (0, 1)),"
+    "  observed_at_us INTEGER NOT NULL,"
+    "  reported_at_us INTEGER NOT NULL);"
+    "CREATE INDEX outcomes_by_time ON outcomes(observed_at_us);",
+    // 1 -> 2, for ingest speed (measured with tests/bench/ledger_bench):
+    // a score refers to its (set name, version, role) by an integer into
+    // score_sets instead of repeating the three strings, and outcomes is a
+    // WITHOUT ROWID table clustered on record_id (one b-tree per outcome
+    // instead of a rowid table plus the index of its TEXT PRIMARY KEY). The
+    // view ledger_scores shows scores as version 1 stored them.
+    "CREATE TABLE score_sets("
+    "  id INTEGER PRIMARY KEY,"
+    "  set_name TEXT NOT NULL,"
+    "  set_version TEXT NOT NULL,"
+    "  role TEXT NOT NULL,"
+    "  UNIQUE (set_name, set_version, role));"
+    "INSERT INTO score_sets(set_name, set_version, role)"
+    "  SELECT set_name, set_version, role FROM scores"
+    "  GROUP BY set_name, set_version, role ORDER BY MIN(id);"
+    "CREATE TABLE scores_v2("
+    "  id INTEGER PRIMARY KEY,"
+    "  record_id TEXT NOT NULL,"
+    "  set_id INTEGER NOT NULL,"
+    "  scored_at_us INTEGER NOT NULL,"
+    "  log_odds REAL NOT NULL,"
+    "  probability REAL NOT NULL,"
+    "  features TEXT NOT NULL);"
+    "INSERT INTO scores_v2(id, record_id, set_id, scored_at_us, log_odds,"
+    "                      probability, features)"
+    "  SELECT s.id, s.record_id, ss.id, s.scored_at_us, s.log_odds,"
+    "         s.probability, s.features"
+    "  FROM scores s JOIN score_sets ss ON ss.set_name = s.set_name"
+    "    AND ss.set_version = s.set_version AND ss.role = s.role"
+    "  ORDER BY s.id;"
+    "DROP TABLE scores;"
+    "ALTER TABLE scores_v2 RENAME TO scores;"
+    "CREATE INDEX scores_by_record ON scores(record_id);"
+    "CREATE INDEX scores_by_set_time ON scores(set_id, scored_at_us);"
+    "CREATE VIEW ledger_scores AS"
+    "  SELECT s.id, s.record_id, ss.set_name, ss.set_version, ss.role,"
+    "         s.scored_at_us, s.log_odds, s.probability, s.features"
+    "  FROM scores s JOIN score_sets ss ON ss.id = s.set_id;"
+    "CREATE TABLE outcomes_v2("
+    "  record_id TEXT PRIMARY KEY,"
+    "  label INTEGER NOT NULL CHECK (label IN (0, 1)),"
+    "  observed_at_us INTEGER NOT NULL,"
+    "  reported_at_us INTEGER NOT NULL) WITHOUT ROWID;"
+    "INSERT INTO outcomes_v2(record_id, label, observed_at_us, reported_at_us)"
+    "  SELECT record_id, label, observed_at_us, reported_at_us FROM outcomes;"
+    "DROP TABLE outcomes;"
+    "ALTER TABLE outcomes_v2 RENAME TO outcomes;"
+    "CREATE INDEX outcomes_by_time ON outcomes(observed_at_us);",
+    // 2 -> 3: the life of coefficient sets (daemon/version_store.h): every
+    // version with its state and document, the order of activations (for
+    // rollback) and the audit history. Retention never deletes from these.
+    "CREATE TABLE set_versions("
+    "  set_name TEXT NOT NULL,"
+    "  version TEXT NOT NULL,"
+    "  state TEXT NOT NULL"
+    "    CHECK (state IN ('active', 'candidate', 'shadow', 'retired')),"
+    "  created_at_us INTEGER NOT NULL,"
+    "  created_by TEXT NOT NULL,"
+    "  reason TEXT NOT NULL,"
+    "  comparison TEXT NOT NULL,"
+    "  source TEXT NOT NULL,"
+    "  document TEXT NOT NULL,"
+    "  PRIMARY KEY (set_name, version)) WITHOUT ROWID;"
+    "CREATE UNIQUE INDEX one_active_version ON set_versions(set_name)"
+    "  WHERE state = 'active';"
+    "CREATE TABLE set_activations("
+    "  seq INTEGER PRIMARY KEY,"
+    "  set_name TEXT NOT NULL,"
+    "  version TEXT NOT NULL,"
+    "  at_us INTEGER NOT NULL);"
+    "CREATE TABLE audit("
+    "  id INTEGER PRIMARY KEY,"
+    "  at_us INTEGER NOT NULL,"
+    "  set_name TEXT NOT NULL,"
+    "  version TEXT NOT NULL,"
+    "  action TEXT NOT NULL,"
+    "  actor TEXT NOT NULL,"
+    "  detail TEXT NOT NULL);"
+    "CREATE INDEX audit_by_set ON audit(set_name, id);",
+    // 3 -> 4, for ingest speed: no index scores_by_set_time. Every score
+    // paid for it (0.65 us of the writer's 3.45 us per row, measured with
+    // tests/bench/ledger_bench's rows) and its readers do without it:
+    // ForEachScore walks scores newest id first and stops at its limit, and
+    // retention by age deletes the oldest ids up to the first score within
+    // the age (scored_at_us grows with id).
+    "DROP INDEX scores_by_set_time;",
+};
+
+}  // namespace
+
+int LatestLedgerSchemaVersion() {
+  return static_cast<int>(std::size(kMigrations));
+}
+
+absl::Status MigrateLedger(SqliteDb& db) {
+  auto version = db.QueryInt64("PRAGMA user_version");
+  if (!version.ok()) return version.status();
+  const int latest = LatestLedgerSchemaVersion();
+  if (*version > latest) {
+    return absl::FailedPreconditionError(absl::StrCat(
+        "ledger ", db.path(), " has schema version ", *version,
+        ", newer than this plumbd understands (", latest,
+        "); run a newer plumbd or point --ledger at another file"));
+  }
+  for (int v = static_cast<int>(*version); v < latest; ++v) {
+    absl::Status st = db.Exec(absl::StrCat("BEGIN IMMEDIATE;", kMigrations[v],
+                                           "PRAGMA user_version = ", v + 1,
+                                           ";COMMIT"));
+    if (!st.ok()) {
+      db.Exec("ROLLBACK").IgnoreError();
+      return absl::Status(st.code(), absl::StrCat("migrating ledger to schema ",
+                                                  v + 1, ": ", st.message()));
+    }
+  }
+  return absl::OkStatus();
+}
+
+}  // namespace plumbline::daemon

@@ -1,0 +1,73 @@
+// File: daemon/metrics/requests.h
+//
+// Request metrics of plumbd's gRPC server, recorded by a server interceptor
+// (grpc::experimental::ServerInterceptorFactoryInterface) that DaemonServer
+// registers, so every service (Scoring, Outcomes, Monitor, health checking)
+// is counted the same way without code in the handlers:
+//
+//   plumbline_requests_total{method,code}            counter
+//   plumbline_request_duration_seconds{method}       histogram
+//
+// method is the full gRPC method without the leading slash
+// ("plumbline.v1.Scoring/Score"); code the status code's name ("OK",
+// "NOT_FOUND"). The duration runs from the moment the server accepted the
+// call to the moment it sends the status.
+//
+//   RequestMetrics metrics(exporter->registry());
+//   builder.experimental().SetInterceptorCreators(
+//       MakeInterceptorCreators(&metrics));
+//
+// Thread-safe. The RequestMetrics must outlive the server.
+#ifndef PLUMBLINE_DAEMON_METRICS_REQUESTS_H_
+#define PLUMBLINE_DAEMON_METRICS_REQUESTS_H_
+
+#include <array>
+#include <memory>
+#include <string>
+#include <vector>
+
+#include <grpcpp/support/server_interceptor.h>
+#include <grpcpp/support/status.h>
+
+#include "absl/base/thread_annotations.h"
+#include "absl/container/flat_hash_map.h"
+#include "absl/strings/string_view.h"
+#include "absl/synchronization/mutex.h"
+#include "absl/time/time.h"
+#include "prometheus/counter.h"
+#include "prometheus/family.h"
+#include "prometheus/histogram.h"
+#include "prometheus/registry.h"
+
+namespace plumbline::daemon {
+
+class RequestMetrics {
+ public:
+  // Adds the two families to `registry`, which must outlive this object.
+  explicit RequestMetrics(prometheus::Registry& registry);
+
+  // Records one finished call.
+  void Observe(absl::string_view method, grpc::StatusCode code,
+               absl::Duration elapsed);
+
+ private:
+  static constexpr int kCodes = 17;  // OK .. UNAUTHENTICATED
+  struct Method {
+    prometheus::Histogram* duration = nullptr;
+    std::array<prometheus::Counter*, kCodes> calls{};
+  };
+
+  prometheus::Family<prometheus::Counter>& requests_;
+  prometheus::Family<prometheus::Histogram>& durations_;
+  absl::Mutex mu_;
+  absl::flat_hash_map<std::string, Method> methods_ ABSL_GUARDED_BY(mu_);
+};
+
+// The interceptor factories for grpc::ServerBuilder::experimental()
+// .SetInterceptorCreators. `metrics` must outlive the server.
+std::vector<std::unique_ptr<grpc::experimental::ServerInterceptorFactoryInterface>>
+MakeInterceptorCreators(RequestMetrics* metrics);
+
+}  // namespace plumbline::daemon
+
+#endif  // PLUMBLINE_DAEMON_METRICS_REQUESTS_H_

@@ -1,0 +1,447 @@
+// File: daemon/refit/job.cc
+#include "daemon/refit/job.h"
+
+#include <algorithm>
+#include <cmath>
+#include <cstdint>
+#include <deque>
+#include <utility>
+#include <vector>
+
+#include "absl/container/flat_hash_set.h"
+#include "absl/status/status.h"
+#include "absl/strings/match.h"
+#include "absl/strings/numbers.h"
+#include "absl/strings/str_cat.h"
+#include "absl/strings/str_format.h"
+#include "daemon/util/event_log.h"
+#include "daemon/scoring/features_json.h"
+#include "monitor/paired_comparison.h"
+#include "scorer/design_matrix.h"
+#include "scorer/design_set.h"
+#include "scorer/fit.h"
+
+namespace plumbline::daemon {
+namespace {
+
+// Audit actor and created_by of a job: "refit job N (kind[, actor])".
+constexpr char kJobActorPrefix[] = "refit job ";
+
+// The labelled records a job works on. Text values view into `arena`.
+struct RefitRows {
+  std::deque<std::string> arena;
+  std::vector<std::vector<scorer::RawValue>> train, holdout;
+  std::vector<int> train_labels, holdout_labels;
+  int64_t unusable = 0;  // rows whose stored features the set cannot read
+  absl::Time first_observed = absl::InfiniteFuture();
+  absl::Time last_observed = absl::InfinitePast();
+};
+
+absl::Status LoadRows(Ledger& ledger, const scorer::ScoringPlan& plan,
+                      const RefitSettings& settings, RefitRows& rows) {
+  absl::flat_hash_set<std::string> seen;
+  int64_t taken = 0;
+  google::protobuf::Struct holder;
+  std::vector<scorer::RawValue> values;
+  // Shadow scores share record ids with active ones: ask for more rows than
+  // needed and keep the active role's.
+  return ledger.ForEachLabelled(
+      plan.name(), settings.window_labelled * 4, absl::InfinitePast(),
+      [&](const LabelledScore& l) {
+        if (taken >= settings.window_labelled || l.role != ScoreRole::kActive ||
+            !seen.insert(l.record_id).second) {
+          return;
+        }
+        if (!ParseFeaturesJson(plan, l.features_json, &holder, &values).ok()) {
+          ++rows.unusable;
+          return;
+        }
+        for (scorer::RawValue& v : values) {
+          if (v.kind == scorer::RawValue::Kind::kText) {
+            v.text = rows.arena.emplace_back(v.text);
+          }
+        }
+        ++taken;
+        rows.first_observed = std::min(rows.first_observed, l.observed_at);
+        rows.last_observed = std::max(rows.last_observed, l.observed_at);
+        if (InHoldout(l.record_id, settings.holdout_fraction)) {
+          rows.holdout.push_back(values);
+          rows.holdout_labels.push_back(l.label);
+        } else {
+          rows.train.push_back(values);
+          rows.train_labels.push_back(l.label);
+        }
+      });
+}
+
+// The active version's features, to be learned again from new data.
+std::vector<scorer::FeatureSpec> SpecsFrom(const v1::CoefficientSet& set) {
+  std::vector<scorer::FeatureSpec> specs;
+  for (const v1::Feature& f : set.features()) {
+    scorer::FeatureSpec spec;
+    spec.name = f.name();
+    spec.missing = f.missing().kind();
+    switch (f.transform_case()) {
+      case v1::Feature::kCategorical:
+        spec.kind = scorer::FeatureKind::kCategorical;
+        spec.unseen = f.categorical().unseen();
+        break;
+      case v1::Feature::kBinned:
+        spec.kind = scorer::FeatureKind::kBinned;
+        spec.bins = f.binned().edges_size() + 1;
+        break;
+      default:
+        spec.kind = scorer::FeatureKind::kNumeric;
+        spec.standardize =
+            f.numeric().center() != 0 || f.numeric().scale() != 1;
+        break;
+    }
+    specs.push_back(std::move(spec));
+  }
+  return specs;
+}
+
+// Log-odds of `records` under `plan`; records it cannot score are marked
+// in `ok` (0) and get 0.
+std::vector<double> ScoreAll(const scorer::ScoringPlan& plan,
+                             const std::vector<std::vector<scorer::RawValue>>& records,
+                             std::vector<uint8_t>& ok) {
+  std::vector<double> out(records.size(), 0.0);
+  for (size_t i = 0; i < records.size(); ++i) {
+    absl::StatusOr<scorer::ScoreResult> r = plan.Score(records[i], {});
+    if (r.ok()) {
+      out[i] = r->log_odds;
+    } else {
+      ok[i] = 0;
+    }
+  }
+  return out;
+}
+
+std::string Window(const RefitRows& rows) {
+  return absl::StrCat(
+      rows.train.size() + rows.holdout.size(), " labelled records observed ",
+      absl::FormatTime("%Y-%m-%dT%H:%M:%SZ", rows.first_observed,
+                       absl::UTCTimeZone()),
+      " to ",
+      absl::FormatTime("%Y-%m-%dT%H:%M:%SZ", rows.last_observed,
+                       absl::UTCTimeZone()),
+      " (", rows.train.size(), " fit, ", rows.holdout.size(), " held out",
+      rows.unusable > 0 ? absl::StrCat(", ", rows.unusable, " unreadable")
+                        : std::string(),
+      ")");
+}
+
+}  // namespace
+
+absl::string_view RefitTriggerName(RefitTriggerKind kind) {
+  switch (kind) {
+    case RefitTriggerKind::kDrift:
+      return "drift";
+    case RefitTriggerKind::kSchedule:
+      return "schedule";
+    case RefitTriggerKind::kManual:
+      break;
+  }
+  return "manual";
+}
+
+absl::StatusOr<RefitSettings> RefitSettingsFrom(const v1::RefitPolicy& p) {
+  RefitSettings s;
+  s.mode = p.mode();
+  s.schedule = absl::Seconds(static_cast<int64_t>(p.schedule_seconds()));
+  if (p.cooldown_seconds() > 0) {
+    s.cooldown = absl::Seconds(static_cast<int64_t>(p.cooldown_seconds()));
+  }
+  if (p.min_labelled() > 0) s.min_labelled = p.min_labelled();
+  if (p.window_labelled() > 0) s.window_labelled = p.window_labelled();
+  if (p.holdout_fraction() != 0) s.holdout_fraction = p.holdout_fraction();
+  if (p.margin() != 0) s.margin = p.margin();
+  s.l2 = p.l2();
+  s.min_new_labelled = p.min_new_labelled();
+  if (!(s.holdout_fraction > 0 && s.holdout_fraction < 1)) {
+    return absl::InvalidArgumentError(absl::StrCat(
+        "refit.holdout_fraction: ", s.holdout_fraction,
+        " is not between 0 and 1 (exclusive)"));
+  }
+  if (!(s.margin >= 0) || !std::isfinite(s.margin)) {
+    return absl::InvalidArgumentError(
+        absl::StrCat("refit.margin: ", s.margin, " must be >= 0"));
+  }
+  if (!(s.l2 >= 0) || !std::isfinite(s.l2)) {
+    return absl::InvalidArgumentError(
+        absl::StrCat("refit.l2: ", s.l2, " must be >= 0"));
+  }
+  if (s.window_labelled < s.min_labelled) {
+    return absl::InvalidArgumentError(absl::StrCat(
+        "refit.window_labelled: ", s.window_labelled,
+        " is below refit.min_labelled ", s.min_labelled,
+        ": no refit could ever start"));
+  }
+  return s;
+}
+
+bool InHoldout(absl::string_view record_id, double holdout_fraction) {
+  // FNV-1a, 64 bit: a fixed, documented hash (absl::Hash is seeded per
+  // process, std::hash is unspecified), so the split never changes.
+  uint64_t h = 14695981039346656037ull;
+  for (unsigned char c : record_id) {
+    h ^= c;
+    h *= 1099511628211ull;
+  }
+  // FNV-1a alone leaves the high bits of similar ids ("parcel-000123",
+  // "parcel-000124") close together; MurmurHash3's 64-bit finalizer mixes
+  // every input bit into every output bit, so the share held out is the
+  // fraction asked for.
+  h ^= h >> 33;
+  h *= 0xff51afd7ed558ccdull;
+  h ^= h >> 33;
+  h *= 0xc4ceb9fe1a85ec53ull;
+  h ^= h >> 33;
+  return static_cast<double>(h >> 11) * 0x1.0p-53 < holdout_fraction;
+}
+
+absl::string_view RefitResultName(RefitOutcome::Result result) {
+  switch (result) {
+    case RefitOutcome::Result::kPromoted:
+      return "promoted";
+    case RefitOutcome::Result::kProposed:
+      return "proposed";
+    case RefitOutcome::Result::kNotBetter:
+      return "not_better";
+    case RefitOutcome::Result::kFailed:
+      return "failed";
+  }
+  return "failed";
+}
+
+RefitRunner::RefitRunner(Ledger* ledger, Lifecycle* lifecycle,
+                         SetRegistry* registry, RefitSettings settings,
+                         std::function<absl::Time()> now)
+    : ledger_(ledger),
+      lifecycle_(lifecycle),
+      registry_(registry),
+      settings_(settings),
+      now_(std::move(now)) {}
+
+bool RefitRunner::HasWaitingCandidate(const std::string& set) {
+  absl::StatusOr<std::vector<VersionRecord>> versions = lifecycle_->List(set);
+  if (!versions.ok()) return false;
+  for (const VersionRecord& v : *versions) {
+    if (v.state == VersionState::kCandidate &&
+        absl::StartsWith(v.created_by, kJobActorPrefix)) {
+      return true;
+    }
+  }
+  return false;
+}
+
+int64_t RefitRunner::LastJobId() {
+  absl::StatusOr<std::vector<std::string>> actors =
+      lifecycle_->AuditActors(kJobActorPrefix);
+  int64_t last = 0;
+  if (!actors.ok()) return last;  // numbering restarts; names stay unique
+  for (const std::string& actor : *actors) {
+    // "refit job N (kind...)"
+    absl::string_view rest = absl::string_view(actor).substr(
+        absl::string_view(kJobActorPrefix).size());
+    int64_t id = 0;
+    if (absl::SimpleAtoi(rest.substr(0, rest.find(' ')), &id)) {
+      last = std::max(last, id);
+    }
+  }
+  return last;
+}
+
+RefitOutcome RefitRunner::Run(const RefitTrigger& trigger, int64_t job_id) {
+  const std::string actor =
+      absl::StrCat(kJobActorPrefix, job_id, " (", RefitTriggerName(trigger.kind),
+                   trigger.actor.empty() ? "" : ", ", trigger.actor, ")");
+  RefitOutcome outcome;
+  PlanPtr active = registry_->Find(trigger.set);
+  const std::string active_version = active ? active->version() : "";
+  auto fail = [&](std::string why) {
+    outcome.result = RefitOutcome::Result::kFailed;
+    outcome.summary = std::move(why);
+    if (absl::Status s = lifecycle_->AppendAudit(
+            {kNoTime, trigger.set, active_version, "fit_failed",
+             actor, absl::StrCat(outcome.summary, "; trigger: ", trigger.reason)});
+        !s.ok()) {
+      LogEvent(LogLevel::kError, "audit_write_failed",
+               {{"set", trigger.set}, {"error", s.message()}});
+    }
+    LogEvent(LogLevel::kWarning, "refit_failed",
+             {{"set", trigger.set}, {"job", absl::StrCat(job_id)},
+              {"reason", outcome.summary}});
+    return outcome;
+  };
+  if (active == nullptr) {
+    return fail(absl::StrCat("set '", trigger.set,
+                             "' has no active version to refit"));
+  }
+
+  RefitRows rows;
+  if (absl::Status s = LoadRows(*ledger_, *active, settings_, rows); !s.ok()) {
+    return fail(absl::StrCat("reading the ledger: ", s.message()));
+  }
+  const int64_t labelled =
+      static_cast<int64_t>(rows.train.size() + rows.holdout.size());
+  if (labelled < settings_.min_labelled) {
+    return fail(absl::StrCat("too few labelled records: ", labelled,
+                             " usable, refit.min_labelled is ",
+                             settings_.min_labelled));
+  }
+  if (rows.holdout.size() < 2 || rows.train.size() < 2) {
+    return fail(absl::StrCat("the holdout split left ", rows.train.size(),
+                             " records to fit and ", rows.holdout.size(),
+                             " to compare: adjust refit.holdout_fraction"));
+  }
+  const std::string window = Window(rows);
+
+  absl::StatusOr<scorer::DesignLayout> layout =
+      scorer::DesignLayout::Learn(SpecsFrom(active->set()), rows.train);
+  if (!layout.ok()) {
+    return fail(absl::StrCat("learning the transforms: ",
+                             layout.status().message(), "; data: ", window));
+  }
+  absl::StatusOr<scorer::RowMatrix> x = layout->Encode(rows.train);
+  if (!x.ok()) return fail(absl::StrCat("encoding: ", x.status().message()));
+  Eigen::VectorXd y(static_cast<Eigen::Index>(rows.train_labels.size()));
+  for (size_t i = 0; i < rows.train_labels.size(); ++i) {
+    y[static_cast<Eigen::Index>(i)] = rows.train_labels[i];
+  }
+  scorer::FitOptions options;
+  options.l2_lambda = settings_.l2;
+  absl::StatusOr<scorer::FitResult> fit = scorer::FitLogistic(
+      *x, y, Eigen::VectorXd(), layout->column_names(), options);
+  if (!fit.ok()) {
+    return fail(absl::StrCat("fit refused: ", fit.status().message(),
+                             "; data: ", window));
+  }
+  if (!fit->converged) {
+    return fail(absl::StrCat("fit did not converge: ", fit->stop_reason,
+                             "; data: ", window));
+  }
+  const absl::Time now = now_();
+  const std::string version = absl::StrCat(
+      "refit-", absl::FormatTime("%Y%m%dT%H%M%SZ", now, absl::UTCTimeZone()),
+      "-j", job_id);
+  scorer::SetDescription description;
+  description.name = trigger.set;
+  description.version = version;
+  description.description =
+      absl::StrCat("Refit of ", trigger.set, " version ", active_version,
+                   " from its ledger (", RefitTriggerName(trigger.kind), ")");
+  description.created_by = actor;
+  description.training_data = absl::StrCat("plumbd ledger: ", window);
+  description.created_at = now;
+  absl::StatusOr<v1::CoefficientSet> set =
+      scorer::CoefficientSetFromFit(*layout, *fit, description);
+  if (!set.ok()) {
+    return fail(absl::StrCat("building the set: ", set.status().message()));
+  }
+  const std::string fit_detail = absl::StrFormat(
+      "data: %s; %d columns, %d iterations, log-likelihood %.6f, null "
+      "log-likelihood %.6f, AIC %.3f, McFadden R2 %.4f%s",
+      window, layout->num_columns(), fit->iterations, fit->log_likelihood,
+      fit->null_log_likelihood, fit->aic, fit->pseudo_r2,
+      settings_.l2 > 0 ? absl::StrCat(", L2 lambda ", settings_.l2) : "");
+
+  absl::StatusOr<PlanPtr> candidate =
+      scorer::ScoringPlan::Compile(*set, "refit candidate");
+  if (!candidate.ok()) {
+    return fail(absl::StrCat("compiling the candidate: ",
+                             candidate.status().message()));
+  }
+  std::vector<uint8_t> scored(rows.holdout.size(), 1);
+  const std::vector<double> active_z = ScoreAll(*active, rows.holdout, scored);
+  const std::vector<double> candidate_z =
+      ScoreAll(**candidate, rows.holdout, scored);
+  std::vector<double> za, zc;
+  std::vector<int> labels;
+  for (size_t i = 0; i < scored.size(); ++i) {
+    if (!scored[i]) continue;
+    za.push_back(active_z[i]);
+    zc.push_back(candidate_z[i]);
+    labels.push_back(rows.holdout_labels[i]);
+  }
+  absl::StatusOr<monitor::PairedLogLoss> paired =
+      monitor::ComparePairedLogLoss(za, zc, labels);
+  if (!paired.ok()) {
+    return fail(absl::StrCat("holdout comparison: ", paired.status().message()));
+  }
+  const bool wins = paired->mean_difference <= -settings_.margin &&
+                    paired->upper_95 < 0;
+  const std::string comparison = absl::StrFormat(
+      "holdout of %d records%s: log-loss active %s %.6f, candidate %.6f, "
+      "difference %.6f (95%% interval %.6f to %.6f); margin %.6f: %s",
+      paired->records,
+      labels.size() < scored.size()
+          ? absl::StrCat(" (", scored.size() - labels.size(),
+                         " could not be scored by both)")
+          : "",
+      active_version, paired->active_log_loss, paired->candidate_log_loss,
+      paired->mean_difference, paired->lower_95, paired->upper_95,
+      settings_.margin,
+      wins ? "candidate wins" : "candidate does not win");
+
+  if (!wins) {
+    outcome.result = RefitOutcome::Result::kNotBetter;
+    outcome.summary = absl::StrCat("fit ", version, ": ", fit_detail, ". ",
+                                   comparison);
+    for (const auto& [action, detail] :
+         {std::pair<std::string, std::string>{"fit", fit_detail},
+          {"compared", comparison}}) {
+      if (absl::Status s = lifecycle_->AppendAudit(
+              {kNoTime, trigger.set, version, action, actor, detail});
+          !s.ok()) {
+        LogEvent(LogLevel::kError, "audit_write_failed",
+                 {{"set", trigger.set}, {"error", s.message()}});
+      }
+    }
+    LogEvent(LogLevel::kInfo, "refit_not_better",
+             {{"set", trigger.set}, {"job", absl::StrCat(job_id)},
+              {"difference", absl::StrCat(paired->mean_difference)}});
+    return outcome;
+  }
+
+  NewVersion candidate_version;
+  candidate_version.set = *std::move(set);
+  candidate_version.created_by = actor;
+  candidate_version.reason = trigger.reason;
+  candidate_version.comparison = comparison;
+  candidate_version.audit = {
+      {kNoTime, "", "", "fit", actor, fit_detail},
+      {kNoTime, "", "", "compared", actor, comparison}};
+  absl::StatusOr<VersionRecord> stored =
+      lifecycle_->AddCandidate(std::move(candidate_version));
+  if (!stored.ok()) {
+    return fail(absl::StrCat("storing the candidate: ", stored.status().message()));
+  }
+  outcome.candidate = *stored;
+  outcome.result = RefitOutcome::Result::kProposed;
+  outcome.summary = absl::StrCat("fit: ", fit_detail);
+  if (settings_.mode == v1::RefitPolicy::AUTO) {
+    absl::StatusOr<VersionRecord> promoted = lifecycle_->Promote(
+        {trigger.set, version, actor,
+         absl::StrCat("refit mode auto: ", comparison)});
+    if (promoted.ok()) {
+      outcome.result = RefitOutcome::Result::kPromoted;
+      outcome.candidate = *promoted;
+    } else {
+      outcome.summary = absl::StrCat(outcome.summary, "; promotion failed: ",
+                                     promoted.status().message());
+    }
+  } else {
+    outcome.summary = absl::StrCat(outcome.summary,
+                                   "; waiting for plumbctl approve --set ",
+                                   trigger.set, " --version ", version);
+  }
+  LogEvent(LogLevel::kInfo, "refit_done",
+           {{"set", trigger.set}, {"job", absl::StrCat(job_id)},
+            {"version", version},
+            {"result", RefitResultName(outcome.result)}});
+  return outcome;
+}
+
+}  // namespace plumbline::daemon

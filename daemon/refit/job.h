@@ -1,0 +1,127 @@
+// File: daemon/refit/job.h
+//
+// One refit job: re-estimates a set by maximum likelihood from the labelled
+// records of its ledger and decides whether the result may replace the
+// active version.
+//
+//   1. Data: the most recent `window_labelled` labelled records the active
+//      role of the set scored (any version), their features as received.
+//   2. Holdout: a record is held out when the FNV-1a hash of its id, mixed
+//      by MurmurHash3's 64-bit finalizer, as a fraction of 2^64, is below
+//      holdout_fraction: the same record always
+//      falls on the same side, in every job and on every machine.
+//   3. Fit: the active version's features with the same kinds and missing
+//      rules; transforms, levels (including levels the active version never
+//      saw) and bin edges are learned again from the training part; IRLS
+//      with the policy's L2 penalty (scorer/fit.h).
+//   4. Comparison on the holdout: both versions score every held-out record
+//      through the serving code path; paired log-loss difference with a 95%
+//      interval (monitor/paired_comparison.h). The candidate wins when it
+//      lowers the holdout log-loss by at least `margin` and the interval's
+//      upper end is below zero.
+//   5. A winner is stored as a CANDIDATE (mode PROPOSE) or promoted (AUTO);
+//      a loser or a failure (too few labels, separation, no convergence,
+//      ...) changes nothing. Every job writes its fit, comparison or failure
+//      to the audit table.
+//
+// Thread-safe: Run may be called from any thread, one job at a time per
+// runner (the refit worker, daemon/refit_worker.h, runs them one by one).
+#ifndef PLUMBLINE_DAEMON_REFIT_JOB_H_
+#define PLUMBLINE_DAEMON_REFIT_JOB_H_
+
+#include <cstdint>
+#include <functional>
+#include <optional>
+#include <string>
+
+#include "absl/status/statusor.h"
+#include "absl/strings/string_view.h"
+#include "absl/time/time.h"
+#include "daemon/ledger/ledger.h"
+#include "daemon/registry/lifecycle.h"
+#include "daemon/scoring/set_registry.h"
+#include "plumbline/v1/config.pb.h"
+
+namespace plumbline::daemon {
+
+// config.proto RefitPolicy with its defaults applied.
+struct RefitSettings {
+  v1::RefitPolicy::Mode mode = v1::RefitPolicy::PROPOSE;
+  absl::Duration schedule = absl::ZeroDuration();  // zero: no schedule
+  absl::Duration cooldown = absl::Seconds(3600);
+  int64_t min_labelled = 1000;
+  int64_t window_labelled = 100000;
+  double holdout_fraction = 0.3;
+  double margin = 0.001;
+  double l2 = 0;
+  int64_t min_new_labelled = 0;  // 0: a drift-started refit starts at once
+};
+
+// INVALID_ARGUMENT naming the field for a holdout_fraction outside (0, 1),
+// a negative margin or l2, or window_labelled below min_labelled.
+absl::StatusOr<RefitSettings> RefitSettingsFrom(const v1::RefitPolicy& policy);
+
+// The holdout rule of step 2.
+bool InHoldout(absl::string_view record_id, double holdout_fraction);
+
+// What started a refit job.
+enum class RefitTriggerKind {
+  kDrift,     // the drift policy found the active version drifting
+  kSchedule,  // refit.schedule elapsed
+  kManual,    // plumbctl refit (Registry.Refit)
+};
+// "drift" | "schedule" | "manual": audit details, logs and metric labels.
+absl::string_view RefitTriggerName(RefitTriggerKind kind);
+
+struct RefitTrigger {
+  std::string set;
+  RefitTriggerKind kind = RefitTriggerKind::kManual;
+  std::string actor;
+  std::string reason;
+};
+
+struct RefitOutcome {
+  enum class Result { kPromoted, kProposed, kNotBetter, kFailed };
+  Result result = Result::kFailed;
+  // The stored candidate (kPromoted, kProposed).
+  std::optional<VersionRecord> candidate;
+  // What happened, for people (also the audit detail).
+  std::string summary;
+};
+
+// "promoted", "proposed", "not_better", "failed" (the metric's label).
+absl::string_view RefitResultName(RefitOutcome::Result result);
+
+class RefitRunner {
+ public:
+  // All pointers must outlive the runner.
+  RefitRunner(Ledger* ledger, Lifecycle* lifecycle, SetRegistry* registry,
+              RefitSettings settings,
+              std::function<absl::Time()> now = [] { return absl::Now(); });
+
+  // Runs job `job_id` for `trigger` to the end. Never fails: a failure is
+  // an outcome (kFailed) with its reason, also written to the audit table.
+  RefitOutcome Run(const RefitTrigger& trigger, int64_t job_id);
+
+  // The highest job id in the audit of every set (0 if none), so job ids
+  // keep growing across restarts.
+  int64_t LastJobId();
+
+  const RefitSettings& settings() const { return settings_; }
+
+  // Whether `set` has a candidate from a refit job waiting for approval:
+  // drift- and schedule-triggered jobs wait until it is approved or
+  // replaced, rather than piling up candidates nobody has looked at.
+  bool HasWaitingCandidate(const std::string& set);
+
+ private:
+  Ledger* const ledger_;
+  Lifecycle* const lifecycle_;
+  SetRegistry* const registry_;
+  const RefitSettings settings_;
+  const std::function<absl::Time()> now_;
+};
+
+}  // namespace plumbline::daemon
+
+#endif  // PLUMBLINE_DAEMON_REFIT_JOB_H_

@@ -1,0 +1,54 @@
+// File: daemon/scoring/features_json.cc
+#include "daemon/scoring/features_json.h"
+
+#include <cmath>
+
+#include "absl/strings/str_cat.h"
+#include "daemon/scoring/record_conversion.h"
+#include "google/protobuf/util/json_util.h"
+
+namespace plumbline::daemon {
+
+absl::Status ParseFeaturesJson(const scorer::ScoringPlan& plan,
+                               absl::string_view json,
+                               google::protobuf::Struct* holder,
+                               std::vector<scorer::RawValue>* values) {
+  holder->Clear();
+  google::protobuf::util::JsonParseOptions options;
+  options.ignore_unknown_fields = false;
+  const auto parsed = google::protobuf::util::JsonStringToMessage(
+      google::protobuf::StringPiece(json.data(), json.size()), holder, options);
+  if (!parsed.ok()) {
+    return absl::InvalidArgumentError(
+        absl::StrCat("stored features are not a JSON object: ",
+                     parsed.message().as_string()));
+  }
+  if (absl::Status s = StructToRawValues(plan, *holder, values); !s.ok()) {
+    return s;
+  }
+  for (int f = 0; f < plan.num_features(); ++f) {
+    scorer::RawValue& v = (*values)[static_cast<size_t>(f)];
+    if (v.kind == scorer::RawValue::Kind::kMissing) continue;
+    const bool categorical =
+        plan.feature_kind(f) == scorer::FeatureKind::kCategorical;
+    if (!categorical && v.kind == scorer::RawValue::Kind::kText) {
+      return absl::InvalidArgumentError(
+          absl::StrCat("feature '", plan.feature_name(f),
+                       "': expected a number, got text '", v.text, "'"));
+    }
+    if (categorical && v.kind == scorer::RawValue::Kind::kNumber) {
+      const auto& levels = plan.set().features(f).categorical().levels();
+      const double x = v.number;
+      if (!(x >= 0 && x < static_cast<double>(levels.size()) &&
+            x == std::floor(x))) {
+        return absl::InvalidArgumentError(absl::StrCat(
+            "feature '", plan.feature_name(f), "': the number ", x,
+            " is not a level index in [0, ", levels.size(), ")"));
+      }
+      v = scorer::RawValue::Text(levels[static_cast<int>(x)].value());
+    }
+  }
+  return absl::OkStatus();
+}
+
+}  // namespace plumbline::daemon

@@ -1,0 +1,43 @@
+// File: daemon/scoring/features_json.h
+//
+// A record's feature values as the ledger stores them (daemon/
+// ledger_entries.h FeaturesJson): one JSON object of feature name -> value
+// (number, string or null). HealthMonitor parses stored records back into
+// the scorer's RawValue row when it rebuilds its windows from the ledger at
+// startup, through protobuf's JSON mapping (JsonStringToMessage into a
+// google.protobuf.Struct): no JSON is parsed by hand.
+//
+//   google::protobuf::Struct holder;
+//   std::vector<scorer::RawValue> row;
+//   absl::Status s = ParseFeaturesJson(*plan, json, &holder, &row);
+//
+// Thread-safe: pure functions.
+#ifndef PLUMBLINE_DAEMON_SCORING_FEATURES_JSON_H_
+#define PLUMBLINE_DAEMON_SCORING_FEATURES_JSON_H_
+
+#include <string>
+#include <vector>
+
+#include "absl/status/status.h"
+#include "absl/status/statusor.h"
+#include "absl/strings/string_view.h"
+#include "google/protobuf/struct.pb.h"
+#include "scorer/scoring_plan.h"
+
+namespace plumbline::daemon {
+
+// Parses `json` into `values` (plan.num_features() entries in the plan's
+// order; absent and null features are missing). Text values view into
+// `holder`, which must outlive `values`. A categorical feature given as a
+// whole number in [0, levels) is read as that level (the dense form's
+// code). INVALID_ARGUMENT naming the feature for: malformed JSON, a name
+// that is not a feature of the plan, a boolean/list/object, text for a
+// numeric or binned feature, any other number for a categorical one.
+absl::Status ParseFeaturesJson(const scorer::ScoringPlan& plan,
+                               absl::string_view json,
+                               google::protobuf::Struct* holder,
+                               std::vector<scorer::RawValue>* values);
+
+}  // namespace plumbline::daemon
+
+#endif  // PLUMBLINE_DAEMON_SCORING_FEATURES_JSON_H_

@@ -1,0 +1,137 @@
+// File: daemon/server/options.cc
+#include "daemon/server/options.h"
+
+#include <cstdint>
+#include <limits>
+#include <string>
+
+#include "absl/status/status.h"
+#include "absl/strings/str_cat.h"
+#include "daemon/util/files.h"
+#include "google/protobuf/util/json_util.h"
+
+namespace plumbline::daemon {
+namespace {
+
+// Seconds from the config as a Duration; values beyond int64 are infinite.
+absl::Duration ConfigSeconds(uint64_t seconds) {
+  if (seconds > static_cast<uint64_t>(std::numeric_limits<int64_t>::max())) {
+    return absl::InfiniteDuration();
+  }
+  return absl::Seconds(static_cast<int64_t>(seconds));
+}
+
+void MergeLedger(const v1::LedgerConfig& config, LedgerOptions& ledger) {
+  // An enum number this build does not know gets the safe acknowledgement.
+  ledger.ack = config.ack() == v1::LedgerConfig::ACK_QUEUED
+                   ? LedgerOptions::Ack::kQueued
+                   : LedgerOptions::Ack::kCommitted;
+  if (config.queue_capacity_rows() != 0) {
+    ledger.queue_capacity_rows = config.queue_capacity_rows();
+  }
+  if (config.max_group_rows() != 0) {
+    ledger.max_group_rows = config.max_group_rows();
+  }
+  ledger.durable_commits = !config.relaxed_commits();
+  if (config.retention_seconds() != 0) {
+    ledger.retention_age = ConfigSeconds(config.retention_seconds());
+  }
+  if (config.retention_rows() != 0) {
+    ledger.retention_rows =
+        config.retention_rows() >
+                static_cast<uint64_t>(std::numeric_limits<int64_t>::max())
+            ? 0  // more rows than SQLite can hold: keep all
+            : static_cast<int64_t>(config.retention_rows());
+  }
+}
+
+void MergeWindows(const v1::WindowConfig& config, WindowOptions& windows) {
+  if (config.labelled_count() != 0) {
+    windows.labelled_count = config.labelled_count();
+  }
+  if (config.scored_count() != 0) windows.scored_count = config.scored_count();
+  if (config.time_seconds() != 0) {
+    windows.time = ConfigSeconds(config.time_seconds());
+  }
+  if (config.buckets() != 0) windows.buckets = config.buckets();
+}
+
+void MergeDriftPolicy(const v1::DriftPolicy& config,
+                      DriftPolicyOptions& policy) {
+  policy.thresholds.assign(config.thresholds().begin(),
+                           config.thresholds().end());
+  if (config.min_labelled() != 0) policy.min_labelled = config.min_labelled();
+  if (config.min_scored() != 0) policy.min_scored = config.min_scored();
+  if (config.tick_seconds() != 0) {
+    policy.tick = ConfigSeconds(config.tick_seconds());
+  }
+}
+
+LogOptions LogOptionsFrom(const v1::LogConfig& config) {
+  LogOptions log;
+  switch (config.level()) {
+    case v1::LogConfig::WARNING:
+      log.min_level = LogLevel::kWarning;
+      break;
+    case v1::LogConfig::ERROR:
+      log.min_level = LogLevel::kError;
+      break;
+    default:
+      log.min_level = LogLevel::kInfo;
+  }
+  log.format = config.format() == v1::LogConfig::JSON_LINES
+                   ? LogFormat::kJsonLines
+                   : LogFormat::kKeyValue;
+  log.record_values = config.log_record_values();
+  return log;
+}
+
+}  // namespace
+
+DaemonOptions OptionsFromConfig(const v1::DaemonConfig& config) {
+  DaemonOptions options;
+  if (!config.listen().empty()) options.listen = config.listen();
+  if (!config.sets_dir().empty()) options.sets_dir = config.sets_dir();
+  if (!config.metrics_listen().empty()) {
+    options.metrics_listen = config.metrics_listen();
+  }
+  if (!config.ledger_path().empty()) options.ledger.path = config.ledger_path();
+  if (config.max_batch_records() != 0) {
+    options.max_batch_records = config.max_batch_records();
+  }
+  if (config.max_reasons() != 0) options.max_reasons = config.max_reasons();
+  if (config.max_message_bytes() != 0) {
+    options.max_message_bytes = config.max_message_bytes();
+  }
+  MergeLedger(config.ledger(), options.ledger);
+  MergeWindows(config.windows(), options.windows);
+  MergeDriftPolicy(config.drift_policy(), options.drift_policy);
+  options.refit = config.refit();
+  options.security = config.security();
+  options.grpc = config.grpc();
+  options.log = LogOptionsFrom(config.log());
+  return options;
+}
+
+absl::StatusOr<v1::DaemonConfig> ReadDaemonConfigFile(const std::string& path) {
+  absl::StatusOr<std::string> text = ReadFileToString(path);
+  if (!text.ok()) return text.status();
+  v1::DaemonConfig config;
+  google::protobuf::util::JsonParseOptions parse_options;
+  parse_options.ignore_unknown_fields = false;
+  const auto status =
+      google::protobuf::util::JsonStringToMessage(*text, &config, parse_options);
+  if (!status.ok()) {
+    return absl::InvalidArgumentError(absl::StrCat(
+        path, ": not a valid plumbd config: ", status.message().as_string()));
+  }
+  return config;
+}
+
+absl::StatusOr<DaemonOptions> LoadDaemonOptions(const std::string& path) {
+  absl::StatusOr<v1::DaemonConfig> config = ReadDaemonConfigFile(path);
+  if (!config.ok()) return config.status();
+  return OptionsFromConfig(*config);
+}
+
+}  // namespace plumbline::daemon

@@ -1,0 +1,239 @@
+// File: daemon/server/plumbd.cc
+#include "daemon/server/plumbd.h"
+
+#include <filesystem>
+#include <system_error>
+#include <utility>
+#include <vector>
+
+#include "absl/strings/match.h"
+#include "absl/strings/str_cat.h"
+#include "daemon/access/access_control.h"
+#include "daemon/metrics/health.h"
+#include "daemon/metrics/ledger.h"
+#include "daemon/server/health_options.h"
+#include "daemon/util/address.h"
+#include "daemon/util/event_log.h"
+#include "daemon/util/files.h"
+
+namespace plumbline::daemon {
+namespace {
+
+// Health service names of the monitor and registry services.
+constexpr char kMonitorServiceName[] = "plumbline.v1.Monitor";
+constexpr char kRegistryServiceName[] = "plumbline.v1.Registry";
+
+// `status` with `part` in front of its message, same code.
+absl::Status In(absl::string_view part, const absl::Status& status) {
+  return absl::Status(status.code(), absl::StrCat(part, ": ", status.message()));
+}
+
+}  // namespace
+
+absl::StatusOr<DaemonOptions> LoadPlumbdOptions(const PlumbdOverrides& flags) {
+  DaemonOptions options;
+  // Whether a metrics address was configured (file or flag), as opposed to
+  // the default.
+  bool metrics_configured = false;
+  if (!flags.config_file.empty()) {
+    absl::StatusOr<v1::DaemonConfig> loaded =
+        ReadDaemonConfigFile(flags.config_file);
+    if (!loaded.ok()) return loaded.status();
+    options = OptionsFromConfig(*loaded);
+    metrics_configured = !loaded->metrics_listen().empty();
+  }
+  if (!flags.sets_dir.empty()) options.sets_dir = flags.sets_dir;
+  if (!flags.listen.empty()) options.listen = flags.listen;
+  if (!flags.ledger_path.empty()) options.ledger.path = flags.ledger_path;
+  if (!flags.metrics_listen.empty()) {
+    options.metrics_listen = flags.metrics_listen;
+    metrics_configured = true;
+  }
+  if (!metrics_configured && absl::EndsWith(options.listen, ":0")) {
+    options.metrics_listen = BoundAddress(options.listen, 0);
+  }
+  // Settings checked here are config errors (event=config_failed), not
+  // startup failures; Start checks them again, cheaply.
+  if (absl::StatusOr<HealthMonitorOptions> health =
+          HealthMonitorOptionsFrom(options.windows, options.drift_policy);
+      !health.ok()) {
+    return health.status();
+  }
+  if (absl::StatusOr<RefitSettings> refit = RefitSettingsFrom(options.refit);
+      !refit.ok()) {
+    return refit.status();
+  }
+  if (absl::StatusOr<std::unique_ptr<AccessControl>> access =
+          AccessControl::Create(options.security.access(), nullptr);
+      !access.ok()) {
+    return access.status();
+  }
+  return options;
+}
+
+Plumbd::VersionChangeHook::VersionChangeHook(Lifecycle* lifecycle,
+                                             SetRegistry* registry,
+                                             Plumbd* plumbd)
+    : lifecycle_(lifecycle) {
+  lifecycle_->Attach(registry, [plumbd](const ReloadReport& report) {
+    plumbd->server_->UpdateHealth(report);
+    plumbd->SyncMonitor();
+  });
+}
+
+Plumbd::VersionChangeHook::~VersionChangeHook() { lifecycle_->Detach(); }
+
+absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
+    DaemonOptions options, const std::string& ready_file) {
+  ConfigureEventLog(options.log);
+  absl::StatusOr<HealthMonitorOptions> health_options =
+      HealthMonitorOptionsFrom(options.windows, options.drift_policy);
+  if (!health_options.ok()) return In("config", health_options.status());
+  absl::StatusOr<RefitSettings> refit_settings =
+      RefitSettingsFrom(options.refit);
+  if (!refit_settings.ok()) return In("config", refit_settings.status());
+
+  // The sets directory is checked before the ledger is opened, so that a bad
+  // directory leaves no ledger file behind.
+  if (std::error_code ec;
+      !std::filesystem::is_directory(options.sets_dir, ec)) {
+    return absl::NotFoundError(
+        absl::StrCat("sets directory ", options.sets_dir,
+                     ": cannot list: not a directory this user can read"));
+  }
+
+  std::unique_ptr<Plumbd> d(new Plumbd(std::move(options)));
+  const DaemonOptions& o = d->options_;
+
+  absl::StatusOr<std::unique_ptr<Ledger>> ledger = Ledger::Open(o.ledger);
+  if (!ledger.ok()) return ledger.status();
+  d->ledger_ = *std::move(ledger);
+  if (o.ledger.queue_capacity_rows < o.max_batch_records) {
+    LogEvent(LogLevel::kWarning, "ledger_queue_small",
+             {{"queue_capacity_rows", absl::StrCat(o.ledger.queue_capacity_rows)},
+              {"max_batch_records", absl::StrCat(o.max_batch_records)},
+              {"effect", "batches above the queue capacity are refused"}});
+  }
+  LogEvent(LogLevel::kInfo, "ledger_open",
+           {{"file", o.ledger.path},
+            {"ack", o.ledger.ack == LedgerOptions::Ack::kCommitted ? "committed"
+                                                                   : "queued"},
+            {"durable", o.ledger.durable_commits ? "true" : "false"}});
+
+  // The versions of every set live in the ledger; the lifecycle decides
+  // which one serves (daemon/registry/lifecycle.h).
+  absl::StatusOr<std::unique_ptr<VersionStore>> versions =
+      VersionStore::Open(o.ledger.path);
+  if (!versions.ok()) return versions.status();
+  d->versions_ = *std::move(versions);
+  d->lifecycle_ = std::make_unique<Lifecycle>(d->versions_.get());
+  d->registry_ = std::make_unique<SetRegistry>(o.sets_dir, d->lifecycle_.get());
+  if (absl::StatusOr<ReloadReport> report = d->registry_->Reload();
+      !report.ok()) {
+    return report.status();
+  }
+
+  // The monitor: one version's windows per loaded set, refilled from the
+  // ledger, evaluated once before serving so the first scrape has figures.
+  const absl::Duration tick = health_options->policy.tick();
+  absl::StatusOr<std::unique_ptr<HealthMonitor>> monitor =
+      HealthMonitor::Create(*std::move(health_options));
+  if (!monitor.ok()) return monitor.status();
+  d->monitor_ = *std::move(monitor);
+  d->monitor_->SyncPlans(d->registry_->AllMonitored());
+  if (absl::Status s = d->monitor_->Rebuild(*d->ledger_); !s.ok()) return s;
+  d->monitor_->Evaluate();
+
+  absl::StatusOr<std::unique_ptr<MetricsExporter>> exporter =
+      MetricsExporter::Start(o.metrics_listen, o.security.metrics_auth());
+  if (!exporter.ok()) return exporter.status();
+  d->exporter_ = *std::move(exporter);
+  if (absl::Status s = InstallAccessControl(o.security.access(),
+                                            d->exporter_->shared_registry());
+      !s.ok()) {
+    return In("config", s);
+  }
+  ExportLedgerMetrics(d->ledger_.get(), d->exporter_.get());
+  d->exporter_->Add(std::make_shared<HealthMetrics>(d->monitor_.get()));
+  d->request_metrics_ =
+      std::make_unique<RequestMetrics>(d->exporter_->registry());
+  LogEvent(LogLevel::kInfo, "metrics_listening",
+           {{"addr", d->exporter_->bound_address()}});
+
+  // Refit jobs run on their own thread, off the request path.
+  d->refit_runner_ = std::make_unique<RefitRunner>(
+      d->ledger_.get(), d->lifecycle_.get(), d->registry_.get(),
+      *refit_settings);
+  d->refits_ = std::make_unique<RefitWorker>(d->refit_runner_.get(),
+                                             &d->exporter_->registry());
+
+  d->monitor_service_ =
+      std::make_unique<MonitorService>(d->registry_.get(), d->monitor_.get());
+  d->registry_service_ =
+      std::make_unique<RegistryService>(d->lifecycle_.get(), d->refits_.get());
+  ServerAttachments attachments;
+  attachments.health_sink = d->monitor_.get();
+  attachments.services.emplace_back(d->monitor_service_.get(),
+                                    kMonitorServiceName);
+  attachments.services.emplace_back(d->registry_service_.get(),
+                                    kRegistryServiceName);
+  attachments.interceptors = MakeInterceptorCreators(d->request_metrics_.get());
+  absl::StatusOr<std::unique_ptr<DaemonServer>> server = DaemonServer::Start(
+      o, d->registry_.get(), d->ledger_.get(), std::move(attachments));
+  if (!server.ok()) return server.status();
+  d->server_ = *std::move(server);
+
+  // After an activation, approval, rollback or shadowing: health names and
+  // the monitor's versions follow at once.
+  d->version_hook_ = std::make_unique<VersionChangeHook>(
+      d->lifecycle_.get(), d->registry_.get(), d.get());
+  d->ticker_ = std::make_unique<HealthTicker>(tick, [p = d.get()] { p->Tick(); });
+
+  if (!ready_file.empty()) {
+    if (absl::Status s = WriteFileAtomically(
+            ready_file, absl::StrCat(d->server_->bound_address(), "\n"));
+        !s.ok()) {
+      return s;  // ~Plumbd stops the server
+    }
+  }
+  LogEvent(LogLevel::kInfo, "listening",
+           {{"addr", d->server_->bound_address()},
+            {"sets", absl::StrCat(d->registry_->Names().size())}});
+  return d;
+}
+
+Plumbd::~Plumbd() {
+  // The one thread the members' order cannot stop: the server's, whose
+  // calls may still be running. Shutdown is idempotent.
+  if (ticker_ != nullptr) ticker_->Stop();
+  if (server_ != nullptr) {
+    server_->Shutdown(absl::ZeroDuration());
+    server_->Wait();
+  }
+}
+
+void Plumbd::SyncMonitor() {
+  absl::MutexLock lock(&sync_mu_);
+  monitor_->SyncPlans(registry_->AllMonitored());
+}
+
+void Plumbd::Tick() {
+  SyncMonitor();
+  monitor_->Evaluate();
+  std::vector<SetVersion> active;
+  for (const PlanPtr& plan : registry_->All()) {
+    active.push_back(SetVersion{plan->name(), plan->version()});
+  }
+  refits_->OnEvaluated(monitor_->AllHealth(), active);
+}
+
+void Plumbd::Reload() {
+  server_->Reload();
+  SyncMonitor();  // a new version starts its own windows at once
+}
+
+void Plumbd::Shutdown(absl::Duration grace) { server_->Shutdown(grace); }
+
+void Plumbd::Wait() { server_->Wait(); }
+
+}  // namespace plumbline::daemon

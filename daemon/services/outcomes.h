@@ -1,0 +1,54 @@
+// File: daemon/services/outcomes.h
+//
+// The gRPC service plumbline.v1.Outcomes: callers report, by record id, what
+// happened to records scored earlier. Each outcome is checked here (record
+// id, label 0/1, a valid observed_at), then the ledger joins it to its
+// score(s) and commits it; a newly accepted outcome goes to the health sink
+// once per score it labels. Per-outcome refusals (see outcomes.proto):
+//   INVALID_ARGUMENT     empty record id, label not 0/1, bad observed_at
+//   NOT_FOUND            no score with that record id in the ledger
+//   FAILED_PRECONDITION  a different label was recorded before
+// ReportOutcome returns that code as the RPC status; ReportOutcomes puts it
+// in the outcome's result and fails as a whole only for an empty or
+// oversized batch or when the ledger refuses the write (RESOURCE_EXHAUSTED,
+// a failed commit). Created and registered by DaemonServer.
+//
+// Thread-safe: handlers run on many gRPC threads; no mutable state.
+#ifndef PLUMBLINE_DAEMON_SERVICES_OUTCOMES_H_
+#define PLUMBLINE_DAEMON_SERVICES_OUTCOMES_H_
+
+#include <cstdint>
+
+#include "daemon/health/sink.h"
+#include "daemon/ledger/ledger.h"
+#include "plumbline/v1/outcomes.grpc.pb.h"
+
+namespace plumbline::daemon {
+
+class OutcomesService final : public v1::Outcomes::Service {
+ public:
+  // `ledger` must outlive the service; `health_sink` may be null and must
+  // otherwise outlive it. `max_batch_records` caps ReportOutcomes.
+  OutcomesService(Ledger* ledger, HealthSink* health_sink,
+                  uint32_t max_batch_records);
+
+  grpc::Status ReportOutcome(grpc::ServerContext* context,
+                             const v1::ReportOutcomeRequest* request,
+                             v1::ReportOutcomeReply* reply) override;
+  grpc::Status ReportOutcomes(grpc::ServerContext* context,
+                              const v1::ReportOutcomesRequest* request,
+                              v1::ReportOutcomesReply* reply) override;
+
+ private:
+  // Tells the health sink about every score a new outcome labels.
+  void Notify(const OutcomeResult& result) const;
+
+  // Constant after construction.
+  Ledger* const ledger_;
+  HealthSink* const health_sink_;
+  const uint32_t max_batch_records_;
+};
+
+}  // namespace plumbline::daemon
+
+#endif  // PLUMBLINE_DAEMON_SERVICES_OUTCOMES_H_

@@ -1,0 +1,66 @@
+// File: daemon/services/registry.h
+//
+// The gRPC service plumbline.v1.Registry: the life of set versions over the
+// wire (list, load a candidate, activate, approve, shadow, roll back, refit
+// now, audit), answered by the lifecycle (daemon/lifecycle.h) and the refit
+// worker (daemon/refit_worker.h). Every call needs the admin role
+// (daemon/access_control.h). Actors: the request's actor, or "unnamed
+// caller" when it is empty.
+//
+// Thread-safe: the lifecycle and the worker are; no state of its own.
+#ifndef PLUMBLINE_DAEMON_SERVICES_REGISTRY_H_
+#define PLUMBLINE_DAEMON_SERVICES_REGISTRY_H_
+
+#include "daemon/registry/lifecycle.h"
+#include "daemon/refit/worker.h"
+#include "plumbline/v1/registry.grpc.pb.h"
+
+namespace plumbline::daemon {
+
+// The wire form of a stored version.
+v1::VersionInfo ToVersionInfo(const VersionRecord& record);
+
+class RegistryService final : public v1::Registry::Service {
+ public:
+  // Both must outlive the service.
+  RegistryService(Lifecycle* lifecycle, RefitWorker* refits);
+
+  grpc::Status ListVersions(grpc::ServerContext* context,
+                            const v1::ListVersionsRequest* request,
+                            v1::ListVersionsReply* reply) override;
+  grpc::Status LoadCandidate(grpc::ServerContext* context,
+                             const v1::LoadCandidateRequest* request,
+                             v1::VersionInfo* reply) override;
+  grpc::Status Activate(grpc::ServerContext* context,
+                        const v1::VersionRequest* request,
+                        v1::VersionInfo* reply) override;
+  grpc::Status Approve(grpc::ServerContext* context,
+                       const v1::VersionRequest* request,
+                       v1::VersionInfo* reply) override;
+  grpc::Status Shadow(grpc::ServerContext* context,
+                      const v1::VersionRequest* request,
+                      v1::VersionInfo* reply) override;
+  grpc::Status Rollback(grpc::ServerContext* context,
+                        const v1::RollbackRequest* request,
+                        v1::VersionInfo* reply) override;
+  grpc::Status Refit(grpc::ServerContext* context,
+                     const v1::RefitRequest* request,
+                     v1::RefitReply* reply) override;
+  grpc::Status Audit(grpc::ServerContext* context,
+                     const v1::AuditRequest* request,
+                     v1::AuditReply* reply) override;
+
+ private:
+  // Activate, Approve and Shadow: admission, checks, then `change`.
+  grpc::Status ChangeVersion(
+      grpc::ServerContext* context, const v1::VersionRequest& request,
+      absl::StatusOr<VersionRecord> (Lifecycle::*change)(const StateChange&),
+      v1::VersionInfo* reply);
+
+  Lifecycle* const lifecycle_;
+  RefitWorker* const refits_;
+};
+
+}  // namespace plumbline::daemon
+
+#endif  // PLUMBLINE_DAEMON_SERVICES_REGISTRY_H_

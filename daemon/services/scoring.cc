@@ -1,0 +1,197 @@
+// File: daemon/services/scoring.cc
+#include "daemon/services/scoring.h"
+
+#include <type_traits>
+#include <utility>
+#include <vector>
+
+#include "absl/strings/str_cat.h"
+#include "absl/time/clock.h"
+#include "daemon/access/access_control.h"
+#include "daemon/util/event_log.h"
+#include "daemon/util/grpc_status.h"
+
+namespace plumbline::daemon {
+
+ScoringService::ScoringService(const SetRegistry* registry,
+                               ScoringLimits limits, Ledger* ledger,
+                               HealthSink* health_sink)
+    : registry_(registry),
+      limits_(limits),
+      ledger_(ledger),
+      health_sink_(health_sink) {}
+
+absl::StatusOr<ServingSet> ScoringService::Lookup(const std::string& set) const {
+  if (absl::Status s = CheckSetName(set); !s.ok()) return s;
+  ServingSet serving = registry_->FindServing(set);
+  if (serving.active == nullptr) return SetNotFound(set, registry_->Names());
+  return serving;
+}
+
+void ScoringService::LogShadowFailure(const scorer::ScoringPlan& plan,
+                                      const absl::Status& status) {
+  {
+    absl::MutexLock lock(&shadow_mu_);
+    if (!shadow_failures_logged_
+             .insert(SetVersion{plan.name(), plan.version()})
+             .second) {
+      return;
+    }
+  }
+  LogEvent(LogLevel::kWarning, "shadow_failed",
+           {{"set", plan.name()},
+            {"version", plan.version()},
+            RecordValueField("error", status.message()),
+            {"effect", "this shadow's scores of such requests are not kept; "
+                       "logged once per version"}});
+}
+
+template <typename Reply, typename ScoreFn>
+std::vector<ScoringService::ShadowRun> ScoringService::ScoreShadows(
+    std::vector<PlanPtr> shadows, ScoreFn score) {
+  std::vector<ShadowRun> runs;
+  for (PlanPtr& plan : shadows) {
+    ShadowRun run;
+    run.plan = std::move(plan);
+    absl::StatusOr<Reply> reply = score(*run.plan, &run.inputs);
+    if (!reply.ok()) {
+      LogShadowFailure(*run.plan, reply.status());
+      continue;
+    }
+    if constexpr (std::is_same_v<Reply, v1::ScoreReply>) {
+      run.log_odds.push_back(reply->score().log_odds());
+      run.probability.push_back(reply->score().probability());
+    } else {
+      for (const v1::Scored& scored : reply->scores()) {
+        run.log_odds.push_back(scored.log_odds());
+        run.probability.push_back(scored.probability());
+      }
+    }
+    runs.push_back(std::move(run));
+  }
+  return runs;
+}
+
+absl::Status ScoringService::Record(const scorer::ScoringPlan& plan,
+                                    const RecordInputs& inputs,
+                                    absl::Span<v1::Scored* const> scores,
+                                    const std::vector<ShadowRun>& shadows) {
+  const absl::Time now = absl::Now();
+  std::vector<ScoreEntry> entries(scores.size());
+  entries.reserve(scores.size() * (1 + shadows.size()));
+  for (size_t i = 0; i < scores.size(); ++i) {
+    v1::Scored& scored = *scores[i];
+    if (scored.record_id().empty()) {
+      scored.set_record_id(record_ids_.Next(plan.name(), now));
+    }
+    ScoreEntry& entry = entries[i];
+    entry.record_id = scored.record_id();
+    entry.set_name = plan.name();
+    entry.set_version = plan.version();
+    entry.scored_at = now;
+    entry.log_odds = scored.log_odds();
+    entry.probability = scored.probability();
+    const int record = static_cast<int>(i);
+    entry.features_json =
+        FeaturesJson(plan, inputs.Values(record), inputs.Sent(record));
+  }
+  for (const ShadowRun& run : shadows) {
+    for (size_t i = 0; i < scores.size(); ++i) {
+      ScoreEntry& entry = entries.emplace_back();
+      entry.record_id = scores[i]->record_id();
+      entry.set_name = run.plan->name();
+      entry.set_version = run.plan->version();
+      entry.role = ScoreRole::kShadow;
+      entry.scored_at = now;
+      entry.log_odds = run.log_odds[i];
+      entry.probability = run.probability[i];
+      const int record = static_cast<int>(i);
+      entry.features_json = FeaturesJson(*run.plan, run.inputs.Values(record),
+                                         run.inputs.Sent(record));
+    }
+  }
+  if (absl::Status s = ledger_->AppendScores(std::move(entries)); !s.ok()) {
+    // A full queue is the caller's to retry and would flood the log; any
+    // other refusal is a ledger problem the operator must see.
+    if (s.code() != absl::StatusCode::kResourceExhausted) {
+      LogEvent(LogLevel::kError, "ledger_write_failed",
+               {{"set", plan.name()}, {"error", s.message()}});
+    }
+    return s;
+  }
+  if (health_sink_ != nullptr) {
+    for (size_t i = 0; i < scores.size(); ++i) {
+      health_sink_->OnScored(plan, inputs.Values(static_cast<int>(i)),
+                             scores[i]->log_odds(), now);
+    }
+    for (const ShadowRun& run : shadows) {
+      for (size_t i = 0; i < scores.size(); ++i) {
+        health_sink_->OnScored(*run.plan,
+                               run.inputs.Values(static_cast<int>(i)),
+                               run.log_odds[i], now);
+      }
+    }
+  }
+  return absl::OkStatus();
+}
+
+grpc::Status ScoringService::Score(grpc::ServerContext* context,
+                                   const v1::ScoreRequest* request,
+                                   v1::ScoreReply* reply) {
+  if (grpc::Status s = Admit(context, Role::kScore); !s.ok()) return s;
+  absl::StatusOr<ServingSet> serving = Lookup(request->set());
+  if (!serving.ok()) return ToGrpcStatus(serving.status());
+  const PlanPtr& plan = serving->active;
+  RecordInputs inputs;
+  absl::StatusOr<v1::ScoreReply> result =
+      ScoreWithPlan(*plan, *request, limits_, &inputs);
+  if (!result.ok()) return ToGrpcStatus(result.status());
+  std::vector<ShadowRun> shadows = ScoreShadows<v1::ScoreReply>(
+      std::move(serving->shadows), [&](const scorer::ScoringPlan& shadow,
+                          RecordInputs* shadow_inputs) {
+        return ScoreWithPlan(shadow, *request, limits_, shadow_inputs);
+      });
+  v1::Scored* const scored[] = {result->mutable_score()};
+  if (absl::Status s = Record(*plan, inputs, scored, shadows); !s.ok()) {
+    return ToGrpcStatus(s);
+  }
+  *reply = *std::move(result);
+  return grpc::Status::OK;
+}
+
+grpc::Status ScoringService::ScoreBatch(grpc::ServerContext* context,
+                                        const v1::ScoreBatchRequest* request,
+                                        v1::ScoreBatchReply* reply) {
+  if (grpc::Status s = Admit(context, Role::kScore); !s.ok()) return s;
+  absl::StatusOr<ServingSet> serving = Lookup(request->set());
+  if (!serving.ok()) return ToGrpcStatus(serving.status());
+  const PlanPtr& plan = serving->active;
+  RecordInputs inputs;
+  absl::StatusOr<v1::ScoreBatchReply> result =
+      ScoreBatchWithPlan(*plan, *request, limits_, &inputs);
+  if (!result.ok()) return ToGrpcStatus(result.status());
+  std::vector<ShadowRun> shadows = ScoreShadows<v1::ScoreBatchReply>(
+      std::move(serving->shadows), [&](const scorer::ScoringPlan& shadow,
+                          RecordInputs* shadow_inputs) {
+        return ScoreBatchWithPlan(shadow, *request, limits_, shadow_inputs);
+      });
+  std::vector<v1::Scored*> scored(result->mutable_scores()->pointer_begin(),
+                                  result->mutable_scores()->pointer_end());
+  if (absl::Status s = Record(*plan, inputs, scored, shadows); !s.ok()) {
+    return ToGrpcStatus(s);
+  }
+  *reply = *std::move(result);
+  return grpc::Status::OK;
+}
+
+grpc::Status ScoringService::ListSets(grpc::ServerContext* context,
+                                      const v1::ListSetsRequest* /*request*/,
+                                      v1::ListSetsReply* reply) {
+  if (grpc::Status s = Admit(context, Role::kScore); !s.ok()) return s;
+  for (const PlanPtr& plan : registry_->All()) {
+    *reply->add_sets() = SummarizeSet(*plan);
+  }
+  return grpc::Status::OK;
+}
+
+}  // namespace plumbline::daemon

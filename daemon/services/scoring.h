@@ -1,0 +1,104 @@
+// File: daemon/services/scoring.h
+//
+// The gRPC service plumbline.v1.Scoring (synchronous API). Each call takes a
+// snapshot of its set from the registry and answers through scoring_core.h;
+// before it replies, every scored record goes to the ledger (one ScoreEntry
+// per record, features as JSON) and, once the ledger has accepted them, to
+// the health sink. A call whose rows the ledger refuses (queue full, failed
+// commit) fails with the ledger's status and returns no score. A record
+// without an id gets one here ("<set>-<unix micros>-<n>"), returned in
+// Scored.record_id. Created and registered by DaemonServer.
+//
+// Shadow versions of the set (daemon/lifecycle.h) score the same request
+// after the active version; their scores go to the ledger under the same
+// record ids with role "shadow", in the same transaction, and to the health
+// sink, and are never returned. A shadow that cannot score the request
+// (e.g. it needs a feature the caller did not send) never fails the call:
+// the first failure per version is logged and its rows are left out.
+//
+// Thread-safe: gRPC calls the handlers from many threads; the service keeps no
+// mutable state of its own besides an atomic id counter and the set of
+// shadow versions whose failure was logged.
+#ifndef PLUMBLINE_DAEMON_SERVICES_SCORING_H_
+#define PLUMBLINE_DAEMON_SERVICES_SCORING_H_
+
+#include <string>
+#include <vector>
+
+#include "absl/base/thread_annotations.h"
+#include "absl/container/flat_hash_set.h"
+#include "absl/synchronization/mutex.h"
+#include "absl/types/span.h"
+#include "daemon/health/sink.h"
+#include "daemon/ledger/ledger.h"
+#include "daemon/ledger/entries.h"
+#include "daemon/scoring/core.h"
+#include "daemon/scoring/set_registry.h"
+#include "daemon/util/set_version.h"
+#include "plumbline/v1/scoring.grpc.pb.h"
+
+namespace plumbline::daemon {
+
+class ScoringService final : public v1::Scoring::Service {
+ public:
+  // `registry` and `ledger` must outlive the service; `health_sink` may be
+  // null (nothing is told) and must otherwise outlive it too.
+  ScoringService(const SetRegistry* registry, ScoringLimits limits,
+                 Ledger* ledger, HealthSink* health_sink);
+
+  grpc::Status Score(grpc::ServerContext* context,
+                     const v1::ScoreRequest* request,
+                     v1::ScoreReply* reply) override;
+  grpc::Status ScoreBatch(grpc::ServerContext* context,
+                          const v1::ScoreBatchRequest* request,
+                          v1::ScoreBatchReply* reply) override;
+  grpc::Status ListSets(grpc::ServerContext* context,
+                        const v1::ListSetsRequest* request,
+                        v1::ListSetsReply* reply) override;
+
+ private:
+  // The loaded version of `set`, or INVALID_ARGUMENT / NOT_FOUND.
+  absl::StatusOr<ServingSet> Lookup(const std::string& set) const;
+
+  // One shadow version's scores of a call's records.
+  struct ShadowRun {
+    PlanPtr plan;
+    RecordInputs inputs;
+    std::vector<double> log_odds;
+    std::vector<double> probability;
+  };
+
+  // Runs `score(plan, &inputs)` (the call's own scoring function) for each
+  // of `shadows` and collects the runs that scored every record.
+  template <typename Reply, typename ScoreFn>
+  std::vector<ShadowRun> ScoreShadows(std::vector<PlanPtr> shadows,
+                                      ScoreFn score);
+
+  // Gives records without an id one, appends every record (and every shadow
+  // score) to the ledger and, if that succeeded, tells the health sink.
+  // `scores[i]` belongs to inputs' record i.
+  absl::Status Record(const scorer::ScoringPlan& plan,
+                      const RecordInputs& inputs,
+                      absl::Span<v1::Scored* const> scores,
+                      const std::vector<ShadowRun>& shadows);
+
+  void LogShadowFailure(const scorer::ScoringPlan& plan,
+                        const absl::Status& status);
+
+  // Constant after construction.
+  const SetRegistry* const registry_;
+  const ScoringLimits limits_;
+  Ledger* const ledger_;
+  HealthSink* const health_sink_;
+
+  RecordIdGenerator record_ids_;
+
+  absl::Mutex shadow_mu_;
+  // "set\nversion" of shadows whose failure was logged.
+  absl::flat_hash_set<SetVersion> shadow_failures_logged_
+      ABSL_GUARDED_BY(shadow_mu_);
+};
+
+}  // namespace plumbline::daemon
+
+#endif  // PLUMBLINE_DAEMON_SERVICES_SCORING_H_

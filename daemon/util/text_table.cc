@@ -1,0 +1,31 @@
+#include "daemon/util/text_table.h"
+
+#include <algorithm>
+
+#include "absl/strings/str_cat.h"
+
+namespace plumbline::daemon {
+
+std::string FormatTable(const std::vector<std::vector<std::string>>& rows,
+                        absl::string_view indent) {
+  std::vector<size_t> widths;
+  for (const auto& row : rows) {
+    if (widths.size() < row.size()) widths.resize(row.size(), 0);
+    for (size_t c = 0; c < row.size(); ++c) {
+      widths[c] = std::max(widths[c], row[c].size());
+    }
+  }
+  std::string out;
+  for (const auto& row : rows) {
+    std::string line(indent);
+    for (size_t c = 0; c < row.size(); ++c) {
+      line += row[c];
+      if (c + 1 < row.size()) line.append(widths[c] - row[c].size() + 2, ' ');
+    }
+    while (!line.empty() && line.back() == ' ') line.pop_back();
+    absl::StrAppend(&out, line, "\n");
+  }
+  return out;
+}
+
+}  // namespace plumbline::daemon

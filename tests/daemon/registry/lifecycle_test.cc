@@ -1,0 +1,179 @@
+// File: tests/daemon/registry/lifecycle_test.cc
+//
+// The lifecycle's rules (daemon/lifecycle.h) in process, on a real ledger
+// file in a temp directory: what the sets directory may change and what the
+// ledger keeps, the preconditions of approve / shadow / rollback, and that a
+// restart serves what the ledger says.
+#include <filesystem>
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "absl/strings/str_cat.h"
+#include "daemon/ledger/ledger.h"
+#include "daemon/registry/lifecycle.h"
+#include "daemon/scoring/set_registry.h"
+#include "daemon/registry/version_store.h"
+#include "gtest/gtest.h"
+#include "scorer/coefficient_set.h"
+#include "tests/testing/process.h"
+#include "tests/testing/test_sets.h"
+
+namespace plumbline::daemon {
+namespace {
+
+using testing::TempDir;
+
+// One plumbd's worth of lifecycle: ledger, store, lifecycle, registry.
+struct Stack {
+  explicit Stack(const TempDir& dir) {
+    LedgerOptions options;
+    options.path = dir.File("ledger.db");
+    ledger = *Ledger::Open(options);
+    store = *VersionStore::Open(options.path);
+    lifecycle = std::make_unique<Lifecycle>(store.get());
+    registry = std::make_unique<SetRegistry>(dir.File("sets"), lifecycle.get());
+    lifecycle->Attach(registry.get(), [this](const ReloadReport&) { ++changes; });
+  }
+  std::string Active(const std::string& set) {
+    PlanPtr plan = registry->Find(set);
+    return plan == nullptr ? "" : plan->version();
+  }
+  std::unique_ptr<Ledger> ledger;
+  std::unique_ptr<VersionStore> store;
+  std::unique_ptr<Lifecycle> lifecycle;
+  std::unique_ptr<SetRegistry> registry;
+  int changes = 0;
+};
+
+class LifecycleRulesTest : public ::testing::Test {
+ protected:
+  void SetUp() override { std::filesystem::create_directories(dir_.File("sets")); }
+  void WriteSet(const std::string& version, double intercept = -1.5) {
+    ASSERT_TRUE(testing::WriteTextFile(
+                    dir_.File("sets/courier.json"),
+                    testing::CourierSetJson("courier", version, intercept))
+                    .ok());
+  }
+  v1::CoefficientSet Candidate(const std::string& version) {
+    return *scorer::ParseCoefficientSet(
+        testing::CourierSetJson("courier", version, -0.5), "test");
+  }
+  TempDir dir_;
+};
+
+TEST_F(LifecycleRulesTest, NewFileVersionsActivateKnownOnesKeepTheLedgerState) {
+  WriteSet("v1");
+  Stack s(dir_);
+  ASSERT_TRUE(s.registry->Reload().ok());
+  EXPECT_EQ(s.Active("courier"), "v1");
+
+  ASSERT_TRUE(s.lifecycle->AddCandidate({Candidate("c1"), "test", "why", "", {}}).ok());
+  EXPECT_EQ(s.Active("courier"), "v1") << "a candidate does not serve";
+  ASSERT_TRUE(s.lifecycle->Approve({"courier", "c1", "alice", "ok"}).ok());
+  EXPECT_EQ(s.Active("courier"), "c1");
+  EXPECT_EQ(s.changes, 1);
+
+  // A reload with the file still holding v1 (known): c1 keeps serving.
+  ASSERT_TRUE(s.registry->Reload().ok());
+  EXPECT_EQ(s.Active("courier"), "c1");
+
+  // A new version in the file is a deployment: it becomes active.
+  WriteSet("v2");
+  ASSERT_TRUE(s.registry->Reload().ok());
+  EXPECT_EQ(s.Active("courier"), "v2");
+  auto versions = *s.lifecycle->List("courier");
+  ASSERT_EQ(versions.size(), 3u);
+  for (const VersionRecord& v : versions) {
+    EXPECT_EQ(v.state, v.version == "v2" ? VersionState::kActive
+                                         : VersionState::kRetired)
+        << v.version;
+  }
+}
+
+TEST_F(LifecycleRulesTest, RestartServesWhatTheLedgerSays) {
+  WriteSet("v1");
+  {
+    Stack s(dir_);
+    ASSERT_TRUE(s.registry->Reload().ok());
+    ASSERT_TRUE(s.lifecycle->AddCandidate({Candidate("c1"), "t", "", "", {}}).ok());
+    ASSERT_TRUE(s.lifecycle->Approve({"courier", "c1", "alice", ""}).ok());
+  }
+  Stack again(dir_);
+  ASSERT_TRUE(again.registry->Reload().ok());
+  EXPECT_EQ(again.Active("courier"), "c1");
+  // Served from the ledger's document, not the file.
+  EXPECT_EQ(again.registry->Find("courier")->set().intercept(), -0.5);
+}
+
+TEST_F(LifecycleRulesTest, ChangedFileUnderAKnownVersionIsIgnored) {
+  WriteSet("v1", -1.5);
+  Stack s(dir_);
+  ASSERT_TRUE(s.registry->Reload().ok());
+  WriteSet("v1", 3.0);
+  ASSERT_TRUE(s.registry->Reload().ok());
+  EXPECT_EQ(s.registry->Find("courier")->set().intercept(), -1.5);
+}
+
+TEST_F(LifecycleRulesTest, RemovingTheFileRetiresTheActiveVersion) {
+  WriteSet("v1");
+  Stack s(dir_);
+  ASSERT_TRUE(s.registry->Reload().ok());
+  std::filesystem::remove(dir_.File("sets/courier.json"));
+  absl::StatusOr<ReloadReport> report = s.registry->Reload();
+  ASSERT_TRUE(report.ok());
+  EXPECT_EQ(report->unloaded, std::vector<std::string>{"courier"});
+  EXPECT_EQ(s.registry->Find("courier"), nullptr);
+  EXPECT_EQ((*s.lifecycle->List("courier"))[0].state, VersionState::kRetired);
+}
+
+TEST_F(LifecycleRulesTest, PreconditionsAreNamed) {
+  WriteSet("v1");
+  Stack s(dir_);
+  ASSERT_TRUE(s.registry->Reload().ok());
+  // Nothing to roll back to yet.
+  absl::StatusOr<VersionRecord> r = s.lifecycle->Rollback({"courier", "", "a", ""});
+  EXPECT_EQ(r.status().code(), absl::StatusCode::kFailedPrecondition);
+  EXPECT_NE(r.status().message().find("nothing to roll back to"), std::string::npos);
+  // Unknown version.
+  r = s.lifecycle->Approve({"courier", "nope", "a", ""});
+  EXPECT_EQ(r.status().code(), absl::StatusCode::kNotFound);
+  // Approving the active version.
+  r = s.lifecycle->Approve({"courier", "v1", "a", ""});
+  EXPECT_EQ(r.status().code(), absl::StatusCode::kFailedPrecondition);
+  // Shadowing the active version.
+  r = s.lifecycle->Shadow({"courier", "v1", "a", ""});
+  EXPECT_EQ(r.status().code(), absl::StatusCode::kFailedPrecondition);
+  // Loading a known version again.
+  ASSERT_TRUE(s.lifecycle->AddCandidate({Candidate("c1"), "t", "", "", {}}).ok());
+  r = s.lifecycle->AddCandidate({Candidate("c1"), "t", "", "", {}});
+  EXPECT_EQ(r.status().code(), absl::StatusCode::kAlreadyExists);
+  // A retired version is activated, not approved.
+  ASSERT_TRUE(s.lifecycle->Approve({"courier", "c1", "a", ""}).ok());
+  r = s.lifecycle->Approve({"courier", "v1", "a", ""});
+  EXPECT_EQ(r.status().code(), absl::StatusCode::kFailedPrecondition);
+  ASSERT_TRUE(s.lifecycle->Rollback({"courier", "", "a", ""}).ok());
+  EXPECT_EQ(s.Active("courier"), "v1");
+}
+
+TEST_F(LifecycleRulesTest, ShadowsServeBesideTheActiveVersion) {
+  WriteSet("v1");
+  Stack s(dir_);
+  ASSERT_TRUE(s.registry->Reload().ok());
+  ASSERT_TRUE(s.lifecycle->AddCandidate({Candidate("c1"), "t", "", "", {}}).ok());
+  ASSERT_TRUE(s.lifecycle->Shadow({"courier", "c1", "a", "try it"}).ok());
+  EXPECT_EQ(s.Active("courier"), "v1");
+  std::vector<PlanPtr> shadows = s.registry->Shadows("courier");
+  ASSERT_EQ(shadows.size(), 1u);
+  EXPECT_EQ(shadows[0]->version(), "c1");
+  std::vector<PlanPtr> monitored = s.registry->AllMonitored();
+  ASSERT_EQ(monitored.size(), 2u);
+  EXPECT_EQ(monitored[0]->version(), "v1") << "the active version first";
+  // Activating the shadow ends its shadowing.
+  ASSERT_TRUE(s.lifecycle->Activate({"courier", "c1", "a", ""}).ok());
+  EXPECT_TRUE(s.registry->Shadows("courier").empty());
+  EXPECT_EQ(s.Active("courier"), "c1");
+}
+
+}  // namespace
+}  // namespace plumbline::daemon
