@@ -222,9 +222,10 @@ absl::StatusOr<TrainingData> TrainingDataFromCsv(const CsvTable& table,
         value = scorer::RawValue::Text(cell);
         continue;
       }
+      // IsNumericColumn checked that it parses; a cell that does not is
+      // refused like a non-finite one rather than read as 0.
       double number = 0;
-      absl::SimpleAtod(cell, &number);  // IsNumericColumn checked it parses
-      if (!std::isfinite(number)) {
+      if (!absl::SimpleAtod(cell, &number) || !std::isfinite(number)) {
         return CellError(source, table, r, c,
                          absl::StrCat("'", cell,
                                       "' is not a finite number; leave the "

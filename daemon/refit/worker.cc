@@ -162,6 +162,7 @@ void RefitWorker::Loop() {
       absl::MutexLock lock(&mu_);
       mu_.Await(absl::Condition(
           +[](RefitWorker* w) {
+            w->mu_.AssertHeld();  // Await calls it with mu_ held
             return w->stopping_ || !w->queue_.empty();
           },
           this));

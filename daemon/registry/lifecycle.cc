@@ -97,6 +97,7 @@ absl::StatusOr<ServingMap> Lifecycle::Resolve(const PlanMap& from_files) {
   absl::MutexLock lock(&mu_);
   const absl::Time now = now_();
   absl::Status written = store_->InTransaction([&]() -> absl::Status {
+    mu_.AssertHeld();  // the caller holds it; tells the lock analysis
     for (const auto& [name, plan] : from_files) {
       // A file plan already recorded (every refresh after the reload that
       // read it) needs neither the JSON nor the comparison below.
@@ -236,6 +237,7 @@ absl::StatusOr<VersionRecord> Lifecycle::AddCandidate(NewVersion version) {
     absl::MutexLock lock(&mu_);
     record.created_at = now_();
     absl::Status s = store_->InTransaction([&]() -> absl::Status {
+      mu_.AssertHeld();  // the caller holds it; tells the lock analysis
       if (absl::Status st = store_->Insert(record); !st.ok()) return st;
       for (AuditRecord entry : version.audit) {
         entry.at = record.created_at;
@@ -286,6 +288,7 @@ absl::StatusOr<VersionRecord> Lifecycle::ChangeActive(
     }
     const absl::Time now = now_();
     absl::Status s = store_->InTransaction([&]() -> absl::Status {
+      mu_.AssertHeld();  // the caller holds it; tells the lock analysis
       if (!before.empty()) {
         if (absl::Status st = store_->AppendAudit({now, change.set,
                                                    change.version, before,
@@ -364,6 +367,7 @@ absl::StatusOr<VersionRecord> Lifecycle::Shadow(const StateChange& change) {
     }
     const absl::Time now = now_();
     absl::Status s = store_->InTransaction([&]() -> absl::Status {
+      mu_.AssertHeld();  // the caller holds it; tells the lock analysis
       if (absl::Status st = store_->SetState(change.set, change.version,
                                              VersionState::kShadow);
           !st.ok()) {
