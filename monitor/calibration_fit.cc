@@ -88,7 +88,8 @@ absl::StatusOr<CalibrationFit> CalibrationInterceptSlope(
   std::sort(sorted.begin(), sorted.end());
   std::vector<LogOddsGroup> groups;
   for (const auto& [z, label] : sorted) {
-    if (groups.empty() || groups.back().log_odds != z) groups.push_back({z, 0, 0});
+    if (groups.empty() || groups.back().log_odds != z)
+      groups.push_back({z, 0, 0});
     (label == 1 ? groups.back().positives : groups.back().negatives) += 1;
   }
   return FitCalibrationGroups(groups);
@@ -149,7 +150,8 @@ absl::StatusOr<CalibrationFit> FitCalibrationGroups(
       next_ll = model.LogLikelihood(next);
     }
     const bool small =
-        std::abs(scale * delta[0]) <= kStepTolerance * (1 + std::abs(theta[0])) &&
+        std::abs(scale * delta[0]) <=
+            kStepTolerance * (1 + std::abs(theta[0])) &&
         std::abs(scale * delta[1]) <= kStepTolerance * (1 + std::abs(theta[1]));
     theta = next;
     ll = next_ll;

@@ -38,9 +38,8 @@ double StirlingCorrection(double a) {
               r2 * (-1.0 / 360 +
                     r2 * (1.0 / 1260 +
                           r2 * (-1.0 / 1680 +
-                                r2 * (1.0 / 1188 +
-                                      r2 * (-691.0 / 360360 +
-                                            r2 * (1.0 / 156)))))));
+                                r2 * (1.0 / 1188 + r2 * (-691.0 / 360360 +
+                                                         r2 * (1.0 / 156)))))));
 }
 
 // x^a e^-x / Gamma(a), the factor common to the series and the continued
@@ -102,8 +101,8 @@ absl::StatusOr<double> UpperByContinuedFraction(double a, double x) {
     }
   }
   return absl::InternalError(absl::StrFormat(
-      "incomplete gamma: continued fraction for Q(%g, %g) did not converge",
-      a, x));
+      "incomplete gamma: continued fraction for Q(%g, %g) did not converge", a,
+      x));
 }
 
 }  // namespace

@@ -27,8 +27,8 @@ absl::Status CheckScore(absl::string_view figure, ScoreKind kind, size_t i,
     case ScoreKind::kProbability:
       if (!(v >= 0.0 && v <= 1.0)) {  // also refuses NaN
         return absl::InvalidArgumentError(absl::StrFormat(
-            "%s: %s[%d] is %g; probabilities must lie in [0, 1]", figure,
-            array, i, v));
+            "%s: %s[%d] is %g; probabilities must lie in [0, 1]", figure, array,
+            i, v));
       }
       break;
     case ScoreKind::kFiniteLogOdds:
@@ -54,9 +54,8 @@ absl::Status CheckLabelledScores(absl::string_view figure,
                                  absl::Span<const double> scores,
                                  absl::Span<const int> labels, ScoreKind kind) {
   if (scores.size() != labels.size()) {
-    return absl::InvalidArgumentError(
-        absl::StrFormat("%s: %d scores but %d labels", figure, scores.size(),
-                        labels.size()));
+    return absl::InvalidArgumentError(absl::StrFormat(
+        "%s: %d scores but %d labels", figure, scores.size(), labels.size()));
   }
   if (scores.empty()) {
     return absl::InvalidArgumentError(
@@ -74,8 +73,7 @@ absl::Status CheckLabelledScores(absl::string_view figure,
   return absl::OkStatus();
 }
 
-absl::Status CheckRecord(absl::string_view figure, double log_odds,
-                         int label) {
+absl::Status CheckRecord(absl::string_view figure, double log_odds, int label) {
   if (label != 0 && label != 1) {
     return absl::InvalidArgumentError(absl::StrFormat(
         "%s: label is %d; labels must be 0 or 1", figure, label));

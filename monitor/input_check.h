@@ -21,10 +21,10 @@ namespace plumbline::monitor::internal {
 
 // What a score array holds; decides which values are refused.
 enum class ScoreKind {
-  kProbability,     // must lie in [0, 1]
-  kLogOdds,         // must not be NaN (infinities allowed)
-  kFiniteLogOdds,   // must be finite
-  kOrderable,       // any score compared only by order: must not be NaN
+  kProbability,    // must lie in [0, 1]
+  kLogOdds,        // must not be NaN (infinities allowed)
+  kFiniteLogOdds,  // must be finite
+  kOrderable,      // any score compared only by order: must not be NaN
 };
 
 // Checks a labelled score array: same length as `labels`, not empty, labels

@@ -30,8 +30,8 @@ absl::StatusOr<double> LogLoss(absl::Span<const double> log_odds,
 
 absl::StatusOr<double> BrierScore(absl::Span<const double> probabilities,
                                   absl::Span<const int> labels) {
-  if (absl::Status s = CheckLabelledScores("Brier score", probabilities,
-                                           labels, ScoreKind::kProbability);
+  if (absl::Status s = CheckLabelledScores("Brier score", probabilities, labels,
+                                           ScoreKind::kProbability);
       !s.ok()) {
     return s;
   }
@@ -46,8 +46,8 @@ absl::StatusOr<double> BrierScore(absl::Span<const double> probabilities,
 absl::StatusOr<double> CalibrationInTheLarge(
     absl::Span<const double> probabilities, absl::Span<const int> labels) {
   if (absl::Status s =
-          CheckLabelledScores("calibration-in-the-large", probabilities,
-                              labels, ScoreKind::kProbability);
+          CheckLabelledScores("calibration-in-the-large", probabilities, labels,
+                              ScoreKind::kProbability);
       !s.ok()) {
     return s;
   }

@@ -105,9 +105,9 @@ absl::Status ReliabilityAccumulator::Add(double log_odds, int label) {
 absl::Status ReliabilityAccumulator::Merge(
     const ReliabilityAccumulator& other) {
   if (sums_.size() != other.sums_.size()) {
-    return absl::InvalidArgumentError(absl::StrCat(
-        "reliability table: cannot merge ", sums_.size(), " bins with ",
-        other.sums_.size()));
+    return absl::InvalidArgumentError(
+        absl::StrCat("reliability table: cannot merge ", sums_.size(),
+                     " bins with ", other.sums_.size()));
   }
   for (size_t i = 0; i < sums_.size(); ++i) sums_[i].Merge(other.sums_[i]);
   count_ += other.count_;
@@ -130,8 +130,8 @@ absl::StatusOr<OutcomeAccumulator> OutcomeAccumulator::Create(
   absl::StatusOr<ReliabilityAccumulator> fixed_bins =
       ReliabilityAccumulator::Create(options.reliability_bins);
   if (!fixed_bins.ok()) return fixed_bins.status();
-  absl::StatusOr<ScoreGrid> grid =
-      ScoreGrid::Create(options.grid_low, options.grid_high, options.grid_cells);
+  absl::StatusOr<ScoreGrid> grid = ScoreGrid::Create(
+      options.grid_low, options.grid_high, options.grid_cells);
   if (!grid.ok()) return grid.status();
   absl::StatusOr<ScoreGridAccumulator> grid_acc = ScoreGridAccumulator::Create(
       *grid, options.equal_count_bins, options.hosmer_lemeshow_groups);

@@ -26,21 +26,23 @@ double RecordLoss(double log_odds, int label) {
 absl::StatusOr<PairedLogLoss> ComparePairedLogLoss(
     absl::Span<const double> active_log_odds,
     absl::Span<const double> candidate_log_odds, absl::Span<const int> labels) {
-  if (absl::Status s = internal::CheckLabelledScores(
-          kFigure, active_log_odds, labels, internal::ScoreKind::kFiniteLogOdds);
+  if (absl::Status s =
+          internal::CheckLabelledScores(kFigure, active_log_odds, labels,
+                                        internal::ScoreKind::kFiniteLogOdds);
       !s.ok()) {
     return s;
   }
-  if (absl::Status s = internal::CheckLabelledScores(
-          kFigure, candidate_log_odds, labels, internal::ScoreKind::kFiniteLogOdds);
+  if (absl::Status s =
+          internal::CheckLabelledScores(kFigure, candidate_log_odds, labels,
+                                        internal::ScoreKind::kFiniteLogOdds);
       !s.ok()) {
     return s;
   }
   const size_t size = labels.size();
   const double n = static_cast<double>(size);
   if (size < 2) {
-    return absl::InvalidArgumentError(absl::StrCat(
-        kFigure, ": needs at least 2 records, got ", size));
+    return absl::InvalidArgumentError(
+        absl::StrCat(kFigure, ": needs at least 2 records, got ", size));
   }
   CompensatedSum active, candidate, diff;
   for (size_t i = 0; i < size; ++i) {

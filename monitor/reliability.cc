@@ -21,7 +21,7 @@ absl::StatusOr<ReliabilityTable> TableWithEdges(
   std::vector<BinSums> sums(edges.size() - 1);
   for (size_t i = 0; i < probabilities.size(); ++i) {
     sums[ReliabilityBinOf(edges, probabilities[i])].Add(probabilities[i],
-                                                         labels[i]);
+                                                        labels[i]);
   }
   return MakeReliabilityTable(edges, sums);
 }

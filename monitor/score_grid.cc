@@ -34,8 +34,8 @@ absl::StatusOr<ScoreGrid> ScoreGrid::Create(double low, double high,
 
 absl::StatusOr<ScoreGridAccumulator> ScoreGridAccumulator::Create(
     ScoreGrid grid, int equal_count_bins, int hosmer_lemeshow_groups) {
-  if (absl::Status s = internal::CheckBinCount(
-          "score grid", "equal-count bins", equal_count_bins, 1);
+  if (absl::Status s = internal::CheckBinCount("score grid", "equal-count bins",
+                                               equal_count_bins, 1);
       !s.ok()) {
     return s;
   }
@@ -78,8 +78,8 @@ absl::StatusOr<AucEstimate> ScoreGridAccumulator::Auc() const {
   for (size_t c = 0; c < cells_.size(); ++c) {
     positives[c] = cells_[c].positives;
     negatives[c] = cells_[c].negatives;
-    tied_pairs += static_cast<double>(positives[c]) *
-                  static_cast<double>(negatives[c]);
+    tied_pairs +=
+        static_cast<double>(positives[c]) * static_cast<double>(negatives[c]);
   }
   absl::StatusOr<double> auc = AucFromGroups(positives, negatives);
   if (!auc.ok()) return auc.status();

@@ -19,8 +19,8 @@ absl::Status CheckProportions(absl::string_view what,
   for (size_t i = 0; i < proportions.size(); ++i) {
     if (!(proportions[i] >= 0 && proportions[i] <= 1)) {
       return absl::InvalidArgumentError(absl::StrFormat(
-          "%s: proportions[%d] is %g; proportions must lie in [0, 1]", what,
-          i, proportions[i]));
+          "%s: proportions[%d] is %g; proportions must lie in [0, 1]", what, i,
+          proportions[i]));
     }
     sum.Add(proportions[i]);
   }
@@ -54,9 +54,9 @@ absl::StatusOr<BinnedBaseline> BinnedBaseline::Create(
     }
   }
   if (proportions.size() != edges.size() + 1) {
-    return absl::InvalidArgumentError(absl::StrFormat(
-        "%s: %d edges need %d proportions, got %d", kWhat, edges.size(),
-        edges.size() + 1, proportions.size()));
+    return absl::InvalidArgumentError(
+        absl::StrFormat("%s: %d edges need %d proportions, got %d", kWhat,
+                        edges.size(), edges.size() + 1, proportions.size()));
   }
   if (absl::Status s = CheckProportions(kWhat, proportions); !s.ok()) return s;
   BinnedBaseline baseline;
@@ -72,8 +72,8 @@ absl::StatusOr<CategoricalBaseline> CategoricalBaseline::Create(
   for (auto& [level, proportion] : level_proportions) {
     const int bin = static_cast<int>(baseline.levels_.size());
     if (!baseline.bin_of_.emplace(level, bin).second) {
-      return absl::InvalidArgumentError(absl::StrFormat(
-          "%s: level \"%s\" appears twice", kWhat, level));
+      return absl::InvalidArgumentError(
+          absl::StrFormat("%s: level \"%s\" appears twice", kWhat, level));
     }
     baseline.levels_.push_back(std::move(level));
     baseline.proportions_.push_back(proportion);
@@ -135,9 +135,9 @@ absl::StatusOr<StabilityFigures> NumericStability(
     return absl::InvalidArgumentError("numeric stability: no values");
   }
   if (range && !(range->lower <= range->upper)) {
-    return absl::InvalidArgumentError(absl::StrFormat(
-        "numeric stability: range [%g, %g] is empty", range->lower,
-        range->upper));
+    return absl::InvalidArgumentError(
+        absl::StrFormat("numeric stability: range [%g, %g] is empty",
+                        range->lower, range->upper));
   }
   if (!range && !baseline.edges().empty()) range = baseline.Range();
   StabilityCounts counts;

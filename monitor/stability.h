@@ -115,8 +115,8 @@ class CategoricalBaseline {
 };
 
 struct StabilityFigures {
-  int64_t count = 0;         // records, missing ones included
-  int64_t missing = 0;       // records without a value
+  int64_t count = 0;    // records, missing ones included
+  int64_t missing = 0;  // records without a value
   // Numeric: non-missing values outside the range. Categorical: records
   // with a level the baseline does not know.
   int64_t out_of_range = 0;

@@ -29,17 +29,16 @@ NumericStabilityAccumulator::NumericStabilityAccumulator(
   counts_.bins.assign(baseline_->num_bins(), 0);
 }
 
-absl::StatusOr<NumericStabilityAccumulator>
-NumericStabilityAccumulator::Create(
+absl::StatusOr<NumericStabilityAccumulator> NumericStabilityAccumulator::Create(
     std::shared_ptr<const BinnedBaseline> baseline,
     std::optional<ValueRange> range) {
   if (baseline == nullptr) {
     return absl::InvalidArgumentError("numeric stability: no baseline");
   }
   if (range && !(range->lower <= range->upper)) {
-    return absl::InvalidArgumentError(absl::StrFormat(
-        "numeric stability: range [%g, %g] is empty", range->lower,
-        range->upper));
+    return absl::InvalidArgumentError(
+        absl::StrFormat("numeric stability: range [%g, %g] is empty",
+                        range->lower, range->upper));
   }
   if (!range && !baseline->edges().empty()) range = baseline->Range();
   return NumericStabilityAccumulator(std::move(baseline), range);
@@ -47,10 +46,9 @@ NumericStabilityAccumulator::Create(
 
 absl::Status NumericStabilityAccumulator::Merge(
     const NumericStabilityAccumulator& other) {
-  const bool same_range =
-      range_.has_value() == other.range_.has_value() &&
-      (!range_ || (range_->lower == other.range_->lower &&
-                   range_->upper == other.range_->upper));
+  const bool same_range = range_.has_value() == other.range_.has_value() &&
+                          (!range_ || (range_->lower == other.range_->lower &&
+                                       range_->upper == other.range_->upper));
   if (baseline_ != other.baseline_ || !same_range) {
     return absl::InvalidArgumentError(
         "numeric stability: cannot merge accumulators with different "

@@ -49,7 +49,8 @@ namespace internal {
 // Adds a record to `acc`, whatever Add() returns.
 template <typename Accumulator, typename... Args>
 absl::Status AddTo(Accumulator& acc, Args&&... args) {
-  if constexpr (std::is_void_v<decltype(acc.Add(std::forward<Args>(args)...))>) {
+  if constexpr (std::is_void_v<decltype(acc.Add(
+                    std::forward<Args>(args)...))>) {
     acc.Add(std::forward<Args>(args)...);
     return absl::OkStatus();
   } else {
@@ -58,8 +59,9 @@ absl::Status AddTo(Accumulator& acc, Args&&... args) {
 }
 
 template <typename Accumulator, typename... Args>
-constexpr bool kAddCanFail = !std::is_void_v<decltype(std::declval<Accumulator&>().Add(
-    std::declval<Args>()...))>;
+constexpr bool kAddCanFail =
+    !std::is_void_v<decltype(std::declval<Accumulator&>().Add(
+        std::declval<Args>()...))>;
 
 // Starts bucket `slot` afresh with one record. A fallible record is tried on
 // a copy of `empty` first, so a refused record leaves the old bucket intact.

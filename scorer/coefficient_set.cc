@@ -26,13 +26,15 @@ class Checker {
         absl::StrCat(source_, ": ", path, ": ", what));
   }
   void Finite(absl::string_view path, double v) {
-    if (!std::isfinite(v)) Fail(path, absl::StrCat("must be a finite number, got ", v));
+    if (!std::isfinite(v))
+      Fail(path, absl::StrCat("must be a finite number, got ", v));
   }
   void NotEmpty(absl::string_view path, absl::string_view v) {
     if (v.empty()) Fail(path, "must not be empty");
   }
   void Proportion(absl::string_view path, double v) {
-    if (!(v >= 0 && v <= 1)) Fail(path, absl::StrCat("must be in [0, 1], got ", v));
+    if (!(v >= 0 && v <= 1))
+      Fail(path, absl::StrCat("must be in [0, 1], got ", v));
   }
   // Edges must be finite and strictly increasing.
   void Edges(absl::string_view path,
@@ -73,17 +75,20 @@ void CheckDistribution(Checker& c, const std::string& path,
     }
     double sum = 0;
     for (int i = 0; i < d.proportions_size(); ++i) {
-      c.Proportion(absl::StrCat(path, ".proportions[", i, "]"), d.proportions(i));
+      c.Proportion(absl::StrCat(path, ".proportions[", i, "]"),
+                   d.proportions(i));
       sum += d.proportions(i);
     }
     if (c.ok() && std::abs(sum - 1) > kProportionSumTolerance) {
-      c.Fail(path + ".proportions", absl::StrCat("must sum to 1, sum to ", sum));
+      c.Fail(path + ".proportions",
+             absl::StrCat("must sum to 1, sum to ", sum));
     }
   }
   if (categorical) {
     double sum = 0;
     for (const auto& [level, p] : d.level_proportions()) {
-      c.Proportion(absl::StrCat(path, ".level_proportions[\"", level, "\"]"), p);
+      c.Proportion(absl::StrCat(path, ".level_proportions[\"", level, "\"]"),
+                   p);
       sum += p;
     }
     if (c.ok() && std::abs(sum - 1) > kProportionSumTolerance) {
@@ -94,7 +99,8 @@ void CheckDistribution(Checker& c, const std::string& path,
   if (d.has_min()) c.Finite(path + ".min", d.min());
   if (d.has_max()) c.Finite(path + ".max", d.max());
   if (d.has_min() && d.has_max() && !(d.min() <= d.max())) {
-    c.Fail(path + ".max", absl::StrFormat("must be >= min (%g), got %g", d.min(), d.max()));
+    c.Fail(path + ".max",
+           absl::StrFormat("must be >= min (%g), got %g", d.min(), d.max()));
   }
   c.Proportion(path + ".missing_proportion", d.missing_proportion());
   if (d.count() < 0) c.Fail(path + ".count", "must not be negative");
@@ -128,8 +134,8 @@ void CheckFeature(Checker& c, const std::string& path, const v1::Feature& f) {
       if (t.has_clip_low() && t.has_clip_high() &&
           !(t.clip_low() <= t.clip_high())) {
         c.Fail(p + ".clip_high",
-               absl::StrFormat("must be >= clip_low (%g), got %g",
-                               t.clip_low(), t.clip_high()));
+               absl::StrFormat("must be >= clip_low (%g), got %g", t.clip_low(),
+                               t.clip_high()));
       }
       if (t.has_reference()) c.Finite(p + ".reference", t.reference());
       break;
@@ -137,22 +143,25 @@ void CheckFeature(Checker& c, const std::string& path, const v1::Feature& f) {
     case v1::Feature::kCategorical: {
       const auto& t = f.categorical();
       const std::string p = path + ".categorical";
-      if (t.levels().empty()) c.Fail(p + ".levels", "must list at least one level");
+      if (t.levels().empty())
+        c.Fail(p + ".levels", "must list at least one level");
       absl::flat_hash_set<std::string> seen;
       for (int i = 0; i < t.levels_size(); ++i) {
         const std::string lp = absl::StrCat(p, ".levels[", i, "]");
         c.NotEmpty(lp + ".value", t.levels(i).value());
         if (!seen.insert(t.levels(i).value()).second) {
-          c.Fail(lp + ".value",
-                 absl::StrCat("level \"", t.levels(i).value(), "\" is listed twice"));
+          c.Fail(lp + ".value", absl::StrCat("level \"", t.levels(i).value(),
+                                             "\" is listed twice"));
         }
         c.Finite(lp + ".coefficient", t.levels(i).coefficient());
       }
       if (!t.reference_level().empty() && !seen.contains(t.reference_level())) {
         c.Fail(p + ".reference_level",
-               absl::StrCat("\"", t.reference_level(), "\" is not one of the levels"));
+               absl::StrCat("\"", t.reference_level(),
+                            "\" is not one of the levels"));
       }
-      if (m.kind() == v1::MissingRule::IMPUTE && !seen.contains(m.impute_level())) {
+      if (m.kind() == v1::MissingRule::IMPUTE &&
+          !seen.contains(m.impute_level())) {
         c.Fail(path + ".missing.impute_level",
                absl::StrCat("\"", m.impute_level(),
                             "\" is not one of the levels of this feature"));
@@ -162,12 +171,14 @@ void CheckFeature(Checker& c, const std::string& path, const v1::Feature& f) {
     case v1::Feature::kBinned: {
       const auto& t = f.binned();
       const std::string p = path + ".binned";
-      if (t.edges().empty()) c.Fail(p + ".edges", "must list at least one edge");
+      if (t.edges().empty())
+        c.Fail(p + ".edges", "must list at least one edge");
       c.Edges(p + ".edges", t.edges());
       if (t.coefficients_size() != t.edges_size() + 1) {
-        c.Fail(p + ".coefficients",
-               absl::StrFormat("needs %d values (one per bin: edges + 1), got %d",
-                               t.edges_size() + 1, t.coefficients_size()));
+        c.Fail(
+            p + ".coefficients",
+            absl::StrFormat("needs %d values (one per bin: edges + 1), got %d",
+                            t.edges_size() + 1, t.coefficients_size()));
       }
       for (int i = 0; i < t.coefficients_size(); ++i) {
         c.Finite(absl::StrCat(p, ".coefficients[", i, "]"), t.coefficients(i));
@@ -184,7 +195,8 @@ void CheckFeature(Checker& c, const std::string& path, const v1::Feature& f) {
     c.Finite(path + ".missing.impute_number", m.impute_number());
   }
   if (m.kind() == v1::MissingRule::INDICATOR) {
-    c.Finite(path + ".missing.indicator_coefficient", m.indicator_coefficient());
+    c.Finite(path + ".missing.indicator_coefficient",
+             m.indicator_coefficient());
   }
   if (f.has_baseline()) CheckDistribution(c, path + ".baseline", f.baseline());
 }
@@ -210,7 +222,8 @@ absl::Status ValidateCoefficientSet(const v1::CoefficientSet& set,
       c.Fail(path + ".name", "\"record_id\" is reserved for the record's id");
     }
     if (!names.insert(f.name()).second) {
-      c.Fail(path + ".name", absl::StrCat("feature \"", f.name(), "\" is defined twice"));
+      c.Fail(path + ".name",
+             absl::StrCat("feature \"", f.name(), "\" is defined twice"));
     }
     CheckFeature(c, path, f);
   }
@@ -220,8 +233,8 @@ absl::Status ValidateCoefficientSet(const v1::CoefficientSet& set,
   return c.status();
 }
 
-absl::StatusOr<v1::CoefficientSet> ParseCoefficientSet(absl::string_view json,
-                                                       absl::string_view source) {
+absl::StatusOr<v1::CoefficientSet> ParseCoefficientSet(
+    absl::string_view json, absl::string_view source) {
   v1::CoefficientSet set;
   google::protobuf::util::JsonParseOptions options;
   options.ignore_unknown_fields = false;
@@ -249,16 +262,18 @@ absl::StatusOr<v1::CoefficientSet> ReadCoefficientSetFile(
   return ParseCoefficientSet(text.str(), path);
 }
 
-absl::StatusOr<std::string> CoefficientSetToJson(const v1::CoefficientSet& set) {
+absl::StatusOr<std::string> CoefficientSetToJson(
+    const v1::CoefficientSet& set) {
   std::string out;
   google::protobuf::util::JsonPrintOptions options;
   options.add_whitespace = true;
   options.preserve_proto_field_names = true;
-  const auto st = google::protobuf::util::MessageToJsonString(set, &out, options);
+  const auto st =
+      google::protobuf::util::MessageToJsonString(set, &out, options);
   if (!st.ok()) {
-    return absl::InternalError(absl::StrCat("cannot write coefficient set \"",
-                                            set.name(), "\" as JSON: ",
-                                            st.message().as_string()));
+    return absl::InternalError(
+        absl::StrCat("cannot write coefficient set \"", set.name(),
+                     "\" as JSON: ", st.message().as_string()));
   }
   return out;
 }

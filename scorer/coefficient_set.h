@@ -13,10 +13,10 @@
 #define PLUMBLINE_SCORER_COEFFICIENT_SET_H_
 
 #include <string>
-#include "absl/strings/string_view.h"
 
 #include "absl/status/status.h"
 #include "absl/status/statusor.h"
+#include "absl/strings/string_view.h"
 #include "plumbline/v1/coefficient_set.pb.h"
 
 namespace plumbline::scorer {
@@ -24,8 +24,8 @@ namespace plumbline::scorer {
 // Parses JSON text into a set and validates it. `source` names the text in
 // error messages (a file path, "request"). Returns INVALID_ARGUMENT for
 // malformed JSON, unknown fields and failed validation.
-absl::StatusOr<v1::CoefficientSet> ParseCoefficientSet(absl::string_view json,
-                                                       absl::string_view source);
+absl::StatusOr<v1::CoefficientSet> ParseCoefficientSet(
+    absl::string_view json, absl::string_view source);
 
 // Reads and parses a set file. NOT_FOUND if it cannot be opened.
 absl::StatusOr<v1::CoefficientSet> ReadCoefficientSetFile(

@@ -32,7 +32,8 @@ ScoringPlan::ScoringPlan(v1::CoefficientSet set, std::string source)
 
 absl::StatusOr<std::shared_ptr<const ScoringPlan>> ScoringPlan::Compile(
     v1::CoefficientSet set, std::string source) {
-  if (absl::Status st = ValidateCoefficientSet(set, source); !st.ok()) return st;
+  if (absl::Status st = ValidateCoefficientSet(set, source); !st.ok())
+    return st;
   std::shared_ptr<ScoringPlan> plan(
       new ScoringPlan(std::move(set), std::move(source)));
   if (absl::Status st = plan->Build(); !st.ok()) return st;
@@ -87,22 +88,25 @@ absl::Status ScoringPlan::Build() {
         c.kind = FeatureKind::kBinned;
         c.edges.assign(t.edges().begin(), t.edges().end());
         c.width = t.coefficients_size();
-        beta.insert(beta.end(), t.coefficients().begin(), t.coefficients().end());
+        beta.insert(beta.end(), t.coefficients().begin(),
+                    t.coefficients().end());
         if (t.has_reference()) {
-          c.reference_contribution = t.coefficients(BinOf(c.edges, t.reference()));
+          c.reference_contribution =
+              t.coefficients(BinOf(c.edges, t.reference()));
         }
         break;
       }
       case v1::Feature::TRANSFORM_NOT_SET:
-        return absl::InternalError("validated set has a feature without transform");
+        return absl::InternalError(
+            "validated set has a feature without transform");
     }
     if (c.missing == v1::MissingRule::INDICATOR) {
       c.indicator = static_cast<int>(beta.size());
       beta.push_back(f.missing().indicator_coefficient());
     }
   }
-  beta_ = Eigen::Map<const Eigen::VectorXd>(beta.data(),
-                                            static_cast<Eigen::Index>(beta.size()));
+  beta_ = Eigen::Map<const Eigen::VectorXd>(
+      beta.data(), static_cast<Eigen::Index>(beta.size()));
   return absl::OkStatus();
 }
 
@@ -130,8 +134,9 @@ absl::Status ScoringPlan::EncodeMissing(int f, double* out) const {
   const CompiledFeature& c = features_[f];
   switch (c.missing) {
     case v1::MissingRule::REJECT:
-      return FeatureError(f, "value is missing and the set's rule for this "
-                             "feature is REJECT");
+      return FeatureError(f,
+                          "value is missing and the set's rule for this "
+                          "feature is REJECT");
     case v1::MissingRule::IMPUTE:
       if (c.kind == FeatureKind::kCategorical) {
         return EncodeLevel(f, c.impute_level, out);
@@ -153,7 +158,8 @@ absl::Status ScoringPlan::EncodeNumber(int f, double x, double* out) const {
                                          : "value is infinite");
   }
   if (c.kind == FeatureKind::kNumeric) {
-    out[c.offset] = (std::clamp(x, c.clip_low, c.clip_high) - c.center) / c.scale;
+    out[c.offset] =
+        (std::clamp(x, c.clip_low, c.clip_high) - c.center) / c.scale;
   } else {
     out[c.offset + BinOf(c.edges, x)] = 1.0;
   }
@@ -173,13 +179,15 @@ absl::Status ScoringPlan::EncodeFeature(int f, const RawValue& v,
       return EncodeMissing(f, out);
     case RawValue::Kind::kNumber:
       if (c.kind == FeatureKind::kCategorical) {
-        return FeatureError(f, "expected a level name (a string), got a number");
+        return FeatureError(f,
+                            "expected a level name (a string), got a number");
       }
       return EncodeNumber(f, v.number, out);
     case RawValue::Kind::kText: {
       if (c.kind != FeatureKind::kCategorical) {
-        return FeatureError(f, absl::StrCat("expected a number, got the string \"",
-                                            v.text, "\""));
+        return FeatureError(
+            f,
+            absl::StrCat("expected a number, got the string \"", v.text, "\""));
       }
       const int level = LevelIndex(f, v.text);
       if (level >= 0) return EncodeLevel(f, level, out);
@@ -189,9 +197,10 @@ absl::Status ScoringPlan::EncodeFeature(int f, const RawValue& v,
         case v1::CategoricalTransform::UNSEEN_AS_MISSING:
           return EncodeMissing(f, out);
         default:
-          return FeatureError(f, absl::StrCat("level \"", v.text,
-                                              "\" is not one of the set's levels "
-                                              "and the unseen rule is UNSEEN_REJECT"));
+          return FeatureError(
+              f, absl::StrCat("level \"", v.text,
+                              "\" is not one of the set's levels "
+                              "and the unseen rule is UNSEEN_REJECT"));
       }
     }
   }
@@ -201,9 +210,9 @@ absl::Status ScoringPlan::EncodeFeature(int f, const RawValue& v,
 absl::Status ScoringPlan::Encode(absl::Span<const RawValue> values,
                                  Eigen::Ref<Eigen::RowVectorXd> out) const {
   if (values.size() != features_.size() || out.size() != beta_.size()) {
-    return absl::InvalidArgumentError(absl::StrFormat(
-        "set '%s': got %d values for %d features", name(), values.size(),
-        features_.size()));
+    return absl::InvalidArgumentError(
+        absl::StrFormat("set '%s': got %d values for %d features", name(),
+                        values.size(), features_.size()));
   }
   out.setZero();
   for (int f = 0; f < num_features(); ++f) {
@@ -241,17 +250,16 @@ absl::Status ScoringPlan::EncodeDenseFeature(int f, double x, bool absent,
   return EncodeLevel(f, static_cast<int>(x), out);
 }
 
-absl::Status ScoringPlan::ScoreDense(const Eigen::Ref<const RowMatrix>& raw,
-                                     absl::Span<const int> column_of_feature,
-                                     const DenseOptions& options,
-                                     Eigen::Ref<Eigen::VectorXd> log_odds,
-                                     Eigen::Ref<Eigen::VectorXd> probability) const {
+absl::Status ScoringPlan::ScoreDense(
+    const Eigen::Ref<const RowMatrix>& raw,
+    absl::Span<const int> column_of_feature, const DenseOptions& options,
+    Eigen::Ref<Eigen::VectorXd> log_odds,
+    Eigen::Ref<Eigen::VectorXd> probability) const {
   const Eigen::Index rows = raw.rows();
   if (column_of_feature.size() != features_.size()) {
     return absl::InvalidArgumentError(absl::StrFormat(
         "%s: set '%s': column map has %d entries for %d features",
-        options.rows_path, name(),
-        column_of_feature.size(), features_.size()));
+        options.rows_path, name(), column_of_feature.size(), features_.size()));
   }
   for (int col : column_of_feature) {
     if (col < -1 || col >= raw.cols()) {
@@ -283,7 +291,8 @@ absl::Status ScoringPlan::ScoreDense(const Eigen::Ref<const RowMatrix>& raw,
           const CompiledFeature& c = features_[f];
           const double x = in[column_of_feature[f]];
           finite &= std::isfinite(x);
-          out[f] = (std::clamp(x, c.clip_low, c.clip_high) - c.center) / c.scale;
+          out[f] =
+              (std::clamp(x, c.clip_low, c.clip_high) - c.center) / c.scale;
         }
         if (!finite) {
           // Re-encode through the general path for the right error or the
@@ -306,8 +315,8 @@ absl::Status ScoringPlan::ScoreDense(const Eigen::Ref<const RowMatrix>& raw,
         double* out = block.row(r).data();
         for (int f = 0; f < num_features(); ++f) {
           const int col = column_of_feature[f];
-          absl::Status st = EncodeDenseFeature(
-              f, col >= 0 ? in[col] : 0.0, col < 0, options, out);
+          absl::Status st = EncodeDenseFeature(f, col >= 0 ? in[col] : 0.0,
+                                               col < 0, options, out);
           if (!st.ok()) {
             return absl::InvalidArgumentError(absl::StrCat(
                 options.rows_path, "[", start + r, "]: ", st.message()));
@@ -331,27 +340,32 @@ std::vector<Reason> ScoringPlan::Reasons(
   all.reserve(features_.size());
   for (int f = 0; f < num_features(); ++f) {
     const CompiledFeature& c = features_[f];
-    double contribution = row.segment(c.offset, c.width).dot(
-        beta_.segment(c.offset, c.width).transpose());
+    double contribution =
+        row.segment(c.offset, c.width)
+            .dot(beta_.segment(c.offset, c.width).transpose());
     if (c.indicator >= 0) contribution += row[c.indicator] * beta_[c.indicator];
     const double reason = contribution - c.reference_contribution;
-    const bool keep = options.order == ReasonOrder::kMagnitude ||
-                      (options.order == ReasonOrder::kRaisesLogOdds && reason > 0) ||
-                      (options.order == ReasonOrder::kLowersLogOdds && reason < 0);
+    const bool keep =
+        options.order == ReasonOrder::kMagnitude ||
+        (options.order == ReasonOrder::kRaisesLogOdds && reason > 0) ||
+        (options.order == ReasonOrder::kLowersLogOdds && reason < 0);
     if (keep) all.push_back({f, reason});
   }
   auto key = [&](const Reason& r) {
     switch (options.order) {
-      case ReasonOrder::kRaisesLogOdds: return r.contribution;
-      case ReasonOrder::kLowersLogOdds: return -r.contribution;
-      case ReasonOrder::kMagnitude: return std::abs(r.contribution);
+      case ReasonOrder::kRaisesLogOdds:
+        return r.contribution;
+      case ReasonOrder::kLowersLogOdds:
+        return -r.contribution;
+      case ReasonOrder::kMagnitude:
+        return std::abs(r.contribution);
     }
     return r.contribution;
   };
   // Ties keep the set's feature order, so reasons are deterministic.
-  std::stable_sort(all.begin(), all.end(), [&](const Reason& a, const Reason& b) {
-    return key(a) > key(b);
-  });
+  std::stable_sort(
+      all.begin(), all.end(),
+      [&](const Reason& a, const Reason& b) { return key(a) > key(b); });
   if (all.size() > static_cast<size_t>(std::max(options.top, 0))) {
     all.resize(static_cast<size_t>(std::max(options.top, 0)));
   }

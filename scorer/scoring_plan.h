@@ -3,7 +3,8 @@
 // A ScoringPlan is a validated coefficient set compiled for scoring: every
 // feature's transform becomes a fixed slice of a dense encoded row, so that
 //
-//   log-odds = intercept + encoded_row · beta,   probability = Logistic(log-odds)
+//   log-odds = intercept + encoded_row · beta,   probability =
+//   Logistic(log-odds)
 //
 // Encoding per feature (the slice's columns):
 //   numeric      1 column  (clip(x) - center) / scale
@@ -15,9 +16,10 @@
 // Example:
 //
 //   auto set = scorer::ReadCoefficientSetFile("sets/courier.json");
-//   auto plan = scorer::ScoringPlan::Compile(*std::move(set), "sets/courier.json");
-//   std::vector<scorer::RawValue> row((*plan)->num_features());
-//   row[(*plan)->FeatureIndex("distance_km")] = scorer::RawValue::Number(4.2);
+//   auto plan = scorer::ScoringPlan::Compile(*std::move(set),
+//   "sets/courier.json"); std::vector<scorer::RawValue>
+//   row((*plan)->num_features()); row[(*plan)->FeatureIndex("distance_km")] =
+//   scorer::RawValue::Number(4.2);
 //   ...
 //   absl::StatusOr<scorer::ScoreResult> r = (*plan)->Score(row, {.top = 3});
 //
@@ -27,16 +29,15 @@
 #ifndef PLUMBLINE_SCORER_SCORING_PLAN_H_
 #define PLUMBLINE_SCORER_SCORING_PLAN_H_
 
+#include <Eigen/Core>
 #include <memory>
 #include <string>
-#include "absl/strings/string_view.h"
 #include <vector>
-
-#include <Eigen/Core>
 
 #include "absl/container/flat_hash_map.h"
 #include "absl/status/status.h"
 #include "absl/status/statusor.h"
+#include "absl/strings/string_view.h"
 #include "absl/types/span.h"
 #include "plumbline/v1/coefficient_set.pb.h"
 
@@ -153,9 +154,9 @@ class ScoringPlan {
  private:
   struct CompiledFeature {
     FeatureKind kind = FeatureKind::kNumeric;
-    int offset = 0;          // first encoded column
-    int width = 0;           // encoded columns of the transform
-    int indicator = -1;      // encoded column of the missing indicator, or -1
+    int offset = 0;      // first encoded column
+    int width = 0;       // encoded columns of the transform
+    int indicator = -1;  // encoded column of the missing indicator, or -1
     v1::MissingRule::Kind missing = v1::MissingRule::REJECT;
     // numeric
     double center = 0, scale = 1, clip_low = 0, clip_high = 0;

@@ -13,8 +13,8 @@
 #include "absl/base/const_init.h"
 #include "absl/strings/str_cat.h"
 #include "absl/synchronization/mutex.h"
-#include "daemon/util/grpc_status.h"
 #include "daemon/scoring/core.h"
+#include "daemon/util/grpc_status.h"
 
 namespace plumbline::daemon {
 namespace {

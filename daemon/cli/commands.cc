@@ -10,8 +10,8 @@
 #include "absl/strings/str_format.h"
 #include "absl/strings/str_join.h"
 #include "absl/time/clock.h"
-#include "daemon/csv/scoring.h"
 #include "daemon/cli/client.h"
+#include "daemon/csv/scoring.h"
 #include "daemon/scoring/core.h"
 #include "daemon/scoring/set_registry.h"
 #include "google/protobuf/util/json_util.h"
@@ -42,7 +42,8 @@ absl::Status PrintScoreReply(const v1::ScoreReply& reply, bool with_reasons,
   if (with_reasons) {
     Table reasons = {{"feature", "contribution"}};
     for (const v1::Reason& reason : score.reasons()) {
-      reasons.push_back({reason.feature(), FormatDouble(reason.contribution())});
+      reasons.push_back(
+          {reason.feature(), FormatDouble(reason.contribution())});
     }
     out << "reasons\n" << FormatTable(reasons, "  ");
   }
@@ -98,11 +99,11 @@ absl::Status ScoreCsv(const ClientOptions& client,
     if (!plan.ok()) return plan.status();
     const ScoringLimits limits = OfflineLimits();
     const scorer::ScoringPlan& scoring_plan = **plan;
-    result = ScoreCsvFile(
-        csv_options, SummarizeSet(scoring_plan),
-        [&](const v1::ScoreBatchRequest& request) {
-          return ScoreBatchWithPlan(scoring_plan, request, limits);
-        });
+    result =
+        ScoreCsvFile(csv_options, SummarizeSet(scoring_plan),
+                     [&](const v1::ScoreBatchRequest& request) {
+                       return ScoreBatchWithPlan(scoring_plan, request, limits);
+                     });
   } else {
     ScoringClient remote(client.addr, client.timeout);
     absl::StatusOr<v1::SetSummary> schema = remote.FindSet(options.set);
@@ -155,10 +156,9 @@ absl::Status RunSetsCommand(const ClientOptions& client, bool verbose,
     out << "\n";
     Table features = {{"feature", "kind", "missing", "levels"}};
     for (const v1::FeatureSummary& feature : set.features()) {
-      features.push_back({feature.name(),
-                          v1::FeatureSummary::Kind_Name(feature.kind()),
-                          feature.missing(),
-                          absl::StrJoin(feature.levels(), ", ")});
+      features.push_back(
+          {feature.name(), v1::FeatureSummary::Kind_Name(feature.kind()),
+           feature.missing(), absl::StrJoin(feature.levels(), ", ")});
     }
     out << FormatTable(features, "  ");
   }

@@ -19,8 +19,8 @@
 #include "absl/status/status.h"
 #include "absl/status/statusor.h"
 #include "absl/strings/string_view.h"
-#include "daemon/util/text_table.h"
 #include "absl/time/time.h"
+#include "daemon/util/text_table.h"
 #include "plumbline/v1/scoring.pb.h"
 
 namespace plumbline::daemon {
@@ -47,7 +47,6 @@ struct ScoreCommandOptions {
   int batch = 1000;
   v1::ReasonOptions reasons;
 };
-
 
 // "raises" | "lowers" | "magnitude" → ReasonOrder; INVALID_ARGUMENT otherwise.
 absl::StatusOr<v1::ReasonOrder> ParseReasonOrder(const std::string& text);

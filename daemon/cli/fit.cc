@@ -76,10 +76,10 @@ std::string TransformTable(const v1::CoefficientSet& set) {
       {"feature", "kind", "transform"}};
   for (const v1::Feature& f : set.features()) {
     if (f.has_numeric()) {
-      rows.push_back({f.name(), "numeric",
-                      absl::StrFormat("centre %.9g, scale %.9g",
-                                      f.numeric().center(),
-                                      f.numeric().scale())});
+      rows.push_back(
+          {f.name(), "numeric",
+           absl::StrFormat("centre %.9g, scale %.9g", f.numeric().center(),
+                           f.numeric().scale())});
     } else if (f.has_categorical()) {
       std::vector<std::string> levels;
       for (const auto& level : f.categorical().levels()) {
@@ -87,8 +87,8 @@ std::string TransformTable(const v1::CoefficientSet& set) {
       }
       rows.push_back(
           {f.name(), "categorical",
-           absl::StrCat("levels ", absl::StrJoin(levels, ", "),
-                        "; reference ", f.categorical().reference_level())});
+           absl::StrCat("levels ", absl::StrJoin(levels, ", "), "; reference ",
+                        f.categorical().reference_level())});
     } else {
       rows.push_back({f.name(), "binned", ""});
     }
@@ -136,9 +136,8 @@ std::string StatisticsTable(const scorer::FitResult& fit, bool weighted) {
   rows.push_back({"McFadden pseudo-R^2", Statistic(fit.pseudo_r2)});
   rows.push_back({"iterations", absl::StrCat(fit.iterations)});
   rows.push_back(
-      {"converged",
-       absl::StrFormat("yes (max |gradient| per unit weight %.3g)",
-                       fit.max_abs_gradient)});
+      {"converged", absl::StrFormat("yes (max |gradient| per unit weight %.3g)",
+                                    fit.max_abs_gradient)});
   return FormatTable(rows);
 }
 
@@ -176,8 +175,8 @@ std::string Report(const FitCommandOptions& options,
 }  // namespace
 
 std::string DefaultFitVersion(absl::Time t) {
-  return absl::StrCat("fit-",
-                      absl::FormatTime("%Y%m%dT%H%M%SZ", t, absl::UTCTimeZone()));
+  return absl::StrCat(
+      "fit-", absl::FormatTime("%Y%m%dT%H%M%SZ", t, absl::UTCTimeZone()));
 }
 
 absl::Status RunFitCommand(const FitCommandOptions& options, std::ostream& out,
@@ -213,29 +212,28 @@ absl::Status RunFitCommand(const FitCommandOptions& options, std::ostream& out,
     err << absl::StrFormat(
         "fit: iteration %d: log-likelihood %.10g, max |gradient| %.3g%s\n",
         p.iteration, p.log_likelihood, p.max_abs_gradient,
-        p.step_halvings > 0 ? absl::StrCat(", step halved ", p.step_halvings,
-                                           p.step_halvings == 1 ? " time"
-                                                                : " times")
-                            : "");
+        p.step_halvings > 0
+            ? absl::StrCat(", step halved ", p.step_halvings,
+                           p.step_halvings == 1 ? " time" : " times")
+            : "");
     err.flush();
   };
-  absl::StatusOr<scorer::FitResult> fit =
-      scorer::FitLogistic(*x, data->labels, data->weights,
-                          layout->column_names(), fit_options);
+  absl::StatusOr<scorer::FitResult> fit = scorer::FitLogistic(
+      *x, data->labels, data->weights, layout->column_names(), fit_options);
   if (!fit.ok()) return InCommandTerms(fit.status(), options.csv);
   if (!fit->converged) {
-    return absl::FailedPreconditionError(absl::StrCat(
-        options.csv, ": the fit did not converge after ", fit->iterations,
-        " iterations: ", fit->stop_reason, "; ", options.out,
-        " was not written"));
+    return absl::FailedPreconditionError(
+        absl::StrCat(options.csv, ": the fit did not converge after ",
+                     fit->iterations, " iterations: ", fit->stop_reason, "; ",
+                     options.out, " was not written"));
   }
 
   scorer::SetDescription description;
   description.name = options.name;
   description.version = version;
-  description.description = absl::StrCat(
-      "P(", options.columns.target, " = 1), fitted by plumbctl fit on ",
-      options.csv);
+  description.description =
+      absl::StrCat("P(", options.columns.target,
+                   " = 1), fitted by plumbctl fit on ", options.csv);
   description.created_by = "plumbctl fit";
   description.training_data = absl::StrCat(
       "CSV file ", AbsolutePath(options.csv), ": ", fit->rows,

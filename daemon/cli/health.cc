@@ -1,8 +1,8 @@
 // File: daemon/cli/health.cc
 #include "daemon/cli/health.h"
 
-#include "daemon/cli/health_table.h"
 #include "daemon/cli/client.h"
+#include "daemon/cli/health_table.h"
 
 namespace plumbline::daemon {
 

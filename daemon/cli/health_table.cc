@@ -25,16 +25,16 @@ std::string Cell(const v1::Figure& f) {
 std::string FormatSetHealth(const v1::SetHealth& health) {
   std::string evaluated = "not yet";
   if (health.has_evaluated_at()) {
-    evaluated = absl::FormatTime(
-        "%Y-%m-%dT%H:%M:%SZ",
-        absl::FromUnixSeconds(health.evaluated_at().seconds()),
-        absl::UTCTimeZone());
+    evaluated =
+        absl::FormatTime("%Y-%m-%dT%H:%M:%SZ",
+                         absl::FromUnixSeconds(health.evaluated_at().seconds()),
+                         absl::UTCTimeZone());
   }
   std::string out = FormatTable({{"set:", health.set()},
-                             {"version:", health.version()},
-                             {"state:", DriftStateName(health.state())},
-                             {"evaluated:", evaluated}},
-                            "");
+                                 {"version:", health.version()},
+                                 {"state:", DriftStateName(health.state())},
+                                 {"evaluated:", evaluated}},
+                                "");
   absl::StrAppend(&out, "\nreasons:\n");
   if (health.reasons().empty()) absl::StrAppend(&out, "  none\n");
   for (const v1::DriftReason& r : health.reasons()) {
@@ -42,7 +42,8 @@ std::string FormatSetHealth(const v1::SetHealth& health) {
   }
   if (!health.notes().empty()) {
     absl::StrAppend(&out, "notes:\n");
-    for (const std::string& n : health.notes()) absl::StrAppend(&out, "  ", n, "\n");
+    for (const std::string& n : health.notes())
+      absl::StrAppend(&out, "  ", n, "\n");
   }
   if (health.windows().empty()) return out;
 
@@ -76,7 +77,8 @@ std::string FormatSetHealth(const v1::SetHealth& health) {
     }
     rows.push_back(std::move(row));
   }
-  Row refused_labelled = {"refused labelled"}, refused_scored = {"refused scored"};
+  Row refused_labelled = {"refused labelled"},
+      refused_scored = {"refused scored"};
   for (const v1::WindowHealth& w : health.windows()) {
     refused_labelled.push_back(absl::StrCat(w.refused_labelled()));
     refused_scored.push_back(absl::StrCat(w.refused_scored()));
@@ -85,8 +87,8 @@ std::string FormatSetHealth(const v1::SetHealth& health) {
   rows.push_back(refused_scored);
   absl::StrAppend(&out, "\n", FormatTable(rows, ""));
 
-  std::vector<Row> features = {{"feature", "window", "psi", "missing_rate",
-                                "out_of_range_rate"}};
+  std::vector<Row> features = {
+      {"feature", "window", "psi", "missing_rate", "out_of_range_rate"}};
   const int num_features = health.windows(0).features_size();
   for (int i = 0; i < num_features; ++i) {
     for (const v1::WindowHealth& w : health.windows()) {
@@ -99,7 +101,8 @@ std::string FormatSetHealth(const v1::SetHealth& health) {
         const v1::Figure& f = (fh.*(ff.get))();
         if (!f.defined()) {
           undefined.push_back(absl::StrCat(w.window(), " window, ", ff.metric,
-                                           " of '", fh.feature(), "': ", f.note()));
+                                           " of '", fh.feature(),
+                                           "': ", f.note()));
         }
       }
     }

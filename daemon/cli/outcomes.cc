@@ -6,8 +6,8 @@
 #include <vector>
 
 #include "absl/strings/str_cat.h"
-#include "daemon/util/files.h"
 #include "daemon/cli/client.h"
+#include "daemon/util/files.h"
 
 namespace plumbline::daemon {
 

@@ -18,8 +18,8 @@
 #include <string>
 
 #include "absl/status/status.h"
-#include "daemon/csv/outcomes.h"
 #include "daemon/cli/commands.h"
+#include "daemon/csv/outcomes.h"
 #include "plumbline/v1/outcomes.pb.h"
 
 namespace plumbline::daemon {

@@ -3,10 +3,11 @@
 // plumbctl: the operator's command line for plumbd. See kUsage below.
 // Exit status: 0 success, 1 a failed operation ("plumbctl: CODE: message"),
 // 2 a usage error.
+#include <unistd.h>
+
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
-#include <unistd.h>
 #include <iostream>
 #include <string>
 #include <vector>
@@ -16,15 +17,15 @@
 #include "absl/strings/match.h"
 #include "absl/strings/str_cat.h"
 #include "absl/time/time.h"
-#include "daemon/util/flags.h"
-#include "daemon/csv/outcomes.h"
+#include "daemon/cli/client.h"
 #include "daemon/cli/commands.h"
+#include "daemon/cli/fit.h"
 #include "daemon/cli/health.h"
 #include "daemon/cli/outcomes.h"
 #include "daemon/cli/registry.h"
-#include "daemon/cli/client.h"
 #include "daemon/cli/token.h"
-#include "daemon/cli/fit.h"
+#include "daemon/csv/outcomes.h"
+#include "daemon/util/flags.h"
 
 ABSL_FLAG(std::string, addr, "127.0.0.1:7390", "plumbd gRPC address");
 ABSL_FLAG(int, timeout_ms, 10000, "deadline of each RPC, in milliseconds");
@@ -38,8 +39,7 @@ ABSL_FLAG(std::string, csv, "",
           "score: CSV file of records; outcomes: CSV file of outcomes "
           "(header row)");
 ABSL_FLAG(std::string, out, "", "score --csv: output file (default stdout)");
-ABSL_FLAG(std::string, record_id, "",
-          "score --json, outcome: the record's id");
+ABSL_FLAG(std::string, record_id, "", "score --json, outcome: the record's id");
 ABSL_FLAG(int, batch, 1000,
           "score --csv, outcomes --csv: records per ScoreBatch or "
           "ReportOutcomes call");
@@ -74,7 +74,8 @@ ABSL_FLAG(std::string, features, "",
           "target, the weights and record_id)");
 ABSL_FLAG(std::string, categorical, "",
           "fit: columns to treat as categorical even if numeric-looking");
-ABSL_FLAG(double, l2, 0, "fit: L2 penalty lambda (0 = plain maximum likelihood)");
+ABSL_FLAG(double, l2, 0,
+          "fit: L2 penalty lambda (0 = plain maximum likelihood)");
 ABSL_FLAG(std::string, weights, "", "fit: column of sample weights");
 ABSL_FLAG(std::string, version, "",
           "fit: version of the new set (default fit-<UTC time>); activate, "
@@ -378,6 +379,4 @@ int Main(int argc, char** argv) {
 }  // namespace
 }  // namespace plumbline::daemon
 
-int main(int argc, char** argv) {
-  return plumbline::daemon::Main(argc, argv);
-}
+int main(int argc, char** argv) { return plumbline::daemon::Main(argc, argv); }

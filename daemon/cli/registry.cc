@@ -42,16 +42,16 @@ std::string StateName(v1::VersionState state) {
 }
 
 std::string Time(const google::protobuf::Timestamp& t) {
-  return absl::FormatTime("%Y-%m-%dT%H:%M:%SZ",
-                          absl::FromUnixMicros(TimeUtil::TimestampToMicroseconds(t)),
-                          absl::UTCTimeZone());
+  return absl::FormatTime(
+      "%Y-%m-%dT%H:%M:%SZ",
+      absl::FromUnixMicros(TimeUtil::TimestampToMicroseconds(t)),
+      absl::UTCTimeZone());
 }
 
 absl::Status Need(const std::string& value, absl::string_view flag,
                   absl::string_view command) {
   if (!value.empty()) return absl::OkStatus();
-  return absl::InvalidArgumentError(
-      absl::StrCat(command, " needs --", flag));
+  return absl::InvalidArgumentError(absl::StrCat(command, " needs --", flag));
 }
 
 void PrintVersion(const v1::VersionInfo& v, absl::string_view what,
@@ -82,8 +82,8 @@ class Call {
 }  // namespace
 
 bool IsRegistryCommand(const std::string& name) {
-  static const char* const kNames[] = {"versions", "load",     "activate",
-                                       "approve",  "shadow",   "rollback",
+  static const char* const kNames[] = {"versions", "load",   "activate",
+                                       "approve",  "shadow", "rollback",
                                        "refit",    "audit"};
   return std::any_of(std::begin(kNames), std::end(kNames),
                      [&](const char* n) { return name == n; });
@@ -124,8 +124,8 @@ absl::Status RunRegistryCommand(const ClientOptions& client,
     v1::ListVersionsRequest request;
     request.set_set(command.set);
     v1::ListVersionsReply reply;
-    if (absl::Status s = call.Done(
-            stub->ListVersions(call.context(), request, &reply));
+    if (absl::Status s =
+            call.Done(stub->ListVersions(call.context(), request, &reply));
         !s.ok()) {
       return s;
     }
@@ -151,8 +151,8 @@ absl::Status RunRegistryCommand(const ClientOptions& client,
     std::vector<std::vector<std::string>> rows = {
         {"time", "version", "action", "actor", "detail"}};
     for (const v1::AuditEntry& e : reply.entries()) {
-      rows.push_back({Time(e.at()), e.version(), e.action(), e.actor(),
-                      e.detail()});
+      rows.push_back(
+          {Time(e.at()), e.version(), e.action(), e.actor(), e.detail()});
     }
     out << FormatTable(rows);
     return absl::OkStatus();

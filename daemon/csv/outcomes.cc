@@ -94,9 +94,9 @@ absl::StatusOr<OutcomesCsv> ReadOutcomesCsv(const std::string& path) {
                      absl::StrJoin(unexpected, ", "), "; ", kShape));
   }
   if (id_column < 0 || label_column < 0) {
-    return absl::InvalidArgumentError(absl::StrCat(
-        path, ": no '", id_column < 0 ? kRecordId : kLabel, "' column; ",
-        kShape));
+    return absl::InvalidArgumentError(
+        absl::StrCat(path, ": no '", id_column < 0 ? kRecordId : kLabel,
+                     "' column; ", kShape));
   }
 
   OutcomesCsv csv;
@@ -113,7 +113,8 @@ absl::StatusOr<OutcomesCsv> ReadOutcomesCsv(const std::string& path) {
       refuse("record_id is empty");
       continue;
     }
-    absl::StatusOr<int> label = ParseLabel(row[static_cast<size_t>(label_column)]);
+    absl::StatusOr<int> label =
+        ParseLabel(row[static_cast<size_t>(label_column)]);
     if (!label.ok()) {
       refuse(label.status().message());
       continue;
@@ -154,9 +155,9 @@ OutcomesCsvRun ReportOutcomesCsv(const OutcomesCsv& csv, int batch_size,
     absl::StatusOr<v1::ReportOutcomesReply> reply = send(request);
     if (reply.ok() &&
         static_cast<size_t>(reply->results_size()) != end - start) {
-      reply = absl::InternalError(absl::StrCat(
-          "ReportOutcomes returned ", reply->results_size(), " results for ",
-          end - start, " outcomes"));
+      reply = absl::InternalError(
+          absl::StrCat("ReportOutcomes returned ", reply->results_size(),
+                       " results for ", end - start, " outcomes"));
     }
     if (!reply.ok()) {
       run.status = absl::Status(

@@ -59,8 +59,7 @@ absl::StatusOr<std::vector<v1::Record>> CsvToRecords(
 // "feature:contribution". REQUIRES: records and scores match table.rows.
 std::string FormatScoredCsv(const CsvTable& table, const CsvLayout& layout,
                             const std::vector<v1::Record>& records,
-                            const std::vector<v1::Scored>& scores,
-                            int reasons);
+                            const std::vector<v1::Scored>& scores, int reasons);
 
 }  // namespace plumbline::daemon
 

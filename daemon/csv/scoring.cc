@@ -9,8 +9,8 @@
 #include "absl/strings/str_cat.h"
 #include "absl/time/clock.h"
 #include "absl/time/time.h"
-#include "daemon/csv/table.h"
 #include "daemon/csv/records.h"
+#include "daemon/csv/table.h"
 #include "daemon/util/files.h"
 
 namespace plumbline::daemon {
@@ -24,8 +24,8 @@ absl::StatusOr<CsvScoringResult> ScoreCsvFile(const CsvScoringOptions& options,
   if (!table.ok()) return table.status();
   const CsvLayout layout = LayoutCsv(table->header, schema);
   const std::string id_prefix =
-      absl::StrCat(std::filesystem::path(options.csv_path).stem().string(),
-                   "-", absl::ToUnixSeconds(absl::Now()));
+      absl::StrCat(std::filesystem::path(options.csv_path).stem().string(), "-",
+                   absl::ToUnixSeconds(absl::Now()));
   absl::StatusOr<std::vector<v1::Record>> records =
       CsvToRecords(*table, layout, options.csv_path, id_prefix);
   if (!records.ok()) return records.status();
@@ -47,13 +47,13 @@ absl::StatusOr<CsvScoringResult> ScoreCsvFile(const CsvScoringOptions& options,
     if (!reply.ok()) {
       return absl::Status(
           reply.status().code(),
-          absl::StrCat(options.csv_path, ": rows ", start + 1, "..", end,
-                       ": ", reply.status().message()));
+          absl::StrCat(options.csv_path, ": rows ", start + 1, "..", end, ": ",
+                       reply.status().message()));
     }
     if (static_cast<size_t>(reply->scores_size()) != end - start) {
-      return absl::InternalError(absl::StrCat(
-          "ScoreBatch returned ", reply->scores_size(), " scores for ",
-          end - start, " records"));
+      return absl::InternalError(
+          absl::StrCat("ScoreBatch returned ", reply->scores_size(),
+                       " scores for ", end - start, " records"));
     }
     for (v1::Scored& scored : *reply->mutable_scores()) {
       scores.push_back(std::move(scored));
@@ -62,8 +62,9 @@ absl::StatusOr<CsvScoringResult> ScoreCsvFile(const CsvScoringOptions& options,
   }
   result.records = static_cast<int>(records->size());
 
-  const std::string out = FormatScoredCsv(
-      *table, layout, *records, scores, static_cast<int>(options.reasons.top()));
+  const std::string out =
+      FormatScoredCsv(*table, layout, *records, scores,
+                      static_cast<int>(options.reasons.top()));
   if (options.out_path.empty()) {
     if (std::fwrite(out.data(), 1, out.size(), stdout) != out.size() ||
         std::fflush(stdout) != 0) {

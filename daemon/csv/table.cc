@@ -114,14 +114,14 @@ absl::StatusOr<CsvTable> ParseCsv(absl::string_view text,
       absl::flat_hash_map<std::string, int> seen;
       for (size_t c = 0; c < fields.size(); ++c) {
         if (fields[c].empty()) {
-          return absl::InvalidArgumentError(absl::StrCat(
-              source, ": line ", line, ": header column ", c + 1,
-              " has no name"));
+          return absl::InvalidArgumentError(
+              absl::StrCat(source, ": line ", line, ": header column ", c + 1,
+                           " has no name"));
         }
         if (!seen.emplace(fields[c], static_cast<int>(c)).second) {
-          return absl::InvalidArgumentError(absl::StrCat(
-              source, ": line ", line, ": header names column '", fields[c],
-              "' twice"));
+          return absl::InvalidArgumentError(
+              absl::StrCat(source, ": line ", line, ": header names column '",
+                           fields[c], "' twice"));
         }
       }
       table.header = fields;

@@ -62,8 +62,7 @@ bool IsNumericColumn(const CsvTable& table, size_t column) {
   return true;
 }
 
-absl::StatusOr<Eigen::VectorXd> ReadLabels(const CsvTable& table,
-                                           size_t column,
+absl::StatusOr<Eigen::VectorXd> ReadLabels(const CsvTable& table, size_t column,
                                            absl::string_view source) {
   Eigen::VectorXd labels(static_cast<Eigen::Index>(table.rows.size()));
   for (size_t r = 0; r < table.rows.size(); ++r) {
@@ -92,9 +91,9 @@ absl::StatusOr<Eigen::VectorXd> ReadWeights(const CsvTable& table,
                        "(0 leaves the row out)");
     }
     if (!absl::SimpleAtod(cell, &w) || !std::isfinite(w) || w < 0) {
-      return CellError(source, table, r, column,
-                       absl::StrCat("weight '", cell,
-                                    "' is not a finite number >= 0"));
+      return CellError(
+          source, table, r, column,
+          absl::StrCat("weight '", cell, "' is not a finite number >= 0"));
     }
     weights[static_cast<Eigen::Index>(r)] = w;
   }
@@ -160,14 +159,13 @@ absl::StatusOr<TrainingData> TrainingDataFromCsv(const CsvTable& table,
       }
       if (*c == *target || static_cast<int>(*c) == weights_column) {
         return absl::InvalidArgumentError(absl::StrCat(
-            "column '", name, "' is the ",
-            *c == *target ? "target" : "weights",
+            "column '", name, "' is the ", *c == *target ? "target" : "weights",
             " column and cannot also be a feature"));
       }
       if (name == kRecordIdColumn) {
-        return absl::InvalidArgumentError(absl::StrCat(
-            "column '", kRecordIdColumn,
-            "' holds record ids and cannot be a feature"));
+        return absl::InvalidArgumentError(
+            absl::StrCat("column '", kRecordIdColumn,
+                         "' holds record ids and cannot be a feature"));
       }
       feature_columns.push_back(*c);
     }
@@ -210,8 +208,8 @@ absl::StatusOr<TrainingData> TrainingDataFromCsv(const CsvTable& table,
                     : scorer::FeatureKind::kNumeric;
     data.specs.push_back(std::move(spec));
   }
-  data.records.assign(table.rows.size(), std::vector<scorer::RawValue>(
-                                             feature_columns.size()));
+  data.records.assign(table.rows.size(),
+                      std::vector<scorer::RawValue>(feature_columns.size()));
   for (size_t r = 0; r < table.rows.size(); ++r) {
     for (size_t f = 0; f < feature_columns.size(); ++f) {
       const size_t c = feature_columns[f];

@@ -29,10 +29,9 @@
 #ifndef PLUMBLINE_DAEMON_CSV_TRAINING_H_
 #define PLUMBLINE_DAEMON_CSV_TRAINING_H_
 
+#include <Eigen/Core>
 #include <string>
 #include <vector>
-
-#include <Eigen/Core>
 
 #include "absl/status/statusor.h"
 #include "absl/strings/string_view.h"

@@ -6,8 +6,8 @@
 #include <utility>
 
 #include "absl/strings/str_cat.h"
-#include "daemon/util/event_log.h"
 #include "daemon/health/rebuild.h"
+#include "daemon/util/event_log.h"
 #include "daemon/util/time.h"
 
 namespace plumbline::daemon {
@@ -32,9 +32,9 @@ void LogStateChange(const v1::SetHealth& before, const v1::SetHealth& after) {
             {"from", from},
             {"to", to},
             {"reasons", reasons},
-            {"first_reason",
-             after.reasons_size() > 0 ? absl::string_view(after.reasons(0).text())
-                                      : absl::string_view()}});
+            {"first_reason", after.reasons_size() > 0
+                                 ? absl::string_view(after.reasons(0).text())
+                                 : absl::string_view()}});
 }
 
 }  // namespace
@@ -73,8 +73,9 @@ void HealthMonitor::SyncPlans(const std::vector<PlanPtr>& plans) {
       absl::StatusOr<std::unique_ptr<HealthWindows>> windows =
           HealthWindows::Create(plan, options_.windows);
       if (!windows.ok()) {  // options were checked by Create: not expected
-        LogEvent(LogLevel::kError, "health_windows_failed",
-                 {{"set", plan->name()}, {"error", windows.status().message()}});
+        LogEvent(
+            LogLevel::kError, "health_windows_failed",
+            {{"set", plan->name()}, {"error", windows.status().message()}});
         continue;
       }
       kept = std::make_shared<Version>();
@@ -127,7 +128,8 @@ void HealthMonitor::CountUnmonitored(absl::string_view set,
                                      absl::string_view version,
                                      absl::string_view kind) {
   absl::MutexLock lock(&unmonitored_mu_);
-  UnmonitoredCount& c = unmonitored_[{VersionKey(set, version), std::string(kind)}];
+  UnmonitoredCount& c =
+      unmonitored_[{VersionKey(set, version), std::string(kind)}];
   if (c.records == 0) {
     c.set = std::string(set);
     c.version = std::string(version);
@@ -240,7 +242,8 @@ void HealthMonitor::Evaluate() {
   for (size_t i = 0; i < all.size(); ++i) LogStateChange(before[i], results[i]);
 }
 
-absl::StatusOr<v1::SetHealth> HealthMonitor::Health(absl::string_view name) const {
+absl::StatusOr<v1::SetHealth> HealthMonitor::Health(
+    absl::string_view name) const {
   absl::ReaderMutexLock lock(&mu_);
   auto it = versions_.find(name);
   if (it == versions_.end() || it->second.empty()) {
@@ -274,7 +277,8 @@ std::vector<UnmonitoredCount> HealthMonitor::Unmonitored() const {
   absl::MutexLock lock(&unmonitored_mu_);
   for (const auto& [key, c] : unmonitored_) out.push_back(c);
   std::sort(out.begin(), out.end(), [](const auto& a, const auto& b) {
-    return std::tie(a.set, a.version, a.kind) < std::tie(b.set, b.version, b.kind);
+    return std::tie(a.set, a.version, a.kind) <
+           std::tie(b.set, b.version, b.kind);
   });
   return out;
 }

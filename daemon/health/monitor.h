@@ -42,10 +42,10 @@
 #include "absl/strings/string_view.h"
 #include "absl/synchronization/mutex.h"
 #include "absl/time/time.h"
-#include "daemon/policy/drift_policy.h"
 #include "daemon/health/sink.h"
 #include "daemon/health/windows.h"
 #include "daemon/ledger/ledger.h"
+#include "daemon/policy/drift_policy.h"
 #include "daemon/util/set_version.h"
 #include "plumbline/v1/monitor.pb.h"
 #include "scorer/scoring_plan.h"
@@ -81,7 +81,8 @@ class HealthMonitor final : public HealthSink {
   // and their last evaluation. Per set name the first plan listed is the
   // serving (active) version; the others are its shadows
   // (SetRegistry::AllMonitored lists them so).
-  void SyncPlans(const std::vector<std::shared_ptr<const scorer::ScoringPlan>>& plans);
+  void SyncPlans(
+      const std::vector<std::shared_ptr<const scorer::ScoringPlan>>& plans);
 
   // Refills the windows of every monitored version from the ledger
   // (daemon/health_rebuild.h). Call before serving.
@@ -141,8 +142,7 @@ class HealthMonitor final : public HealthSink {
   mutable absl::Mutex unmonitored_mu_;
   // By version and kind.
   absl::flat_hash_map<std::pair<SetVersion, std::string>, UnmonitoredCount>
-      unmonitored_
-      ABSL_GUARDED_BY(unmonitored_mu_);
+      unmonitored_ ABSL_GUARDED_BY(unmonitored_mu_);
 };
 
 }  // namespace plumbline::daemon

@@ -7,8 +7,8 @@
 #include <vector>
 
 #include "absl/strings/str_cat.h"
-#include "daemon/util/event_log.h"
 #include "daemon/scoring/features_json.h"
+#include "daemon/util/event_log.h"
 #include "google/protobuf/struct.pb.h"
 
 namespace plumbline::daemon {
@@ -24,15 +24,16 @@ constexpr int64_t kRebuildTimeLimit = 1'000'000;
 template <typename Entry>
 absl::StatusOr<std::vector<Entry>> NewestRows(
     int64_t wanted,
-    const std::function<absl::Status(
-        int64_t, const std::function<void(const Entry&)>&)>& query,
+    const std::function<
+        absl::Status(int64_t, const std::function<void(const Entry&)>&)>& query,
     const std::function<bool(const Entry&)>& keep) {
   for (int64_t limit = wanted;; limit *= 2) {
     std::vector<Entry> kept;
     int64_t seen = 0;
     absl::Status s = query(limit, [&](const Entry& e) {
       ++seen;
-      if (static_cast<int64_t>(kept.size()) < wanted && keep(e)) kept.push_back(e);
+      if (static_cast<int64_t>(kept.size()) < wanted && keep(e))
+        kept.push_back(e);
     });
     if (!s.ok()) return s;
     if (static_cast<int64_t>(kept.size()) >= wanted || seen < limit ||
@@ -58,24 +59,31 @@ absl::Status RebuildWindows(Ledger& ledger, HealthWindows& windows,
   };
 
   // Count windows: the newest N rows of the version, fed oldest first.
-  absl::StatusOr<std::vector<LabelledScore>> newest_labelled = NewestRows<LabelledScore>(
-      o.labelled_count,
-      [&](int64_t limit, const std::function<void(const LabelledScore&)>& fn) {
-        return ledger.ForEachLabelled(plan.name(), limit, absl::InfinitePast(), fn);
-      },
-      [&](const LabelledScore& l) { return l.set_version == version; });
+  absl::StatusOr<std::vector<LabelledScore>> newest_labelled =
+      NewestRows<LabelledScore>(
+          o.labelled_count,
+          [&](int64_t limit,
+              const std::function<void(const LabelledScore&)>& fn) {
+            return ledger.ForEachLabelled(plan.name(), limit,
+                                          absl::InfinitePast(), fn);
+          },
+          [&](const LabelledScore& l) { return l.set_version == version; });
   if (!newest_labelled.ok()) return newest_labelled.status();
-  for (auto it = newest_labelled->rbegin(); it != newest_labelled->rend(); ++it) {
-    windows.AddLabelledTo(WindowKind::kCount, it->log_odds, it->label, now, now);
+  for (auto it = newest_labelled->rbegin(); it != newest_labelled->rend();
+       ++it) {
+    windows.AddLabelledTo(WindowKind::kCount, it->log_odds, it->label, now,
+                          now);
   }
   labelled += static_cast<int64_t>(newest_labelled->size());
 
-  absl::StatusOr<std::vector<ScoreEntry>> newest_scored = NewestRows<ScoreEntry>(
-      o.scored_count,
-      [&](int64_t limit, const std::function<void(const ScoreEntry&)>& fn) {
-        return ledger.ForEachScore(plan.name(), limit, absl::InfinitePast(), fn);
-      },
-      [&](const ScoreEntry& e) { return e.set_version == version; });
+  absl::StatusOr<std::vector<ScoreEntry>> newest_scored =
+      NewestRows<ScoreEntry>(
+          o.scored_count,
+          [&](int64_t limit, const std::function<void(const ScoreEntry&)>& fn) {
+            return ledger.ForEachScore(plan.name(), limit, absl::InfinitePast(),
+                                       fn);
+          },
+          [&](const ScoreEntry& e) { return e.set_version == version; });
   if (!newest_scored.ok()) return newest_scored.status();
   for (auto it = newest_scored->rbegin(); it != newest_scored->rend(); ++it) {
     if (!parses(*it)) {
@@ -95,16 +103,17 @@ absl::Status RebuildWindows(Ledger& ledger, HealthWindows& windows,
         ++labelled;
       });
   if (!s.ok()) return s;
-  s = ledger.ForEachScore(
-      plan.name(), kRebuildTimeLimit, since, [&](const ScoreEntry& e) {
-        if (e.set_version != version) return;
-        if (!parses(e)) {
-          ++skipped;
-          return;
-        }
-        windows.AddScoredTo(WindowKind::kTime, e.log_odds, row, e.scored_at, now);
-        ++scored;
-      });
+  s = ledger.ForEachScore(plan.name(), kRebuildTimeLimit, since,
+                          [&](const ScoreEntry& e) {
+                            if (e.set_version != version) return;
+                            if (!parses(e)) {
+                              ++skipped;
+                              return;
+                            }
+                            windows.AddScoredTo(WindowKind::kTime, e.log_odds,
+                                                row, e.scored_at, now);
+                            ++scored;
+                          });
   if (!s.ok()) return s;
   LogEvent(skipped > 0 ? LogLevel::kWarning : LogLevel::kInfo, "health_rebuilt",
            {{"set", plan.name()},

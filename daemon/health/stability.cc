@@ -53,7 +53,8 @@ StabilityLayout::Feature NumericFeature(const v1::Feature& f) {
   }
   out.mode = Mode::kNumeric;
   out.bins = *std::move(bins);
-  if (d.has_min() && d.has_max()) out.range = monitor::ValueRange{d.min(), d.max()};
+  if (d.has_min() && d.has_max())
+    out.range = monitor::ValueRange{d.min(), d.max()};
   return out;
 }
 
@@ -84,7 +85,8 @@ StabilityLayout::Feature CategoricalFeature(const v1::Feature& f) {
     return out;
   }
   out.mode = Mode::kCategorical;
-  out.levels = std::make_shared<const monitor::CategoricalBaseline>(*std::move(b));
+  out.levels =
+      std::make_shared<const monitor::CategoricalBaseline>(*std::move(b));
   return out;
 }
 
@@ -97,7 +99,8 @@ std::shared_ptr<const StabilityLayout> StabilityLayout::Create(
   layout->counting_ = std::make_shared<const monitor::BinnedBaseline>(
       *monitor::BinnedBaseline::Create({}, {1.0}));
   const v1::CoefficientSet& set = plan.set();
-  if (!set.has_score_baseline() || set.score_baseline().proportions_size() == 0) {
+  if (!set.has_score_baseline() ||
+      set.score_baseline().proportions_size() == 0) {
     layout->score_note_ = "no baseline: the set has no score_baseline";
   } else if (auto bins = Bins(set.score_baseline()); !bins.ok()) {
     layout->score_note_ =
@@ -152,8 +155,8 @@ void ScoredAccumulator::Add(double probability,
     const StabilityLayout::Feature& f = layout[i];
     switch (f.mode) {
       case Mode::kNumeric:
-        std::get<0>(features_[i]).Add(v.kind == Kind::kNumber ? v.number
-                                                              : kMissing);
+        std::get<0>(features_[i])
+            .Add(v.kind == Kind::kNumber ? v.number : kMissing);
         break;
       case Mode::kCategorical: {
         std::optional<absl::string_view> level;

@@ -31,12 +31,12 @@ absl::Status CountError(absl::string_view field, int64_t records, int buckets) {
       field, records, buckets));
 }
 
-void FillOutcome(const monitor::OutcomeAccumulator& acc,
-                 v1::WindowHealth* w) {
+void FillOutcome(const monitor::OutcomeAccumulator& acc, v1::WindowHealth* w) {
   w->set_labelled(acc.count());
   absl::StatusOr<monitor::OutcomeFigures> r = acc.Result();
   if (!r.ok()) {
-    const v1::Figure none = UndefinedFigure("no labelled records in the window");
+    const v1::Figure none =
+        UndefinedFigure("no labelled records in the window");
     for (v1::Figure* f :
          {w->mutable_log_loss(), w->mutable_brier_score(), w->mutable_auc(),
           w->mutable_expected_calibration_error(),
@@ -139,12 +139,13 @@ absl::StatusOr<std::unique_ptr<HealthWindows>> HealthWindows::Create(
   auto scored_count =
       ScoredCount::Create(options.scored_count, options.buckets, scored);
   if (!scored_count.ok()) return scored_count.status();
-  auto scored_time = ScoredTime::Create(options.time_span, options.buckets, scored);
+  auto scored_time =
+      ScoredTime::Create(options.time_span, options.buckets, scored);
   if (!scored_time.ok()) return scored_time.status();
-  return std::unique_ptr<HealthWindows>(new HealthWindows(
-      std::move(plan), options, *std::move(labelled_count),
-      *std::move(labelled_time), *std::move(scored_count),
-      *std::move(scored_time)));
+  return std::unique_ptr<HealthWindows>(
+      new HealthWindows(std::move(plan), options, *std::move(labelled_count),
+                        *std::move(labelled_time), *std::move(scored_count),
+                        *std::move(scored_time)));
 }
 
 void HealthWindows::AddScored(double log_odds,
@@ -186,8 +187,8 @@ void HealthWindows::AddScoredTo(WindowKind window, double log_odds,
   }
 }
 
-void HealthWindows::AddLabelledTo(WindowKind window, double log_odds,
-                                  int label, absl::Time at, absl::Time now) {
+void HealthWindows::AddLabelledTo(WindowKind window, double log_odds, int label,
+                                  absl::Time at, absl::Time now) {
   absl::MutexLock lock(&labelled_mu_);
   const absl::Status s =
       window == WindowKind::kCount
@@ -234,12 +235,13 @@ v1::SetHealth HealthWindows::Figures(absl::Time now) const {
                                " scored records"));
     } else {
       w->set_window("time");
-      w->set_span(absl::StrCat(
-          "last ", absl::ToInt64Seconds(options_.time_span), " s"));
+      w->set_span(absl::StrCat("last ",
+                               absl::ToInt64Seconds(options_.time_span), " s"));
     }
     FillOutcome(*outcome[i], w);
     scored[i]->Fill(w);
-    w->set_refused_labelled(refused_[kLabelled][i].load(std::memory_order_relaxed));
+    w->set_refused_labelled(
+        refused_[kLabelled][i].load(std::memory_order_relaxed));
     w->set_refused_scored(refused_[kScored][i].load(std::memory_order_relaxed));
   }
   return health;

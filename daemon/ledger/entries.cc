@@ -22,13 +22,27 @@ void AppendJsonString(absl::string_view text, std::string* out) {
     out->append(text.data() + run, i - run);
     run = i + 1;
     switch (c) {
-      case '"': out->append("\\\""); break;
-      case '\\': out->append("\\\\"); break;
-      case '\n': out->append("\\n"); break;
-      case '\r': out->append("\\r"); break;
-      case '\t': out->append("\\t"); break;
-      case '\b': out->append("\\b"); break;
-      case '\f': out->append("\\f"); break;
+      case '"':
+        out->append("\\\"");
+        break;
+      case '\\':
+        out->append("\\\\");
+        break;
+      case '\n':
+        out->append("\\n");
+        break;
+      case '\r':
+        out->append("\\r");
+        break;
+      case '\t':
+        out->append("\\t");
+        break;
+      case '\b':
+        out->append("\\b");
+        break;
+      case '\f':
+        out->append("\\f");
+        break;
       default:
         out->append("\\u00");
         out->push_back(kHex[c >> 4]);
@@ -46,7 +60,8 @@ void AppendJsonNumber(double x, std::string* out) {
     return;
   }
   char buffer[32];  // the shortest form of a double needs at most 24
-  const std::to_chars_result r = std::to_chars(buffer, buffer + sizeof buffer, x);
+  const std::to_chars_result r =
+      std::to_chars(buffer, buffer + sizeof buffer, x);
   out->append(buffer, r.ptr);
 }
 

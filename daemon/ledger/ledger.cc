@@ -97,9 +97,9 @@ absl::StatusOr<std::unique_ptr<Ledger>> Ledger::Open(LedgerOptions options) {
     std::error_code ec;
     std::filesystem::create_directories(dir, ec);
     if (ec) {
-      return absl::UnavailableError(absl::StrCat(
-          "ledger ", options.path, ": cannot create directory ", dir.string(),
-          ": ", ec.message()));
+      return absl::UnavailableError(
+          absl::StrCat("ledger ", options.path, ": cannot create directory ",
+                       dir.string(), ": ", ec.message()));
     }
   }
   std::unique_ptr<Ledger> ledger(new Ledger(std::move(options)));
@@ -120,8 +120,8 @@ absl::StatusOr<std::unique_ptr<Ledger>> Ledger::Open(LedgerOptions options) {
   // Replaces SQLite's automatic checkpoint inside COMMIT.
   sqlite3_wal_hook(w.handle(), &Ledger::OnWalCommit, ledger.get());
   if (ledger->options_.durable_commits) {
-    ledger->syncer_ =
-        std::make_unique<WalSyncer>(absl::StrCat(ledger->options_.path, "-wal"));
+    ledger->syncer_ = std::make_unique<WalSyncer>(
+        absl::StrCat(ledger->options_.path, "-wal"));
   }
 
   auto s = std::make_unique<Statements>();
@@ -158,8 +158,9 @@ absl::StatusOr<std::unique_ptr<Ledger>> Ledger::Open(LedgerOptions options) {
   auto stmt = w.Prepare(many);
   if (!stmt.ok()) return stmt.status();
   s->insert_scores = *std::move(stmt);
-  many = "INSERT INTO outcomes(record_id, label, observed_at_us, reported_at_us)"
-         " VALUES ";
+  many =
+      "INSERT INTO outcomes(record_id, label, observed_at_us, reported_at_us)"
+      " VALUES ";
   for (int r = 0; r < kOutcomesPerInsert; ++r) {
     absl::StrAppend(&many, r == 0 ? "" : ",", "(?,?,?,?)");
   }
@@ -196,7 +197,8 @@ int Ledger::OnWalCommit(void* ledger, sqlite3*, const char*, int frames) {
   return SQLITE_OK;
 }
 
-void Ledger::set_commit_observer(std::function<void(absl::Duration, size_t)> fn) {
+void Ledger::set_commit_observer(
+    std::function<void(absl::Duration, size_t)> fn) {
   absl::MutexLock lock(&mu_);
   commit_observer_ = std::move(fn);
 }
@@ -215,15 +217,17 @@ absl::Status Ledger::Enqueue(const std::shared_ptr<Job>& job) {
   const auto capacity = static_cast<int64_t>(options_.queue_capacity_rows);
   if (rows > capacity) {
     // Would never fit, however long the caller waits.
-    return absl::ResourceExhaustedError(absl::StrCat(
-        "a ledger write of ", rows, " rows is over the queue capacity of ",
-        capacity, " rows (ledger.queue_capacity_rows); send smaller batches "
-        "or raise the capacity"));
+    return absl::ResourceExhaustedError(
+        absl::StrCat("a ledger write of ", rows,
+                     " rows is over the queue capacity of ", capacity,
+                     " rows (ledger.queue_capacity_rows); send smaller batches "
+                     "or raise the capacity"));
   }
   if (queued_rows_ + rows > capacity) {
-    return absl::ResourceExhaustedError(absl::StrCat(
-        "ledger write queue is full (", queued_rows_, " rows waiting, capacity ",
-        options_.queue_capacity_rows, "); retry with backoff"));
+    return absl::ResourceExhaustedError(
+        absl::StrCat("ledger write queue is full (", queued_rows_,
+                     " rows waiting, capacity ", options_.queue_capacity_rows,
+                     "); retry with backoff"));
   }
   queued_rows_ += rows;
   queue_.push_back(job);
@@ -286,7 +290,8 @@ void Ledger::WriterLoop() {
       if (queue_.empty()) return;  // stopping and drained
       size_t rows = 0;
       while (!queue_.empty() &&
-             (group.empty() || rows + queue_.front()->rows() <= options_.max_group_rows)) {
+             (group.empty() ||
+              rows + queue_.front()->rows() <= options_.max_group_rows)) {
         rows += queue_.front()->rows();
         group.push_back(std::move(queue_.front()));
         queue_.pop_front();
@@ -310,7 +315,8 @@ void Ledger::WriterLoop() {
     } else {
       Finish(group, st, start, rows);
     }
-    if (st.ok() && options_.now() - last_retention_ >= options_.retention_interval) {
+    if (st.ok() &&
+        options_.now() - last_retention_ >= options_.retention_interval) {
       last_retention_ = options_.now();
       // Retention failing leaves extra rows, never loses acknowledged ones;
       // the next interval tries again. Logged and counted.
@@ -439,8 +445,7 @@ absl::Status Ledger::WriteOutcomes(std::vector<std::shared_ptr<Job>>& group) {
           continue;
         }
       }
-      const absl::Time observed =
-          OrNow(o.observed_at, now);
+      const absl::Time observed = OrNow(o.observed_at, now);
       for (LabelledScore& l : result.labelled) l.observed_at = observed;
       pending.push_back(Pending{&o, &result, Micros(observed)});
     }
@@ -457,7 +462,8 @@ absl::Status Ledger::WriteOutcomes(std::vector<std::shared_ptr<Job>>& group) {
   // already there, or one record twice in the statement), the statement is
   // undone and its rows go one by one, so each gets its own answer.
   size_t next = 0;
-  for (; pending.size() - next >= kOutcomesPerInsert; next += kOutcomesPerInsert) {
+  for (; pending.size() - next >= kOutcomesPerInsert;
+       next += kOutcomesPerInsert) {
     if (absl::Status st = s.savepoint->Run(); !st.ok()) return st;
     for (int r = 0; r < kOutcomesPerInsert; ++r) {
       bind(*s.insert_outcomes, r * kOutcomeColumns, pending[next + r]);
@@ -483,7 +489,8 @@ absl::Status Ledger::WriteOutcomes(std::vector<std::shared_ptr<Job>>& group) {
   return absl::OkStatus();
 }
 
-absl::Status Ledger::InsertOutcome(const OutcomeEntry& o, OutcomeResult& result) {
+absl::Status Ledger::InsertOutcome(const OutcomeEntry& o,
+                                   OutcomeResult& result) {
   Statements& s = *stmts_;
   // Inserting first and reading the old label only on a conflict saves a
   // lookup for the usual case, a new outcome.
@@ -492,7 +499,8 @@ absl::Status Ledger::InsertOutcome(const OutcomeEntry& o, OutcomeResult& result)
   result.labelled.clear();  // it labelled them before
   s.find_outcome->BindTextNoCopy(1, o.record_id);
   auto old = s.find_outcome->Step();
-  const int64_t existing = old.ok() && *old ? s.find_outcome->ColumnInt64(0) : -1;
+  const int64_t existing =
+      old.ok() && *old ? s.find_outcome->ColumnInt64(0) : -1;
   s.find_outcome->Reset();
   if (!old.ok()) return old.status();
   if (existing == o.label) {
@@ -512,8 +520,11 @@ absl::Status Ledger::ApplyRetention() {
     absl::Status st = w.Exec(absl::StrCat(
         "BEGIN IMMEDIATE;"
         "DELETE FROM outcomes WHERE record_id IN (SELECT record_id FROM scores"
-        " WHERE ", where, ");"
-        "DELETE FROM scores WHERE ", where, ";COMMIT"));
+        " WHERE ",
+        where,
+        ");"
+        "DELETE FROM scores WHERE ",
+        where, ";COMMIT"));
     if (!st.ok()) w.Exec("ROLLBACK").IgnoreError();
     return st;
   };
@@ -525,7 +536,8 @@ absl::Status Ledger::ApplyRetention() {
     const int64_t cutoff = Micros(options_.now() - options_.retention_age);
     auto first_kept = w.QueryInt64(absl::StrCat(
         "SELECT COALESCE((SELECT id FROM scores WHERE scored_at_us >= ", cutoff,
-        " ORDER BY id LIMIT 1), (SELECT COALESCE(MAX(id), 0) + 1 FROM scores))"));
+        " ORDER BY id LIMIT 1), (SELECT COALESCE(MAX(id), 0) + 1 FROM "
+        "scores))"));
     if (!first_kept.ok()) return first_kept.status();
     if (absl::Status st = delete_scores(absl::StrCat("id < ", *first_kept));
         !st.ok()) {
@@ -533,9 +545,9 @@ absl::Status Ledger::ApplyRetention() {
     }
   }
   if (options_.retention_rows > 0) {
-    return delete_scores(absl::StrCat(
-        "id <= (SELECT COALESCE(MAX(id), 0) - ", options_.retention_rows,
-        " FROM scores)"));
+    return delete_scores(absl::StrCat("id <= (SELECT COALESCE(MAX(id), 0) - ",
+                                      options_.retention_rows,
+                                      " FROM scores)"));
   }
   return absl::OkStatus();
 }

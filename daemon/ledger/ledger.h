@@ -73,7 +73,8 @@ struct LedgerOptions {
   // on power loss. false: synchronous=NORMAL alone, durable when the process
   // dies, may lose the last commits on power loss.
   bool durable_commits = true;
-  // Scores older than this (and their outcomes) are deleted; infinite keeps all.
+  // Scores older than this (and their outcomes) are deleted; infinite keeps
+  // all.
   absl::Duration retention_age = absl::InfiniteDuration();
   // Keep at most this many scores (oldest deleted first); 0 keeps all.
   int64_t retention_rows = 0;
@@ -164,9 +165,9 @@ class Ledger {
   // Calls `fn` with the most recent labelled scores of `set_name` (newest
   // first, by outcome time), at most `limit` of them, observed at or after
   // `since`. Reads on its own connection; sees committed rows only.
-  absl::Status ForEachLabelled(const std::string& set_name, int64_t limit,
-                               absl::Time since,
-                               const std::function<void(const LabelledScore&)>& fn);
+  absl::Status ForEachLabelled(
+      const std::string& set_name, int64_t limit, absl::Time since,
+      const std::function<void(const LabelledScore&)>& fn);
 
   // Calls `fn` with the most recent scores of `set_name`, newest first.
   absl::Status ForEachScore(const std::string& set_name, int64_t limit,
@@ -212,8 +213,8 @@ class Ledger {
 
   // Constant after Open.
   const LedgerOptions options_;
-  std::unique_ptr<SqliteDb> writer_db_;   // used by the writer thread only
-  std::unique_ptr<Statements> stmts_;     // writer thread only
+  std::unique_ptr<SqliteDb> writer_db_;    // used by the writer thread only
+  std::unique_ptr<Statements> stmts_;      // writer thread only
   std::unique_ptr<LedgerSetIds> set_ids_;  // writer thread only
   std::unique_ptr<ScoreLookup> lookup_;    // thread-safe
   // Both thread-safe; syncer_ is null unless durable_commits.

@@ -111,9 +111,9 @@ absl::Status ScoreLookup::LoadSets(Reader& r) {
       return row.status();
     }
     if (!*row) break;
-    sets[r.sets->ColumnInt64(0)] = SetNames{
-        r.sets->ColumnText(1), r.sets->ColumnText(2),
-        RoleColumn(r.sets->ColumnText(3))};
+    sets[r.sets->ColumnInt64(0)] =
+        SetNames{r.sets->ColumnText(1), r.sets->ColumnText(2),
+                 RoleColumn(r.sets->ColumnText(3))};
   }
   r.sets->Reset();
   absl::MutexLock lock(&mu_);

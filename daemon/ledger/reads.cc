@@ -50,22 +50,23 @@ absl::Status Ledger::ForEachLabelled(
       " ORDER BY o.observed_at_us DESC, s.id DESC LIMIT ?3",
       set_name, limit, since, [&fn](const SqliteStatement& s) {
         fn(LabelledScore{s.ColumnText(0), s.ColumnText(1), s.ColumnText(2),
-                         RoleColumn(s.ColumnText(3)), s.ColumnDouble(4), s.ColumnDouble(5),
-                         static_cast<int>(s.ColumnInt64(6)),
+                         RoleColumn(s.ColumnText(3)), s.ColumnDouble(4),
+                         s.ColumnDouble(5), static_cast<int>(s.ColumnInt64(6)),
                          FromMicros(s.ColumnInt64(7)),
                          FromMicros(s.ColumnInt64(8)), s.ColumnText(9)});
       });
 }
 
-absl::Status Ledger::ForEachScore(const std::string& set_name, int64_t limit,
-                                  absl::Time since,
-                                  const std::function<void(const ScoreEntry&)>& fn) {
+absl::Status Ledger::ForEachScore(
+    const std::string& set_name, int64_t limit, absl::Time since,
+    const std::function<void(const ScoreEntry&)>& fn) {
   return ReadRows(
       options_.path,
       // Newest id first, stopping at the limit (schema 4 has no index by set
       // and time); CROSS JOIN keeps scores the outer loop so the planner
       // cannot choose a scan of the whole set followed by a sort.
-      "SELECT s.record_id, ss.set_name, ss.set_version, ss.role, s.scored_at_us,"
+      "SELECT s.record_id, ss.set_name, ss.set_version, ss.role, "
+      "s.scored_at_us,"
       " s.log_odds, s.probability, s.features FROM scores s"
       " CROSS JOIN score_sets ss ON ss.id = s.set_id"
       " WHERE ss.set_name = ?1 AND s.scored_at_us >= ?2"

@@ -134,9 +134,9 @@ absl::Status MigrateLedger(SqliteDb& db) {
         "); run a newer plumbd or point --ledger at another file"));
   }
   for (int v = static_cast<int>(*version); v < latest; ++v) {
-    absl::Status st = db.Exec(absl::StrCat("BEGIN IMMEDIATE;", kMigrations[v],
-                                           "PRAGMA user_version = ", v + 1,
-                                           ";COMMIT"));
+    absl::Status st =
+        db.Exec(absl::StrCat("BEGIN IMMEDIATE;", kMigrations[v],
+                             "PRAGMA user_version = ", v + 1, ";COMMIT"));
     if (!st.ok()) {
       db.Exec("ROLLBACK").IgnoreError();
       return absl::Status(st.code(), absl::StrCat("migrating ledger to schema ",

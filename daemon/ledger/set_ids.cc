@@ -29,10 +29,9 @@ absl::StatusOr<int64_t> LedgerSetIds::Id(const ScoreEntry& score) {
     return last_id_;
   }
   // Lengths first, so no choice of separator can make two triples collide.
-  const std::string key =
-      absl::StrCat(score.set_name.size(), ":", score.set_name, ":",
-                   score.set_version.size(), ":", score.set_version, ":",
-                   ScoreRoleName(score.role));
+  const std::string key = absl::StrCat(
+      score.set_name.size(), ":", score.set_name, ":", score.set_version.size(),
+      ":", score.set_version, ":", ScoreRoleName(score.role));
   auto it = ids_.find(key);
   if (it == ids_.end()) {
     for (SqliteStatement* st : {insert_.get(), find_.get()}) {

@@ -61,7 +61,8 @@ bool SqliteStatement::ColumnIsNull(int i) const {
   return sqlite3_column_type(stmt_, i) == SQLITE_NULL;
 }
 
-absl::StatusOr<std::unique_ptr<SqliteDb>> SqliteDb::Open(const std::string& path) {
+absl::StatusOr<std::unique_ptr<SqliteDb>> SqliteDb::Open(
+    const std::string& path) {
   // SQLite's memory statistics take a global mutex on every allocation; the
   // ledger never reads them, and without them its ingest needs about 15%
   // less CPU per row (tests/bench/ledger_bench). The setting only takes
@@ -72,7 +73,8 @@ absl::StatusOr<std::unique_ptr<SqliteDb>> SqliteDb::Open(const std::string& path
   sqlite3* db = nullptr;
   const int rc = sqlite3_open_v2(
       path.c_str(), &db,
-      SQLITE_OPEN_READWRITE | SQLITE_OPEN_CREATE | SQLITE_OPEN_NOMUTEX, nullptr);
+      SQLITE_OPEN_READWRITE | SQLITE_OPEN_CREATE | SQLITE_OPEN_NOMUTEX,
+      nullptr);
   if (rc != SQLITE_OK) {
     std::string msg = db != nullptr ? sqlite3_errmsg(db) : sqlite3_errstr(rc);
     sqlite3_close(db);
@@ -93,15 +95,17 @@ absl::Status SqliteDb::Exec(absl::string_view sql) {
   if (rc == SQLITE_OK) return absl::OkStatus();
   std::string msg = err != nullptr ? err : sqlite3_errstr(rc);
   sqlite3_free(err);
-  return absl::InternalError(absl::StrCat("ledger ", path_, ": ", msg,
-                                          " (while running: ", sql.substr(0, 80), ")"));
+  return absl::InternalError(
+      absl::StrCat("ledger ", path_, ": ", msg,
+                   " (while running: ", sql.substr(0, 80), ")"));
 }
 
 absl::StatusOr<std::unique_ptr<SqliteStatement>> SqliteDb::Prepare(
     absl::string_view sql) {
   sqlite3_stmt* stmt = nullptr;
-  const int rc = sqlite3_prepare_v3(db_, sql.data(), static_cast<int>(sql.size()),
-                                    SQLITE_PREPARE_PERSISTENT, &stmt, nullptr);
+  const int rc =
+      sqlite3_prepare_v3(db_, sql.data(), static_cast<int>(sql.size()),
+                         SQLITE_PREPARE_PERSISTENT, &stmt, nullptr);
   if (rc != SQLITE_OK) return Error(rc, sql);
   return std::unique_ptr<SqliteStatement>(new SqliteStatement(this, stmt));
 }
@@ -113,13 +117,16 @@ absl::StatusOr<int64_t> SqliteDb::QueryInt64(absl::string_view sql) {
   if (!st.ok()) return st.status();
   auto row = (*st)->Step();
   if (!row.ok()) return row.status();
-  if (!*row) return absl::InternalError(absl::StrCat("ledger ", path_, ": no result for ", sql));
+  if (!*row)
+    return absl::InternalError(
+        absl::StrCat("ledger ", path_, ": no result for ", sql));
   return (*st)->ColumnInt64(0);
 }
 
 absl::Status SqliteDb::Error(int rc, absl::string_view what) const {
-  const std::string msg = absl::StrCat("ledger ", path_, ": ", sqlite3_errmsg(db_),
-                                       " (while running: ", what.substr(0, 80), ")");
+  const std::string msg =
+      absl::StrCat("ledger ", path_, ": ", sqlite3_errmsg(db_),
+                   " (while running: ", what.substr(0, 80), ")");
   switch (rc & 0xff) {
     case SQLITE_BUSY:
     case SQLITE_LOCKED:

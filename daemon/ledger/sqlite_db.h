@@ -17,11 +17,11 @@
 #ifndef PLUMBLINE_DAEMON_LEDGER_SQLITE_DB_H_
 #define PLUMBLINE_DAEMON_LEDGER_SQLITE_DB_H_
 
+#include <sqlite3.h>
+
 #include <cstdint>
 #include <memory>
 #include <string>
-
-#include <sqlite3.h>
 
 #include "absl/status/status.h"
 #include "absl/status/statusor.h"
@@ -71,7 +71,8 @@ class SqliteDb {
  public:
   // Opens (creating if needed) the database at `path`, with a busy timeout so
   // concurrent readers wait for the writer instead of failing at once.
-  static absl::StatusOr<std::unique_ptr<SqliteDb>> Open(const std::string& path);
+  static absl::StatusOr<std::unique_ptr<SqliteDb>> Open(
+      const std::string& path);
   ~SqliteDb();
   SqliteDb(const SqliteDb&) = delete;
   SqliteDb& operator=(const SqliteDb&) = delete;
@@ -81,7 +82,8 @@ class SqliteDb {
 
   // Runs one or more statements without results.
   absl::Status Exec(absl::string_view sql);
-  absl::StatusOr<std::unique_ptr<SqliteStatement>> Prepare(absl::string_view sql);
+  absl::StatusOr<std::unique_ptr<SqliteStatement>> Prepare(
+      absl::string_view sql);
   // Rows changed by the last INSERT, UPDATE or DELETE on this connection.
   int64_t Changes() const;
   // Single integer result of `sql` (e.g. "PRAGMA user_version").

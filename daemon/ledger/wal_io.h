@@ -104,7 +104,7 @@ class WalCheckpointer {
   void Loop();
 
   std::unique_ptr<SqliteDb> db_;  // checkpointer thread only
-  absl::Mutex run_mu_;  // held while a checkpoint runs
+  absl::Mutex run_mu_;            // held while a checkpoint runs
   absl::Mutex mu_;
   bool wanted_ ABSL_GUARDED_BY(mu_) = false;
   bool stopping_ ABSL_GUARDED_BY(mu_) = false;

@@ -87,8 +87,10 @@ std::vector<prometheus::MetricFamily> HealthMetrics::Collect() const {
         l.push_back({std::string(name), std::string(value)});
         return l;
       };
-      AddSample(records, with("kind", "labelled"), static_cast<double>(w.labelled()));
-      AddSample(records, with("kind", "scored"), static_cast<double>(w.scored()));
+      AddSample(records, with("kind", "labelled"),
+                static_cast<double>(w.labelled()));
+      AddSample(records, with("kind", "scored"),
+                static_cast<double>(w.scored()));
       AddSample(refused, with("kind", "labelled"),
                 static_cast<double>(w.refused_labelled()));
       AddSample(refused, with("kind", "scored"),
@@ -101,7 +103,8 @@ std::vector<prometheus::MetricFamily> HealthMetrics::Collect() const {
         for (size_t i = 0; i < std::size(kFeatureFigures); ++i) {
           const v1::Figure& f = (fh.*(kFeatureFigures[i].get))();
           if (f.defined()) {
-            AddSample(feature_figures[i], with("feature", fh.feature()), f.value());
+            AddSample(feature_figures[i], with("feature", fh.feature()),
+                      f.value());
           }
         }
       }

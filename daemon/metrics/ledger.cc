@@ -12,7 +12,8 @@
 namespace plumbline::daemon {
 namespace {
 
-prometheus::MetricFamily Gauge(const char* name, const char* help, double value) {
+prometheus::MetricFamily Gauge(const char* name, const char* help,
+                               double value) {
   prometheus::MetricFamily family;
   family.name = name;
   family.help = help;
@@ -43,17 +44,19 @@ class LedgerQueueGauge final : public prometheus::Collectable {
   std::vector<prometheus::MetricFamily> Collect() const override {
     const LedgerStats stats = ledger_->stats();
     return {
-        Counter("plumbline_ledger_retention_failures_total",
-                "Retention passes that failed (rows past retention stay "
-                "until a later pass succeeds; see event=ledger_retention_failed).",
-                static_cast<double>(stats.retention_failures)),
+        Counter(
+            "plumbline_ledger_retention_failures_total",
+            "Retention passes that failed (rows past retention stay "
+            "until a later pass succeeds; see event=ledger_retention_failed).",
+            static_cast<double>(stats.retention_failures)),
         Gauge("plumbline_ledger_queue_rows",
               "Rows (scores and outcomes) waiting for the ledger writer.",
               static_cast<double>(stats.queued_rows)),
-        Gauge("plumbline_ledger_queue_capacity_rows",
-              "Rows the ledger queue holds at most (ledger.queue_capacity_rows); "
-              "beyond it writes are refused with RESOURCE_EXHAUSTED.",
-              static_cast<double>(ledger_->queue_capacity_rows())),
+        Gauge(
+            "plumbline_ledger_queue_capacity_rows",
+            "Rows the ledger queue holds at most (ledger.queue_capacity_rows); "
+            "beyond it writes are refused with RESOURCE_EXHAUSTED.",
+            static_cast<double>(ledger_->queue_capacity_rows())),
     };
   }
 
@@ -68,8 +71,9 @@ void ExportLedgerMetrics(Ledger* ledger, MetricsExporter* exporter) {
   prometheus::Histogram* commit =
       &prometheus::BuildHistogram()
            .Name("plumbline_ledger_commit_duration_seconds")
-           .Help("Time one ledger transaction (a group of queued writes) took "
-                 "to commit.")
+           .Help(
+               "Time one ledger transaction (a group of queued writes) took "
+               "to commit.")
            .Register(registry)
            .Add({}, prometheus::Histogram::BucketBoundaries{
                         0.0005, 0.001, 0.0025, 0.005, 0.01, 0.025, 0.05, 0.1,
@@ -82,11 +86,12 @@ void ExportLedgerMetrics(Ledger* ledger, MetricsExporter* exporter) {
            .Add({});
   // The observer keeps the registry alive: the ledger's last commits at
   // shutdown come after the exporter has stopped.
-  ledger->set_commit_observer([commit, rows, keep = exporter->shared_registry()](
-                                  absl::Duration latency, size_t committed) {
-    commit->Observe(absl::ToDoubleSeconds(latency));
-    rows->Increment(static_cast<double>(committed));
-  });
+  ledger->set_commit_observer(
+      [commit, rows, keep = exporter->shared_registry()](absl::Duration latency,
+                                                         size_t committed) {
+        commit->Observe(absl::ToDoubleSeconds(latency));
+        rows->Increment(static_cast<double>(committed));
+      });
   exporter->Add(std::make_shared<LedgerQueueGauge>(ledger));
 }
 

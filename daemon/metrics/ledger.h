@@ -7,7 +7,8 @@
 //   plumbline_ledger_commit_duration_seconds      histogram, per commit
 //   plumbline_ledger_committed_rows_total         counter
 //
-//   ExportLedgerMetrics(ledger.get(), exporter.get());  // before the first write
+//   ExportLedgerMetrics(ledger.get(), exporter.get());  // before the first
+//   write
 //
 // Thread-safe. `ledger` must outlive `exporter` (the queue gauge reads it
 // on the exporter's threads); the commit metrics stay valid after the

@@ -14,8 +14,8 @@ using grpc::experimental::InterceptionHookPoints;
 // Request durations in seconds: 100 µs to 10 s.
 const prometheus::Histogram::BucketBoundaries& DurationBuckets() {
   static const auto* buckets = new prometheus::Histogram::BucketBoundaries{
-      0.0001, 0.00025, 0.0005, 0.001, 0.0025, 0.005, 0.01,
-      0.025,  0.05,    0.1,    0.25,  0.5,    1,     2.5, 5, 10};
+      0.0001, 0.00025, 0.0005, 0.001, 0.0025, 0.005, 0.01, 0.025,
+      0.05,   0.1,     0.25,   0.5,   1,      2.5,   5,    10};
   return *buckets;
 }
 
@@ -27,7 +27,8 @@ class TimingInterceptor final : public grpc::experimental::Interceptor {
                                                       : (method ? method : "")),
         start_(std::chrono::steady_clock::now()) {}
 
-  void Intercept(grpc::experimental::InterceptorBatchMethods* methods) override {
+  void Intercept(
+      grpc::experimental::InterceptorBatchMethods* methods) override {
     if (methods->QueryInterceptionHookPoint(
             InterceptionHookPoints::PRE_SEND_STATUS)) {
       const auto elapsed = std::chrono::steady_clock::now() - start_;
@@ -80,13 +81,14 @@ void RequestMetrics::Observe(absl::string_view method, grpc::StatusCode code,
     auto [it, inserted] = methods_.try_emplace(method);
     Method& m = it->second;
     if (inserted) {
-      m.duration = &durations_.Add({{"method", std::string(method)}},
-                                   DurationBuckets());
+      m.duration =
+          &durations_.Add({{"method", std::string(method)}}, DurationBuckets());
     }
     if (m.calls[index] == nullptr) {
       m.calls[index] = &requests_.Add(
           {{"method", std::string(method)},
-           {"code", absl::StatusCodeToString(static_cast<absl::StatusCode>(index))}});
+           {"code",
+            absl::StatusCodeToString(static_cast<absl::StatusCode>(index))}});
     }
     counter = m.calls[index];
     histogram = m.duration;
@@ -95,9 +97,11 @@ void RequestMetrics::Observe(absl::string_view method, grpc::StatusCode code,
   histogram->Observe(absl::ToDoubleSeconds(elapsed));
 }
 
-std::vector<std::unique_ptr<grpc::experimental::ServerInterceptorFactoryInterface>>
+std::vector<
+    std::unique_ptr<grpc::experimental::ServerInterceptorFactoryInterface>>
 MakeInterceptorCreators(RequestMetrics* metrics) {
-  std::vector<std::unique_ptr<grpc::experimental::ServerInterceptorFactoryInterface>>
+  std::vector<
+      std::unique_ptr<grpc::experimental::ServerInterceptorFactoryInterface>>
       creators;
   creators.push_back(std::make_unique<TimingFactory>(metrics));
   return creators;

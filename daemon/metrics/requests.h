@@ -21,13 +21,13 @@
 #ifndef PLUMBLINE_DAEMON_METRICS_REQUESTS_H_
 #define PLUMBLINE_DAEMON_METRICS_REQUESTS_H_
 
+#include <grpcpp/support/server_interceptor.h>
+#include <grpcpp/support/status.h>
+
 #include <array>
 #include <memory>
 #include <string>
 #include <vector>
-
-#include <grpcpp/support/server_interceptor.h>
-#include <grpcpp/support/status.h>
 
 #include "absl/base/thread_annotations.h"
 #include "absl/container/flat_hash_map.h"
@@ -65,7 +65,8 @@ class RequestMetrics {
 
 // The interceptor factories for grpc::ServerBuilder::experimental()
 // .SetInterceptorCreators. `metrics` must outlive the server.
-std::vector<std::unique_ptr<grpc::experimental::ServerInterceptorFactoryInterface>>
+std::vector<
+    std::unique_ptr<grpc::experimental::ServerInterceptorFactoryInterface>>
 MakeInterceptorCreators(RequestMetrics* metrics);
 
 }  // namespace plumbline::daemon

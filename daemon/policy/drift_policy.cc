@@ -29,8 +29,8 @@ DriftThreshold Above(std::string metric, double watch, double drifting,
 
 absl::Status FieldError(int index, absl::string_view field,
                         absl::string_view what) {
-  return absl::InvalidArgumentError(absl::StrCat(
-      "drift_policy.thresholds[", index, "].", field, ": ", what));
+  return absl::InvalidArgumentError(
+      absl::StrCat("drift_policy.thresholds[", index, "].", field, ": ", what));
 }
 
 absl::StatusOr<DriftThreshold> ThresholdFromConfig(
@@ -40,8 +40,10 @@ absl::StatusOr<DriftThreshold> ThresholdFromConfig(
   if (FindWindowFigure(t.metric) == nullptr &&
       FindFeatureFigure(t.metric) == nullptr) {
     std::string known;
-    for (const WindowFigure& f : kWindowFigures) absl::StrAppend(&known, f.metric, ", ");
-    for (const FeatureFigure& f : kFeatureFigures) absl::StrAppend(&known, f.metric, ", ");
+    for (const WindowFigure& f : kWindowFigures)
+      absl::StrAppend(&known, f.metric, ", ");
+    for (const FeatureFigure& f : kFeatureFigures)
+      absl::StrAppend(&known, f.metric, ", ");
     known.resize(known.size() - 2);
     return FieldError(index, "metric",
                       absl::StrCat("unknown metric '", t.metric,
@@ -53,7 +55,8 @@ absl::StatusOr<DriftThreshold> ThresholdFromConfig(
   t.relative_to_training = c.relative_to_training();
   if (!std::isfinite(t.watch) || !std::isfinite(t.drifting) ||
       !std::isfinite(t.target)) {
-    return FieldError(index, "watch", "watch, drifting and target must be finite");
+    return FieldError(index, "watch",
+                      "watch, drifting and target must be finite");
   }
   if (c.direction() == v1::MetricThreshold::BELOW) {
     t.direction = Direction::kBelow;

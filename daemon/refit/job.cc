@@ -14,8 +14,8 @@
 #include "absl/strings/numbers.h"
 #include "absl/strings/str_cat.h"
 #include "absl/strings/str_format.h"
-#include "daemon/util/event_log.h"
 #include "daemon/scoring/features_json.h"
+#include "daemon/util/event_log.h"
 #include "monitor/paired_comparison.h"
 #include "scorer/design_matrix.h"
 #include "scorer/design_set.h"
@@ -103,9 +103,10 @@ std::vector<scorer::FeatureSpec> SpecsFrom(const v1::CoefficientSet& set) {
 
 // Log-odds of `records` under `plan`; records it cannot score are marked
 // in `ok` (0) and get 0.
-std::vector<double> ScoreAll(const scorer::ScoringPlan& plan,
-                             const std::vector<std::vector<scorer::RawValue>>& records,
-                             std::vector<uint8_t>& ok) {
+std::vector<double> ScoreAll(
+    const scorer::ScoringPlan& plan,
+    const std::vector<std::vector<scorer::RawValue>>& records,
+    std::vector<uint8_t>& ok) {
   std::vector<double> out(records.size(), 0.0);
   for (size_t i = 0; i < records.size(); ++i) {
     absl::StatusOr<scorer::ScoreResult> r = plan.Score(records[i], {});
@@ -160,9 +161,9 @@ absl::StatusOr<RefitSettings> RefitSettingsFrom(const v1::RefitPolicy& p) {
   s.l2 = p.l2();
   s.min_new_labelled = p.min_new_labelled();
   if (!(s.holdout_fraction > 0 && s.holdout_fraction < 1)) {
-    return absl::InvalidArgumentError(absl::StrCat(
-        "refit.holdout_fraction: ", s.holdout_fraction,
-        " is not between 0 and 1 (exclusive)"));
+    return absl::InvalidArgumentError(
+        absl::StrCat("refit.holdout_fraction: ", s.holdout_fraction,
+                     " is not between 0 and 1 (exclusive)"));
   }
   if (!(s.margin >= 0) || !std::isfinite(s.margin)) {
     return absl::InvalidArgumentError(
@@ -173,10 +174,10 @@ absl::StatusOr<RefitSettings> RefitSettingsFrom(const v1::RefitPolicy& p) {
         absl::StrCat("refit.l2: ", s.l2, " must be >= 0"));
   }
   if (s.window_labelled < s.min_labelled) {
-    return absl::InvalidArgumentError(absl::StrCat(
-        "refit.window_labelled: ", s.window_labelled,
-        " is below refit.min_labelled ", s.min_labelled,
-        ": no refit could ever start"));
+    return absl::InvalidArgumentError(
+        absl::StrCat("refit.window_labelled: ", s.window_labelled,
+                     " is below refit.min_labelled ", s.min_labelled,
+                     ": no refit could ever start"));
   }
   return s;
 }
@@ -254,9 +255,9 @@ int64_t RefitRunner::LastJobId() {
 }
 
 RefitOutcome RefitRunner::Run(const RefitTrigger& trigger, int64_t job_id) {
-  const std::string actor =
-      absl::StrCat(kJobActorPrefix, job_id, " (", RefitTriggerName(trigger.kind),
-                   trigger.actor.empty() ? "" : ", ", trigger.actor, ")");
+  const std::string actor = absl::StrCat(
+      kJobActorPrefix, job_id, " (", RefitTriggerName(trigger.kind),
+      trigger.actor.empty() ? "" : ", ", trigger.actor, ")");
   RefitOutcome outcome;
   PlanPtr active = registry_->Find(trigger.set);
   const std::string active_version = active ? active->version() : "";
@@ -264,20 +265,21 @@ RefitOutcome RefitRunner::Run(const RefitTrigger& trigger, int64_t job_id) {
     outcome.result = RefitOutcome::Result::kFailed;
     outcome.summary = std::move(why);
     if (absl::Status s = lifecycle_->AppendAudit(
-            {kNoTime, trigger.set, active_version, "fit_failed",
-             actor, absl::StrCat(outcome.summary, "; trigger: ", trigger.reason)});
+            {kNoTime, trigger.set, active_version, "fit_failed", actor,
+             absl::StrCat(outcome.summary, "; trigger: ", trigger.reason)});
         !s.ok()) {
       LogEvent(LogLevel::kError, "audit_write_failed",
                {{"set", trigger.set}, {"error", s.message()}});
     }
     LogEvent(LogLevel::kWarning, "refit_failed",
-             {{"set", trigger.set}, {"job", absl::StrCat(job_id)},
+             {{"set", trigger.set},
+              {"job", absl::StrCat(job_id)},
               {"reason", outcome.summary}});
     return outcome;
   };
   if (active == nullptr) {
-    return fail(absl::StrCat("set '", trigger.set,
-                             "' has no active version to refit"));
+    return fail(
+        absl::StrCat("set '", trigger.set, "' has no active version to refit"));
   }
 
   RefitRows rows;
@@ -368,10 +370,11 @@ RefitOutcome RefitRunner::Run(const RefitTrigger& trigger, int64_t job_id) {
   absl::StatusOr<monitor::PairedLogLoss> paired =
       monitor::ComparePairedLogLoss(za, zc, labels);
   if (!paired.ok()) {
-    return fail(absl::StrCat("holdout comparison: ", paired.status().message()));
+    return fail(
+        absl::StrCat("holdout comparison: ", paired.status().message()));
   }
-  const bool wins = paired->mean_difference <= -settings_.margin &&
-                    paired->upper_95 < 0;
+  const bool wins =
+      paired->mean_difference <= -settings_.margin && paired->upper_95 < 0;
   const std::string comparison = absl::StrFormat(
       "holdout of %d records%s: log-loss active %s %.6f, candidate %.6f, "
       "difference %.6f (95%% interval %.6f to %.6f); margin %.6f: %s",
@@ -382,13 +385,12 @@ RefitOutcome RefitRunner::Run(const RefitTrigger& trigger, int64_t job_id) {
           : "",
       active_version, paired->active_log_loss, paired->candidate_log_loss,
       paired->mean_difference, paired->lower_95, paired->upper_95,
-      settings_.margin,
-      wins ? "candidate wins" : "candidate does not win");
+      settings_.margin, wins ? "candidate wins" : "candidate does not win");
 
   if (!wins) {
     outcome.result = RefitOutcome::Result::kNotBetter;
-    outcome.summary = absl::StrCat("fit ", version, ": ", fit_detail, ". ",
-                                   comparison);
+    outcome.summary =
+        absl::StrCat("fit ", version, ": ", fit_detail, ". ", comparison);
     for (const auto& [action, detail] :
          {std::pair<std::string, std::string>{"fit", fit_detail},
           {"compared", comparison}}) {
@@ -400,7 +402,8 @@ RefitOutcome RefitRunner::Run(const RefitTrigger& trigger, int64_t job_id) {
       }
     }
     LogEvent(LogLevel::kInfo, "refit_not_better",
-             {{"set", trigger.set}, {"job", absl::StrCat(job_id)},
+             {{"set", trigger.set},
+              {"job", absl::StrCat(job_id)},
               {"difference", absl::StrCat(paired->mean_difference)}});
     return outcome;
   }
@@ -410,35 +413,36 @@ RefitOutcome RefitRunner::Run(const RefitTrigger& trigger, int64_t job_id) {
   candidate_version.created_by = actor;
   candidate_version.reason = trigger.reason;
   candidate_version.comparison = comparison;
-  candidate_version.audit = {
-      {kNoTime, "", "", "fit", actor, fit_detail},
-      {kNoTime, "", "", "compared", actor, comparison}};
+  candidate_version.audit = {{kNoTime, "", "", "fit", actor, fit_detail},
+                             {kNoTime, "", "", "compared", actor, comparison}};
   absl::StatusOr<VersionRecord> stored =
       lifecycle_->AddCandidate(std::move(candidate_version));
   if (!stored.ok()) {
-    return fail(absl::StrCat("storing the candidate: ", stored.status().message()));
+    return fail(
+        absl::StrCat("storing the candidate: ", stored.status().message()));
   }
   outcome.candidate = *stored;
   outcome.result = RefitOutcome::Result::kProposed;
   outcome.summary = absl::StrCat("fit: ", fit_detail);
   if (settings_.mode == v1::RefitPolicy::AUTO) {
-    absl::StatusOr<VersionRecord> promoted = lifecycle_->Promote(
-        {trigger.set, version, actor,
-         absl::StrCat("refit mode auto: ", comparison)});
+    absl::StatusOr<VersionRecord> promoted =
+        lifecycle_->Promote({trigger.set, version, actor,
+                             absl::StrCat("refit mode auto: ", comparison)});
     if (promoted.ok()) {
       outcome.result = RefitOutcome::Result::kPromoted;
       outcome.candidate = *promoted;
     } else {
-      outcome.summary = absl::StrCat(outcome.summary, "; promotion failed: ",
-                                     promoted.status().message());
+      outcome.summary = absl::StrCat(
+          outcome.summary, "; promotion failed: ", promoted.status().message());
     }
   } else {
-    outcome.summary = absl::StrCat(outcome.summary,
-                                   "; waiting for plumbctl approve --set ",
-                                   trigger.set, " --version ", version);
+    outcome.summary =
+        absl::StrCat(outcome.summary, "; waiting for plumbctl approve --set ",
+                     trigger.set, " --version ", version);
   }
   LogEvent(LogLevel::kInfo, "refit_done",
-           {{"set", trigger.set}, {"job", absl::StrCat(job_id)},
+           {{"set", trigger.set},
+            {"job", absl::StrCat(job_id)},
             {"version", version},
             {"result", RefitResultName(outcome.result)}});
   return outcome;

@@ -95,9 +95,10 @@ absl::string_view RefitResultName(RefitOutcome::Result result);
 class RefitRunner {
  public:
   // All pointers must outlive the runner.
-  RefitRunner(Ledger* ledger, Lifecycle* lifecycle, SetRegistry* registry,
-              RefitSettings settings,
-              std::function<absl::Time()> now = [] { return absl::Now(); });
+  RefitRunner(
+      Ledger* ledger, Lifecycle* lifecycle, SetRegistry* registry,
+      RefitSettings settings,
+      std::function<absl::Time()> now = [] { return absl::Now(); });
 
   // Runs job `job_id` for `trigger` to the end. Never fails: a failure is
   // an outcome (kFailed) with its reason, also written to the audit table.

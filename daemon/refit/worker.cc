@@ -31,9 +31,10 @@ RefitWorker::RefitWorker(RefitRunner* runner, prometheus::Registry* metrics,
   if (metrics != nullptr) {
     jobs_metric_ = &prometheus::BuildCounter()
                         .Name("plumbline_refit_jobs_total")
-                        .Help("Refit jobs finished, by set and result: "
-                              "promoted, proposed (waiting for approval), "
-                              "not_better (lost on the holdout) or failed.")
+                        .Help(
+                            "Refit jobs finished, by set and result: "
+                            "promoted, proposed (waiting for approval), "
+                            "not_better (lost on the holdout) or failed.")
                         .Register(*metrics);
   }
   thread_ = std::thread([this] { Loop(); });
@@ -60,13 +61,14 @@ std::shared_ptr<RefitWorker::Job> RefitWorker::Enqueue(RefitTrigger trigger) {
   job->trigger = std::move(trigger);
   queue_.push_back(job);
   LogEvent(LogLevel::kInfo, "refit_queued",
-           {{"set", job->trigger.set}, {"job", absl::StrCat(job->id)},
+           {{"set", job->trigger.set},
+            {"job", absl::StrCat(job->id)},
             {"trigger", std::string(RefitTriggerName(job->trigger.kind))}});
   return job;
 }
 
 int RefitWorker::OnEvaluated(const std::vector<v1::SetHealth>& health,
-                              const std::vector<SetVersion>& active_versions) {
+                             const std::vector<SetVersion>& active_versions) {
   const RefitSettings& settings = runner_->settings();
   if (settings.mode == v1::RefitPolicy::OFF) return 0;
   const absl::Time now = now_();
@@ -85,13 +87,15 @@ int RefitWorker::OnEvaluated(const std::vector<v1::SetHealth>& health,
       drift_marks_.erase(key);
     } else if (settings.min_new_labelled > 0 &&
                drift_marks_.try_emplace(key, h.labelled_since_start()).second) {
-      LogEvent(LogLevel::kInfo, "refit_waits_for_labels",
-               {{"set", h.set()},
-                {"version", h.version()},
-                {"new_labelled_needed", absl::StrCat(settings.min_new_labelled)}});
+      LogEvent(
+          LogLevel::kInfo, "refit_waits_for_labels",
+          {{"set", h.set()},
+           {"version", h.version()},
+           {"new_labelled_needed", absl::StrCat(settings.min_new_labelled)}});
     }
     if (pending_.contains(h.set())) continue;
-    if (h.state() != v1::DRIFTING && settings.schedule == absl::ZeroDuration()) {
+    if (h.state() != v1::DRIFTING &&
+        settings.schedule == absl::ZeroDuration()) {
       continue;
     }
     if (runner_->HasWaitingCandidate(h.set())) continue;
@@ -138,7 +142,8 @@ RefitOutcome RefitWorker::RunNow(RefitTrigger trigger) {
             "plumbd is shutting down"};
   }
   std::shared_ptr<Job> job = Enqueue(std::move(trigger));
-  mu_.Await(absl::Condition(+[](Job* j) { return j->done; }, job.get()));
+  mu_.Await(absl::Condition(
+      +[](Job* j) { return j->done; }, job.get()));
   return job->outcome;
 }
 

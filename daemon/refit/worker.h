@@ -1,8 +1,8 @@
 // File: daemon/refit/worker.h
 //
 // Runs refit jobs (daemon/refit_job.h) on one thread of their own, off the
-// request path and at nice 10, one at a time, and decides when the drift policy or the
-// schedule starts one:
+// request path and at nice 10, one at a time, and decides when the drift policy
+// or the schedule starts one:
 //   - drift: after each evaluation, a set whose active version is in state
 //     `drifting` gets a job unless mode is OFF, a job for it is queued or
 //     running, or its last job (of any kind) ended less than `cooldown` ago,
@@ -50,8 +50,9 @@ namespace plumbline::daemon {
 class RefitWorker {
  public:
   // `runner` must outlive the worker; `metrics` may be null (no metric).
-  RefitWorker(RefitRunner* runner, prometheus::Registry* metrics,
-              std::function<absl::Time()> now = [] { return absl::Now(); });
+  RefitWorker(
+      RefitRunner* runner, prometheus::Registry* metrics,
+      std::function<absl::Time()> now = [] { return absl::Now(); });
   // Finishes the running job, drops queued ones, joins the thread.
   ~RefitWorker();
 
@@ -63,7 +64,7 @@ class RefitWorker {
   // `active_versions_by_set`: the active version of each set.
   // Returns how many jobs it queued.
   int OnEvaluated(const std::vector<v1::SetHealth>& health,
-                   const std::vector<SetVersion>& active_versions_by_set);
+                  const std::vector<SetVersion>& active_versions_by_set);
 
   // Queues a job and waits for its outcome.
   RefitOutcome RunNow(RefitTrigger trigger);

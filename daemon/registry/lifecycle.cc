@@ -137,9 +137,9 @@ absl::StatusOr<ServingMap> Lifecycle::Resolve(const PlanMap& from_files) {
       record.source = plan->source();
       record.document = *std::move(document);
       if (absl::Status s = store_->Insert(record); !s.ok()) return s;
-      if (absl::Status s = store_->AppendAudit(
-              {now, name, record.version, "loaded", kSetsDirectory,
-               record.reason});
+      if (absl::Status s =
+              store_->AppendAudit({now, name, record.version, "loaded",
+                                   kSetsDirectory, record.reason});
           !s.ok()) {
         return s;
       }
@@ -191,7 +191,8 @@ absl::StatusOr<ServingMap> Lifecycle::Resolve(const PlanMap& from_files) {
     if (!plan.ok()) {
       // Only a document written by another build could fail here.
       LogEvent(LogLevel::kError, "set_version_unusable",
-               {{"set", r.set}, {"version", r.version},
+               {{"set", r.set},
+                {"version", r.version},
                 {"error", plan.status().message()}});
       continue;
     }
@@ -245,9 +246,9 @@ absl::StatusOr<VersionRecord> Lifecycle::AddCandidate(NewVersion version) {
         entry.version = ver;
         if (absl::Status st = store_->AppendAudit(entry); !st.ok()) return st;
       }
-      return store_->AppendAudit({record.created_at, name, ver, "loaded",
-                                  version.created_by,
-                                  absl::StrCat("as candidate: ", version.reason)});
+      return store_->AppendAudit(
+          {record.created_at, name, ver, "loaded", version.created_by,
+           absl::StrCat("as candidate: ", version.reason)});
     });
     if (!s.ok()) return s;
     plans_.emplace(Key(name, ver), *plan);
@@ -282,17 +283,17 @@ absl::StatusOr<VersionRecord> Lifecycle::ChangeActive(
     // Compile before writing, so a version that cannot serve never becomes
     // active.
     if (absl::StatusOr<PlanPtr> plan = PlanFor(*record, nullptr); !plan.ok()) {
-      return absl::FailedPreconditionError(absl::StrCat(
-          "version '", change.version, "' cannot be served: ",
-          plan.status().message()));
+      return absl::FailedPreconditionError(
+          absl::StrCat("version '", change.version,
+                       "' cannot be served: ", plan.status().message()));
     }
     const absl::Time now = now_();
     absl::Status s = store_->InTransaction([&]() -> absl::Status {
       mu_.AssertHeld();  // the caller holds it; tells the lock analysis
       if (!before.empty()) {
-        if (absl::Status st = store_->AppendAudit({now, change.set,
-                                                   change.version, before,
-                                                   change.actor, change.reason});
+        if (absl::Status st =
+                store_->AppendAudit({now, change.set, change.version, before,
+                                     change.actor, change.reason});
             !st.ok()) {
           return st;
         }
@@ -313,8 +314,11 @@ absl::StatusOr<VersionRecord> Lifecycle::ChangeActive(
     result = *std::move(record);
   }
   LogEvent(LogLevel::kInfo, "version_activated",
-           {{"set", change.set}, {"version", change.version},
-            {"action", after.empty() ? (before.empty() ? "activated" : before) : after}, {"actor", change.actor}});
+           {{"set", change.set},
+            {"version", change.version},
+            {"action",
+             after.empty() ? (before.empty() ? "activated" : before) : after},
+            {"actor", change.actor}});
   Apply();
   return result;
 }
@@ -325,17 +329,17 @@ absl::StatusOr<VersionRecord> Lifecycle::Activate(const StateChange& change) {
 }
 
 absl::StatusOr<VersionRecord> Lifecycle::Approve(const StateChange& change) {
-  return ChangeActive(change, "approved", "",
-                      [&](const VersionRecord& r) -> absl::Status {
-                        if (r.state == VersionState::kCandidate) {
-                          return absl::OkStatus();
-                        }
-                        return absl::FailedPreconditionError(absl::StrCat(
-                            "version '", r.version, "' of set '", r.set,
-                            "' is ", VersionStateName(r.state),
-                            ", not a candidate; only candidates are approved "
-                            "(plumbctl activate makes any version active)"));
-                      });
+  return ChangeActive(
+      change, "approved", "", [&](const VersionRecord& r) -> absl::Status {
+        if (r.state == VersionState::kCandidate) {
+          return absl::OkStatus();
+        }
+        return absl::FailedPreconditionError(
+            absl::StrCat("version '", r.version, "' of set '", r.set, "' is ",
+                         VersionStateName(r.state),
+                         ", not a candidate; only candidates are approved "
+                         "(plumbctl activate makes any version active)"));
+      });
 }
 
 absl::StatusOr<VersionRecord> Lifecycle::Promote(const StateChange& change) {
@@ -407,7 +411,8 @@ absl::StatusOr<VersionRecord> Lifecycle::Rollback(const StateChange& change) {
   }
   StateChange to = change;
   to.version = previous;
-  if (to.reason.empty()) to.reason = "rollback to the previously active version";
+  if (to.reason.empty())
+    to.reason = "rollback to the previously active version";
   return ChangeActive(to, "", "rolled_back",
                       [](const VersionRecord&) { return absl::OkStatus(); });
 }
@@ -434,7 +439,8 @@ absl::Status Lifecycle::AppendAudit(AuditRecord record) {
 absl::StatusOr<PlanPtr> Lifecycle::Plan(const std::string& set,
                                         const std::string& version) {
   absl::MutexLock lock(&mu_);
-  absl::StatusOr<std::optional<VersionRecord>> stored = store_->Get(set, version);
+  absl::StatusOr<std::optional<VersionRecord>> stored =
+      store_->Get(set, version);
   if (!stored.ok()) return stored.status();
   const std::optional<VersionRecord>& record = *stored;
   if (!record.has_value()) {

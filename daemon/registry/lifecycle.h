@@ -42,8 +42,8 @@
 #include "absl/status/statusor.h"
 #include "absl/synchronization/mutex.h"
 #include "absl/time/time.h"
-#include "daemon/scoring/set_registry.h"
 #include "daemon/registry/version_store.h"
+#include "daemon/scoring/set_registry.h"
 #include "daemon/util/set_version.h"
 #include "plumbline/v1/coefficient_set.pb.h"
 
@@ -69,8 +69,9 @@ struct NewVersion {
 
 class Lifecycle final : public VersionResolver {
  public:
-  explicit Lifecycle(VersionStore* store,
-                     std::function<absl::Time()> now = [] { return absl::Now(); });
+  explicit Lifecycle(
+      VersionStore* store,
+      std::function<absl::Time()> now = [] { return absl::Now(); });
 
   Lifecycle(const Lifecycle&) = delete;
   Lifecycle& operator=(const Lifecycle&) = delete;
@@ -112,7 +113,8 @@ class Lifecycle final : public VersionResolver {
 
   absl::StatusOr<std::vector<AuditRecord>> Audit(const std::string& set);
   // VersionStore::AuditActors.
-  absl::StatusOr<std::vector<std::string>> AuditActors(const std::string& prefix);
+  absl::StatusOr<std::vector<std::string>> AuditActors(
+      const std::string& prefix);
   // Appends an entry (refit jobs record fits, failures and comparisons).
   absl::Status AppendAudit(AuditRecord record);
 

@@ -100,10 +100,10 @@ absl::StatusOr<std::optional<VersionRecord>> VersionStore::Get(
 
 absl::StatusOr<std::vector<VersionRecord>> VersionStore::List(
     absl::string_view set) {
-  auto q = db_->Prepare(absl::StrCat(
-      "SELECT ", kVersionColumns,
-      " FROM set_versions WHERE ?1 = '' OR set_name = ?1"
-      " ORDER BY set_name, created_at_us DESC, version DESC"));
+  auto q = db_->Prepare(
+      absl::StrCat("SELECT ", kVersionColumns,
+                   " FROM set_versions WHERE ?1 = '' OR set_name = ?1"
+                   " ORDER BY set_name, created_at_us DESC, version DESC"));
   if (!q.ok()) return q.status();
   (*q)->BindText(1, set);
   return Collect<VersionRecord>(**q, ReadVersion);
@@ -130,10 +130,10 @@ absl::Status VersionStore::Insert(const VersionRecord& r) {
         "set '", r.set, "' already has a version '", r.version,
         "'; versions are immutable: give the new one another version"));
   }
-  auto q = db_->Prepare(absl::StrCat("INSERT INTO set_versions(",
-                                     kVersionColumns,
-                                     ") VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7,"
-                                     " ?8, ?9)"));
+  auto q =
+      db_->Prepare(absl::StrCat("INSERT INTO set_versions(", kVersionColumns,
+                                ") VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7,"
+                                " ?8, ?9)"));
   if (!q.ok()) return q.status();
   SqliteStatement& s = **q;
   s.BindText(1, r.set);
@@ -152,7 +152,8 @@ absl::Status VersionStore::SetState(absl::string_view set,
                                     absl::string_view version,
                                     VersionState state) {
   auto q = db_->Prepare(
-      "UPDATE set_versions SET state = ?3 WHERE set_name = ?1 AND version = ?2");
+      "UPDATE set_versions SET state = ?3 WHERE set_name = ?1 AND version = "
+      "?2");
   if (!q.ok()) return q.status();
   (*q)->BindText(1, set);
   (*q)->BindText(2, version);
@@ -230,8 +231,11 @@ absl::StatusOr<std::vector<AuditRecord>> VersionStore::Audit(
   if (!q.ok()) return q.status();
   (*q)->BindText(1, set);
   return Collect<AuditRecord>(**q, [](const SqliteStatement& s) {
-    return AuditRecord{absl::FromUnixMicros(s.ColumnInt64(0)), s.ColumnText(1),
-                       s.ColumnText(2), s.ColumnText(3), s.ColumnText(4),
+    return AuditRecord{absl::FromUnixMicros(s.ColumnInt64(0)),
+                       s.ColumnText(1),
+                       s.ColumnText(2),
+                       s.ColumnText(3),
+                       s.ColumnText(4),
                        s.ColumnText(5)};
   });
 }

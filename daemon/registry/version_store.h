@@ -102,7 +102,8 @@ class VersionStore {
   // The history of `set`, oldest first.
   absl::StatusOr<std::vector<AuditRecord>> Audit(absl::string_view set);
   // The distinct audit actors of every set that begin with `prefix`.
-  absl::StatusOr<std::vector<std::string>> AuditActors(absl::string_view prefix);
+  absl::StatusOr<std::vector<std::string>> AuditActors(
+      absl::string_view prefix);
 
  private:
   explicit VersionStore(std::unique_ptr<SqliteDb> db) : db_(std::move(db)) {}

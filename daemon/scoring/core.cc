@@ -47,9 +47,8 @@ absl::StatusOr<scorer::ReasonOptions> ToReasonOptions(
       out.order = scorer::ReasonOrder::kMagnitude;
       break;
     default:
-      return absl::InvalidArgumentError(
-          absl::StrCat("reasons.order: unknown value ",
-                       static_cast<int>(options.order())));
+      return absl::InvalidArgumentError(absl::StrCat(
+          "reasons.order: unknown value ", static_cast<int>(options.order())));
   }
   return out;
 }
@@ -116,9 +115,9 @@ absl::StatusOr<v1::ScoreBatchReply> ScoreBatchWithPlan(
   const int named = request.records_size();
   const int dense = request.dense().rows_size();
   if (named > 0 && dense > 0) {
-    return absl::InvalidArgumentError(absl::StrCat(
-        "records (", named, ") and dense.rows (", dense,
-        ") are both given; send the batch in exactly one form"));
+    return absl::InvalidArgumentError(
+        absl::StrCat("records (", named, ") and dense.rows (", dense,
+                     ") are both given; send the batch in exactly one form"));
   }
   if (named == 0 && dense == 0) {
     return absl::InvalidArgumentError(
@@ -152,9 +151,9 @@ absl::StatusOr<v1::ScoreBatchReply> ScoreBatchWithPlan(
     absl::StatusOr<v1::Scored> scored =
         ScoreRecord(plan, record, *reasons, inputs);
     if (!scored.ok()) {
-      return Prefixed(absl::StrCat("records[", i, "] (id '",
-                                   record.record_id(), "'): "),
-                      scored.status());
+      return Prefixed(
+          absl::StrCat("records[", i, "] (id '", record.record_id(), "'): "),
+          scored.status());
     }
     *reply.add_scores() = *std::move(scored);
   }
@@ -201,9 +200,9 @@ absl::Status CheckSetName(const std::string& set) {
 
 absl::Status SetNotFound(const std::string& set,
                          const std::vector<std::string>& loaded) {
-  return absl::NotFoundError(absl::StrCat(
-      "no coefficient set named '", set, "' is loaded; loaded: ",
-      loaded.empty() ? "none" : absl::StrJoin(loaded, ", ")));
+  return absl::NotFoundError(
+      absl::StrCat("no coefficient set named '", set, "' is loaded; loaded: ",
+                   loaded.empty() ? "none" : absl::StrJoin(loaded, ", ")));
 }
 
 }  // namespace plumbline::daemon

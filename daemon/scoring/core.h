@@ -68,8 +68,7 @@ absl::StatusOr<scorer::ReasonOptions> ToReasonOptions(
 
 // Appends the wire form of `reasons` (feature names from `plan`) to `out`.
 void AppendReasons(const scorer::ScoringPlan& plan,
-                   const std::vector<scorer::Reason>& reasons,
-                   v1::Scored* out);
+                   const std::vector<scorer::Reason>& reasons, v1::Scored* out);
 
 // Scores one named record. Errors name the feature. With `inputs`, appends
 // the record's row to it once it has scored (inputs->num_features must be

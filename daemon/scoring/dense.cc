@@ -27,15 +27,15 @@ absl::Status CheckLevelCodes(const scorer::ScoringPlan& plan,
       const double x = dense.rows(r).values(col);
       if (std::isnan(x)) continue;
       if (x != std::floor(x) || !std::isfinite(x)) {
-        return absl::InvalidArgumentError(absl::StrCat(
-            "dense.rows[", r, "]: feature '", plan.feature_name(f),
-            "': level index ", x, " is not an integer"));
+        return absl::InvalidArgumentError(
+            absl::StrCat("dense.rows[", r, "]: feature '", plan.feature_name(f),
+                         "': level index ", x, " is not an integer"));
       }
       if (x < 0 || x >= levels) {
-        return absl::InvalidArgumentError(absl::StrCat(
-            "dense.rows[", r, "]: feature '", plan.feature_name(f),
-            "': level index ", x, " is out of range; the set has ", levels,
-            " levels (0..", levels - 1, ")"));
+        return absl::InvalidArgumentError(
+            absl::StrCat("dense.rows[", r, "]: feature '", plan.feature_name(f),
+                         "': level index ", x, " is out of range; the set has ",
+                         levels, " levels (0..", levels - 1, ")"));
       }
     }
   }
@@ -70,8 +70,11 @@ void DenseRowToRawValues(const scorer::ScoringPlan& plan,
     const double x = row.values(col);
     if (std::isnan(x) && nan_is_missing) continue;
     if (plan.feature_kind(f) == scorer::FeatureKind::kCategorical) {
-      value = scorer::RawValue::Text(
-          plan.set().features(f).categorical().levels(static_cast<int>(x)).value());
+      value = scorer::RawValue::Text(plan.set()
+                                         .features(f)
+                                         .categorical()
+                                         .levels(static_cast<int>(x))
+                                         .value());
     } else {
       value = scorer::RawValue::Number(x);
     }
@@ -110,21 +113,20 @@ absl::StatusOr<std::vector<int>> DenseColumnOfFeature(
 absl::Status ScoreDenseRows(const scorer::ScoringPlan& plan,
                             const v1::DenseRows& dense,
                             const scorer::ReasonOptions& reasons,
-                            v1::ScoreBatchReply* reply,
-                            RecordInputs* inputs) {
+                            v1::ScoreBatchReply* reply, RecordInputs* inputs) {
   absl::StatusOr<std::vector<int>> column_of_feature =
       DenseColumnOfFeature(plan, dense);
   if (!column_of_feature.ok()) return column_of_feature.status();
-  const int width = dense.columns_size() == 0 ? plan.num_features()
-                                               : dense.columns_size();
+  const int width =
+      dense.columns_size() == 0 ? plan.num_features() : dense.columns_size();
   const int rows = dense.rows_size();
   scorer::RowMatrix raw(rows, width);
   for (int r = 0; r < rows; ++r) {
     const auto& values = dense.rows(r).values();
     if (values.size() != width) {
       return absl::InvalidArgumentError(
-          absl::StrCat("dense.rows[", r, "]: ", values.size(),
-                       " values, but ", width, " columns"));
+          absl::StrCat("dense.rows[", r, "]: ", values.size(), " values, but ",
+                       width, " columns"));
     }
     for (int c = 0; c < width; ++c) raw(r, c) = values.Get(c);
   }
@@ -149,13 +151,13 @@ absl::Status ScoreDenseRows(const scorer::ScoringPlan& plan,
     scored->set_log_odds(log_odds[r]);
     scored->set_probability(probability[r]);
     if (reasons.top == 0) continue;
-    absl::StatusOr<std::vector<scorer::Reason>> row_reasons = DenseRowReasons(
-        plan, dense.rows(r), *column_of_feature, dense.nan_is_missing(),
-        reasons);
+    absl::StatusOr<std::vector<scorer::Reason>> row_reasons =
+        DenseRowReasons(plan, dense.rows(r), *column_of_feature,
+                        dense.nan_is_missing(), reasons);
     if (!row_reasons.ok()) {
       return absl::Status(row_reasons.status().code(),
-                          absl::StrCat("dense.rows[", r, "]: ",
-                                       row_reasons.status().message()));
+                          absl::StrCat("dense.rows[", r,
+                                       "]: ", row_reasons.status().message()));
     }
     AppendReasons(plan, *row_reasons, scored);
   }

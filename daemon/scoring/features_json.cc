@@ -41,9 +41,9 @@ absl::Status ParseFeaturesJson(const scorer::ScoringPlan& plan,
       const double x = v.number;
       if (!(x >= 0 && x < static_cast<double>(levels.size()) &&
             x == std::floor(x))) {
-        return absl::InvalidArgumentError(absl::StrCat(
-            "feature '", plan.feature_name(f), "': the number ", x,
-            " is not a level index in [0, ", levels.size(), ")"));
+        return absl::InvalidArgumentError(
+            absl::StrCat("feature '", plan.feature_name(f), "': the number ", x,
+                         " is not a level index in [0, ", levels.size(), ")"));
       }
       v = scorer::RawValue::Text(levels[static_cast<int>(x)].value());
     }

@@ -21,8 +21,8 @@ absl::StatusOr<std::vector<std::string>> ListSetFiles(const std::string& dir) {
   std::error_code ec;
   std::filesystem::directory_iterator it(dir, ec);
   if (ec) {
-    return absl::NotFoundError(absl::StrCat(
-        "sets directory ", dir, ": cannot list: ", ec.message()));
+    return absl::NotFoundError(
+        absl::StrCat("sets directory ", dir, ": cannot list: ", ec.message()));
   }
   std::vector<std::string> files;
   for (const std::filesystem::directory_entry& entry : it) {
@@ -76,8 +76,8 @@ absl::StatusOr<ReloadReport> SetRegistry::Reload() {
     if (inserted) continue;
     // Duplicate name: the file that already serves the name keeps it.
     auto incumbent = current.find(name);
-    const bool this_file_serves = incumbent != current.end() &&
-                                  incumbent->second->source() == file;
+    const bool this_file_serves =
+        incumbent != current.end() && incumbent->second->source() == file;
     std::string rejected = file;
     std::string kept = slot->second->source();
     if (this_file_serves) {
@@ -97,7 +97,8 @@ absl::StatusOr<ReloadReport> SetRegistry::Reload() {
     next.emplace(name, plan);
     report.kept.push_back(name);
     LogEvent(LogLevel::kWarning, "set_kept",
-             {{"set", name}, {"version", plan->version()},
+             {{"set", name},
+              {"version", plan->version()},
               {"file", plan->source()}});
   }
   ServingMap serving;
@@ -132,7 +133,8 @@ void SetRegistry::Swap(ServingMap serving, ReloadReport& report) {
   std::map<std::string, std::vector<PlanPtr>, std::less<>> next_shadows;
   for (auto& [name, set] : serving) {
     next.emplace(name, set.active);
-    if (!set.shadows.empty()) next_shadows.emplace(name, std::move(set.shadows));
+    if (!set.shadows.empty())
+      next_shadows.emplace(name, std::move(set.shadows));
   }
   // Only reloads and refreshes write plans_, serialized by reload_mu_.
   const PlanMap current = [&] {
@@ -145,11 +147,13 @@ void SetRegistry::Swap(ServingMap serving, ReloadReport& report) {
     report.loaded.push_back(name);
     if (old == current.end()) {
       LogEvent(LogLevel::kInfo, "set_loaded",
-               {{"set", name}, {"version", plan->version()},
+               {{"set", name},
+                {"version", plan->version()},
                 {"file", plan->source()}});
     } else {
       LogEvent(LogLevel::kInfo, "set_loaded",
-               {{"set", name}, {"version", plan->version()},
+               {{"set", name},
+                {"version", plan->version()},
                 {"previous_version", old->second->version()},
                 {"file", plan->source()}});
     }
@@ -158,7 +162,8 @@ void SetRegistry::Swap(ServingMap serving, ReloadReport& report) {
     if (next.contains(name)) continue;
     report.unloaded.push_back(name);
     LogEvent(LogLevel::kInfo, "set_unloaded",
-             {{"set", name}, {"version", plan->version()},
+             {{"set", name},
+              {"version", plan->version()},
               {"file", plan->source()},
               {"reason", resolver_ == nullptr
                              ? "no file in the sets directory provides it"

@@ -47,7 +47,8 @@ inline constexpr int kDefaultHashIterations = 600000;
 // The config refuses hashes with fewer iterations (common practice, no
 // source: a floor against hashes made by hand with a toy count).
 inline constexpr int kMinHashIterations = 10000;
-// kTokenPrefix ("plb_") lives in daemon/util/redact.h, which masks tokens in logs.
+// kTokenPrefix ("plb_") lives in daemon/util/redact.h, which masks tokens in
+// logs.
 
 struct StoredHash {
   int iterations = 0;
@@ -86,7 +87,6 @@ absl::StatusOr<NewToken> MakeToken();
 
 // The public id of a token of the right shape; nullopt otherwise.
 std::optional<std::string> TokenId(absl::string_view token);
-
 
 // Checks presented secrets against one stored hash. The first check of a
 // given secret runs PBKDF2 (deliberately slow); the answer is then cached

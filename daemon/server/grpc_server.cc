@@ -11,10 +11,10 @@
 
 #include "absl/status/status.h"
 #include "absl/strings/str_cat.h"
-#include "daemon/util/event_log.h"
+#include "daemon/security/transport_security.h"
 #include "daemon/server/settings.h"
 #include "daemon/util/address.h"
-#include "daemon/security/transport_security.h"
+#include "daemon/util/event_log.h"
 
 namespace plumbline::daemon {
 

@@ -37,12 +37,12 @@
 #include "absl/status/statusor.h"
 #include "absl/synchronization/mutex.h"
 #include "absl/time/time.h"
-#include "daemon/server/options.h"
 #include "daemon/health/sink.h"
 #include "daemon/ledger/ledger.h"
+#include "daemon/scoring/set_registry.h"
+#include "daemon/server/options.h"
 #include "daemon/services/outcomes.h"
 #include "daemon/services/scoring.h"
-#include "daemon/scoring/set_registry.h"
 
 namespace plumbline::daemon {
 

@@ -13,8 +13,8 @@
 #define PLUMBLINE_DAEMON_SERVER_HEALTH_OPTIONS_H_
 
 #include "absl/status/statusor.h"
-#include "daemon/server/options.h"
 #include "daemon/health/monitor.h"
+#include "daemon/server/options.h"
 
 namespace plumbline::daemon {
 

@@ -119,8 +119,8 @@ absl::StatusOr<v1::DaemonConfig> ReadDaemonConfigFile(const std::string& path) {
   v1::DaemonConfig config;
   google::protobuf::util::JsonParseOptions parse_options;
   parse_options.ignore_unknown_fields = false;
-  const auto status =
-      google::protobuf::util::JsonStringToMessage(*text, &config, parse_options);
+  const auto status = google::protobuf::util::JsonStringToMessage(
+      *text, &config, parse_options);
   if (!status.ok()) {
     return absl::InvalidArgumentError(absl::StrCat(
         path, ": not a valid plumbd config: ", status.message().as_string()));

@@ -21,8 +21,8 @@
 
 #include "absl/status/statusor.h"
 #include "absl/time/time.h"
-#include "daemon/util/event_log.h"
 #include "daemon/ledger/ledger.h"
+#include "daemon/util/event_log.h"
 #include "plumbline/v1/config.pb.h"
 #include "plumbline/v1/security.pb.h"
 

@@ -25,7 +25,8 @@ constexpr char kRegistryServiceName[] = "plumbline.v1.Registry";
 
 // `status` with `part` in front of its message, same code.
 absl::Status In(absl::string_view part, const absl::Status& status) {
-  return absl::Status(status.code(), absl::StrCat(part, ": ", status.message()));
+  return absl::Status(status.code(),
+                      absl::StrCat(part, ": ", status.message()));
 }
 
 }  // namespace
@@ -109,10 +110,11 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
   if (!ledger.ok()) return ledger.status();
   d->ledger_ = *std::move(ledger);
   if (o.ledger.queue_capacity_rows < o.max_batch_records) {
-    LogEvent(LogLevel::kWarning, "ledger_queue_small",
-             {{"queue_capacity_rows", absl::StrCat(o.ledger.queue_capacity_rows)},
-              {"max_batch_records", absl::StrCat(o.max_batch_records)},
-              {"effect", "batches above the queue capacity are refused"}});
+    LogEvent(
+        LogLevel::kWarning, "ledger_queue_small",
+        {{"queue_capacity_rows", absl::StrCat(o.ledger.queue_capacity_rows)},
+         {"max_batch_records", absl::StrCat(o.max_batch_records)},
+         {"effect", "batches above the queue capacity are refused"}});
   }
   LogEvent(LogLevel::kInfo, "ledger_open",
            {{"file", o.ledger.path},
@@ -161,9 +163,9 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
            {{"addr", d->exporter_->bound_address()}});
 
   // Refit jobs run on their own thread, off the request path.
-  d->refit_runner_ = std::make_unique<RefitRunner>(
-      d->ledger_.get(), d->lifecycle_.get(), d->registry_.get(),
-      *refit_settings);
+  d->refit_runner_ =
+      std::make_unique<RefitRunner>(d->ledger_.get(), d->lifecycle_.get(),
+                                    d->registry_.get(), *refit_settings);
   d->refits_ = std::make_unique<RefitWorker>(d->refit_runner_.get(),
                                              &d->exporter_->registry());
 
@@ -187,7 +189,8 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
   // the monitor's versions follow at once.
   d->version_hook_ = std::make_unique<VersionChangeHook>(
       d->lifecycle_.get(), d->registry_.get(), d.get());
-  d->ticker_ = std::make_unique<HealthTicker>(tick, [p = d.get()] { p->Tick(); });
+  d->ticker_ =
+      std::make_unique<HealthTicker>(tick, [p = d.get()] { p->Tick(); });
 
   if (!ready_file.empty()) {
     if (absl::Status s = WriteFileAtomically(

@@ -4,8 +4,8 @@
 #include <utility>
 
 #include "daemon/access/access_control.h"
-#include "daemon/util/grpc_status.h"
 #include "daemon/scoring/core.h"
+#include "daemon/util/grpc_status.h"
 
 namespace plumbline::daemon {
 

@@ -27,9 +27,9 @@ absl::StatusOr<OutcomeEntry> ToOutcomeEntry(const v1::Outcome& outcome,
         path, ".record_id: empty; give the id the record was scored under"));
   }
   if (outcome.label() != 0 && outcome.label() != 1) {
-    return absl::InvalidArgumentError(absl::StrCat(
-        path, ".label: record '", outcome.record_id(),
-        "': must be 0 or 1, got ", outcome.label()));
+    return absl::InvalidArgumentError(
+        absl::StrCat(path, ".label: record '", outcome.record_id(),
+                     "': must be 0 or 1, got ", outcome.label()));
   }
   OutcomeEntry entry;
   entry.record_id = outcome.record_id();
@@ -94,13 +94,13 @@ grpc::Status OutcomesService::ReportOutcomes(
   if (grpc::Status s = Admit(context, Role::kScore); !s.ok()) return s;
   const int count = request->outcomes_size();
   if (count == 0) {
-    return ToGrpcStatus(absl::InvalidArgumentError(
-        "empty batch: outcomes holds no outcome"));
+    return ToGrpcStatus(
+        absl::InvalidArgumentError("empty batch: outcomes holds no outcome"));
   }
   if (static_cast<uint32_t>(count) > max_batch_records_) {
-    return ToGrpcStatus(absl::InvalidArgumentError(absl::StrCat(
-        "batch has ", count, " outcomes, over the limit of ",
-        max_batch_records_, " (max_batch_records); split it")));
+    return ToGrpcStatus(absl::InvalidArgumentError(
+        absl::StrCat("batch has ", count, " outcomes, over the limit of ",
+                     max_batch_records_, " (max_batch_records); split it")));
   }
   // Checked outcomes go to the ledger in one write; `sent[i]` is the
   // request index of the ledger's i-th outcome.

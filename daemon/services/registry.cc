@@ -7,13 +7,12 @@
 #include "absl/status/status.h"
 #include "absl/strings/str_cat.h"
 #include "daemon/access/access_control.h"
+#include "daemon/scoring/core.h"
 #include "daemon/util/grpc_status.h"
 #include "daemon/util/time.h"
-#include "daemon/scoring/core.h"
 
 namespace plumbline::daemon {
 namespace {
-
 
 std::string Actor(const std::string& actor) {
   return actor.empty() ? "unnamed caller" : actor;
@@ -60,8 +59,7 @@ v1::VersionInfo ToVersionInfo(const VersionRecord& r) {
   info.set_set(r.set);
   info.set_version(r.version);
   info.set_state(ToWire(r.state));
-  *info.mutable_created_at() =
-      ToTimestamp(r.created_at);
+  *info.mutable_created_at() = ToTimestamp(r.created_at);
   info.set_created_by(r.created_by);
   info.set_reason(r.reason);
   info.set_comparison(r.comparison);
@@ -71,9 +69,9 @@ v1::VersionInfo ToVersionInfo(const VersionRecord& r) {
 RegistryService::RegistryService(Lifecycle* lifecycle, RefitWorker* refits)
     : lifecycle_(lifecycle), refits_(refits) {}
 
-grpc::Status RegistryService::ListVersions(grpc::ServerContext* context,
-                                           const v1::ListVersionsRequest* request,
-                                           v1::ListVersionsReply* reply) {
+grpc::Status RegistryService::ListVersions(
+    grpc::ServerContext* context, const v1::ListVersionsRequest* request,
+    v1::ListVersionsReply* reply) {
   if (grpc::Status s = Admit(context, Role::kAdmin); !s.ok()) return s;
   if (!request->set().empty()) {
     if (absl::Status s = CheckSetName(request->set()); !s.ok()) {
@@ -87,7 +85,8 @@ grpc::Status RegistryService::ListVersions(grpc::ServerContext* context,
     return ToGrpcStatus(absl::NotFoundError(absl::StrCat(
         "no version of a set named '", request->set(), "' is known")));
   }
-  for (const VersionRecord& r : *list) *reply->add_versions() = ToVersionInfo(r);
+  for (const VersionRecord& r : *list)
+    *reply->add_versions() = ToVersionInfo(r);
   return grpc::Status::OK;
 }
 
@@ -102,8 +101,8 @@ grpc::Status RegistryService::LoadCandidate(
   NewVersion version;
   version.set = request->set();
   version.created_by = Actor(request->actor());
-  version.reason = request->reason().empty() ? "loaded by hand"
-                                              : request->reason();
+  version.reason =
+      request->reason().empty() ? "loaded by hand" : request->reason();
   return Reply(lifecycle_->AddCandidate(std::move(version)), reply);
 }
 
@@ -116,9 +115,10 @@ grpc::Status RegistryService::ChangeVersion(
       !s.ok()) {
     return ToGrpcStatus(s);
   }
-  return Reply((lifecycle_->*change)({request.set(), request.version(),
-                                      Actor(request.actor()), request.reason()}),
-               reply);
+  return Reply(
+      (lifecycle_->*change)({request.set(), request.version(),
+                             Actor(request.actor()), request.reason()}),
+      reply);
 }
 
 grpc::Status RegistryService::Activate(grpc::ServerContext* context,
@@ -146,10 +146,10 @@ grpc::Status RegistryService::Rollback(grpc::ServerContext* context,
   if (absl::Status s = CheckTarget(request->set(), "", false); !s.ok()) {
     return ToGrpcStatus(s);
   }
-  return Reply(lifecycle_->Rollback({request->set(), "",
-                                     Actor(request->actor()),
-                                     request->reason()}),
-               reply);
+  return Reply(
+      lifecycle_->Rollback(
+          {request->set(), "", Actor(request->actor()), request->reason()}),
+      reply);
 }
 
 grpc::Status RegistryService::Refit(grpc::ServerContext* context,
@@ -187,8 +187,7 @@ grpc::Status RegistryService::Audit(grpc::ServerContext* context,
   }
   for (const AuditRecord& e : *entries) {
     v1::AuditEntry* out = reply->add_entries();
-    *out->mutable_at() =
-        ToTimestamp(e.at);
+    *out->mutable_at() = ToTimestamp(e.at);
     out->set_set(e.set);
     out->set_version(e.version);
     out->set_action(e.action);

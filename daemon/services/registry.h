@@ -11,8 +11,8 @@
 #ifndef PLUMBLINE_DAEMON_SERVICES_REGISTRY_H_
 #define PLUMBLINE_DAEMON_SERVICES_REGISTRY_H_
 
-#include "daemon/registry/lifecycle.h"
 #include "daemon/refit/worker.h"
+#include "daemon/registry/lifecycle.h"
 #include "plumbline/v1/registry.grpc.pb.h"
 
 namespace plumbline::daemon {

@@ -21,7 +21,8 @@ ScoringService::ScoringService(const SetRegistry* registry,
       ledger_(ledger),
       health_sink_(health_sink) {}
 
-absl::StatusOr<ServingSet> ScoringService::Lookup(const std::string& set) const {
+absl::StatusOr<ServingSet> ScoringService::Lookup(
+    const std::string& set) const {
   if (absl::Status s = CheckSetName(set); !s.ok()) return s;
   ServingSet serving = registry_->FindServing(set);
   if (serving.active == nullptr) return SetNotFound(set, registry_->Names());
@@ -32,8 +33,7 @@ void ScoringService::LogShadowFailure(const scorer::ScoringPlan& plan,
                                       const absl::Status& status) {
   {
     absl::MutexLock lock(&shadow_mu_);
-    if (!shadow_failures_logged_
-             .insert(SetVersion{plan.name(), plan.version()})
+    if (!shadow_failures_logged_.insert(SetVersion{plan.name(), plan.version()})
              .second) {
       return;
     }
@@ -42,8 +42,9 @@ void ScoringService::LogShadowFailure(const scorer::ScoringPlan& plan,
            {{"set", plan.name()},
             {"version", plan.version()},
             RecordValueField("error", status.message()),
-            {"effect", "this shadow's scores of such requests are not kept; "
-                       "logged once per version"}});
+            {"effect",
+             "this shadow's scores of such requests are not kept; "
+             "logged once per version"}});
 }
 
 template <typename Reply, typename ScoreFn>
@@ -147,8 +148,8 @@ grpc::Status ScoringService::Score(grpc::ServerContext* context,
       ScoreWithPlan(*plan, *request, limits_, &inputs);
   if (!result.ok()) return ToGrpcStatus(result.status());
   std::vector<ShadowRun> shadows = ScoreShadows<v1::ScoreReply>(
-      std::move(serving->shadows), [&](const scorer::ScoringPlan& shadow,
-                          RecordInputs* shadow_inputs) {
+      std::move(serving->shadows),
+      [&](const scorer::ScoringPlan& shadow, RecordInputs* shadow_inputs) {
         return ScoreWithPlan(shadow, *request, limits_, shadow_inputs);
       });
   v1::Scored* const scored[] = {result->mutable_score()};
@@ -171,8 +172,8 @@ grpc::Status ScoringService::ScoreBatch(grpc::ServerContext* context,
       ScoreBatchWithPlan(*plan, *request, limits_, &inputs);
   if (!result.ok()) return ToGrpcStatus(result.status());
   std::vector<ShadowRun> shadows = ScoreShadows<v1::ScoreBatchReply>(
-      std::move(serving->shadows), [&](const scorer::ScoringPlan& shadow,
-                          RecordInputs* shadow_inputs) {
+      std::move(serving->shadows),
+      [&](const scorer::ScoringPlan& shadow, RecordInputs* shadow_inputs) {
         return ScoreBatchWithPlan(shadow, *request, limits_, shadow_inputs);
       });
   std::vector<v1::Scored*> scored(result->mutable_scores()->pointer_begin(),

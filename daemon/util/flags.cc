@@ -58,7 +58,8 @@ absl::StatusOr<std::vector<std::string>> ParseFlags(int argc,
     absl::CommandLineFlag* flag = absl::FindCommandLineFlag(name);
     // --noNAME turns a boolean flag off.
     if (flag == nullptr && !has_value && absl::StartsWith(name, "no")) {
-      absl::CommandLineFlag* negated = absl::FindCommandLineFlag(name.substr(2));
+      absl::CommandLineFlag* negated =
+          absl::FindCommandLineFlag(name.substr(2));
       if (negated != nullptr && negated->IsOfType<bool>()) {
         flag = negated;
         value = "false";
@@ -81,8 +82,8 @@ absl::StatusOr<std::vector<std::string>> ParseFlags(int argc,
     }
     std::string error;
     if (!flag->ParseFrom(value, &error)) {
-      return absl::InvalidArgumentError(absl::StrCat(
-          "flag --", flag->Name(), "='", value, "': ", error));
+      return absl::InvalidArgumentError(
+          absl::StrCat("flag --", flag->Name(), "='", value, "': ", error));
     }
   }
   return positional;

@@ -5,7 +5,8 @@
 // and whatever follows "Bearer " is masked. daemon/util/event_log runs every
 // logged value through MaskSecrets when MayHoldSecret says it might need it.
 //
-//   MaskSecrets("authorization: Bearer abc")  // "authorization: Bearer [masked]"
+//   MaskSecrets("authorization: Bearer abc")  // "authorization: Bearer
+//   [masked]"
 //
 // Thread-safe: pure functions.
 #ifndef PLUMBLINE_DAEMON_UTIL_REDACT_H_

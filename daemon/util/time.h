@@ -6,7 +6,8 @@
 //   absl::Time at = request.has_observed_at() ? ... : kNoTime;
 //   absl::Time when = OrNow(at, clock());             // kNoTime -> now
 //   *reply.mutable_evaluated_at() = ToTimestamp(when);
-//   absl::StatusOr<absl::Time> t = FromTimestamp(ts, "outcomes[3].observed_at");
+//   absl::StatusOr<absl::Time> t = FromTimestamp(ts,
+//   "outcomes[3].observed_at");
 //
 // Thread-safe: pure functions.
 #ifndef PLUMBLINE_DAEMON_UTIL_TIME_H_

@@ -48,7 +48,8 @@ std::vector<scorer::RawValue> Candidates(const v1::Feature& f) {
     }
     return out;
   }
-  std::vector<double> edges(f.baseline().edges().begin(), f.baseline().edges().end());
+  std::vector<double> edges(f.baseline().edges().begin(),
+                            f.baseline().edges().end());
   if (f.has_binned() && edges.empty()) {
     edges.assign(f.binned().edges().begin(), f.binned().edges().end());
   }
@@ -70,7 +71,8 @@ Fixture& Get() {
     } else {
       auto set = scorer::ReadCoefficientSetFile(g_set_file);
       if (!set.ok()) {
-        std::fprintf(stderr, "%s\n", std::string(set.status().message()).c_str());
+        std::fprintf(stderr, "%s\n",
+                     std::string(set.status().message()).c_str());
         std::exit(2);
       }
       f->plan = *scorer::ScoringPlan::Compile(*std::move(set), g_set_file);

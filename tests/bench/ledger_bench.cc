@@ -41,8 +41,8 @@
 #include "absl/strings/str_format.h"
 #include "absl/time/clock.h"
 #include "benchmark/benchmark.h"
-#include "daemon/ledger/ledger.h"
 #include "daemon/ledger/entries.h"
+#include "daemon/ledger/ledger.h"
 #include "google/protobuf/struct.pb.h"
 #include "google/protobuf/util/json_util.h"
 #include "scorer/coefficient_set.h"
@@ -179,9 +179,11 @@ absl::Duration ProcessCpuTime() {
 template <typename Row, typename Send>
 absl::Duration Produce(const std::vector<Row>& rows, int producers, int batch,
                        const Send& send, absl::Duration& cpu) {
-  std::vector<std::vector<std::vector<Row>>> work(static_cast<size_t>(producers));
+  std::vector<std::vector<std::vector<Row>>> work(
+      static_cast<size_t>(producers));
   for (size_t start = 0, k = 0; start < rows.size(); start += batch, ++k) {
-    const size_t end = std::min(rows.size(), start + static_cast<size_t>(batch));
+    const size_t end =
+        std::min(rows.size(), start + static_cast<size_t>(batch));
     work[k % work.size()].emplace_back(rows.begin() + static_cast<long>(start),
                                        rows.begin() + static_cast<long>(end));
   }
@@ -211,7 +213,8 @@ void IngestScores(benchmark::State& state, const BenchData& data) {
     std::atomic<int> failures{0};
     const absl::Duration took = Produce(
         data.scores, static_cast<int>(state.range(0)),
-        static_cast<int>(state.range(1)), [&](std::vector<ScoreEntry> b) {
+        static_cast<int>(state.range(1)),
+        [&](std::vector<ScoreEntry> b) {
           if (!(*ledger)->AppendScores(std::move(b)).ok()) ++failures;
         },
         cpu);
@@ -220,7 +223,8 @@ void IngestScores(benchmark::State& state, const BenchData& data) {
     state.counters["commits"] =
         static_cast<double>((*ledger)->stats().committed_transactions);
   }
-  const auto rows = state.iterations() * static_cast<int64_t>(data.scores.size());
+  const auto rows =
+      state.iterations() * static_cast<int64_t>(data.scores.size());
   state.SetItemsProcessed(rows);
   state.counters["cpu_us_per_row"] =
       absl::ToDoubleMicroseconds(cpu) / static_cast<double>(rows);
@@ -247,7 +251,8 @@ void IngestOutcomes(benchmark::State& state, const BenchData& data) {
     std::atomic<int> failures{0};
     const absl::Duration took = Produce(
         data.outcomes, static_cast<int>(state.range(0)),
-        static_cast<int>(state.range(1)), [&](std::vector<OutcomeEntry> b) {
+        static_cast<int>(state.range(1)),
+        [&](std::vector<OutcomeEntry> b) {
           auto results = (*ledger)->ReportOutcomes(std::move(b));
           if (!results.ok()) ++failures;
           for (const auto& r : *results) {
@@ -309,7 +314,8 @@ void JsonByProtobuf(benchmark::State& state, const BenchData& data) {
   size_t i = 0;
   for (auto _ : state) {
     std::string json;
-    auto st = google::protobuf::util::MessageToJsonString(data.structs[i], &json);
+    auto st =
+        google::protobuf::util::MessageToJsonString(data.structs[i], &json);
     benchmark::DoNotOptimize(json.data());
     if (!st.ok()) state.SkipWithError("MessageToJsonString failed");
     if (++i == data.structs.size()) i = 0;
@@ -353,9 +359,10 @@ absl::Status Run(BenchData& data) {
   for (auto* b : {benchmark::RegisterBenchmark(
                       "LedgerIngest/scores",
                       [&data](benchmark::State& s) { IngestScores(s, data); }),
-                  benchmark::RegisterBenchmark(
-                      "LedgerIngest/outcomes",
-                      [&data](benchmark::State& s) { IngestOutcomes(s, data); })}) {
+                  benchmark::RegisterBenchmark("LedgerIngest/outcomes",
+                                               [&data](benchmark::State& s) {
+                                                 IngestOutcomes(s, data);
+                                               })}) {
     b->ArgNames({"producers", "batch", "durable"})
         ->Args({2, 500, 1})
         ->Args({2, 500, 0})
@@ -391,8 +398,9 @@ int main(int argc, char** argv) {
   data.dir = absl::GetFlag(FLAGS_dir);
   if (data.dir.empty()) {
     const char* base = std::getenv("TMPDIR");
-    std::string pattern = absl::StrCat(
-        base != nullptr && *base != '\0' ? base : "/tmp", "/ledger-bench-XXXXXX");
+    std::string pattern =
+        absl::StrCat(base != nullptr && *base != '\0' ? base : "/tmp",
+                     "/ledger-bench-XXXXXX");
     if (mkdtemp(pattern.data()) == nullptr) {
       std::cerr << "ledger_bench: cannot create " << pattern << "\n";
       return 1;

@@ -8,6 +8,9 @@
 // p50, p90 and p99 of both and their ratios. Never run by ctest.
 //
 //   build/tests/bench/refit_latency_bench DATA_DIR [CALLS]
+#include <grpcpp/create_channel.h>
+#include <grpcpp/security/credentials.h>
+
 #include <algorithm>
 #include <atomic>
 #include <chrono>
@@ -17,9 +20,6 @@
 #include <string>
 #include <thread>
 #include <vector>
-
-#include <grpcpp/create_channel.h>
-#include <grpcpp/security/credentials.h>
 
 #include "absl/strings/str_cat.h"
 #include "absl/strings/str_split.h"
@@ -48,7 +48,8 @@ int Run(const std::string& data, int calls) {
   auto plumbd =
       PlumbdProcess::Start(dir.path(), {"--config", dir.File("plumbd.json")});
   if (!plumbd.ok()) {
-    std::fprintf(stderr, "%s\n", std::string(plumbd.status().message()).c_str());
+    std::fprintf(stderr, "%s\n",
+                 std::string(plumbd.status().message()).c_str());
     return 1;
   }
   const std::string addr = (*plumbd)->addr();
@@ -59,10 +60,10 @@ int Run(const std::string& data, int calls) {
         {PLUMBCTL_PATH, "--addr", addr, "score", "--set", kSet, "--csv",
          absl::StrCat(data, "/", parcels), "--out", dir.File("out.csv")},
         dir.path());
-    auto reported = testing::RunProcess(
-        {PLUMBCTL_PATH, "--addr", addr, "outcomes", "--csv",
-         absl::StrCat(data, "/", outcomes)},
-        dir.path());
+    auto reported =
+        testing::RunProcess({PLUMBCTL_PATH, "--addr", addr, "outcomes", "--csv",
+                             absl::StrCat(data, "/", outcomes)},
+                            dir.path());
     if (!scored.ok() || scored->exit_code != 0 || !reported.ok() ||
         reported->exit_code != 0) {
       std::fprintf(stderr, "could not fill the ledger\n");
@@ -74,7 +75,8 @@ int Run(const std::string& data, int calls) {
   auto scoring = v1::Scoring::NewStub(channel);
   v1::ScoreRequest request;
   request.set_set(kSet);
-  auto& values = *request.mutable_record()->mutable_features()->mutable_fields();
+  auto& values =
+      *request.mutable_record()->mutable_features()->mutable_fields();
   values["distance_km"].set_number_value(23.5);
   values["parcel_weight_kg"].set_number_value(7.2);
   values["hour_of_day"].set_number_value(14);
@@ -94,7 +96,8 @@ int Run(const std::string& data, int calls) {
         std::fprintf(stderr, "%s: %s\n", what, status.error_message().c_str());
         std::exit(1);
       }
-      us.push_back(std::chrono::duration<double, std::micro>(end - start).count());
+      us.push_back(
+          std::chrono::duration<double, std::micro>(end - start).count());
     }
     std::sort(us.begin(), us.end());
     return std::vector<double>{us[us.size() / 2], us[us.size() * 9 / 10],
@@ -138,9 +141,10 @@ int Run(const std::string& data, int calls) {
 
 int main(int argc, char** argv) {
   if (argc < 2) {
-    std::fprintf(stderr, "usage: refit_latency_bench DATA_DIR [CALLS]\n"
-                         "DATA_DIR: ops/demo_data.py --set-out DIR/sets/"
-                         "courier_first_attempt.json --demo-dir DIR\n");
+    std::fprintf(stderr,
+                 "usage: refit_latency_bench DATA_DIR [CALLS]\n"
+                 "DATA_DIR: ops/demo_data.py --set-out DIR/sets/"
+                 "courier_first_attempt.json --demo-dir DIR\n");
     return 2;
   }
   return plumbline::daemon::Run(argv[1], argc > 2 ? std::atoi(argv[2]) : 3000);

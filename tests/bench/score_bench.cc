@@ -49,9 +49,9 @@ absl::StatusOr<RowMatrix> ReadMatrix(const std::string& path, int cols) {
   const std::streamoff row_bytes =
       static_cast<std::streamoff>(sizeof(double)) * cols;
   if (bytes <= 0 || bytes % row_bytes != 0) {
-    return absl::InvalidArgumentError(
-        absl::StrCat(path, ": ", bytes, " bytes is not a whole number of rows of ",
-                     cols, " float64 values"));
+    return absl::InvalidArgumentError(absl::StrCat(
+        path, ": ", bytes, " bytes is not a whole number of rows of ", cols,
+        " float64 values"));
   }
   RowMatrix x(bytes / row_bytes, cols);
   in.seekg(0);
@@ -139,8 +139,8 @@ absl::Status Run(BenchData& data) {
     const int64_t k =
         std::min<int64_t>(data.x.rows(), absl::GetFlag(FLAGS_dump_rows));
     Eigen::VectorXd log_odds(k), probability(k);
-    absl::Status status = data.plan->ScoreDense(
-        data.x.topRows(k), data.columns, {}, log_odds, probability);
+    absl::Status status = data.plan->ScoreDense(data.x.topRows(k), data.columns,
+                                                {}, log_odds, probability);
     if (!status.ok()) return status;
     if (status = WriteDoubles(dump_path, probability); !status.ok()) {
       return status;

@@ -31,8 +31,8 @@
 namespace plumbline::monitor {
 namespace {
 
-using ::testing::HasSubstr;
 using testing::ExpectClose;
+using ::testing::HasSubstr;
 using testing::MakeStream;
 using testing::Probabilities;
 using testing::Quantised;
@@ -155,8 +155,9 @@ TEST_P(WindowAgreementTest, ScorePsiWindowMatchesPureFunction) {
   const Stream s = MakeStream(static_cast<size_t>(n + n / 2 + 3), 29);
   std::vector<double> p = Probabilities(s.log_odds);
   for (size_t i = 7; i < p.size(); i += 50) p[i] = std::nan("");  // missing
-  auto baseline = std::make_shared<const BinnedBaseline>(*BinnedBaseline::Create(
-      {0.05, 0.1, 0.2, 0.3, 0.5, 0.7}, {0.2, 0.15, 0.2, 0.15, 0.15, 0.1, 0.05}));
+  auto baseline = std::make_shared<const BinnedBaseline>(
+      *BinnedBaseline::Create({0.05, 0.1, 0.2, 0.3, 0.5, 0.7},
+                              {0.2, 0.15, 0.2, 0.15, 0.15, 0.1, 0.05}));
   absl::StatusOr<NumericStabilityAccumulator> empty =
       NumericStabilityAccumulator::Create(baseline, ValueRange{0.01, 0.9});
   ASSERT_TRUE(empty.ok());
@@ -197,9 +198,9 @@ TEST(AccumulatorTest, MergeOfPartsEqualsWhole) {
 }
 
 TEST(AccumulatorTest, CategoricalMatchesPureFunction) {
-  auto baseline = std::make_shared<const CategoricalBaseline>(
-      *CategoricalBaseline::Create({{"van", 0.6}, {"cargo_bike", 0.3},
-                                    {"car", 0.1}}));
+  auto baseline =
+      std::make_shared<const CategoricalBaseline>(*CategoricalBaseline::Create(
+          {{"van", 0.6}, {"cargo_bike", 0.3}, {"car", 0.1}}));
   absl::StatusOr<CategoricalStabilityAccumulator> acc =
       CategoricalStabilityAccumulator::Create(baseline);
   ASSERT_TRUE(acc.ok());
@@ -219,7 +220,8 @@ TEST(AccumulatorTest, RefusesBadRecordsAndMismatchedMerges) {
   absl::StatusOr<OutcomeAccumulator> acc = OutcomeAccumulator::Create({});
   ASSERT_TRUE(acc.ok());
   EXPECT_THAT(acc->Add(0.5, 2).message(), HasSubstr("label is 2"));
-  EXPECT_THAT(acc->Add(std::nan(""), 1).message(), HasSubstr("log-odds is nan"));
+  EXPECT_THAT(acc->Add(std::nan(""), 1).message(),
+              HasSubstr("log-odds is nan"));
   EXPECT_EQ(acc->count(), 0);
   EXPECT_EQ(acc->Result().status().code(),
             absl::StatusCode::kFailedPrecondition);

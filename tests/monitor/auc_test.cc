@@ -15,13 +15,16 @@ using ::testing::HasSubstr;
 // Agreement with sklearn.metrics.roc_auc_score, ties included, is checked in
 // reference_test.cc; these cases follow from the Mann–Whitney definition.
 TEST(AucTest, PerfectAndReversedOrdering) {
-  EXPECT_EQ(*Auc(std::vector<double>{1, 2, 3, 4}, std::vector<int>{0, 0, 1, 1}), 1.0);
-  EXPECT_EQ(*Auc(std::vector<double>{1, 2, 3, 4}, std::vector<int>{1, 1, 0, 0}), 0.0);
+  EXPECT_EQ(*Auc(std::vector<double>{1, 2, 3, 4}, std::vector<int>{0, 0, 1, 1}),
+            1.0);
+  EXPECT_EQ(*Auc(std::vector<double>{1, 2, 3, 4}, std::vector<int>{1, 1, 0, 0}),
+            0.0);
 }
 
 TEST(AucTest, TiesCountOneHalf) {
   // Positives {0.8, 0.5}, negatives {0.5, 0.2}: pairs score 1, 1, 1/2, 1.
-  auto auc = Auc(std::vector<double>{0.8, 0.5, 0.5, 0.2}, std::vector<int>{1, 1, 0, 0});
+  auto auc = Auc(std::vector<double>{0.8, 0.5, 0.5, 0.2},
+                 std::vector<int>{1, 1, 0, 0});
   ASSERT_TRUE(auc.ok());
   EXPECT_EQ(*auc, 3.5 / 4);
   // Every score tied: 1/2.
@@ -31,12 +34,14 @@ TEST(AucTest, TiesCountOneHalf) {
 TEST(AucTest, OneClassIsUndefined) {
   auto auc = Auc(std::vector<double>{0.1, 0.7}, std::vector<int>{1, 1});
   EXPECT_EQ(auc.status().code(), absl::StatusCode::kFailedPrecondition);
-  EXPECT_THAT(auc.status().message(),
-              HasSubstr("AUC is undefined: all 2 labelled records are positives"));
+  EXPECT_THAT(
+      auc.status().message(),
+      HasSubstr("AUC is undefined: all 2 labelled records are positives"));
 }
 
 TEST(AucTest, RefusesNaNScores) {
-  auto auc = Auc(std::vector<double>{0.1, std::nan("")}, std::vector<int>{1, 0});
+  auto auc =
+      Auc(std::vector<double>{0.1, std::nan("")}, std::vector<int>{1, 0});
   EXPECT_EQ(auc.status().code(), absl::StatusCode::kInvalidArgument);
   EXPECT_THAT(auc.status().message(), HasSubstr("scores[1] is NaN"));
 }

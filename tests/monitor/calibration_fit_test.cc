@@ -32,12 +32,15 @@ TEST(CalibrationFitTest, TwoLevelsAreFittedExactly) {
 }
 
 TEST(CalibrationFitTest, GroupsAndRecordsGiveTheSameFit) {
-  const std::vector<LogOddsGroup> groups = {{-1.0, 2, 7}, {0.5, 4, 4}, {2.0, 6, 1}};
+  const std::vector<LogOddsGroup> groups = {
+      {-1.0, 2, 7}, {0.5, 4, 4}, {2.0, 6, 1}};
   std::vector<double> z;
   std::vector<int> y;
   for (const LogOddsGroup& g : groups) {
-    for (int i = 0; i < g.positives; ++i) z.push_back(g.log_odds), y.push_back(1);
-    for (int i = 0; i < g.negatives; ++i) z.push_back(g.log_odds), y.push_back(0);
+    for (int i = 0; i < g.positives; ++i)
+      z.push_back(g.log_odds), y.push_back(1);
+    for (int i = 0; i < g.negatives; ++i)
+      z.push_back(g.log_odds), y.push_back(0);
   }
   absl::StatusOr<CalibrationFit> a = FitCalibrationGroups(groups);
   absl::StatusOr<CalibrationFit> b = CalibrationInterceptSlope(z, y);
@@ -50,12 +53,14 @@ TEST(CalibrationFitTest, UndefinedFitsAreFailedPreconditions) {
   auto one_class = CalibrationInterceptSlope(std::vector<double>{0.1, 0.5},
                                              std::vector<int>{0, 0});
   EXPECT_EQ(one_class.status().code(), absl::StatusCode::kFailedPrecondition);
-  EXPECT_THAT(one_class.status().message(), HasSubstr("all 2 labelled records have label 0"));
+  EXPECT_THAT(one_class.status().message(),
+              HasSubstr("all 2 labelled records have label 0"));
 
   auto flat = CalibrationInterceptSlope(std::vector<double>{0.3, 0.3},
                                         std::vector<int>{0, 1});
   EXPECT_EQ(flat.status().code(), absl::StatusCode::kFailedPrecondition);
-  EXPECT_THAT(flat.status().message(), HasSubstr("all 2 records have log-odds 0.3"));
+  EXPECT_THAT(flat.status().message(),
+              HasSubstr("all 2 records have log-odds 0.3"));
 
   // Outcomes separated by the log-odds: the slope runs off to infinity.
   auto separated = CalibrationInterceptSlope(std::vector<double>{-2, -1, 1, 2},

@@ -36,7 +36,8 @@ struct Case {
 std::vector<Case> Cases() {
   auto status = [](auto result) { return result.status(); };
   return {
-      {"log-loss", [=](auto s, auto y) { return status(LogLoss(s, y)); }, false},
+      {"log-loss", [=](auto s, auto y) { return status(LogLoss(s, y)); },
+       false},
       {"AUC", [=](auto s, auto y) { return status(Auc(s, y)); }, false},
       {"calibration intercept/slope",
        [=](auto s, auto y) { return status(CalibrationInterceptSlope(s, y)); },
@@ -59,7 +60,8 @@ std::vector<Case> Cases() {
 
 void ExpectInvalid(const absl::Status& s, const std::string& figure,
                    const std::string& text) {
-  EXPECT_EQ(s.code(), absl::StatusCode::kInvalidArgument) << figure << ": " << s;
+  EXPECT_EQ(s.code(), absl::StatusCode::kInvalidArgument)
+      << figure << ": " << s;
   EXPECT_THAT(std::string(s.message()), HasSubstr(figure)) << s;
   EXPECT_THAT(std::string(s.message()), HasSubstr(text)) << figure;
 }

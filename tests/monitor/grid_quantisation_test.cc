@@ -70,8 +70,7 @@ Differences Measure(absl::Span<const double> z, absl::Span<const int> y,
             << "), |d intercept| " << d.intercept << " (se " << d.intercept_se
             << "), |d slope| " << d.slope << " (se " << d.slope_se << ")"
             << ", HL " << hl->statistic << " vs grid " << grid_hl->statistic
-            << ", p " << hl->p_value << " vs grid " << grid_hl->p_value
-            << "\n";
+            << ", p " << hl->p_value << " vs grid " << grid_hl->p_value << "\n";
   return d;
 }
 
@@ -85,8 +84,9 @@ TEST(GridQuantisationTest, MillionRecords) {
 }
 
 TEST(GridQuantisationTest, BreastCancerScores) {
-  absl::StatusOr<google::protobuf::Struct> json = plumbline::testing::ReadJsonFile(
-      plumbline::testing::ReferencePathFromEnv("PLUMBLINE_MONITOR_REF"));
+  absl::StatusOr<google::protobuf::Struct> json =
+      plumbline::testing::ReadJsonFile(
+          plumbline::testing::ReferencePathFromEnv("PLUMBLINE_MONITOR_REF"));
   ASSERT_TRUE(json.ok()) << json.status();
   const auto& c =
       json->fields().at("labelled").list_value().values(0).struct_value();

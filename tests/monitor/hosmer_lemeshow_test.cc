@@ -33,10 +33,11 @@ TEST(HosmerLemeshowTest, ThreeGroupsByHand) {
 }
 
 TEST(HosmerLemeshowTest, TooFewGroups) {
-  EXPECT_THAT(HosmerLemeshow(std::vector<double>{0.1, 0.2}, std::vector<int>{0, 1}, 2)
-                  .status()
-                  .message(),
-              HasSubstr("groups is 2; it must be at least 3"));
+  EXPECT_THAT(
+      HosmerLemeshow(std::vector<double>{0.1, 0.2}, std::vector<int>{0, 1}, 2)
+          .status()
+          .message(),
+      HasSubstr("groups is 2; it must be at least 3"));
   // Two distinct probabilities fill only two groups.
   auto hl = HosmerLemeshow(std::vector<double>{0.2, 0.2, 0.7, 0.7},
                            std::vector<int>{0, 1, 1, 1});

@@ -13,7 +13,9 @@ namespace {
 TEST(IncompleteGammaTest, ClosedForms) {
   for (double x : {1e-8, 0.3, 1.0, 2.5, 10.0, 80.0, 600.0}) {
     // Q(1, x) = e^-x.
-    EXPECT_NEAR(*RegularizedUpperGamma(1, x), std::exp(-x), 1e-15 * std::exp(-x)) << x;
+    EXPECT_NEAR(*RegularizedUpperGamma(1, x), std::exp(-x),
+                1e-15 * std::exp(-x))
+        << x;
     // Q(1/2, x) = erfc(sqrt x).
     const double erfc = std::erfc(std::sqrt(x));
     EXPECT_NEAR(*RegularizedUpperGamma(0.5, x), erfc, 1e-13 * erfc) << x;
@@ -25,7 +27,8 @@ TEST(IncompleteGammaTest, ClosedForms) {
 
 TEST(IncompleteGammaTest, Edges) {
   EXPECT_EQ(*RegularizedUpperGamma(3, 0), 1.0);
-  EXPECT_EQ(*RegularizedUpperGamma(3, std::numeric_limits<double>::infinity()), 0.0);
+  EXPECT_EQ(*RegularizedUpperGamma(3, std::numeric_limits<double>::infinity()),
+            0.0);
   EXPECT_EQ(*ChiSquareSurvival(0, 4), 1.0);
   EXPECT_EQ(*ChiSquareSurvival(-1, 4), 1.0);
   // Far in the tail the value underflows to 0 rather than failing.

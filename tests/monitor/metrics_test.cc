@@ -31,20 +31,26 @@ TEST(LogLossTest, ConfidentMistakeStaysFinite) {
 }
 
 TEST(LogLossTest, RefusesBadInput) {
-  EXPECT_THAT(LogLoss(std::vector<double>{0.1}, std::vector<int>{2}).status().message(),
-              HasSubstr("labels[0] is 2"));
-  EXPECT_THAT(LogLoss(std::vector<double>{0.1, 0.2}, std::vector<int>{1}).status().message(),
-              HasSubstr("2 scores but 1 labels"));
-  EXPECT_EQ(LogLoss({}, {}).status().code(), absl::StatusCode::kInvalidArgument);
-  EXPECT_THAT(LogLoss(std::vector<double>{0.1, std::nan("")}, std::vector<int>{1, 0})
+  EXPECT_THAT(
+      LogLoss(std::vector<double>{0.1}, std::vector<int>{2}).status().message(),
+      HasSubstr("labels[0] is 2"));
+  EXPECT_THAT(LogLoss(std::vector<double>{0.1, 0.2}, std::vector<int>{1})
                   .status()
                   .message(),
-              HasSubstr("log_odds[1] is NaN"));
+              HasSubstr("2 scores but 1 labels"));
+  EXPECT_EQ(LogLoss({}, {}).status().code(),
+            absl::StatusCode::kInvalidArgument);
+  EXPECT_THAT(
+      LogLoss(std::vector<double>{0.1, std::nan("")}, std::vector<int>{1, 0})
+          .status()
+          .message(),
+      HasSubstr("log_odds[1] is NaN"));
 }
 
 TEST(BrierScoreTest, Definition) {
   // ((0.9 - 1)^2 + (0.2 - 0)^2 + (0.5 - 1)^2) / 3 = (0.01 + 0.04 + 0.25) / 3.
-  auto bs = BrierScore(std::vector<double>{0.9, 0.2, 0.5}, std::vector<int>{1, 0, 1});
+  auto bs =
+      BrierScore(std::vector<double>{0.9, 0.2, 0.5}, std::vector<int>{1, 0, 1});
   ASSERT_TRUE(bs.ok());
   EXPECT_NEAR(*bs, 0.1, 1e-16);
 }
@@ -68,10 +74,11 @@ TEST(CalibrationInTheLargeTest, MeanPredictedMinusObservedRate) {
                                     std::vector<int>{0, 0, 1, 0});
   ASSERT_TRUE(citl.ok());
   EXPECT_NEAR(*citl, 0.25, 1e-16);
-  EXPECT_THAT(CalibrationInTheLarge(std::vector<double>{0.2}, std::vector<int>{-1})
-                  .status()
-                  .message(),
-              HasSubstr("labels[0] is -1"));
+  EXPECT_THAT(
+      CalibrationInTheLarge(std::vector<double>{0.2}, std::vector<int>{-1})
+          .status()
+          .message(),
+      HasSubstr("labels[0] is -1"));
 }
 
 }  // namespace

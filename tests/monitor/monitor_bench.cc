@@ -39,7 +39,8 @@ const Records& Data() {
     std::normal_distribution<double> score(-1.5, 1.5);
     std::lognormal_distribution<double> distance(1.5, 0.6);
     std::uniform_real_distribution<double> unit(0, 1);
-    static const char* const kVehicles[] = {"van", "cargo_bike", "car", "drone"};
+    static const char* const kVehicles[] = {"van", "cargo_bike", "car",
+                                            "drone"};
     for (size_t i = 0; i < kRecords; ++i) {
       const double z = score(rng);
       r->log_odds.push_back(z);
@@ -74,16 +75,20 @@ struct StabilitySet {
 };
 
 StabilitySet MakeStabilitySet() {
-  auto score_base = std::make_shared<const BinnedBaseline>(*BinnedBaseline::Create(
-      {0.05, 0.1, 0.15, 0.2, 0.3, 0.4, 0.5, 0.6, 0.8},
-      {0.1, 0.1, 0.1, 0.1, 0.1, 0.1, 0.1, 0.1, 0.1, 0.1}));
-  auto distance_base = std::make_shared<const BinnedBaseline>(*BinnedBaseline::Create(
-      {2, 3, 4.5, 6, 9}, {0.1, 0.15, 0.25, 0.25, 0.15, 0.1}));
-  auto vehicle_base = std::make_shared<const CategoricalBaseline>(
-      *CategoricalBaseline::Create({{"van", 0.5}, {"cargo_bike", 0.3}, {"car", 0.2}}));
-  return {*NumericStabilityAccumulator::Create(score_base),
-          *NumericStabilityAccumulator::Create(distance_base, ValueRange{0, 80}),
-          *CategoricalStabilityAccumulator::Create(vehicle_base)};
+  auto score_base =
+      std::make_shared<const BinnedBaseline>(*BinnedBaseline::Create(
+          {0.05, 0.1, 0.15, 0.2, 0.3, 0.4, 0.5, 0.6, 0.8},
+          {0.1, 0.1, 0.1, 0.1, 0.1, 0.1, 0.1, 0.1, 0.1, 0.1}));
+  auto distance_base =
+      std::make_shared<const BinnedBaseline>(*BinnedBaseline::Create(
+          {2, 3, 4.5, 6, 9}, {0.1, 0.15, 0.25, 0.25, 0.15, 0.1}));
+  auto vehicle_base =
+      std::make_shared<const CategoricalBaseline>(*CategoricalBaseline::Create(
+          {{"van", 0.5}, {"cargo_bike", 0.3}, {"car", 0.2}}));
+  return {
+      *NumericStabilityAccumulator::Create(score_base),
+      *NumericStabilityAccumulator::Create(distance_base, ValueRange{0, 80}),
+      *CategoricalStabilityAccumulator::Create(vehicle_base)};
 }
 
 // Score PSI plus one numeric and one categorical feature.

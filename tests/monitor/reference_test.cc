@@ -218,9 +218,8 @@ TEST_F(MonitorReferenceTest, CalibrationInterceptSlopeMatchesStatsmodels) {
     ExpectRelative(fit->slope, Number(logit, "slope"), kIterativeRel,
                    name + " slope");
     // reference: statsmodels Logit results .bse, statsmodels 0.13
-    ExpectRelative(fit->intercept_standard_error,
-                   Number(logit, "intercept_se"), kIterativeRel,
-                   name + " intercept se");
+    ExpectRelative(fit->intercept_standard_error, Number(logit, "intercept_se"),
+                   kIterativeRel, name + " intercept se");
     ExpectRelative(fit->slope_standard_error, Number(logit, "slope_se"),
                    kIterativeRel, name + " slope se");
   }
@@ -271,9 +270,9 @@ TEST_F(MonitorReferenceTest, ChiSquareSurvivalMatchesScipy) {
     absl::StatusOr<double> q = ChiSquareSurvival(x[i], dof[i]);
     ASSERT_TRUE(q.ok()) << q.status();
     // reference: scipy.stats.chi2.sf(x, dof), SciPy 1.10 (values > 1e-300)
-    ExpectRelative(*q, sf[i], kRel,
-                   "x = " + std::to_string(x[i]) +
-                       ", dof = " + std::to_string(dof[i]));
+    ExpectRelative(
+        *q, sf[i], kRel,
+        "x = " + std::to_string(x[i]) + ", dof = " + std::to_string(dof[i]));
   }
 }
 

@@ -78,14 +78,16 @@ TEST(ReliabilityTest, EqualCountBinsKeepTiesTogether) {
 }
 
 TEST(ReliabilityTest, RefusesBadInput) {
-  EXPECT_THAT(EqualWidthReliability(std::vector<double>{0.5}, std::vector<int>{1}, 0)
-                  .status()
-                  .message(),
-              HasSubstr("bins is 0"));
-  EXPECT_THAT(EqualCountReliability(std::vector<double>{-0.1}, std::vector<int>{1})
-                  .status()
-                  .message(),
-              HasSubstr("probabilities[0] is -0.1"));
+  EXPECT_THAT(
+      EqualWidthReliability(std::vector<double>{0.5}, std::vector<int>{1}, 0)
+          .status()
+          .message(),
+      HasSubstr("bins is 0"));
+  EXPECT_THAT(
+      EqualCountReliability(std::vector<double>{-0.1}, std::vector<int>{1})
+          .status()
+          .message(),
+      HasSubstr("probabilities[0] is -0.1"));
 }
 
 }  // namespace

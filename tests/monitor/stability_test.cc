@@ -17,7 +17,8 @@ using ::testing::HasSubstr;
 
 TEST(BinnedBaselineTest, BinConventionFollowsTheSetFile) {
   // bin 0 = (-inf, 1), bin 1 = [1, 2), bin 2 = [2, inf).
-  absl::StatusOr<BinnedBaseline> b = BinnedBaseline::Create({1, 2}, {0.3, 0.3, 0.4});
+  absl::StatusOr<BinnedBaseline> b =
+      BinnedBaseline::Create({1, 2}, {0.3, 0.3, 0.4});
   ASSERT_TRUE(b.ok());
   EXPECT_EQ(b->BinOf(0.999), 0);
   EXPECT_EQ(b->BinOf(1.0), 1);
@@ -27,23 +28,26 @@ TEST(BinnedBaselineTest, BinConventionFollowsTheSetFile) {
 }
 
 TEST(BinnedBaselineTest, RefusesBadBaselines) {
-  EXPECT_THAT(BinnedBaseline::Create({1, 1}, {0.3, 0.3, 0.4}).status().message(),
-              HasSubstr("edges[1] = 1 does not exceed edges[0] = 1"));
+  EXPECT_THAT(
+      BinnedBaseline::Create({1, 1}, {0.3, 0.3, 0.4}).status().message(),
+      HasSubstr("edges[1] = 1 does not exceed edges[0] = 1"));
   EXPECT_THAT(BinnedBaseline::Create({1}, {1.0}).status().message(),
               HasSubstr("1 edges need 2 proportions, got 1"));
   EXPECT_THAT(BinnedBaseline::Create({1}, {0.5, 0.6}).status().message(),
               HasSubstr("sum to 1.1"));
   EXPECT_THAT(BinnedBaseline::Create({NAN}, {0.5, 0.5}).status().message(),
               HasSubstr("edges[0] is nan"));
-  EXPECT_THAT(CategoricalBaseline::Create({{"van", 0.5}, {"van", 0.5}}).status().message(),
+  EXPECT_THAT(CategoricalBaseline::Create({{"van", 0.5}, {"van", 0.5}})
+                  .status()
+                  .message(),
               HasSubstr("level \"van\" appears twice"));
 }
 
 TEST(PsiTest, EmptyBinsAreFlooredAtOneIn10000) {
   // Baseline (0.5, 0.5, 0); sample (1, 0, 0). After the floor:
   // e = (0.5, 0.5, 1e-4), a = (1, 1e-4, 1e-4).
-  const double expected = (1 - 0.5) * std::log(1 / 0.5) +
-                          (1e-4 - 0.5) * std::log(1e-4 / 0.5) + 0.0;
+  const double expected =
+      (1 - 0.5) * std::log(1 / 0.5) + (1e-4 - 0.5) * std::log(1e-4 / 0.5) + 0.0;
   EXPECT_NEAR(PsiFromProportions(std::vector<double>{0.5, 0.5, 0},
                                  std::vector<double>{1, 0, 0}),
               expected, 1e-15);
@@ -54,7 +58,8 @@ TEST(PsiTest, EmptyBinsAreFlooredAtOneIn10000) {
 }
 
 TEST(NumericStabilityTest, RatesAndMissingValues) {
-  absl::StatusOr<BinnedBaseline> b = BinnedBaseline::Create({1, 2}, {0.3, 0.3, 0.4});
+  absl::StatusOr<BinnedBaseline> b =
+      BinnedBaseline::Create({1, 2}, {0.3, 0.3, 0.4});
   ASSERT_TRUE(b.ok());
   // 1 missing, 0.5 and 7 outside [1, 2] (the baseline's outer edges).
   const std::vector<double> values = {0.5, 1.5, NAN, 2.0, 7.0};
@@ -75,12 +80,14 @@ TEST(NumericStabilityTest, RatesAndMissingValues) {
 TEST(NumericStabilityTest, AllMissingHasNoPsi) {
   absl::StatusOr<BinnedBaseline> b = BinnedBaseline::Create({1}, {0.5, 0.5});
   ASSERT_TRUE(b.ok());
-  absl::StatusOr<StabilityFigures> f = NumericStability(*b, std::vector<double>{NAN, NAN});
+  absl::StatusOr<StabilityFigures> f =
+      NumericStability(*b, std::vector<double>{NAN, NAN});
   ASSERT_TRUE(f.ok());
   EXPECT_FALSE(f->psi.has_value());
   EXPECT_EQ(f->missing_rate, 1.0);
-  EXPECT_THAT(PopulationStabilityIndex(*b, std::vector<double>{NAN}).status().message(),
-              HasSubstr("all 1 values are missing"));
+  EXPECT_THAT(
+      PopulationStabilityIndex(*b, std::vector<double>{NAN}).status().message(),
+      HasSubstr("all 1 values are missing"));
   EXPECT_EQ(NumericStability(*b, {}).status().code(),
             absl::StatusCode::kInvalidArgument);
 }

@@ -77,8 +77,8 @@ inline void ExpectClose(double a, double b, const std::string& what,
 template <typename A, typename B>
 bool SameOutcome(const absl::StatusOr<A>& a, const absl::StatusOr<B>& b,
                  const std::string& what) {
-  EXPECT_EQ(a.ok(), b.ok()) << what << ": " << a.status() << " vs "
-                            << b.status();
+  EXPECT_EQ(a.ok(), b.ok())
+      << what << ": " << a.status() << " vs " << b.status();
   if (!a.ok() && !b.ok()) {
     EXPECT_EQ(a.status().code(), b.status().code()) << what;
   }

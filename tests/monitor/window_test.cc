@@ -54,8 +54,8 @@ TEST(CountWindowTest, RefusesBadShapes) {
 
 TEST(TimeWindowTest, BucketsAlignOnTheEpochAndExpireWhole) {
   // 60 s in 6 buckets of 10 s.
-  auto window =
-      TimeWindow<LossAccumulator>::Create(absl::Seconds(60), 6, LossAccumulator());
+  auto window = TimeWindow<LossAccumulator>::Create(absl::Seconds(60), 6,
+                                                    LossAccumulator());
   ASSERT_TRUE(window.ok());
   EXPECT_EQ(window->bucket_span(), absl::Seconds(10));
   ASSERT_TRUE(window->Add(At(1000), 0.0, 1).ok());  // bucket [1000, 1010)
@@ -72,8 +72,8 @@ TEST(TimeWindowTest, BucketsAlignOnTheEpochAndExpireWhole) {
 }
 
 TEST(TimeWindowTest, OutOfOrderRecordsAndTooOldRecords) {
-  auto window =
-      TimeWindow<LossAccumulator>::Create(absl::Seconds(60), 6, LossAccumulator());
+  auto window = TimeWindow<LossAccumulator>::Create(absl::Seconds(60), 6,
+                                                    LossAccumulator());
   ASSERT_TRUE(window.ok());
   ASSERT_TRUE(window->Add(At(2000), 0.0, 1).ok());
   // Late but inside the ring: goes to its own bucket.
@@ -94,13 +94,13 @@ TEST(TimeWindowTest, MatchesThePureFunctionOnTheRecordsItCovers) {
   const testing::Stream s = testing::MakeStream(1000, 3);
   absl::StatusOr<OutcomeAccumulator> empty = OutcomeAccumulator::Create({});
   ASSERT_TRUE(empty.ok());
-  auto window = TimeWindow<OutcomeAccumulator>::Create(absl::Seconds(300), 30,
-                                                       *empty);
+  auto window =
+      TimeWindow<OutcomeAccumulator>::Create(absl::Seconds(300), 30, *empty);
   ASSERT_TRUE(window.ok());
   for (size_t i = 0; i < s.log_odds.size(); ++i) {
-    ASSERT_TRUE(window->Add(At(static_cast<int64_t>(i) + 1), s.log_odds[i],
-                            s.labels[i])
-                    .ok());
+    ASSERT_TRUE(
+        window->Add(At(static_cast<int64_t>(i) + 1), s.log_odds[i], s.labels[i])
+            .ok());
   }
   // Record i is stamped i + 1, so stamps 710..1000 are records 709..999.
   EXPECT_EQ(window->size(At(1000)), 291);
@@ -117,8 +117,8 @@ TEST(TimeWindowTest, RefusesBadShapesAndTimes) {
                 .status()
                 .code(),
             absl::StatusCode::kInvalidArgument);
-  auto window =
-      TimeWindow<LossAccumulator>::Create(absl::Seconds(60), 6, LossAccumulator());
+  auto window = TimeWindow<LossAccumulator>::Create(absl::Seconds(60), 6,
+                                                    LossAccumulator());
   ASSERT_TRUE(window.ok());
   EXPECT_EQ(window->Add(absl::InfiniteFuture(), 0.0, 1).code(),
             absl::StatusCode::kInvalidArgument);

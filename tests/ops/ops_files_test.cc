@@ -13,8 +13,8 @@
 #include "absl/strings/str_cat.h"
 #include "absl/strings/str_format.h"
 #include "absl/strings/str_split.h"
-#include "daemon/server/options.h"
 #include "daemon/server/health_options.h"
+#include "daemon/server/options.h"
 #include "gtest/gtest.h"
 #include "tests/testing/process.h"
 
@@ -129,9 +129,9 @@ TEST(ProductionFilesTest, AlertThresholdsRepeatTheConfig) {
 
   // Ledger queue: a share of the capacity plumbd exports, so it follows
   // whatever the config sets.
-  EXPECT_TRUE(absl::StrContains(
-      rules,
-      "plumbline_ledger_queue_rows / plumbline_ledger_queue_capacity_rows > 0.8"));
+  EXPECT_TRUE(absl::StrContains(rules,
+                                "plumbline_ledger_queue_rows / "
+                                "plumbline_ledger_queue_capacity_rows > 0.8"));
 }
 
 }  // namespace

@@ -40,10 +40,10 @@
 #include "google/protobuf/util/json_util.h"
 #include "gtest/gtest.h"
 #include "plumbline/v1/scoring.grpc.pb.h"
-#include "tests/testing/http.h"
-#include "tests/testing/health_test_sets.h"
-#include "tests/testing/process.h"
 #include "tests/ops/prometheus_server.h"
+#include "tests/testing/health_test_sets.h"
+#include "tests/testing/http.h"
+#include "tests/testing/process.h"
 
 namespace plumbline::ops {
 namespace {

@@ -46,10 +46,11 @@ absl::StatusOr<Reference> LoadReference(const std::string& path) {
   absl::StatusOr<google::protobuf::Struct> json = testing::ReadJsonFile(path);
   if (!json.ok()) return json.status();
   const auto& fields = json->fields();
-  for (const char* key : {"feature_names", "intercept", "X", "log_loss",
-                          "sklearn_version"}) {
+  for (const char* key :
+       {"feature_names", "intercept", "X", "log_loss", "sklearn_version"}) {
     if (!fields.contains(key)) {
-      return absl::InvalidArgumentError(absl::StrCat(path, ": no \"", key, "\""));
+      return absl::InvalidArgumentError(
+          absl::StrCat(path, ": no \"", key, "\""));
     }
   }
   Reference ref;
@@ -62,8 +63,9 @@ absl::StatusOr<Reference> LoadReference(const std::string& path) {
                           {"predict_proba", &ref.proba},
                           {"decision_function", &ref.decision}}) {
     absl::StatusOr<std::vector<double>> list = testing::NumberList(*json, key);
-    if (!list.ok()) return absl::InvalidArgumentError(
-        absl::StrCat(path, ": ", list.status().message()));
+    if (!list.ok())
+      return absl::InvalidArgumentError(
+          absl::StrCat(path, ": ", list.status().message()));
     *out = *std::move(list);
   }
   absl::StatusOr<std::vector<double>> y = testing::NumberList(*json, "y");
@@ -79,9 +81,8 @@ absl::StatusOr<Reference> LoadReference(const std::string& path) {
   for (int i = 0; i < rows.size(); ++i) {
     const auto& row = rows[i].list_value().values();
     if (row.size() != cols) {
-      return absl::InvalidArgumentError(
-          absl::StrCat(path, ": X[", i, "] has ", row.size(), " values, want ",
-                       cols));
+      return absl::InvalidArgumentError(absl::StrCat(
+          path, ": X[", i, "] has ", row.size(), " values, want ", cols));
     }
     for (int j = 0; j < cols; ++j) ref.x(i, j) = row[j].number_value();
   }
@@ -203,8 +204,8 @@ TEST_F(BreastCancerReferenceTest, JsonRoundTripKeepsEveryProbability) {
       scorer::ParseCoefficientSet(*json, "round trip");
   ASSERT_TRUE(parsed.ok()) << parsed.status();
   // Every double must survive the JSON text exactly.
-  EXPECT_TRUE(google::protobuf::util::MessageDifferencer::Equals(
-      *parsed, plan_->set()));
+  EXPECT_TRUE(google::protobuf::util::MessageDifferencer::Equals(*parsed,
+                                                                 plan_->set()));
   absl::StatusOr<std::shared_ptr<const ScoringPlan>> reloaded =
       ScoringPlan::Compile(*std::move(parsed), "round trip");
   ASSERT_TRUE(reloaded.ok()) << reloaded.status();

@@ -30,8 +30,8 @@ TEST(CoefficientSetTest, ParsesAValidSet) {
 }
 
 TEST(CoefficientSetTest, RejectsUnknownFieldsAndNamesTheSource) {
-  auto set = ParseCoefficientSet(R"({"name": "a", "version": "1", "colour": 3})",
-                                 "sets/a.json");
+  auto set = ParseCoefficientSet(
+      R"({"name": "a", "version": "1", "colour": 3})", "sets/a.json");
   ASSERT_FALSE(set.ok());
   EXPECT_EQ(set.status().code(), absl::StatusCode::kInvalidArgument);
   EXPECT_THAT(set.status().message(), HasSubstr("sets/a.json"));
@@ -48,7 +48,8 @@ TEST(CoefficientSetTest, MissingFileIsNotFound) {
   auto set = ReadCoefficientSetFile("/nonexistent/plumbline/set.json");
   ASSERT_FALSE(set.ok());
   EXPECT_EQ(set.status().code(), absl::StatusCode::kNotFound);
-  EXPECT_THAT(set.status().message(), HasSubstr("/nonexistent/plumbline/set.json"));
+  EXPECT_THAT(set.status().message(),
+              HasSubstr("/nonexistent/plumbline/set.json"));
 }
 
 TEST(CoefficientSetTest, ReadsAFileAndRoundTripsExactly) {
@@ -107,55 +108,70 @@ v1::BinnedTransform* Bin(v1::CoefficientSet& s) {
 INSTANTIATE_TEST_SUITE_P(
     Table, ValidationTest,
     ::testing::Values(
-        ValidationCase{"empty name", [](auto& s) { s.set_name(""); }, "name: must be"},
-        ValidationCase{"bad name", [](auto& s) { s.set_name("a b"); }, "name: must be"},
+        ValidationCase{"empty name", [](auto& s) { s.set_name(""); },
+                       "name: must be"},
+        ValidationCase{"bad name", [](auto& s) { s.set_name("a b"); },
+                       "name: must be"},
         ValidationCase{"no version", [](auto& s) { s.set_version(""); },
                        "version: must not be empty"},
         ValidationCase{"NaN intercept", [](auto& s) { s.set_intercept(kNaN); },
                        "intercept: must be a finite number"},
-        ValidationCase{"duplicate feature",
-                       [](auto& s) { s.mutable_features(1)->set_name("distance_km"); },
-                       "features[1].name: feature \"distance_km\" is defined twice"},
+        ValidationCase{
+            "duplicate feature",
+            [](auto& s) { s.mutable_features(1)->set_name("distance_km"); },
+            "features[1].name: feature \"distance_km\" is defined twice"},
         ValidationCase{"empty feature name",
                        [](auto& s) { s.mutable_features(1)->set_name(""); },
                        "features[1].name: must not be empty"},
-        ValidationCase{"reserved name",
-                       [](auto& s) { s.mutable_features(1)->set_name("record_id"); },
-                       "features[1].name: \"record_id\" is reserved"},
-        ValidationCase{"no transform",
-                       [](auto& s) { s.mutable_features(4)->clear_transform(); },
-                       "features[4]: needs one transform"},
+        ValidationCase{
+            "reserved name",
+            [](auto& s) { s.mutable_features(1)->set_name("record_id"); },
+            "features[1].name: \"record_id\" is reserved"},
+        ValidationCase{
+            "no transform",
+            [](auto& s) { s.mutable_features(4)->clear_transform(); },
+            "features[4]: needs one transform"},
         ValidationCase{"zero scale", [](auto& s) { Num(s, 0)->set_scale(0); },
                        "features[0].numeric.scale: must be > 0, got 0"},
-        ValidationCase{"negative scale", [](auto& s) { Num(s, 0)->set_scale(-2); },
+        ValidationCase{"negative scale",
+                       [](auto& s) { Num(s, 0)->set_scale(-2); },
                        "features[0].numeric.scale: must be > 0"},
-        ValidationCase{"inf centre", [](auto& s) { Num(s, 0)->set_center(kInf); },
+        ValidationCase{"inf centre",
+                       [](auto& s) { Num(s, 0)->set_center(kInf); },
                        "features[0].numeric.center: must be a finite number"},
-        ValidationCase{"NaN coefficient",
-                       [](auto& s) { Num(s, 4)->set_coefficient(kNaN); },
-                       "features[4].numeric.coefficient: must be a finite number"},
+        ValidationCase{
+            "NaN coefficient",
+            [](auto& s) { Num(s, 4)->set_coefficient(kNaN); },
+            "features[4].numeric.coefficient: must be a finite number"},
         ValidationCase{"clip bounds reversed",
                        [](auto& s) { Num(s, 0)->set_clip_high(-1); },
                        "features[0].numeric.clip_high: must be >= clip_low"},
-        ValidationCase{"no levels", [](auto& s) { Cat(s)->clear_levels(); },
-                       "features[2].categorical.levels: must list at least one level"},
-        ValidationCase{"empty level",
-                       [](auto& s) { Cat(s)->mutable_levels(1)->set_value(""); },
-                       "features[2].categorical.levels[1].value: must not be empty"},
-        ValidationCase{"duplicate level",
-                       [](auto& s) { Cat(s)->mutable_levels(2)->set_value("flat"); },
-                       "features[2].categorical.levels[2].value: level \"flat\" is listed twice"},
-        ValidationCase{"unknown reference level",
-                       [](auto& s) { Cat(s)->set_reference_level("barn"); },
-                       "features[2].categorical.reference_level: \"barn\" is not"},
-        ValidationCase{"impute level not a level",
-                       [](auto& s) {
-                         s.mutable_features(2)->mutable_missing()->set_impute_level("barn");
-                       },
-                       "features[2].missing.impute_level: \"barn\" is not"},
-        ValidationCase{"unsorted edges",
-                       [](auto& s) { Bin(s)->set_edges(1, 8); },
-                       "features[3].binned.edges[1]: edges must be strictly increasing"},
+        ValidationCase{
+            "no levels", [](auto& s) { Cat(s)->clear_levels(); },
+            "features[2].categorical.levels: must list at least one level"},
+        ValidationCase{
+            "empty level",
+            [](auto& s) { Cat(s)->mutable_levels(1)->set_value(""); },
+            "features[2].categorical.levels[1].value: must not be empty"},
+        ValidationCase{
+            "duplicate level",
+            [](auto& s) { Cat(s)->mutable_levels(2)->set_value("flat"); },
+            "features[2].categorical.levels[2].value: level \"flat\" is listed "
+            "twice"},
+        ValidationCase{
+            "unknown reference level",
+            [](auto& s) { Cat(s)->set_reference_level("barn"); },
+            "features[2].categorical.reference_level: \"barn\" is not"},
+        ValidationCase{
+            "impute level not a level",
+            [](auto& s) {
+              s.mutable_features(2)->mutable_missing()->set_impute_level(
+                  "barn");
+            },
+            "features[2].missing.impute_level: \"barn\" is not"},
+        ValidationCase{
+            "unsorted edges", [](auto& s) { Bin(s)->set_edges(1, 8); },
+            "features[3].binned.edges[1]: edges must be strictly increasing"},
         ValidationCase{"equal edges", [](auto& s) { Bin(s)->set_edges(1, 9); },
                        "features[3].binned.edges[1]"},
         ValidationCase{"no edges",
@@ -165,17 +181,21 @@ INSTANTIATE_TEST_SUITE_P(
                          Bin(s)->add_coefficients(1);
                        },
                        "features[3].binned.edges: must list at least one edge"},
-        ValidationCase{"too few bin coefficients",
-                       [](auto& s) { Bin(s)->mutable_coefficients()->RemoveLast(); },
-                       "features[3].binned.coefficients: needs 3 values"},
-        ValidationCase{"NaN impute number",
-                       [](auto& s) {
-                         s.mutable_features(0)->mutable_missing()->set_impute_number(kNaN);
-                       },
-                       "features[0].missing.impute_number: must be a finite number"},
+        ValidationCase{
+            "too few bin coefficients",
+            [](auto& s) { Bin(s)->mutable_coefficients()->RemoveLast(); },
+            "features[3].binned.coefficients: needs 3 values"},
+        ValidationCase{
+            "NaN impute number",
+            [](auto& s) {
+              s.mutable_features(0)->mutable_missing()->set_impute_number(kNaN);
+            },
+            "features[0].missing.impute_number: must be a finite number"},
         ValidationCase{"inf indicator",
                        [](auto& s) {
-                         s.mutable_features(1)->mutable_missing()->set_indicator_coefficient(kInf);
+                         s.mutable_features(1)
+                             ->mutable_missing()
+                             ->set_indicator_coefficient(kInf);
                        },
                        "features[1].missing.indicator_coefficient"},
         ValidationCase{"baseline proportions count",
@@ -195,10 +215,12 @@ INSTANTIATE_TEST_SUITE_P(
                        "features[0].baseline.proportions: must sum to 1"},
         ValidationCase{"baseline level share out of range",
                        [](auto& s) {
-                         (*s.mutable_features(2)->mutable_baseline()
+                         (*s.mutable_features(2)
+                               ->mutable_baseline()
                                ->mutable_level_proportions())["flat"] = 1.5;
                        },
-                       "features[2].baseline.level_proportions[\"flat\"]: must be in [0, 1]"},
+                       "features[2].baseline.level_proportions[\"flat\"]: must "
+                       "be in [0, 1]"},
         ValidationCase{"baseline max below min",
                        [](auto& s) {
                          auto* b = s.mutable_features(0)->mutable_baseline();
@@ -222,7 +244,9 @@ INSTANTIATE_TEST_SUITE_P(
       bool upper = true;
       for (const char* p = info.param.what; *p != '\0'; ++p) {
         if (std::isalnum(static_cast<unsigned char>(*p))) {
-          name += upper ? static_cast<char>(std::toupper(static_cast<unsigned char>(*p))) : *p;
+          name += upper ? static_cast<char>(
+                              std::toupper(static_cast<unsigned char>(*p)))
+                        : *p;
           upper = false;
         } else {
           upper = true;

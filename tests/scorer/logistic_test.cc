@@ -19,7 +19,8 @@ void ExpectClose(double expected, double actual, double x, const char* what) {
 TEST(LogisticTest, MatchesScipyFromMinus1000To1000) {
   // Reference: SciPy scipy.special.expit and scipy.special.log_expit, written
   // by tests/scorer/logistic_reference.py in the same ctest run.
-  const std::string path = testing::ReferencePathFromEnv("PLUMBLINE_LOGISTIC_REF");
+  const std::string path =
+      testing::ReferencePathFromEnv("PLUMBLINE_LOGISTIC_REF");
   auto ref = testing::ReadJsonFile(path);
   ASSERT_TRUE(ref.ok()) << ref.status();
   auto x = testing::NumberList(*ref, "x");

@@ -187,12 +187,13 @@ TEST_F(ScoringPlanTest, ReasonsAgainstTheReferencePoint) {
 
 TEST_F(ScoringPlanTest, DenseMatchesNamedIncludingMissingAndLevels) {
   // Columns in a shuffled order, building as level index, weight absent.
-  // column_of_feature: distance->2, weight->absent, building->0, hour->1, rain->3
+  // column_of_feature: distance->2, weight->absent, building->0, hour->1,
+  // rain->3
   const std::vector<int> column_of_feature = {2, -1, 0, 1, 3};
   RowMatrix raw(3, 4);
-  raw << 1, 18, 9, 3,     // flat
-         2, 8, 100, 0,    // office, clipped distance
-         0, 12, kNaN, 1;  // house, distance missing (NaN) -> impute
+  raw << 1, 18, 9, 3,  // flat
+      2, 8, 100, 0,    // office, clipped distance
+      0, 12, kNaN, 1;  // house, distance missing (NaN) -> impute
   Eigen::VectorXd lo(3), p(3);
   DenseOptions options{.nan_is_missing = true};
   ASSERT_TRUE(plan_->ScoreDense(raw, column_of_feature, options, lo, p).ok());
@@ -217,16 +218,17 @@ TEST_F(ScoringPlanTest, DenseMatchesNamedIncludingMissingAndLevels) {
 TEST_F(ScoringPlanTest, DenseRefusesNaNUnlessAskedAndBadLevelIndex) {
   const std::vector<int> identity = {0, 1, 2, 3, 4};
   RowMatrix raw(2, 5);
-  raw << 9, 2, 1, 18, 3,
-         9, 2, 1, 18, kNaN;
+  raw << 9, 2, 1, 18, 3, 9, 2, 1, 18, kNaN;
   Eigen::VectorXd lo(2), p(2);
   absl::Status st = plan_->ScoreDense(raw, identity, {}, lo, p);
   EXPECT_EQ(st.code(), absl::StatusCode::kInvalidArgument);
-  EXPECT_THAT(st.message(), HasSubstr("rows[1]: feature 'rain_mm': value is NaN"));
+  EXPECT_THAT(st.message(),
+              HasSubstr("rows[1]: feature 'rain_mm': value is NaN"));
   raw(1, 4) = 3;
   raw(1, 2) = 3;  // only 3 levels
   st = plan_->ScoreDense(raw, identity, {}, lo, p);
-  EXPECT_THAT(st.message(), HasSubstr("rows[1]: feature 'building': level index"));
+  EXPECT_THAT(st.message(),
+              HasSubstr("rows[1]: feature 'building': level index"));
   raw(1, 2) = 0.5;
   st = plan_->ScoreDense(raw, identity, {}, lo, p);
   EXPECT_THAT(st.message(), HasSubstr("level index must be an integer"));

@@ -23,12 +23,11 @@ constexpr char kFeatures[] = R"json(
 }  // namespace
 
 std::string BaselineSetJson(absl::string_view name, absl::string_view version) {
-  const std::string features = absl::StrFormat(
-      kFeatures,
-      R"json(,
+  const std::string features = absl::StrFormat(kFeatures,
+                                               R"json(,
      "baseline": {"edges": [2, 5], "proportions": [0.3, 0.4, 0.3],
                   "min": 0, "max": 20})json",
-      R"json(,
+                                               R"json(,
      "baseline": {"levelProportions": {"urban": 0.6, "rural": 0.4}})json");
   return absl::StrFormat(R"json({
   "name": "%s", "version": "%s", "intercept": -1,
@@ -47,7 +46,8 @@ std::string BareSetJson(absl::string_view name, absl::string_view version) {
                          name, version, absl::StrFormat(kFeatures, "", ""));
 }
 
-std::shared_ptr<const scorer::ScoringPlan> CompilePlan(const std::string& json) {
+std::shared_ptr<const scorer::ScoringPlan> CompilePlan(
+    const std::string& json) {
   absl::StatusOr<v1::CoefficientSet> set =
       scorer::ParseCoefficientSet(json, "test set");
   EXPECT_TRUE(set.ok()) << set.status();

@@ -27,7 +27,8 @@ absl::StatusOr<std::string> HttpGet(const std::string& host_port,
   curl_easy_setopt(curl, CURLOPT_URL, url.c_str());
   curl_easy_setopt(curl, CURLOPT_WRITEFUNCTION, &Append);
   curl_easy_setopt(curl, CURLOPT_WRITEDATA, &body);
-  curl_easy_setopt(curl, CURLOPT_TIMEOUT, 30L);  // safety net, not a speed check
+  curl_easy_setopt(curl, CURLOPT_TIMEOUT,
+                   30L);  // safety net, not a speed check
   const CURLcode rc = curl_easy_perform(curl);
   long status = 0;
   curl_easy_getinfo(curl, CURLINFO_RESPONSE_CODE, &status);
@@ -54,7 +55,8 @@ std::vector<Sample> ParseExposition(absl::string_view text) {
       s.name = std::string(line.substr(0, brace));
       const size_t close = line.rfind('}');
       absl::string_view labels = line.substr(brace + 1, close - brace - 1);
-      for (absl::string_view pair : absl::StrSplit(labels, "\",", absl::SkipEmpty())) {
+      for (absl::string_view pair :
+           absl::StrSplit(labels, "\",", absl::SkipEmpty())) {
         const size_t eq = pair.find("=\"");
         if (eq == absl::string_view::npos) continue;
         absl::string_view value = pair.substr(eq + 2);

@@ -17,7 +17,8 @@ absl::StatusOr<google::protobuf::Struct> ReadJsonFile(const std::string& path) {
   std::ostringstream text;
   text << in.rdbuf();
   google::protobuf::Struct object;
-  const auto st = google::protobuf::util::JsonStringToMessage(text.str(), &object);
+  const auto st =
+      google::protobuf::util::JsonStringToMessage(text.str(), &object);
   if (!st.ok()) {
     return absl::InvalidArgumentError(
         absl::StrCat(path, ": ", st.message().as_string()));
@@ -34,7 +35,8 @@ absl::StatusOr<std::vector<double>> NumberList(
   std::vector<double> out;
   for (const auto& v : it->second.list_value().values()) {
     if (v.kind_case() != google::protobuf::Value::kNumberValue) {
-      return absl::InvalidArgumentError(absl::StrCat("\"", key, "\" holds a non-number"));
+      return absl::InvalidArgumentError(
+          absl::StrCat("\"", key, "\" holds a non-number"));
     }
     out.push_back(v.number_value());
   }

@@ -2,6 +2,8 @@
 #include "tests/testing/process.h"
 
 #include <fcntl.h>
+#include <grpcpp/create_channel.h>
+#include <grpcpp/security/credentials.h>
 #include <signal.h>
 #include <stdlib.h>
 #include <sys/prctl.h>
@@ -14,9 +16,6 @@
 #include <fstream>
 #include <sstream>
 #include <thread>
-
-#include <grpcpp/create_channel.h>
-#include <grpcpp/security/credentials.h>
 
 #include "absl/strings/match.h"
 #include "absl/strings/str_cat.h"
@@ -40,7 +39,8 @@ int DecodeStatus(int status) {
 absl::StatusOr<pid_t> Spawn(const std::vector<std::string>& argv,
                             const SpawnOptions& options) {
   std::vector<char*> args;
-  for (const std::string& arg : argv) args.push_back(const_cast<char*>(arg.c_str()));
+  for (const std::string& arg : argv)
+    args.push_back(const_cast<char*>(arg.c_str()));
   args.push_back(nullptr);
   // Everything the child needs is made before fork: between fork and exec
   // it makes only async-signal-safe calls (the test process has gRPC
@@ -57,13 +57,15 @@ absl::StatusOr<pid_t> Spawn(const std::vector<std::string>& argv,
   sigemptyset(&none);
   const pid_t parent = getpid();
   const pid_t pid = fork();
-  if (pid < 0) return absl::ErrnoToStatus(errno, absl::StrCat("cannot start ", argv[0]));
+  if (pid < 0)
+    return absl::ErrnoToStatus(errno, absl::StrCat("cannot start ", argv[0]));
   if (pid == 0) {
     // SIGKILL when the parent dies (a crashed test, or one ctest killed at
     // its timeout), so no plumbd or server outlives its test. The kernel
     // sends it when the forking *thread* ends: tests start children that
     // must outlive a call from their main thread.
-    if (prctl(PR_SET_PDEATHSIG, SIGKILL) != 0 || getppid() != parent) _exit(126);
+    if (prctl(PR_SET_PDEATHSIG, SIGKILL) != 0 || getppid() != parent)
+      _exit(126);
     const int in_fd = open("/dev/null", O_RDONLY);
     const int out_fd = open(out, flags, 0644);
     const int err_fd = same ? out_fd : open(err, flags, 0644);
@@ -74,7 +76,8 @@ absl::StatusOr<pid_t> Spawn(const std::vector<std::string>& argv,
     if (cwd != nullptr && chdir(cwd) != 0) _exit(126);
     // The default disposition and no blocked signals, whatever the test
     // process set (plumbd waits for SIGTERM and SIGHUP itself).
-    for (int sig : {SIGHUP, SIGTERM, SIGINT, SIGPIPE}) sigaction(sig, &dfl, nullptr);
+    for (int sig : {SIGHUP, SIGTERM, SIGINT, SIGPIPE})
+      sigaction(sig, &dfl, nullptr);
     sigprocmask(SIG_SETMASK, &none, nullptr);
     execv(args[0], args.data());
     _exit(127);
@@ -128,8 +131,10 @@ absl::StatusOr<ProcessResult> RunProcess(const std::vector<std::string>& argv,
                                          const std::string& scratch_dir) {
   static int counter = 0;
   ++counter;
-  const std::string out_path = absl::StrCat(scratch_dir, "/run", counter, ".out");
-  const std::string err_path = absl::StrCat(scratch_dir, "/run", counter, ".err");
+  const std::string out_path =
+      absl::StrCat(scratch_dir, "/run", counter, ".out");
+  const std::string err_path =
+      absl::StrCat(scratch_dir, "/run", counter, ".err");
   absl::StatusOr<pid_t> pid =
       Spawn(argv, {out_path, err_path, /*cwd=*/"", /*append=*/false});
   if (!pid.ok()) return pid.status();
@@ -169,12 +174,12 @@ absl::StatusOr<std::unique_ptr<PlumbdProcess>> PlumbdProcess::Start(
     return std::filesystem::exists(ready_file);
   });
   if (died || !ready) {
-    return absl::InternalError(absl::StrCat(
-        "plumbd did not become ready", died ? " (it exited)" : "",
-        "; its log:\n", process->Log()));
+    return absl::InternalError(absl::StrCat("plumbd did not become ready",
+                                            died ? " (it exited)" : "",
+                                            "; its log:\n", process->Log()));
   }
-  process->addr_ = std::string(
-      absl::StripAsciiWhitespace(ReadTextFile(ready_file)));
+  process->addr_ =
+      std::string(absl::StripAsciiWhitespace(ReadTextFile(ready_file)));
   return process;
 }
 

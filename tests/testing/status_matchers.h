@@ -107,15 +107,13 @@ inline auto IsOk() { return StatusIs(absl::StatusCode::kOk); }
 #define PLUMBLINE_STATUS_CONCAT_(a, b) PLUMBLINE_STATUS_CONCAT_INNER_(a, b)
 
 // Fails the test (and returns) unless `expr` (a Status or StatusOr) is OK.
-#define ASSERT_OK(expr) \
-  ASSERT_THAT((expr), ::plumbline::testing::IsOk())
-#define EXPECT_OK(expr) \
-  EXPECT_THAT((expr), ::plumbline::testing::IsOk())
+#define ASSERT_OK(expr) ASSERT_THAT((expr), ::plumbline::testing::IsOk())
+#define EXPECT_OK(expr) EXPECT_THAT((expr), ::plumbline::testing::IsOk())
 
 // `lhs` = the value of the StatusOr `rexpr`, or a fatal failure naming its
 // status. `lhs` may declare a variable: ASSERT_OK_AND_ASSIGN(auto x, F());
-#define ASSERT_OK_AND_ASSIGN(lhs, rexpr)                                   \
-  ASSERT_OK_AND_ASSIGN_IMPL_(                                              \
+#define ASSERT_OK_AND_ASSIGN(lhs, rexpr) \
+  ASSERT_OK_AND_ASSIGN_IMPL_(            \
       PLUMBLINE_STATUS_CONCAT_(plumbline_status_or_, __LINE__), lhs, rexpr)
 #define ASSERT_OK_AND_ASSIGN_IMPL_(statusor, lhs, rexpr) \
   auto statusor = (rexpr);                               \

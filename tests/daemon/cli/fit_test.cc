@@ -8,6 +8,8 @@
 // and scores its training rows. Failures must name the problem and write
 // nothing. In-process tests cover the CSV typing, the progress lines (with
 // a fake clock) and the default version.
+#include "daemon/cli/fit.h"
+
 #include <cmath>
 #include <filesystem>
 #include <map>
@@ -22,13 +24,12 @@
 #include "absl/time/civil_time.h"
 #include "daemon/csv/table.h"
 #include "daemon/csv/training.h"
-#include "daemon/cli/fit.h"
 #include "gmock/gmock.h"
 #include "gtest/gtest.h"
 #include "scorer/coefficient_set.h"
-#include "tests/testing/process.h"
 #include "tests/scorer/fit_test_data.h"
 #include "tests/testing/json_file.h"
+#include "tests/testing/process.h"
 
 namespace plumbline::daemon {
 namespace {
@@ -51,7 +52,8 @@ using Struct = google::protobuf::Struct;
 constexpr double kRelative = 1e-6;
 constexpr double kPrintedPValue = 1e-5;
 
-void ExpectRelative(double got, double want, double rel, const std::string& what) {
+void ExpectRelative(double got, double want, double rel,
+                    const std::string& what) {
   EXPECT_LE(std::abs(got - want), rel * std::abs(want))
       << what << ": got " << got << ", want " << want;
 }
@@ -89,7 +91,8 @@ double Statistic(const std::string& text, const std::string& label) {
 
 // Coefficients of a set by design-column name ("intercept", "x",
 // "region=rural"); reference levels (coefficient 0) are left out.
-std::map<std::string, double> CoefficientsByName(const v1::CoefficientSet& set) {
+std::map<std::string, double> CoefficientsByName(
+    const v1::CoefficientSet& set) {
   std::map<std::string, double> out = {{"intercept", set.intercept()}};
   for (const v1::Feature& f : set.features()) {
     if (f.has_numeric()) out[f.name()] = f.numeric().coefficient();
@@ -119,7 +122,8 @@ TrainingColumns Columns(std::string target, std::string weights = "",
 class FitCliTest : public ::testing::Test {
  protected:
   void SetUp() override {
-    ref_dir_ = plumbline::testing::ReferencePathFromEnv("PLUMBLINE_FIT_CLI_REF");
+    ref_dir_ =
+        plumbline::testing::ReferencePathFromEnv("PLUMBLINE_FIT_CLI_REF");
     absl::StatusOr<Struct> ref =
         plumbline::testing::ReadJsonFile(ref_dir_ + "/reference.json");
     ASSERT_TRUE(ref.ok()) << ref.status();
@@ -135,13 +139,14 @@ class FitCliTest : public ::testing::Test {
   // `plumbctl fit` on the reference file `csv`; the set goes to `out`.
   ProcessResult Fit(const std::string& csv, const std::string& out,
                     std::vector<std::string> extra) {
-    std::vector<std::string> args = {"fit", "--csv", ref_dir_ + "/" + csv,
-                                     "--out", out, "--name", "fitted"};
+    std::vector<std::string> args = {
+        "fit", "--csv", ref_dir_ + "/" + csv, "--out", out, "--name", "fitted"};
     args.insert(args.end(), extra.begin(), extra.end());
     return Plumbctl(args);
   }
   v1::CoefficientSet ReadSet(const std::string& path) {
-    absl::StatusOr<v1::CoefficientSet> set = scorer::ReadCoefficientSetFile(path);
+    absl::StatusOr<v1::CoefficientSet> set =
+        scorer::ReadCoefficientSetFile(path);
     EXPECT_TRUE(set.ok()) << set.status();
     return set.ok() ? *set : v1::CoefficientSet();
   }
@@ -167,9 +172,9 @@ class FitCliTest : public ::testing::Test {
 
 TEST_F(FitCliTest, SpectorMatchesStatsmodelsLogit) {
   const std::string out = dir_.File("spector.json");
-  const ProcessResult r = Fit("spector.csv", out,
-                              {"--target", "GRADE", "--features",
-                               "GPA,TUCE,PSI", "--version", "v1"});
+  const ProcessResult r = Fit(
+      "spector.csv", out,
+      {"--target", "GRADE", "--features", "GPA,TUCE,PSI", "--version", "v1"});
   ASSERT_EQ(r.exit_code, 0) << r.err;
   const Struct& std_ref = Section(Section(ref_, "spector"), "std");
   const Struct& raw_ref = Section(Section(ref_, "spector"), "raw");
@@ -251,9 +256,9 @@ TEST_F(FitCliTest, SpectorMatchesStatsmodelsLogit) {
 
 TEST_F(FitCliTest, WeightsMatchStatsmodelsGlmFrequencyWeights) {
   const std::string out = dir_.File("weighted.json");
-  const ProcessResult r = Fit("spector.csv", out,
-                              {"--target", "GRADE", "--features",
-                               "GPA,TUCE,PSI", "--weights", "w"});
+  const ProcessResult r = Fit(
+      "spector.csv", out,
+      {"--target", "GRADE", "--features", "GPA,TUCE,PSI", "--weights", "w"});
   ASSERT_EQ(r.exit_code, 0) << r.err;
   // statsmodels GLM(Binomial, freq_weights=w).params and .llf on the raw
   // spector columns.
@@ -272,7 +277,8 @@ TEST_F(FitCliTest, WeightsMatchStatsmodelsGlmFrequencyWeights) {
   ExpectRelative(Statistic(r.out, "log-likelihood"), Number(ref, "llf"),
                  kRelative, "llf");
   EXPECT_EQ(Statistic(r.out, "weight sum"), 63);  // sum of 1 + (i mod 3)
-  EXPECT_THAT(set.provenance().training_data(), HasSubstr("weights column 'w'"));
+  EXPECT_THAT(set.provenance().training_data(),
+              HasSubstr("weights column 'w'"));
 }
 
 TEST_F(FitCliTest, PlumbdLoadsTheSetAndScoresTheFittedProbabilities) {
@@ -284,8 +290,8 @@ TEST_F(FitCliTest, PlumbdLoadsTheSetAndScoresTheFittedProbabilities) {
                 .exit_code,
             0);
   absl::StatusOr<std::unique_ptr<PlumbdProcess>> plumbd = PlumbdProcess::Start(
-      dir_.path(), {"--sets", dir_.File("sets"), "--ledger",
-                    dir_.File("ledger.db")});
+      dir_.path(),
+      {"--sets", dir_.File("sets"), "--ledger", dir_.File("ledger.db")});
   ASSERT_TRUE(plumbd.ok()) << plumbd.status();
   const ProcessResult sets = Plumbctl({"sets", "--addr", (*plumbd)->addr()});
   ASSERT_EQ(sets.exit_code, 0) << sets.err;
@@ -296,9 +302,9 @@ TEST_F(FitCliTest, PlumbdLoadsTheSetAndScoresTheFittedProbabilities) {
       Plumbctl({"score", "--addr", (*plumbd)->addr(), "--set", "fitted",
                 "--csv", csv, "--out", dir_.File("online.csv")});
   ASSERT_EQ(online.exit_code, 0) << online.err;
-  const ProcessResult offline = Plumbctl({"score", "--set-file", set_file,
-                                          "--csv", csv, "--out",
-                                          dir_.File("offline.csv")});
+  const ProcessResult offline =
+      Plumbctl({"score", "--set-file", set_file, "--csv", csv, "--out",
+                dir_.File("offline.csv")});
   ASSERT_EQ(offline.exit_code, 0) << offline.err;
 
   // statsmodels Logit(GRADE ~ 1 + GPA + TUCE + PSI).predict() on the
@@ -329,7 +335,8 @@ TEST_F(FitCliTest, CategoricalColumnsAndL2MatchStatsmodelsAndScikitLearn) {
       {{"--categorical", "depot_code"}, "categorical_depot", true},
       // scikit-learn 1.2 LogisticRegression(penalty="l2", C=1/lambda,
       // solver="newton-cholesky", tol=1e-12)
-      {{"--categorical", "depot_code", "--l2", absl::StrCat(lambda)}, "l2",
+      {{"--categorical", "depot_code", "--l2", absl::StrCat(lambda)},
+       "l2",
        true}};
   for (const Case& c : cases) {
     SCOPED_TRACE(c.section);
@@ -365,7 +372,8 @@ TEST_F(FitCliTest, CategoricalColumnsAndL2MatchStatsmodelsAndScikitLearn) {
                      kRelative, names[j]);
     }
     if (c.section == "l2") {
-      EXPECT_EQ(set.provenance().method(), absl::StrCat("IRLS, L2 lambda=", lambda));
+      EXPECT_EQ(set.provenance().method(),
+                absl::StrCat("IRLS, L2 lambda=", lambda));
       EXPECT_THAT(r.out, HasSubstr("Standard errors, z and p-values are not "
                                    "reported for a penalised fit"));
       EXPECT_THAT(r.out, Not(HasSubstr("std_error")));
@@ -386,13 +394,19 @@ struct FailureCase {
 
 TEST_F(FitCliTest, FailuresNameTheProblemAndWriteNothing) {
   const std::vector<FailureCase> cases = {
-      {"missing_target", "x,y\n1,0\n2,1\n", {"--target", "failed"},
+      {"missing_target",
+       "x,y\n1,0\n2,1\n",
+       {"--target", "failed"},
        {"INVALID_ARGUMENT", "has no column 'failed' (named by --target)",
         "its columns are: x, y"}},
-      {"label_2", "x,y\n1,0\n2,2\n3,1\n", {"--target", "y"},
-       {"INVALID_ARGUMENT", "row 2 (line 3), column 'y': label '2' is not 0 or 1"}},
+      {"label_2",
+       "x,y\n1,0\n2,2\n3,1\n",
+       {"--target", "y"},
+       {"INVALID_ARGUMENT",
+        "row 2 (line 3), column 'y': label '2' is not 0 or 1"}},
       {"complete_separation",
-       "x,y\n1,0\n2,0\n3,0\n4,1\n5,1\n6,1\n", {"--target", "y"},
+       "x,y\n1,0\n2,0\n3,0\n4,1\n5,1\n6,1\n",
+       {"--target", "y"},
        {"FAILED_PRECONDITION", "complete separation: column 'x'", "--l2"}},
       {"quasi_separation",
        "distance_km,region,y\n1,urban,0\n2,urban,1\n3,urban,0\n4,urban,1\n"
@@ -401,20 +415,26 @@ TEST_F(FitCliTest, FailuresNameTheProblemAndWriteNothing) {
        {"--target", "y"},
        {"FAILED_PRECONDITION", "quasi-complete separation",
         "column 'region=rural'"}},
-      {"constant_column", "x,c,y\n1,5,0\n2,5,1\n3,5,0\n4,5,1\n",
+      {"constant_column",
+       "x,c,y\n1,5,0\n2,5,1\n3,5,0\n4,5,1\n",
        {"--target", "y"},
-       {"FAILED_PRECONDITION", "feature 'c' cannot be fitted: every training "
+       {"FAILED_PRECONDITION",
+        "feature 'c' cannot be fitted: every training "
         "value is 5"}},
       {"collinear_columns",
        "a,b,y\n1,3,0\n2,5,1\n3,7,0\n4,9,1\n5,11,1\n6,13,0\n",
        {"--target", "y"},
        {"FAILED_PRECONDITION", "columns 'a' and 'b' are collinear"}},
-      {"one_label", "x,y\n1,1\n2,1\n3,1\n", {"--target", "y"},
+      {"one_label",
+       "x,y\n1,1\n2,1\n3,1\n",
+       {"--target", "y"},
        {"FAILED_PRECONDITION", "all labels are 1"}},
-      {"negative_weight", "x,y,w\n1,0,1\n2,1,-1\n3,1,1\n",
+      {"negative_weight",
+       "x,y,w\n1,0,1\n2,1,-1\n3,1,1\n",
        {"--target", "y", "--weights", "w"},
        {"INVALID_ARGUMENT", "row 2 (line 3), column 'w': weight '-1'"}},
-      {"unknown_feature", "x,y\n1,0\n2,1\n",
+      {"unknown_feature",
+       "x,y\n1,0\n2,1\n",
        {"--target", "y", "--features", "x,z"},
        {"INVALID_ARGUMENT", "has no column 'z' (named by --features)"}},
   };
@@ -425,8 +445,8 @@ TEST_F(FitCliTest, FailuresNameTheProblemAndWriteNothing) {
     // An earlier set at --out must survive a failed fit untouched.
     const std::string out = dir_.File(c.name + ".json");
     ASSERT_TRUE(WriteTextFile(out, "earlier set").ok());
-    std::vector<std::string> args = {"fit", "--csv", csv, "--out", out,
-                                     "--name", "failing"};
+    std::vector<std::string> args = {"fit", "--csv",  csv,      "--out",
+                                     out,   "--name", "failing"};
     args.insert(args.end(), c.flags.begin(), c.flags.end());
     const ProcessResult r = Plumbctl(args);
     EXPECT_EQ(r.exit_code, 1) << r.err;
@@ -442,8 +462,8 @@ TEST_F(FitCliTest, FailuresNameTheProblemAndWriteNothing) {
 
 // In-process: the progress lines under a fake clock and the default version.
 TEST_F(FitCliTest, ProgressLinesAndDefaultVersionInProcess) {
-  const absl::Time t0 = absl::FromCivil(absl::CivilSecond(2026, 12, 2, 9, 30, 0),
-                                        absl::UTCTimeZone());
+  const absl::Time t0 = absl::FromCivil(
+      absl::CivilSecond(2026, 12, 2, 9, 30, 0), absl::UTCTimeZone());
   EXPECT_EQ(DefaultFitVersion(t0), "fit-20261202T093000Z");
   for (const FitProgressLines mode :
        {FitProgressLines::kAlways, FitProgressLines::kAfterOneSecond,
@@ -496,7 +516,8 @@ TEST(CsvTrainingTest, InfersKindsAndRoles) {
   absl::StatusOr<TrainingData> data = TrainingDataFromCsv(
       *table, Columns("failed", "w", {}, {"code"}), "t.csv");
   ASSERT_TRUE(data.ok()) << data.status();
-  ASSERT_EQ(data->specs.size(), 3u);  // record_id, w and failed are not features
+  ASSERT_EQ(data->specs.size(),
+            3u);  // record_id, w and failed are not features
   EXPECT_EQ(data->specs[0].name, "distance_km");
   EXPECT_EQ(data->specs[0].kind, scorer::FeatureKind::kNumeric);
   EXPECT_EQ(data->specs[1].kind, scorer::FeatureKind::kCategorical);
@@ -509,16 +530,16 @@ TEST(CsvTrainingTest, InfersKindsAndRoles) {
 
   EXPECT_THAT(SplitColumnList(" a, b ,,c"),
               ::testing::ElementsAre("a", "b", "c"));
-  absl::StatusOr<TrainingData> two_roles = TrainingDataFromCsv(
-      *table, Columns("failed", "", {"failed"}), "t.csv");
+  absl::StatusOr<TrainingData> two_roles =
+      TrainingDataFromCsv(*table, Columns("failed", "", {"failed"}), "t.csv");
   EXPECT_THAT(two_roles.status().message(),
               HasSubstr("'failed' is the target column"));
   absl::StatusOr<TrainingData> not_feature = TrainingDataFromCsv(
       *table, Columns("failed", "", {"region"}, {"code"}), "t.csv");
   EXPECT_THAT(not_feature.status().message(),
               HasSubstr("'code', which is not a feature"));
-  absl::StatusOr<TrainingData> text_weight = TrainingDataFromCsv(
-      *table, Columns("failed", "region"), "t.csv");
+  absl::StatusOr<TrainingData> text_weight =
+      TrainingDataFromCsv(*table, Columns("failed", "region"), "t.csv");
   EXPECT_THAT(text_weight.status().message(),
               HasSubstr("row 1 (line 2), column 'region': weight 'urban'"));
 }

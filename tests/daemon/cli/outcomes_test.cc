@@ -4,13 +4,12 @@
 // the counts, the refusal listing (capped on the terminal, complete in
 // --refusals_out), exit codes for a file of the wrong shape (2) and an
 // unreachable daemon (1).
+#include <grpcpp/client_context.h>
 #include <signal.h>
 
 #include <filesystem>
 #include <string>
 #include <vector>
-
-#include <grpcpp/client_context.h>
 
 #include "absl/strings/match.h"
 #include "absl/strings/str_cat.h"
@@ -26,10 +25,10 @@ namespace {
 
 using ::testing::HasSubstr;
 using ::testing::Not;
-using ::testing::StartsWith;
 using testing::PlumbdProcess;
 using testing::ProcessResult;
 using testing::ReadTextFile;
+using ::testing::StartsWith;
 using testing::TempDir;
 using testing::WriteTextFile;
 
@@ -100,7 +99,8 @@ TEST_F(PlumbctlOutcomesTest, ReportsCountsAndListsRefusals) {
   EXPECT_THAT(lines[2], StartsWith("ghost-1 "));
   EXPECT_THAT(lines[2], HasSubstr("NOT_FOUND"));
   EXPECT_THAT(lines[2], HasSubstr("no score with record_id 'ghost-1'"));
-  EXPECT_THAT(run.out, HasSubstr("... and 5 more in " + dir_.File("refused.csv")));
+  EXPECT_THAT(run.out,
+              HasSubstr("... and 5 more in " + dir_.File("refused.csv")));
   EXPECT_THAT(run.out, Not(HasSubstr("ghost-21")));  // beyond the 20 listed
 
   absl::StatusOr<CsvTable> refused =
@@ -135,8 +135,8 @@ TEST_F(PlumbctlOutcomesTest, WrongShapeIsAUsageErrorAndDeadDaemonExit1) {
   EXPECT_EQ(run.exit_code, 2);
   EXPECT_THAT(run.err, HasSubstr("unexpected column(s) 'channel', 'weight'"));
 
-  ASSERT_TRUE(WriteTextFile(dir_.File("ok.csv"), "record_id,label\no-1,1\n")
-                  .ok());
+  ASSERT_TRUE(
+      WriteTextFile(dir_.File("ok.csv"), "record_id,label\no-1,1\n").ok());
   run = Plumbctl({"outcomes", "--csv", dir_.File("ok.csv")});
   ASSERT_EQ(run.exit_code, 0) << run.err;
   EXPECT_EQ(run.out, "accepted 1, refused 0\n");
@@ -145,9 +145,8 @@ TEST_F(PlumbctlOutcomesTest, WrongShapeIsAUsageErrorAndDeadDaemonExit1) {
   const std::string addr = plumbd_->addr();
   plumbd_->Signal(SIGKILL);
   ASSERT_TRUE(plumbd_->WaitForExit().ok());
-  run = Plumbctl({"--timeout_ms", "3000", "outcomes", "--csv",
-                  dir_.File("ok.csv")},
-                 addr);
+  run = Plumbctl(
+      {"--timeout_ms", "3000", "outcomes", "--csv", dir_.File("ok.csv")}, addr);
   EXPECT_EQ(run.exit_code, 1);
   EXPECT_THAT(run.err, HasSubstr("plumbctl: UNAVAILABLE: "));
   EXPECT_THAT(run.out, StartsWith("accepted 0, refused 0\n"));
@@ -164,7 +163,8 @@ TEST_F(PlumbctlOutcomesTest, OneOutcome) {
   EXPECT_EQ(run.out, "accepted (the same label had been recorded before)\n");
   run = Plumbctl({"outcome", "--record_id", "o-5", "--label", "0"});
   EXPECT_EQ(run.exit_code, 1);
-  EXPECT_THAT(run.err, HasSubstr("plumbctl: FAILED_PRECONDITION: record 'o-5'"));
+  EXPECT_THAT(run.err,
+              HasSubstr("plumbctl: FAILED_PRECONDITION: record 'o-5'"));
   run = Plumbctl({"outcome", "--record_id", "nobody", "--label", "0"});
   EXPECT_EQ(run.exit_code, 1);
   EXPECT_THAT(run.err, HasSubstr("plumbctl: NOT_FOUND: "));

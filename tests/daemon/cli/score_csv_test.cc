@@ -46,7 +46,8 @@ class PlumbctlCsvTest : public ::testing::Test {
     std::filesystem::create_directory(dir_.File("sets"));
     set_file_ = dir_.File("sets/courier.json");
     ASSERT_TRUE(
-        WriteTextFile(set_file_, testing::CourierSetJson("courier", "v1")).ok());
+        WriteTextFile(set_file_, testing::CourierSetJson("courier", "v1"))
+            .ok());
     absl::StatusOr<std::unique_ptr<PlumbdProcess>> plumbd =
         PlumbdProcess::Start(dir_.path(), {"--sets", dir_.File("sets"),
                                            "--ledger", dir_.File("ledger.db")});
@@ -63,16 +64,16 @@ class PlumbctlCsvTest : public ::testing::Test {
   }
   ProcessResult Online(const std::string& csv, const std::string& out,
                        std::vector<std::string> extra = {}) {
-    std::vector<std::string> args = {"score", "--addr", plumbd_->addr(),
-                                     "--set", "courier", "--csv", csv,
-                                     "--out", out};
+    std::vector<std::string> args = {"score", "--addr",  plumbd_->addr(),
+                                     "--set", "courier", "--csv",
+                                     csv,     "--out",   out};
     args.insert(args.end(), extra.begin(), extra.end());
     return Plumbctl(args);
   }
   ProcessResult Offline(const std::string& csv, const std::string& out,
                         std::vector<std::string> extra = {}) {
-    std::vector<std::string> args = {"score", "--set-file", set_file_,
-                                     "--csv", csv, "--out", out};
+    std::vector<std::string> args = {"score", "--set-file", set_file_, "--csv",
+                                     csv,     "--out",      out};
     args.insert(args.end(), extra.begin(), extra.end());
     return Plumbctl(args);
   }
@@ -94,8 +95,8 @@ TEST_F(PlumbctlCsvTest, OnlineAndOfflineGiveIdenticalText) {
       Online(csv, dir_.File("online.csv"), {"--batch", "3", "--reasons", "2"});
   ASSERT_EQ(online.exit_code, 0) << online.err;
   EXPECT_THAT(online.err, HasSubstr("scored 7 records in 3 batches"));
-  const ProcessResult offline =
-      Offline(csv, dir_.File("offline.csv"), {"--batch", "3", "--reasons", "2"});
+  const ProcessResult offline = Offline(csv, dir_.File("offline.csv"),
+                                        {"--batch", "3", "--reasons", "2"});
   ASSERT_EQ(offline.exit_code, 0) << offline.err;
   EXPECT_THAT(offline.err, HasSubstr("scored 7 records in 3 batches"));
 
@@ -129,9 +130,9 @@ TEST_F(PlumbctlCsvTest, GeneratedIdsWhenThereIsNoRecordIdColumn) {
   ASSERT_EQ(Offline(csv, dir_.File("offline.csv")).exit_code, 0);
   const CsvTable online = ReadCsv(dir_.File("online.csv"));
   const CsvTable offline = ReadCsv(dir_.File("offline.csv"));
-  EXPECT_THAT(online.header, ElementsAre("distance_km", "region", "hour",
-                                         "record_id", "log_odds",
-                                         "probability"));
+  EXPECT_THAT(online.header,
+              ElementsAre("distance_km", "region", "hour", "record_id",
+                          "log_odds", "probability"));
   ASSERT_EQ(online.rows.size(), 2u);
   ASSERT_EQ(offline.rows.size(), 2u);
   for (size_t r = 0; r < 2; ++r) {
@@ -176,8 +177,8 @@ TEST_F(PlumbctlCsvTest, RecordTheDaemonRefusesFailsTheRunWritingNothing) {
 TEST_F(PlumbctlCsvTest, ScoreJsonAndSetsAndErrors) {
   const ProcessResult score = Plumbctl(
       {"score", "--addr", plumbd_->addr(), "--set", "courier", "--json",
-       R"({"distance_km": 9, "region": "rural", "hour": 18})",
-       "--record_id", "j-1", "--reasons", "2"});
+       R"({"distance_km": 9, "region": "rural", "hour": 18})", "--record_id",
+       "j-1", "--reasons", "2"});
   ASSERT_EQ(score.exit_code, 0) << score.err;
   EXPECT_THAT(score.out, HasSubstr("record_id    j-1"));
   EXPECT_THAT(score.out, HasSubstr("version      v1"));
@@ -193,8 +194,9 @@ TEST_F(PlumbctlCsvTest, ScoreJsonAndSetsAndErrors) {
   const ProcessResult unknown = Plumbctl(
       {"score", "--addr", plumbd_->addr(), "--set", "nope", "--json", "{}"});
   EXPECT_EQ(unknown.exit_code, 1);
-  EXPECT_THAT(unknown.err,
-              HasSubstr("plumbctl: NOT_FOUND: no coefficient set named 'nope'"));
+  EXPECT_THAT(
+      unknown.err,
+      HasSubstr("plumbctl: NOT_FOUND: no coefficient set named 'nope'"));
 
   const ProcessResult usage = Plumbctl({"score", "--json", "{}"});
   EXPECT_EQ(usage.exit_code, 2);

@@ -41,8 +41,8 @@ TEST(ParseObservedAtTest, AcceptsRfc3339AndUnixSeconds) {
             absl::FromUnixSeconds(kDecember1At0830Utc));
   EXPECT_EQ(*ParseObservedAt(" 1796113800.25 "),
             absl::FromUnixMillis(kDecember1At0830Utc * 1000 + 250));
-  for (const char* bad : {"", "yesterday", "2026-12-01", "2026-13-01T00:00:00Z",
-                          "nan", "inf"}) {
+  for (const char* bad :
+       {"", "yesterday", "2026-12-01", "2026-13-01T00:00:00Z", "nan", "inf"}) {
     EXPECT_EQ(ParseObservedAt(bad).status().code(),
               absl::StatusCode::kInvalidArgument)
         << bad;
@@ -67,15 +67,15 @@ TEST(SetObservedAtTest, SplitsSecondsAndNanosRoundingDown) {
 
 TEST(ReadOutcomesCsvTest, ChecksRowsAndRefusesBadOnesLocally) {
   TempDir dir;
-  absl::StatusOr<OutcomesCsv> csv = ReadText(
-      dir,
-      "record_id,label,observed_at\n"  // line 1
-      "p-1,1,2026-12-01T08:30:00Z\n"   // 2
-      "p-2,0,\n"                       // 3: observed_at empty = unset
-      ",1,\n"                          // 4: no id
-      "p-4,yes,\n"                     // 5: bad label
-      "p-5,1,last tuesday\n"           // 6: bad time
-      "\"p,6\",0,1796113800\n");       // 7: quoted id with a comma
+  absl::StatusOr<OutcomesCsv> csv =
+      ReadText(dir,
+               "record_id,label,observed_at\n"  // line 1
+               "p-1,1,2026-12-01T08:30:00Z\n"   // 2
+               "p-2,0,\n"                       // 3: observed_at empty = unset
+               ",1,\n"                          // 4: no id
+               "p-4,yes,\n"                     // 5: bad label
+               "p-5,1,last tuesday\n"           // 6: bad time
+               "\"p,6\",0,1796113800\n");       // 7: quoted id with a comma
   ASSERT_TRUE(csv.ok()) << csv.status();
   ASSERT_EQ(csv->outcomes.size(), 3u);
   EXPECT_THAT(csv->lines, ElementsAre(2, 3, 7));
@@ -108,7 +108,8 @@ TEST(ReadOutcomesCsvTest, FileOfTheWrongShapeIsInvalidArgumentNamingIt) {
 
   // No header: the first record is taken as one and its names are unknown.
   csv = ReadText(dir, "p-1,1\np-2,0\n");
-  EXPECT_THAT(csv.status().message(), HasSubstr("unexpected column(s) 'p-1', '1'"));
+  EXPECT_THAT(csv.status().message(),
+              HasSubstr("unexpected column(s) 'p-1', '1'"));
 
   csv = ReadOutcomesCsv(dir.File("absent.csv"));
   EXPECT_EQ(csv.status().code(), absl::StatusCode::kNotFound);
@@ -167,7 +168,8 @@ TEST(ReportOutcomesCsvTest, StopsAtTheFirstFailedCallSayingWhere) {
   };
   const OutcomesCsvRun run = ReportOutcomesCsv(*csv, 2, sender);
   EXPECT_EQ(run.status.code(), absl::StatusCode::kUnavailable);
-  EXPECT_THAT(run.status.message(), HasSubstr("lines 4..5: connection refused"));
+  EXPECT_THAT(run.status.message(),
+              HasSubstr("lines 4..5: connection refused"));
   EXPECT_EQ(run.first_unsent_line, 4);
   EXPECT_EQ(run.accepted, 2);
   EXPECT_EQ(calls, 2);

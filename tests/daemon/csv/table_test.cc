@@ -49,7 +49,8 @@ TEST(ParseCsvTest, ErrorsNameFileAndLine) {
       {"a,b\n1,\"open\n", "t.csv: line 2: unterminated quoted field"},
       {"a,b\n1,x\"y\n", "t.csv: line 2: a '\"' inside an unquoted field"},
       {"a,b\n1,\"x\"y\n", "t.csv: line 2: text after the closing"},
-      {"a,b\n1,2\n3\n", "t.csv: row 2 (line 3): 1 fields, but the header has 2"},
+      {"a,b\n1,2\n3\n",
+       "t.csv: row 2 (line 3): 1 fields, but the header has 2"},
       {"a,a\n", "header names column 'a' twice"},
       {"a,,b\n", "header column 2 has no name"},
   };
@@ -117,8 +118,8 @@ TEST(CsvToRecordsTest, UnparseableNumberNamesRowAndColumn) {
   absl::StatusOr<CsvTable> table =
       ParseCsv("distance_km,hour\n1,2\n3,late\n", "in.csv");
   ASSERT_TRUE(table.ok());
-  absl::StatusOr<std::vector<v1::Record>> records = CsvToRecords(
-      *table, LayoutCsv(table->header, schema), "in.csv", "in-1");
+  absl::StatusOr<std::vector<v1::Record>> records =
+      CsvToRecords(*table, LayoutCsv(table->header, schema), "in.csv", "in-1");
   ASSERT_FALSE(records.ok());
   EXPECT_EQ(records.status().code(), absl::StatusCode::kInvalidArgument);
   EXPECT_THAT(records.status().message(),
@@ -140,7 +141,8 @@ TEST(FormatScoredCsvTest, AddsIdScoreAndReasonColumns) {
   v1::Reason* reason = scored.add_reasons();
   reason->set_feature("distance_km");
   reason->set_contribution(0.25);
-  const std::string out = FormatScoredCsv(*table, layout, *records, {scored}, 2);
+  const std::string out =
+      FormatScoredCsv(*table, layout, *records, {scored}, 2);
   EXPECT_EQ(out,
             "distance_km,record_id,log_odds,probability,reason_1,reason_2\n"
             "9,in-7-1,0.5,0.10000000000000001,distance_km:0.25,\n");

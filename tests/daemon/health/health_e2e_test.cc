@@ -12,28 +12,28 @@
 // drifting.
 //
 // Waits poll (no timing assertions); each daemon is killed in TearDown.
+#include <grpcpp/client_context.h>
+#include <grpcpp/create_channel.h>
+#include <grpcpp/security/credentials.h>
+
 #include <cmath>
 #include <filesystem>
 #include <map>
 #include <string>
 #include <vector>
 
-#include <grpcpp/client_context.h>
-#include <grpcpp/create_channel.h>
-#include <grpcpp/security/credentials.h>
-
 #include "absl/strings/str_cat.h"
 #include "absl/strings/str_format.h"
 #include "absl/strings/str_split.h"
+#include "daemon/ledger/ledger.h"
+#include "daemon/policy/figures.h"
 #include "gmock/gmock.h"
 #include "gtest/gtest.h"
-#include "daemon/policy/figures.h"
-#include "daemon/ledger/ledger.h"
 #include "plumbline/v1/monitor.grpc.pb.h"
 #include "plumbline/v1/outcomes.grpc.pb.h"
 #include "tests/testing/http.h"
-#include "tests/testing/process.h"
 #include "tests/testing/json_file.h"
+#include "tests/testing/process.h"
 
 namespace plumbline::daemon {
 namespace {
@@ -68,7 +68,8 @@ void ExpectExported(const std::vector<Sample>& samples, const std::string& name,
 
 // The whitespace-separated words of the first line of `text` whose first
 // word is `first`.
-std::vector<std::string> Tokens(const std::string& text, absl::string_view first) {
+std::vector<std::string> Tokens(const std::string& text,
+                                absl::string_view first) {
   for (absl::string_view line : absl::StrSplit(text, '\n')) {
     std::vector<std::string> words =
         absl::StrSplit(line, ' ', absl::SkipWhitespace());
@@ -81,7 +82,8 @@ std::string Six(double x) { return absl::StrFormat("%.6g", x); }
 
 const google::protobuf::Value& Field(const google::protobuf::Struct& s,
                                      const std::string& key) {
-  static const google::protobuf::Value* const kNull = new google::protobuf::Value();
+  static const google::protobuf::Value* const kNull =
+      new google::protobuf::Value();
   auto it = s.fields().find(key);
   EXPECT_NE(it, s.fields().end()) << "reference has no '" << key << "'";
   return it == s.fields().end() ? *kNull : it->second;
@@ -95,27 +97,32 @@ class HealthEndToEndTest : public ::testing::Test {
     auto records = plumbline::testing::ReadJsonFile(ref_dir_ + "/records.json");
     ASSERT_TRUE(records.ok()) << records.status();
     records_ = *std::move(records);
-    auto reference = plumbline::testing::ReadJsonFile(ref_dir_ + "/reference.json");
+    auto reference =
+        plumbline::testing::ReadJsonFile(ref_dir_ + "/reference.json");
     ASSERT_TRUE(reference.ok()) << reference.status();
     reference_ = *std::move(reference);
 
     const std::string config = dir_.File("plumbd.json");
-    ASSERT_TRUE(testing::WriteTextFile(config, absl::StrCat(R"({
-  "sets_dir": ")", ref_dir_, R"(/sets",
-  "ledger_path": ")", dir_.File("ledger.db"), R"(",
+    ASSERT_TRUE(testing::WriteTextFile(
+                    config, absl::StrCat(R"({
+  "sets_dir": ")",
+                                         ref_dir_, R"(/sets",
+  "ledger_path": ")",
+                                         dir_.File("ledger.db"), R"(",
   "metrics_listen": "127.0.0.1:0",
   "ledger": {"relaxed_commits": true},
   "windows": {"labelled_count": 5000, "scored_count": 10000,
               "time_seconds": 86400, "buckets": 20},
   "drift_policy": {"tick_seconds": 1, "min_labelled": 500, "min_scored": 500}
-})")).ok());
+})"))
+                    .ok());
     auto plumbd = PlumbdProcess::Start(dir_.path(), {"--config", config});
     ASSERT_TRUE(plumbd.ok()) << plumbd.status();
     plumbd_ = *std::move(plumbd);
     metrics_addr_ = plumbd_->MetricsAddress();
     ASSERT_FALSE(metrics_addr_.empty()) << plumbd_->Log();
-    auto channel =
-        grpc::CreateChannel(plumbd_->addr(), grpc::InsecureChannelCredentials());
+    auto channel = grpc::CreateChannel(plumbd_->addr(),
+                                       grpc::InsecureChannelCredentials());
     scoring_ = v1::Scoring::NewStub(channel);
     outcomes_ = v1::Outcomes::NewStub(channel);
     monitor_ = v1::Monitor::NewStub(channel);
@@ -194,14 +201,17 @@ TEST_F(HealthEndToEndTest, FiguresMatchScikitLearnAndSciPyEverywhere) {
   for (size_t i = 0; i < probabilities.size(); ++i) {
     // The same records: plumbd's probability against numpy's expit of the
     // log-odds the script computed from the coefficients.
-    ASSERT_NEAR(probabilities[i], want_p[static_cast<int>(i)].number_value(), 1e-12) << i;
+    ASSERT_NEAR(probabilities[i], want_p[static_cast<int>(i)].number_value(),
+                1e-12)
+        << i;
   }
   const v1::SetHealth health = WaitForEvaluation(3000);
   EXPECT_EQ(health.set(), kSet);
   EXPECT_EQ(health.version(), kVersion);
   EXPECT_EQ(health.state(), v1::STEADY) << health.DebugString();
 
-  absl::StatusOr<std::string> scrape = testing::HttpGet(metrics_addr_, "/metrics");
+  absl::StatusOr<std::string> scrape =
+      testing::HttpGet(metrics_addr_, "/metrics");
   ASSERT_TRUE(scrape.ok()) << scrape.status();
   const std::vector<Sample> samples = testing::ParseExposition(*scrape);
   const std::map<std::string, std::string> version = {{"set", kSet},
@@ -225,14 +235,18 @@ TEST_F(HealthEndToEndTest, FiguresMatchScikitLearnAndSciPyEverywhere) {
                      figure.value());
     };
     // sklearn.metrics.log_loss and brier_score_loss.
-    check("log_loss", w.log_loss(), Field(reference_, "log_loss").number_value(), 1e-9);
-    check("brier_score", w.brier_score(), Field(reference_, "brier").number_value(), 1e-9);
+    check("log_loss", w.log_loss(),
+          Field(reference_, "log_loss").number_value(), 1e-9);
+    check("brier_score", w.brier_score(),
+          Field(reference_, "brier").number_value(), 1e-9);
     // PSI: scipy.special.rel_entr with the 1e-4 floor of monitor/stability.h.
-    check("score_psi", w.score_psi(), Field(reference_, "score_psi").number_value(), 1e-9);
+    check("score_psi", w.score_psi(),
+          Field(reference_, "score_psi").number_value(), 1e-9);
     // sklearn.metrics.roc_auc_score, within the grid bound plumbd reports.
     ASSERT_TRUE(w.auc().defined());
-    EXPECT_LE(std::abs(w.auc().value() - Field(reference_, "auc").number_value()),
-              w.auc_grid_bound())
+    EXPECT_LE(
+        std::abs(w.auc().value() - Field(reference_, "auc").number_value()),
+        w.auc_grid_bound())
         << "grid bound " << w.auc_grid_bound();
     ExpectExported(samples, "plumbline_auc", labels, w.auc().value());
     // The other figures: the metric equals the RPC.
@@ -244,7 +258,9 @@ TEST_F(HealthEndToEndTest, FiguresMatchScikitLearnAndSciPyEverywhere) {
     }
     labels["kind"] = "labelled";
     EXPECT_EQ(FindSample(samples, "plumbline_window_records", labels), 3000.0);
-    EXPECT_EQ(FindSample(samples, "plumbline_window_refused_records_total", labels), 0.0);
+    EXPECT_EQ(
+        FindSample(samples, "plumbline_window_refused_records_total", labels),
+        0.0);
     labels.erase("kind");
 
     ASSERT_EQ(w.features_size(), 5);
@@ -252,19 +268,22 @@ TEST_F(HealthEndToEndTest, FiguresMatchScikitLearnAndSciPyEverywhere) {
       SCOPED_TRACE(f.feature());
       const auto& ref = Field(features, f.feature()).struct_value();
       labels["feature"] = f.feature();
-      ExpectClose(f.missing_rate().value(), Field(ref, "missing").number_value(),
-                  1e-12, "missing rate");
+      ExpectClose(f.missing_rate().value(),
+                  Field(ref, "missing").number_value(), 1e-12, "missing rate");
       ExpectExported(samples, "plumbline_feature_missing_ratio", labels,
                      f.missing_rate().value());
       if (f.feature() == "rainfall_mm") {  // the set gives it no baseline
         EXPECT_FALSE(f.psi().defined());
         EXPECT_EQ(f.psi().note(), "no baseline");
-        EXPECT_EQ(FindSample(samples, "plumbline_feature_psi", labels), std::nullopt);
+        EXPECT_EQ(FindSample(samples, "plumbline_feature_psi", labels),
+                  std::nullopt);
         continue;
       }
-      ExpectClose(f.psi().value(), Field(ref, "psi").number_value(), 1e-9, "psi");
+      ExpectClose(f.psi().value(), Field(ref, "psi").number_value(), 1e-9,
+                  "psi");
       ExpectClose(f.out_of_range_rate().value(),
-                  Field(ref, "out_of_range").number_value(), 1e-12, "out of range");
+                  Field(ref, "out_of_range").number_value(), 1e-12,
+                  "out of range");
       ExpectExported(samples, "plumbline_feature_psi", labels, f.psi().value());
       ExpectExported(samples, "plumbline_feature_out_of_range_ratio", labels,
                      f.out_of_range_rate().value());
@@ -273,14 +292,17 @@ TEST_F(HealthEndToEndTest, FiguresMatchScikitLearnAndSciPyEverywhere) {
 
   // Request and ledger metrics.
   EXPECT_EQ(FindSample(samples, "plumbline_requests_total",
-                       {{"method", "plumbline.v1.Scoring/ScoreBatch"}, {"code", "OK"}}),
+                       {{"method", "plumbline.v1.Scoring/ScoreBatch"},
+                        {"code", "OK"}}),
             6.0);
   EXPECT_EQ(FindSample(samples, "plumbline_request_duration_seconds_count",
                        {{"method", "plumbline.v1.Scoring/ScoreBatch"}}),
             6.0);
   v1::SetHealth unknown;
-  EXPECT_EQ(GetHealth("no_such_set", &unknown).error_code(), grpc::StatusCode::NOT_FOUND);
-  absl::StatusOr<std::string> rescrape = testing::HttpGet(metrics_addr_, "/metrics");
+  EXPECT_EQ(GetHealth("no_such_set", &unknown).error_code(),
+            grpc::StatusCode::NOT_FOUND);
+  absl::StatusOr<std::string> rescrape =
+      testing::HttpGet(metrics_addr_, "/metrics");
   ASSERT_TRUE(rescrape.ok());
   const std::vector<Sample> later = testing::ParseExposition(*rescrape);
   EXPECT_EQ(FindSample(later, "plumbline_requests_total",
@@ -295,9 +317,10 @@ TEST_F(HealthEndToEndTest, FiguresMatchScikitLearnAndSciPyEverywhere) {
   // The default capacity (LedgerOptions; this test's config sets none).
   EXPECT_EQ(FindSample(later, "plumbline_ledger_queue_capacity_rows", {}),
             static_cast<double>(LedgerOptions{}.queue_capacity_rows));
-  EXPECT_GT(FindSample(later, "plumbline_ledger_commit_duration_seconds_count", {})
-                .value_or(0),
-            0.0);
+  EXPECT_GT(
+      FindSample(later, "plumbline_ledger_commit_duration_seconds_count", {})
+          .value_or(0),
+      0.0);
 
   // promtool finds no problem in the exposition.
   ASSERT_STRNE(PROMTOOL_PATH, "")
@@ -306,7 +329,8 @@ TEST_F(HealthEndToEndTest, FiguresMatchScikitLearnAndSciPyEverywhere) {
   const std::string scraped = dir_.File("scrape.txt");
   ASSERT_TRUE(testing::WriteTextFile(scraped, *rescrape).ok());
   auto lint = testing::RunProcess(
-      {"/bin/sh", "-c", absl::StrCat(PROMTOOL_PATH, " check metrics < ", scraped)},
+      {"/bin/sh", "-c",
+       absl::StrCat(PROMTOOL_PATH, " check metrics < ", scraped)},
       dir_.path());
   ASSERT_TRUE(lint.ok()) << lint.status();
   EXPECT_EQ(lint->exit_code, 0) << lint->out << lint->err;
@@ -329,10 +353,11 @@ TEST_F(HealthEndToEndTest, FiguresMatchScikitLearnAndSciPyEverywhere) {
   EXPECT_THAT(Tokens(shown->out, "score_psi"),
               ElementsAre("score_psi", Six(count.score_psi().value()),
                           Six(time.score_psi().value())));
-  EXPECT_THAT(Tokens(shown->out, "distance_km"),
-              ElementsAre("distance_km", "count", Six(count.features(0).psi().value()),
-                          Six(count.features(0).missing_rate().value()),
-                          Six(count.features(0).out_of_range_rate().value())));
+  EXPECT_THAT(
+      Tokens(shown->out, "distance_km"),
+      ElementsAre("distance_km", "count", Six(count.features(0).psi().value()),
+                  Six(count.features(0).missing_rate().value()),
+                  Six(count.features(0).out_of_range_rate().value())));
 }
 
 TEST_F(HealthEndToEndTest, ShiftedRecordsDriveTheSetToDrifting) {
@@ -364,11 +389,13 @@ TEST_F(HealthEndToEndTest, ShiftedRecordsDriveTheSetToDrifting) {
   // The unseen level "locker_bank" counts as out of range.
   EXPECT_GT(health.windows(0).features(2).out_of_range_rate().value(), 0.2);
 
-  absl::StatusOr<std::string> scrape = testing::HttpGet(metrics_addr_, "/metrics");
+  absl::StatusOr<std::string> scrape =
+      testing::HttpGet(metrics_addr_, "/metrics");
   ASSERT_TRUE(scrape.ok()) << scrape.status();
-  EXPECT_EQ(FindSample(testing::ParseExposition(*scrape), "plumbline_drift_state",
-                       {{"set", kSet}, {"version", kVersion}}),
-            2.0);
+  EXPECT_EQ(
+      FindSample(testing::ParseExposition(*scrape), "plumbline_drift_state",
+                 {{"set", kSet}, {"version", kVersion}}),
+      2.0);
   EXPECT_GE(plumbd_->CountLogLines("event=drift_state"), 1) << plumbd_->Log();
 }
 

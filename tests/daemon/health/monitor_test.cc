@@ -20,11 +20,11 @@
 namespace plumbline::daemon {
 namespace {
 
-using ::testing::HasSubstr;
 using scorer::RawValue;
 using testing::BareSetJson;
 using testing::BaselineSetJson;
 using testing::CompilePlan;
+using ::testing::HasSubstr;
 
 // Hand computation of one PSI term, (a - e) ln(a / e).
 double Term(double a, double e) { return (a - e) * std::log(a / e); }
@@ -49,9 +49,10 @@ class HealthMonitorTest : public ::testing::Test {
   // A record: distance, region, hour (nullopt / NaN = missing).
   static std::vector<RawValue> Row(double distance, const char* region,
                                    double hour) {
-    return {std::isnan(distance) ? RawValue::Missing() : RawValue::Number(distance),
-            region == nullptr ? RawValue::Missing() : RawValue::Text(region),
-            std::isnan(hour) ? RawValue::Missing() : RawValue::Number(hour)};
+    return {
+        std::isnan(distance) ? RawValue::Missing() : RawValue::Number(distance),
+        region == nullptr ? RawValue::Missing() : RawValue::Text(region),
+        std::isnan(hour) ? RawValue::Missing() : RawValue::Number(hour)};
   }
 
   void Labelled(const std::string& version, double log_odds, int label,
@@ -211,7 +212,8 @@ TEST_F(HealthMonitorTest, TimeWindowForgetsAndRefusesOldRecords) {
   // Older than the time window's ring: refused there and counted, kept by
   // the count window.
   Labelled("v1", 0.0, 0, now_ - absl::Seconds(500));
-  monitor_->OnScored(*plan_, Row(1, "urban", 9), 0.0, now_ - absl::Seconds(500));
+  monitor_->OnScored(*plan_, Row(1, "urban", 9), 0.0,
+                     now_ - absl::Seconds(500));
   h = Evaluate();
   EXPECT_EQ(h.windows(0).labelled(), 2);
   EXPECT_EQ(h.windows(0).refused_labelled(), 0);
@@ -291,9 +293,9 @@ class HealthRebuildTest : public HealthMonitorTest {
   void SetUp() override {
     HealthMonitorTest::SetUp();
     dir_ = std::filesystem::path(::testing::TempDir()) /
-           absl::StrCat("health_rebuild_", ::testing::UnitTest::GetInstance()
-                                               ->current_test_info()
-                                               ->name());
+           absl::StrCat(
+               "health_rebuild_",
+               ::testing::UnitTest::GetInstance()->current_test_info()->name());
     std::filesystem::remove_all(dir_);
     LedgerOptions options;
     options.path = (dir_ / "ledger.db").string();
@@ -324,18 +326,23 @@ TEST_F(HealthRebuildTest, RebuiltWindowsEqualLiveOnes) {
     const double log_odds = -2.0 + 0.25 * i;
     const absl::Time at = now_ - absl::Minutes(30 - i);
     const std::vector<RawValue> row = Row(1.5 * i, regions[i % 3], 8 + i);
-    ScoreEntry e{absl::StrCat("r", i), "courier", "v1", ScoreRole::kActive, at, log_odds,
-                 0, absl::StrCat(R"({"distance_km":)", 1.5 * i,
-                                 R"(,"region":")", regions[i % 3],
-                                 R"(","hour":)", 8 + i, "}")};
+    ScoreEntry e{absl::StrCat("r", i),
+                 "courier",
+                 "v1",
+                 ScoreRole::kActive,
+                 at,
+                 log_odds,
+                 0,
+                 absl::StrCat(R"({"distance_km":)", 1.5 * i, R"(,"region":")",
+                              regions[i % 3], R"(","hour":)", 8 + i, "}")};
     scores.push_back(e);
     live->OnScored(*plan_, row, log_odds, at);
   }
   // Another version's rows are not rebuilt (nor do they take the place of
   // this version's rows among the newest).
   for (int i = 0; i < 12; ++i) {
-    scores.push_back({absl::StrCat("old", i), "courier", "v0", ScoreRole::kActive, now_,
-                      3.0, 0, "{}"});
+    scores.push_back({absl::StrCat("old", i), "courier", "v0",
+                      ScoreRole::kActive, now_, 3.0, 0, "{}"});
     outcomes_.push_back({absl::StrCat("old", i), 1, now_});
   }
   ASSERT_TRUE(ledger_->AppendScores(scores).ok());
@@ -376,7 +383,8 @@ TEST_F(HealthRebuildTest, RebuiltWindowsEqualLiveOnes) {
     SCOPED_TRACE(w);
     EXPECT_DOUBLE_EQ(got.windows(w).log_loss().value(),
                      want.windows(w).log_loss().value());
-    EXPECT_DOUBLE_EQ(got.windows(w).auc().value(), want.windows(w).auc().value());
+    EXPECT_DOUBLE_EQ(got.windows(w).auc().value(),
+                     want.windows(w).auc().value());
     EXPECT_DOUBLE_EQ(got.windows(w).score_psi().value(),
                      want.windows(w).score_psi().value());
     for (int f = 0; f < 3; ++f) {
@@ -389,14 +397,15 @@ TEST_F(HealthRebuildTest, RebuiltWindowsEqualLiveOnes) {
 }
 
 TEST_F(HealthRebuildTest, UnreadableRowsAreSkipped) {
-  ASSERT_TRUE(ledger_
-                  ->AppendScores({{"good", "courier", "v1", ScoreRole::kActive, now_, 0.5, 0,
-                                   R"({"distance_km":3,"region":1})"},
-                                  {"bad", "courier", "v1", ScoreRole::kActive, now_, 0.5, 0,
-                                   R"({"distance_km":"far"})"},
-                                  {"worse", "courier", "v1", ScoreRole::kActive, now_, 0.5,
-                                   0, "not json"}})
-                  .ok());
+  ASSERT_TRUE(
+      ledger_
+          ->AppendScores({{"good", "courier", "v1", ScoreRole::kActive, now_,
+                           0.5, 0, R"({"distance_km":3,"region":1})"},
+                          {"bad", "courier", "v1", ScoreRole::kActive, now_,
+                           0.5, 0, R"({"distance_km":"far"})"},
+                          {"worse", "courier", "v1", ScoreRole::kActive, now_,
+                           0.5, 0, "not json"}})
+          .ok());
   ASSERT_TRUE(monitor_->Rebuild(*ledger_).ok());
   const v1::SetHealth h = Evaluate();
   EXPECT_EQ(h.windows(0).scored(), 1);

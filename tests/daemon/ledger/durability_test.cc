@@ -9,6 +9,7 @@
 //
 // The kill comes after each client has had a few calls acknowledged; when
 // exactly is left to the scheduler (no timing is asserted).
+#include <grpcpp/client_context.h>
 #include <signal.h>
 
 #include <atomic>
@@ -18,8 +19,6 @@
 #include <string>
 #include <thread>
 #include <vector>
-
-#include <grpcpp/client_context.h>
 
 #include "absl/container/flat_hash_map.h"
 #include "absl/container/flat_hash_set.h"
@@ -92,8 +91,8 @@ TEST(DurabilityTest, AcknowledgedScoresAndOutcomesSurviveSigkill) {
                             testing::CourierSetJson("courier", "v1"))
                   .ok());
   const std::string ledger = dir.File("var/ledger.db");
-  const std::vector<std::string> args = {"--sets", dir.File("sets"),
-                                         "--ledger", ledger};
+  const std::vector<std::string> args = {"--sets", dir.File("sets"), "--ledger",
+                                         ledger};
   // Everything acknowledged so far, over all rounds.
   absl::flat_hash_set<std::string> acked_scores;
   std::map<std::string, int> acked_outcomes;
@@ -115,7 +114,8 @@ TEST(DurabilityTest, AcknowledgedScoresAndOutcomesSurviveSigkill) {
       grpc::Status status =
           scoring->ScoreBatch(&context, Batch(prefix, first, 200), &reply);
       ASSERT_TRUE(status.ok()) << status.error_message();
-      for (const v1::Scored& s : reply.scores()) acked_scores.insert(s.record_id());
+      for (const v1::Scored& s : reply.scores())
+        acked_scores.insert(s.record_id());
     }
 
     std::atomic<bool> stop{false};
@@ -126,7 +126,8 @@ TEST(DurabilityTest, AcknowledgedScoresAndOutcomesSurviveSigkill) {
     // Reports label i % 2 for record i, batch after batch, around and around
     // (after the first pass the same outcomes come back as repeats).
     std::thread reporter([&] {
-      for (int first = 0; !stop; first = (first + kOutcomesPerCall) % kRecordsPerRound) {
+      for (int first = 0; !stop;
+           first = (first + kOutcomesPerCall) % kRecordsPerRound) {
         v1::ReportOutcomesRequest request;
         for (int i = first; i < first + kOutcomesPerCall; ++i) {
           v1::Outcome* o = request.add_outcomes();
@@ -153,8 +154,9 @@ TEST(DurabilityTest, AcknowledgedScoresAndOutcomesSurviveSigkill) {
         grpc::ClientContext context;
         WithDeadline(&context);
         v1::ScoreBatchReply reply;
-        if (!scoring->ScoreBatch(&context, Batch(fresh, first, kScoresPerCall),
-                                 &reply)
+        if (!scoring
+                 ->ScoreBatch(&context, Batch(fresh, first, kScoresPerCall),
+                              &reply)
                  .ok()) {
           return;
         }
@@ -176,7 +178,8 @@ TEST(DurabilityTest, AcknowledgedScoresAndOutcomesSurviveSigkill) {
     ASSERT_TRUE(warmed_up) << (*plumbd)->Log();
     ASSERT_TRUE(exit_status.ok());
     EXPECT_EQ(*exit_status, -SIGKILL);
-    for (const auto& [id, label] : outcomes_acked_now) acked_outcomes[id] = label;
+    for (const auto& [id, label] : outcomes_acked_now)
+      acked_outcomes[id] = label;
     acked_scores.insert(scores_acked_now.begin(), scores_acked_now.end());
   }
 
@@ -189,7 +192,8 @@ TEST(DurabilityTest, AcknowledgedScoresAndOutcomesSurviveSigkill) {
   int missing_scores = 0;
   for (const std::string& id : acked_scores) {
     if (!contents.scores.contains(id)) {
-      if (++missing_scores <= 5) ADD_FAILURE() << "acknowledged score lost: " << id;
+      if (++missing_scores <= 5)
+        ADD_FAILURE() << "acknowledged score lost: " << id;
     }
   }
   int missing_outcomes = 0;

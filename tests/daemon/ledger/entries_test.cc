@@ -22,8 +22,8 @@
 namespace plumbline::daemon {
 namespace {
 
-using ::testing::MatchesRegex;
 using scorer::RawValue;
+using ::testing::MatchesRegex;
 
 google::protobuf::Struct ParseBack(const std::string& json) {
   google::protobuf::Struct out;

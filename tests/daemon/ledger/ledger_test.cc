@@ -20,8 +20,9 @@ class LedgerTest : public ::testing::Test {
  protected:
   void SetUp() override {
     dir_ = std::filesystem::path(::testing::TempDir()) /
-           absl::StrCat("ledger_test_", ::testing::UnitTest::GetInstance()
-                                            ->current_test_info()->name());
+           absl::StrCat(
+               "ledger_test_",
+               ::testing::UnitTest::GetInstance()->current_test_info()->name());
     std::filesystem::remove_all(dir_);
     options_.path = (dir_ / "sub" / "ledger.db").string();
   }
@@ -33,8 +34,14 @@ class LedgerTest : public ::testing::Test {
   }
 
   static ScoreEntry Score(const std::string& id, double log_odds = 0.5) {
-    return ScoreEntry{id, "courier", "v1", ScoreRole::kActive, absl::FromUnixSeconds(1000),
-                      log_odds, 0.6, R"({"distance_km":3})"};
+    return ScoreEntry{id,
+                      "courier",
+                      "v1",
+                      ScoreRole::kActive,
+                      absl::FromUnixSeconds(1000),
+                      log_odds,
+                      0.6,
+                      R"({"distance_km":3})"};
   }
 
   // Another connection holding the write lock: the writer waits on SQLite's
@@ -55,7 +62,8 @@ class LedgerTest : public ::testing::Test {
       int64_t queued) {
     absl::StatusOr<std::vector<OutcomeResult>> results;
     std::thread reporter([&] { results = ledger.ReportOutcomes(outcomes); });
-    while (ledger.stats().queued_rows < queued) absl::SleepFor(absl::Milliseconds(1));
+    while (ledger.stats().queued_rows < queued)
+      absl::SleepFor(absl::Milliseconds(1));
     EXPECT_TRUE(blocker.Exec("COMMIT").ok());
     reporter.join();
     return results;
@@ -126,11 +134,13 @@ TEST_F(LedgerTest, SurvivesReopenAndReadsLabelledNewestFirst) {
   {
     auto ledger = OpenLedger();
     std::vector<ScoreEntry> scores;
-    for (int i = 0; i < 20; ++i) scores.push_back(Score(absl::StrCat("r", i), i));
+    for (int i = 0; i < 20; ++i)
+      scores.push_back(Score(absl::StrCat("r", i), i));
     ASSERT_TRUE(ledger->AppendScores(scores).ok());
     std::vector<OutcomeEntry> outcomes;
     for (int i = 0; i < 10; ++i) {
-      outcomes.push_back({absl::StrCat("r", i), i % 2, absl::FromUnixSeconds(5000 + i)});
+      outcomes.push_back(
+          {absl::StrCat("r", i), i % 2, absl::FromUnixSeconds(5000 + i)});
     }
     ASSERT_TRUE(ledger->ReportOutcomes(outcomes).ok());
   }
@@ -138,13 +148,17 @@ TEST_F(LedgerTest, SurvivesReopenAndReadsLabelledNewestFirst) {
   std::vector<double> seen;
   ASSERT_TRUE(ledger
                   ->ForEachLabelled("courier", 3, absl::InfinitePast(),
-                                    [&](const LabelledScore& s) { seen.push_back(s.log_odds); })
+                                    [&](const LabelledScore& s) {
+                                      seen.push_back(s.log_odds);
+                                    })
                   .ok());
   EXPECT_EQ(seen, (std::vector<double>{9, 8, 7}));
   std::string features;
   ASSERT_TRUE(ledger
                   ->ForEachLabelled("courier", 1, absl::InfinitePast(),
-                                    [&](const LabelledScore& s) { features = s.features_json; })
+                                    [&](const LabelledScore& s) {
+                                      features = s.features_json;
+                                    })
                   .ok());
   EXPECT_EQ(features, R"({"distance_km":3})");
   int scores = 0;
@@ -162,7 +176,8 @@ TEST_F(LedgerTest, FullQueueIsResourceExhaustedNotADrop) {
   absl::Status st = ledger->AppendScores(too_many);
   EXPECT_EQ(st.code(), absl::StatusCode::kResourceExhausted);
   EXPECT_THAT(st.message(), HasSubstr("queue capacity of 10 rows"));
-  EXPECT_TRUE(ledger->AppendScores(std::vector<ScoreEntry>(10, Score("y"))).ok());
+  EXPECT_TRUE(
+      ledger->AppendScores(std::vector<ScoreEntry>(10, Score("y"))).ok());
   EXPECT_EQ(Count("scores"), 10);
 }
 
@@ -175,34 +190,45 @@ TEST_F(LedgerTest, QueueHoldingRowsNotYetCommittedRefusesMore) {
   // against the capacity.
   auto blocker = HoldWriteLock();
   ASSERT_NE(blocker, nullptr);
-  ASSERT_TRUE(ledger->AppendScores(std::vector<ScoreEntry>(3, Score("q"))).ok());
-  absl::Status st = ledger->AppendScores(std::vector<ScoreEntry>(8, Score("r")));
+  ASSERT_TRUE(
+      ledger->AppendScores(std::vector<ScoreEntry>(3, Score("q"))).ok());
+  absl::Status st =
+      ledger->AppendScores(std::vector<ScoreEntry>(8, Score("r")));
   EXPECT_EQ(st.code(), absl::StatusCode::kResourceExhausted);
-  EXPECT_THAT(st.message(), HasSubstr("queue is full (3 rows waiting, capacity 10)"));
+  EXPECT_THAT(st.message(),
+              HasSubstr("queue is full (3 rows waiting, capacity 10)"));
   ASSERT_TRUE(blocker->Exec("COMMIT").ok());
 }
 
 TEST_F(LedgerTest, MigratesAVersion1LedgerKeepingItsRows) {
   // A ledger as the first release wrote it (schema version 1).
-  std::filesystem::create_directories(std::filesystem::path(options_.path).parent_path());
+  std::filesystem::create_directories(
+      std::filesystem::path(options_.path).parent_path());
   {
     auto db = SqliteDb::Open(options_.path);
     ASSERT_TRUE(db.ok());
-    ASSERT_TRUE((*db)->Exec(
-        "CREATE TABLE scores(id INTEGER PRIMARY KEY, record_id TEXT NOT NULL,"
-        " set_name TEXT NOT NULL, set_version TEXT NOT NULL, role TEXT NOT NULL,"
-        " scored_at_us INTEGER NOT NULL, log_odds REAL NOT NULL,"
-        " probability REAL NOT NULL, features TEXT NOT NULL);"
-        "CREATE INDEX scores_by_record ON scores(record_id);"
-        "CREATE INDEX scores_by_set_time ON scores(set_name, scored_at_us);"
-        "CREATE TABLE outcomes(record_id TEXT PRIMARY KEY,"
-        " label INTEGER NOT NULL CHECK (label IN (0, 1)),"
-        " observed_at_us INTEGER NOT NULL, reported_at_us INTEGER NOT NULL);"
-        "CREATE INDEX outcomes_by_time ON outcomes(observed_at_us);"
-        "INSERT INTO scores VALUES (1, 'old', 'courier', 'v0', 'active', 5, 0.1,"
-        " 0.52, '{}');"
-        "INSERT INTO outcomes VALUES ('old', 1, 7, 8);"
-        "PRAGMA user_version = 1;").ok());
+    ASSERT_TRUE(
+        (*db)
+            ->Exec("CREATE TABLE scores(id INTEGER PRIMARY KEY, record_id TEXT "
+                   "NOT NULL,"
+                   " set_name TEXT NOT NULL, set_version TEXT NOT NULL, role "
+                   "TEXT NOT NULL,"
+                   " scored_at_us INTEGER NOT NULL, log_odds REAL NOT NULL,"
+                   " probability REAL NOT NULL, features TEXT NOT NULL);"
+                   "CREATE INDEX scores_by_record ON scores(record_id);"
+                   "CREATE INDEX scores_by_set_time ON scores(set_name, "
+                   "scored_at_us);"
+                   "CREATE TABLE outcomes(record_id TEXT PRIMARY KEY,"
+                   " label INTEGER NOT NULL CHECK (label IN (0, 1)),"
+                   " observed_at_us INTEGER NOT NULL, reported_at_us INTEGER "
+                   "NOT NULL);"
+                   "CREATE INDEX outcomes_by_time ON outcomes(observed_at_us);"
+                   "INSERT INTO scores VALUES (1, 'old', 'courier', 'v0', "
+                   "'active', 5, 0.1,"
+                   " 0.52, '{}');"
+                   "INSERT INTO outcomes VALUES ('old', 1, 7, 8);"
+                   "PRAGMA user_version = 1;")
+            .ok());
   }
   auto ledger = OpenLedger();
   ASSERT_NE(ledger, nullptr);
@@ -212,9 +238,10 @@ TEST_F(LedgerTest, MigratesAVersion1LedgerKeepingItsRows) {
                 "SELECT COUNT(*) FROM sqlite_schema WHERE name = 'outcomes'"
                 " AND sql LIKE '%WITHOUT ROWID%'"),
             1);
-  EXPECT_EQ(*(*db)->QueryInt64(
-                "SELECT COUNT(*) FROM sqlite_schema WHERE name = 'outcomes_by_time'"),
-            1);
+  EXPECT_EQ(
+      *(*db)->QueryInt64(
+          "SELECT COUNT(*) FROM sqlite_schema WHERE name = 'outcomes_by_time'"),
+      1);
   // The old score, as the view shows it and as ForEachScore reads it.
   EXPECT_EQ(*(*db)->QueryInt64(
                 "SELECT COUNT(*) FROM ledger_scores WHERE record_id = 'old'"
@@ -222,10 +249,11 @@ TEST_F(LedgerTest, MigratesAVersion1LedgerKeepingItsRows) {
                 " AND role = 'active' AND features = '{}'"),
             1);
   std::vector<ScoreEntry> read;
-  ASSERT_TRUE(ledger
-                  ->ForEachScore("courier", 10, absl::InfinitePast(),
-                                 [&](const ScoreEntry& e) { read.push_back(e); })
-                  .ok());
+  ASSERT_TRUE(
+      ledger
+          ->ForEachScore("courier", 10, absl::InfinitePast(),
+                         [&](const ScoreEntry& e) { read.push_back(e); })
+          .ok());
   ASSERT_EQ(read.size(), 1u);
   EXPECT_EQ(read[0].set_version, "v0");
   EXPECT_EQ(read[0].log_odds, 0.1);
@@ -242,14 +270,17 @@ TEST_F(LedgerTest, MigratesAVersion3LedgerDroppingTheSetTimeIndex) {
   {
     auto ledger = OpenLedger();
     ASSERT_NE(ledger, nullptr);
-    ASSERT_TRUE(ledger->AppendScores({Score("kept-1"), Score("kept-2", 0.7)}).ok());
+    ASSERT_TRUE(
+        ledger->AppendScores({Score("kept-1"), Score("kept-2", 0.7)}).ok());
   }
   {
     auto db = SqliteDb::Open(options_.path);
     ASSERT_TRUE(db.ok());
-    ASSERT_TRUE((*db)->Exec(
-        "CREATE INDEX scores_by_set_time ON scores(set_id, scored_at_us);"
-        "PRAGMA user_version = 3;").ok());
+    ASSERT_TRUE((*db)
+                    ->Exec("CREATE INDEX scores_by_set_time ON scores(set_id, "
+                           "scored_at_us);"
+                           "PRAGMA user_version = 3;")
+                    .ok());
   }
   auto ledger = OpenLedger();
   ASSERT_NE(ledger, nullptr);
@@ -260,10 +291,11 @@ TEST_F(LedgerTest, MigratesAVersion3LedgerDroppingTheSetTimeIndex) {
             0);
   // The rows are still there and read newest first.
   std::vector<ScoreEntry> read;
-  ASSERT_TRUE(ledger
-                  ->ForEachScore("courier", 10, absl::InfinitePast(),
-                                 [&](const ScoreEntry& e) { read.push_back(e); })
-                  .ok());
+  ASSERT_TRUE(
+      ledger
+          ->ForEachScore("courier", 10, absl::InfinitePast(),
+                         [&](const ScoreEntry& e) { read.push_back(e); })
+          .ok());
   ASSERT_EQ(read.size(), 2u);
   EXPECT_EQ(read[0].record_id, "kept-2");
   EXPECT_EQ(read[1].record_id, "kept-1");
@@ -286,8 +318,9 @@ TEST_F(LedgerTest, ForEachScoreKeepsToItsSetTimeAndLimit) {
       ledger->ForEachScore("courier", 2, absl::InfinitePast(), collect).ok());
   EXPECT_EQ(ids, (std::vector<std::string>{"r4", "r2"}));
   ids.clear();
-  ASSERT_TRUE(ledger->ForEachScore("courier", 10, absl::FromUnixSeconds(1002),
-                                   collect).ok());
+  ASSERT_TRUE(
+      ledger->ForEachScore("courier", 10, absl::FromUnixSeconds(1002), collect)
+          .ok());
   EXPECT_EQ(ids, (std::vector<std::string>{"r4", "r2"}));
 }
 
@@ -345,7 +378,8 @@ TEST_F(LedgerTest, ConcurrentWritersAreAllCommitted) {
   for (int t = 0; t < 4; ++t) {
     threads.emplace_back([&, t] {
       for (int i = 0; i < 250; ++i) {
-        if (!ledger->AppendScores({Score(absl::StrCat("t", t, "-", i))}).ok()) ++failures;
+        if (!ledger->AppendScores({Score(absl::StrCat("t", t, "-", i))}).ok())
+          ++failures;
       }
     });
   }
@@ -391,7 +425,8 @@ TEST_F(LedgerTest, RetentionBetweenLookupAndWriteIsNoticed) {
   auto ledger = OpenLedger();
   ASSERT_NE(ledger, nullptr);
   ASSERT_TRUE(ledger->AppendScores({Score("old")}).ok());
-  while (ledger->stats().committed_rows < 1) absl::SleepFor(absl::Milliseconds(1));
+  while (ledger->stats().committed_rows < 1)
+    absl::SleepFor(absl::Milliseconds(1));
   auto blocker = HoldWriteLock();
   ASSERT_NE(blocker, nullptr);
   // Committed after the lock is released, then retention keeps only it.
@@ -406,7 +441,9 @@ TEST_F(LedgerTest, RetentionBetweenLookupAndWriteIsNoticed) {
     EXPECT_TRUE(r.labelled.empty());
   }
   ledger.reset();  // every retention pass has run
-  EXPECT_EQ(Count("outcomes WHERE record_id NOT IN (SELECT record_id FROM scores)"), 0)
+  EXPECT_EQ(
+      Count("outcomes WHERE record_id NOT IN (SELECT record_id FROM scores)"),
+      0)
       << "an outcome without its score";
   EXPECT_EQ(Count("outcomes"), 0);
   EXPECT_EQ(Count("scores"), 1);
@@ -419,7 +456,8 @@ TEST_F(LedgerTest, LargeBatchesAnswerRepeatsAndConflictsOneByOne) {
   auto ledger = OpenLedger();
   ASSERT_NE(ledger, nullptr);
   std::vector<ScoreEntry> scores;
-  for (int i = 0; i < 400; ++i) scores.push_back(Score(absl::StrCat("p", i), i));
+  for (int i = 0; i < 400; ++i)
+    scores.push_back(Score(absl::StrCat("p", i), i));
   ASSERT_TRUE(ledger->AppendScores(scores).ok());
   std::vector<OutcomeEntry> first;
   for (int i = 0; i < 10; ++i) first.push_back({absl::StrCat("p", i), 1});
@@ -477,8 +515,12 @@ TEST_F(LedgerTest, LargeBatchesAnswerRepeatsAndConflictsOneByOne) {
   EXPECT_EQ(Count("outcomes"), 400);
   auto db = SqliteDb::Open(options_.path);
   ASSERT_TRUE(db.ok());
-  EXPECT_EQ(*(*db)->QueryInt64("SELECT label FROM outcomes WHERE record_id = 'p7'"), 1);
-  EXPECT_EQ(*(*db)->QueryInt64("SELECT label FROM outcomes WHERE record_id = 'p101'"), 1);
+  EXPECT_EQ(
+      *(*db)->QueryInt64("SELECT label FROM outcomes WHERE record_id = 'p7'"),
+      1);
+  EXPECT_EQ(
+      *(*db)->QueryInt64("SELECT label FROM outcomes WHERE record_id = 'p101'"),
+      1);
 }
 
 // The lookup names sets from a cache of score_sets; a set first seen after

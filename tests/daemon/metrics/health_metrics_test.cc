@@ -3,25 +3,24 @@
 // The Prometheus side of the monitor: the health collectable (names,
 // labels, undefined figures left out), the request counters, and the
 // exporter's HTTP endpoint on an ephemeral port.
-#include "daemon/metrics/health.h"
-
 #include <cmath>
 
+#include "daemon/metrics/exporter.h"
+#include "daemon/metrics/health.h"
+#include "daemon/metrics/requests.h"
 #include "gmock/gmock.h"
 #include "gtest/gtest.h"
-#include "daemon/metrics/exporter.h"
-#include "daemon/metrics/requests.h"
 #include "prometheus/text_serializer.h"
-#include "tests/testing/http.h"
 #include "tests/testing/health_test_sets.h"
+#include "tests/testing/http.h"
 
 namespace plumbline::daemon {
 namespace {
 
-using ::testing::HasSubstr;
-using ::testing::Not;
 using scorer::RawValue;
 using testing::FindSample;
+using ::testing::HasSubstr;
+using ::testing::Not;
 using testing::ParseExposition;
 
 std::string Serialize(const prometheus::Collectable& c) {
@@ -47,8 +46,8 @@ TEST_F(HealthMetricsTest, NothingBeforeTheFirstEvaluation) {
 }
 
 TEST_F(HealthMetricsTest, DefinedFiguresOnlyWithTheirLabels) {
-  const std::vector<RawValue> row = {RawValue::Number(3), RawValue::Text("urban"),
-                                     RawValue::Missing()};
+  const std::vector<RawValue> row = {
+      RawValue::Number(3), RawValue::Text("urban"), RawValue::Missing()};
   monitor_->OnScored(*plan_, row, 0.0, absl::FromUnixSeconds(1'800'000'000));
   LabelledScore l;
   l.set_name = "courier";
@@ -83,9 +82,11 @@ TEST_F(HealthMetricsTest, DefinedFiguresOnlyWithTheirLabels) {
   EXPECT_EQ(FindSample(samples, "plumbline_feature_psi", hour), std::nullopt);
   std::map<std::string, std::string> distance = count;
   distance["feature"] = "distance_km";
-  EXPECT_EQ(FindSample(samples, "plumbline_feature_out_of_range_ratio", distance),
-            0.0);
-  EXPECT_THAT(text, HasSubstr("# TYPE plumbline_window_refused_records_total counter"));
+  EXPECT_EQ(
+      FindSample(samples, "plumbline_feature_out_of_range_ratio", distance),
+      0.0);
+  EXPECT_THAT(
+      text, HasSubstr("# TYPE plumbline_window_refused_records_total counter"));
   EXPECT_THAT(text, HasSubstr("# TYPE plumbline_score_psi gauge"));
 }
 
@@ -98,11 +99,12 @@ TEST(RequestMetricsTest, CountsByMethodAndCodeName) {
                   absl::Milliseconds(2));
   metrics.Observe("plumbline.v1.Scoring/Score", grpc::StatusCode::NOT_FOUND,
                   absl::Microseconds(50));
-  const auto samples =
-      ParseExposition(prometheus::TextSerializer().Serialize(registry.Collect()));
-  EXPECT_EQ(FindSample(samples, "plumbline_requests_total",
-                       {{"method", "plumbline.v1.Scoring/Score"}, {"code", "OK"}}),
-            2.0);
+  const auto samples = ParseExposition(
+      prometheus::TextSerializer().Serialize(registry.Collect()));
+  EXPECT_EQ(
+      FindSample(samples, "plumbline_requests_total",
+                 {{"method", "plumbline.v1.Scoring/Score"}, {"code", "OK"}}),
+      2.0);
   EXPECT_EQ(FindSample(samples, "plumbline_requests_total",
                        {{"method", "plumbline.v1.Scoring/Score"},
                         {"code", "NOT_FOUND"}}),
@@ -111,9 +113,10 @@ TEST(RequestMetricsTest, CountsByMethodAndCodeName) {
                        {{"method", "plumbline.v1.Scoring/Score"}}),
             3.0);
   // 300 µs, 2 ms and 50 µs: two at or below the 1 ms bucket bound.
-  EXPECT_EQ(FindSample(samples, "plumbline_request_duration_seconds_bucket",
-                       {{"method", "plumbline.v1.Scoring/Score"}, {"le", "0.001"}}),
-            2.0);
+  EXPECT_EQ(
+      FindSample(samples, "plumbline_request_duration_seconds_bucket",
+                 {{"method", "plumbline.v1.Scoring/Score"}, {"le", "0.001"}}),
+      2.0);
 }
 
 TEST(MetricsExporterTest, ServesOnAnEphemeralPortAndRefusesABusyOne) {

@@ -7,10 +7,10 @@
 // comparison alone.
 #include "daemon/policy/drift_policy.h"
 
+#include "daemon/policy/figures.h"
 #include "gmock/gmock.h"
 #include "google/protobuf/text_format.h"
 #include "gtest/gtest.h"
-#include "daemon/policy/figures.h"
 
 namespace plumbline::daemon {
 namespace {
@@ -85,7 +85,8 @@ TEST(DriftPolicyTest, ScorePsiAboveDefaults) {
   EXPECT_EQ(r.value(), 0.26);
   EXPECT_EQ(r.threshold(), 0.25);
   EXPECT_EQ(r.state(), v1::DRIFTING);
-  EXPECT_THAT(r.text(), HasSubstr("score_psi 0.26 above the drifting threshold 0.25"));
+  EXPECT_THAT(r.text(),
+              HasSubstr("score_psi 0.26 above the drifting threshold 0.25"));
 }
 
 TEST(DriftPolicyTest, FeaturePsiNamesTheFeature) {
@@ -146,11 +147,14 @@ TEST(DriftPolicyTest, DistanceDirectionBothSides) {
 TEST(DriftPolicyTest, ExpectedCalibrationErrorDefaults) {
   const DriftPolicy policy;
   v1::SetHealth h = Health();
-  *h.mutable_windows(0)->mutable_expected_calibration_error() = DefinedFigure(0.04);
+  *h.mutable_windows(0)->mutable_expected_calibration_error() =
+      DefinedFigure(0.04);
   EXPECT_EQ(Judge(policy, h), v1::STEADY);
-  *h.mutable_windows(0)->mutable_expected_calibration_error() = DefinedFigure(0.06);
+  *h.mutable_windows(0)->mutable_expected_calibration_error() =
+      DefinedFigure(0.06);
   EXPECT_EQ(Judge(policy, h), v1::WATCH);
-  *h.mutable_windows(0)->mutable_expected_calibration_error() = DefinedFigure(0.11);
+  *h.mutable_windows(0)->mutable_expected_calibration_error() =
+      DefinedFigure(0.11);
   EXPECT_EQ(Judge(policy, h), v1::DRIFTING);
 }
 
@@ -177,9 +181,9 @@ TEST(DriftPolicyTest, LogLossCannotJudgeWithoutTrainingFigure) {
   policy.Judge(v1::Provenance(), &h);
   EXPECT_EQ(h.state(), v1::STEADY);
   EXPECT_EQ(h.reasons_size(), 0);
-  EXPECT_THAT(h.notes(), ::testing::Contains(
-                             "log_loss cannot judge: the set has no "
-                             "provenance.training_log_loss"));
+  EXPECT_THAT(h.notes(),
+              ::testing::Contains("log_loss cannot judge: the set has no "
+                                  "provenance.training_log_loss"));
 }
 
 TEST(DriftPolicyTest, MinimumCounts) {
@@ -191,9 +195,9 @@ TEST(DriftPolicyTest, MinimumCounts) {
   policy.Judge(Training(0.4), &h);
   EXPECT_EQ(h.state(), v1::STEADY);
   EXPECT_THAT(h.notes(),
-              ::testing::Contains(HasSubstr(
-                  "count window: 199 labelled records, fewer than "
-                  "min_labelled 200: outcome figures do not judge")));
+              ::testing::Contains(
+                  HasSubstr("count window: 199 labelled records, fewer than "
+                            "min_labelled 200: outcome figures do not judge")));
   EXPECT_THAT(h.notes(), ::testing::Contains(HasSubstr(
                              "299 scored records, fewer than min_scored 300")));
   // One more labelled record: the outcome figure judges, PSI still not.
@@ -221,8 +225,9 @@ TEST(DriftPolicyTest, UndefinedFiguresNeverJudge) {
   EXPECT_THAT(h.notes(), ::testing::Contains(
                              "score_psi cannot judge: no baseline: the set "
                              "has no score_baseline"));
-  EXPECT_THAT(h.notes(), ::testing::Contains(
-                             "feature_psi of 'hour' cannot judge: no baseline"));
+  EXPECT_THAT(
+      h.notes(),
+      ::testing::Contains("feature_psi of 'hour' cannot judge: no baseline"));
 }
 
 TEST(DriftPolicyTest, StateIsTheWorstOverWindows) {

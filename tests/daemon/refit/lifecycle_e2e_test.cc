@@ -62,10 +62,10 @@ std::string DataDir() {
 // id (first column) prefixed by `prefix`, written to `to`.
 void Interleave(const std::string& a, const std::string& b,
                 const std::string& to, const std::string& prefix) {
-  std::vector<std::string> first = absl::StrSplit(
-      testing::ReadTextFile(a), '\n', absl::SkipEmpty());
-  std::vector<std::string> second = absl::StrSplit(
-      testing::ReadTextFile(b), '\n', absl::SkipEmpty());
+  std::vector<std::string> first =
+      absl::StrSplit(testing::ReadTextFile(a), '\n', absl::SkipEmpty());
+  std::vector<std::string> second =
+      absl::StrSplit(testing::ReadTextFile(b), '\n', absl::SkipEmpty());
   ASSERT_FALSE(first.empty()) << a;
   ASSERT_FALSE(second.empty()) << b;
   ASSERT_EQ(first[0], second[0]) << "different headers";
@@ -83,26 +83,26 @@ class LifecycleTest : public ::testing::Test {
     ASSERT_FALSE(DataDir().empty())
         << "PLUMBLINE_LIFECYCLE_DATA is not set (run through ctest)";
     std::filesystem::create_directories(dir_.File("sets"));
-    std::filesystem::copy_file(
-        absl::StrCat(DataDir(), "/sets/", kSet, ".json"),
-        dir_.File(absl::StrCat("sets/", kSet, ".json")));
+    std::filesystem::copy_file(absl::StrCat(DataDir(), "/sets/", kSet, ".json"),
+                               dir_.File(absl::StrCat("sets/", kSet, ".json")));
   }
   void TearDown() override { plumbd_.reset(); }
 
   void Start(const std::string& refit_json) {
-    const std::string config = absl::StrCat(
-        R"({"sets_dir": ")", dir_.File("sets"), R"(", "ledger_path": ")",
-        dir_.File("ledger.db"),
-        R"(", "ledger": {"relaxed_commits": true},
+    const std::string config =
+        absl::StrCat(R"({"sets_dir": ")", dir_.File("sets"),
+                     R"(", "ledger_path": ")", dir_.File("ledger.db"),
+                     R"(", "ledger": {"relaxed_commits": true},
         "windows": {"labelled_count": 4000, "scored_count": 4000,
                     "time_seconds": 86400, "buckets": 10},
         "drift_policy": {"tick_seconds": 1, "min_labelled": 200,
                          "min_scored": 200},
         "refit": )",
-        refit_json, "}");
+                     refit_json, "}");
     ASSERT_TRUE(testing::WriteTextFile(dir_.File("plumbd.json"), config).ok());
     absl::StatusOr<std::unique_ptr<PlumbdProcess>> plumbd =
-        PlumbdProcess::Start(dir_.path(), {"--config", dir_.File("plumbd.json")});
+        PlumbdProcess::Start(dir_.path(),
+                             {"--config", dir_.File("plumbd.json")});
     ASSERT_TRUE(plumbd.ok()) << plumbd.status();
     plumbd_ = *std::move(plumbd);
     registry_ = v1::Registry::NewStub(grpc::CreateChannel(
@@ -164,8 +164,9 @@ class LifecycleTest : public ::testing::Test {
     return reply;
   }
 
-  std::optional<double> Metric(const std::string& name,
-                               const std::map<std::string, std::string>& labels) {
+  std::optional<double> Metric(
+      const std::string& name,
+      const std::map<std::string, std::string>& labels) {
     const std::string addr = plumbd_->MetricsAddress();
     absl::StatusOr<std::string> body = testing::HttpGet(addr, "/metrics");
     if (!body.ok()) return std::nullopt;
@@ -195,7 +196,8 @@ Comparison ParseComparison(const std::string& text) {
                               value.back() == ';')) {
       value.pop_back();
     }
-    EXPECT_TRUE(absl::SimpleAtod(value, out)) << "'" << value << "' in " << text;
+    EXPECT_TRUE(absl::SimpleAtod(value, out))
+        << "'" << value << "' in " << text;
   };
   for (size_t i = 0; i + 1 < words.size(); ++i) {
     if (words[i] == "holdout" && words[i + 1] == "of") {
@@ -239,7 +241,8 @@ TEST_F(LifecycleTest, DriftRefitApproveSteadyRollbackAudit) {
   })) << plumbd_->Log();
   EXPECT_EQ(Health().state(), v1::DRIFTING);
   EXPECT_FALSE(Metric("plumbline_refit_jobs_total",
-                      {{"set", kSet}, {"result", "failed"}}).has_value());
+                      {{"set", kSet}, {"result", "failed"}})
+                   .has_value());
   Report(data + "/outcomes_drift.csv");
   std::string drift_candidate;
   ASSERT_TRUE(PollUntil([&] {
@@ -250,10 +253,12 @@ TEST_F(LifecycleTest, DriftRefitApproveSteadyRollbackAudit) {
   })) << plumbd_->Log();
   for (const v1::VersionInfo& v : Versions()) {
     if (v.version() != drift_candidate) continue;
-    EXPECT_TRUE(absl::StartsWith(v.created_by(), "refit job")) << v.created_by();
+    EXPECT_TRUE(absl::StartsWith(v.created_by(), "refit job"))
+        << v.created_by();
     EXPECT_TRUE(absl::StrContains(v.created_by(), "(drift)")) << v.created_by();
     EXPECT_TRUE(absl::StartsWith(v.reason(), "drifting:")) << v.reason();
-    EXPECT_TRUE(absl::StrContains(v.reason(), "new outcomes since the drift was seen"))
+    EXPECT_TRUE(
+        absl::StrContains(v.reason(), "new outcomes since the drift was seen"))
         << v.reason();
     EXPECT_TRUE(absl::StrContains(v.comparison(), "candidate wins"));
   }
@@ -302,15 +307,16 @@ TEST_F(LifecycleTest, DriftRefitApproveSteadyRollbackAudit) {
       Plumbctl({"score", "--set-file", out_dir + "/candidate.json", "--csv",
                 out_dir + "/holdout.csv", "--out", out_dir + "/scored.csv"});
   ASSERT_EQ(offline.exit_code, 0) << offline.err;
-  absl::StatusOr<ProcessResult> recomputed = testing::RunProcess(
-      {PLUMBLINE_PYTHON, LIFECYCLE_CHECK_PY, "--compare", out_dir,
-       out_dir + "/scored.csv"},
-      dir_.path());
+  absl::StatusOr<ProcessResult> recomputed =
+      testing::RunProcess({PLUMBLINE_PYTHON, LIFECYCLE_CHECK_PY, "--compare",
+                           out_dir, out_dir + "/scored.csv"},
+                          dir_.path());
   ASSERT_TRUE(recomputed.ok()) << recomputed.status();
   ASSERT_EQ(recomputed->exit_code, 0) << recomputed->err;
   google::protobuf::Struct reference;
   ASSERT_TRUE(
-      google::protobuf::util::JsonStringToMessage(recomputed->out, &reference).ok())
+      google::protobuf::util::JsonStringToMessage(recomputed->out, &reference)
+          .ok())
       << recomputed->out;
   const Comparison got = ParseComparison(comparison);
   EXPECT_EQ(got.records, static_cast<int64_t>(Field(reference, "records")))
@@ -372,7 +378,8 @@ TEST_F(LifecycleTest, DriftRefitApproveSteadyRollbackAudit) {
     ASSERT_TRUE(q.ok());
     std::vector<std::string> rows;
     while (*(*q)->Step()) {
-      rows.push_back(absl::StrCat((*q)->ColumnText(0), " ", (*q)->ColumnText(1)));
+      rows.push_back(
+          absl::StrCat((*q)->ColumnText(0), " ", (*q)->ColumnText(1)));
     }
     EXPECT_EQ(rows, (std::vector<std::string>{"active " + candidate,
                                               "shadow " + drift_candidate}));
@@ -389,7 +396,8 @@ TEST_F(LifecycleTest, DriftRefitApproveSteadyRollbackAudit) {
   ASSERT_EQ(audit.exit_code, 0) << audit.err;
   std::vector<std::string> actions;
   for (absl::string_view line : absl::StrSplit(audit.out, '\n')) {
-    std::vector<std::string> words = absl::StrSplit(line, ' ', absl::SkipEmpty());
+    std::vector<std::string> words =
+        absl::StrSplit(line, ' ', absl::SkipEmpty());
     if (words.size() >= 3 && words[0] != "time") {
       actions.push_back(absl::StrCat(words[1], " ", words[2]));
     }
@@ -427,8 +435,9 @@ TEST_F(LifecycleTest, RefitWithTooFewLabelsChangesNothing) {
   const std::string original = ActiveVersion();
   // 2000 scored, but only the first file's outcomes are below... report a
   // few hundred: write the first 300 outcome lines.
-  std::vector<std::string> lines = absl::StrSplit(
-      testing::ReadTextFile(DataDir() + "/outcomes.csv"), '\n', absl::SkipEmpty());
+  std::vector<std::string> lines =
+      absl::StrSplit(testing::ReadTextFile(DataDir() + "/outcomes.csv"), '\n',
+                     absl::SkipEmpty());
   lines.resize(301);
   ASSERT_TRUE(testing::WriteTextFile(dir_.File("few.csv"),
                                      absl::StrJoin(lines, "\n") + "\n")
@@ -453,8 +462,8 @@ TEST_F(LifecycleTest, SwapsUnderLoadFailNoRequest) {
   Start(R"({"mode": "OFF"})");
   const std::string original = ActiveVersion();
   // A second version of the same set, loaded as a candidate.
-  std::string json = testing::ReadTextFile(
-      absl::StrCat(DataDir(), "/sets/", kSet, ".json"));
+  std::string json =
+      testing::ReadTextFile(absl::StrCat(DataDir(), "/sets/", kSet, ".json"));
   const std::string from = absl::StrCat("\"version\": \"", original, "\"");
   const size_t at = json.find(from);
   ASSERT_NE(at, std::string::npos) << from;
@@ -486,7 +495,8 @@ TEST_F(LifecycleTest, SwapsUnderLoadFailNoRequest) {
       v1::ScoreBatchReply reply;
       grpc::Status status = scoring->ScoreBatch(&context, request, &reply);
       ++calls;
-      if (!status.ok() && failures++ == 0) first_failure = status.error_message();
+      if (!status.ok() && failures++ == 0)
+        first_failure = status.error_message();
     }
   });
   ASSERT_TRUE(PollUntil([&] { return calls >= 20; }));

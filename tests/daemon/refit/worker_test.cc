@@ -7,6 +7,8 @@
 // labelled records, so every job ends quickly as "failed: too few labelled
 // records", which is enough to see which trigger started it (the audit
 // actor names it).
+#include "daemon/refit/worker.h"
+
 #include <filesystem>
 #include <memory>
 #include <string>
@@ -16,11 +18,10 @@
 #include "absl/strings/str_cat.h"
 #include "absl/synchronization/mutex.h"
 #include "daemon/ledger/ledger.h"
-#include "daemon/registry/lifecycle.h"
 #include "daemon/refit/job.h"
-#include "daemon/refit/worker.h"
-#include "daemon/scoring/set_registry.h"
+#include "daemon/registry/lifecycle.h"
 #include "daemon/registry/version_store.h"
+#include "daemon/scoring/set_registry.h"
 #include "gtest/gtest.h"
 #include "scorer/coefficient_set.h"
 #include "tests/testing/process.h"
@@ -45,7 +46,8 @@ class RefitWorkerTest : public ::testing::Test {
     ledger_ = *Ledger::Open(options);
     store_ = *VersionStore::Open(options.path);
     lifecycle_ = std::make_unique<Lifecycle>(store_.get());
-    registry_ = std::make_unique<SetRegistry>(dir_.File("sets"), lifecycle_.get());
+    registry_ =
+        std::make_unique<SetRegistry>(dir_.File("sets"), lifecycle_.get());
     lifecycle_->Attach(registry_.get(), [](const ReloadReport&) {});
     ASSERT_TRUE(registry_->Reload().ok());
     RefitSettings settings;
@@ -83,10 +85,13 @@ class RefitWorkerTest : public ::testing::Test {
                    const std::vector<v1::SetHealth>& extra = {},
                    int64_t labelled_since_start = 0) {
     const int64_t before = worker_->finished();
-    std::vector<v1::SetHealth> health = {Health("v1", state, labelled_since_start)};
+    std::vector<v1::SetHealth> health = {
+        Health("v1", state, labelled_since_start)};
     health.insert(health.end(), extra.begin(), extra.end());
-    const int queued = worker_->OnEvaluated(health, {SetVersion{"courier", "v1"}});
-    EXPECT_TRUE(PollUntil([&] { return worker_->finished() - before >= queued; }));
+    const int queued =
+        worker_->OnEvaluated(health, {SetVersion{"courier", "v1"}});
+    EXPECT_TRUE(
+        PollUntil([&] { return worker_->finished() - before >= queued; }));
     return queued;
   }
 
@@ -135,14 +140,16 @@ TEST_F(RefitWorkerTest, DriftStartsAJobThenWaitsForTheCooldown) {
 // after the drift was first seen, and counts again after each job and after
 // a return to steady.
 TEST_F(RefitWorkerTest, DriftWaitsForNewLabelsWhenAsked) {
-  Start(v1::RefitPolicy::PROPOSE, absl::ZeroDuration(), /*min_new_labelled=*/100);
+  Start(v1::RefitPolicy::PROPOSE, absl::ZeroDuration(),
+        /*min_new_labelled=*/100);
   EXPECT_EQ(Evaluate(v1::DRIFTING, {}, 1000), 0) << "counting starts at 1000";
   EXPECT_EQ(Evaluate(v1::DRIFTING, {}, 1099), 0);
   EXPECT_EQ(Evaluate(v1::DRIFTING, {}, 1100), 1);
   const std::vector<AuditRecord> audit = *lifecycle_->Audit("courier");
   bool named = false;
   for (const AuditRecord& r : audit) {
-    named = named || absl::StrContains(r.detail, "100 new outcomes since the drift was seen");
+    named = named || absl::StrContains(
+                         r.detail, "100 new outcomes since the drift was seen");
   }
   EXPECT_TRUE(named) << "the job's reason says how many new outcomes it had";
 
@@ -154,7 +161,8 @@ TEST_F(RefitWorkerTest, DriftWaitsForNewLabelsWhenAsked) {
   Advance(absl::Minutes(11));
   EXPECT_EQ(Evaluate(v1::DRIFTING, {}, 1300), 0);
   EXPECT_EQ(Evaluate(v1::STEADY, {}, 1350), 0);
-  EXPECT_EQ(Evaluate(v1::DRIFTING, {}, 1390), 0) << "steady in between: from 1390";
+  EXPECT_EQ(Evaluate(v1::DRIFTING, {}, 1390), 0)
+      << "steady in between: from 1390";
   EXPECT_EQ(Evaluate(v1::DRIFTING, {}, 1489), 0);
   EXPECT_EQ(Evaluate(v1::DRIFTING, {}, 1490), 1);
 }
@@ -168,11 +176,12 @@ TEST_F(RefitWorkerTest, JobIdsGoOnAcrossRestarts) {
   worker_.reset();  // plumbd stops; the ledger keeps the audit
   worker_ = std::make_unique<RefitWorker>(runner_.get(), nullptr,
                                           [] { return absl::Now(); });
-  worker_->RunNow({"courier", RefitTriggerKind::kManual, "alice", "after restart"});
+  worker_->RunNow(
+      {"courier", RefitTriggerKind::kManual, "alice", "after restart"});
   EXPECT_EQ(FailedJobActors(),
             (std::vector<std::string>{"refit job 1 (manual, alice)",
-                                       "refit job 2 (manual, alice)",
-                                       "refit job 3 (manual, alice)"}));
+                                      "refit job 2 (manual, alice)",
+                                      "refit job 3 (manual, alice)"}));
 }
 
 TEST_F(RefitWorkerTest, AShadowsDriftStartsNothing) {
@@ -184,7 +193,8 @@ TEST_F(RefitWorkerTest, ModeOffStartsNothingButManualJobsRun) {
   Start(v1::RefitPolicy::OFF, absl::Minutes(1));
   Advance(absl::Hours(2));
   EXPECT_EQ(Evaluate(v1::DRIFTING), 0);
-  RefitOutcome manual = worker_->RunNow({"courier", RefitTriggerKind::kManual, "alice", "test"});
+  RefitOutcome manual =
+      worker_->RunNow({"courier", RefitTriggerKind::kManual, "alice", "test"});
   EXPECT_EQ(manual.result, RefitOutcome::Result::kFailed);
   EXPECT_TRUE(absl::StrContains(manual.summary, "too few labelled records"))
       << manual.summary;
@@ -206,9 +216,10 @@ TEST_F(RefitWorkerTest, AWaitingRefitCandidateHoldsBackDriftJobs) {
   Start(v1::RefitPolicy::PROPOSE, absl::ZeroDuration());
   v1::CoefficientSet candidate = *scorer::ParseCoefficientSet(
       testing::CourierSetJson("courier", "refit-x", -0.5), "test");
-  ASSERT_TRUE(lifecycle_->AddCandidate({candidate, "refit job 9 (drift)",
-                                        "drifting", "", {}})
-                  .ok());
+  ASSERT_TRUE(
+      lifecycle_
+          ->AddCandidate({candidate, "refit job 9 (drift)", "drifting", "", {}})
+          .ok());
   EXPECT_EQ(Evaluate(v1::DRIFTING), 0);
   ASSERT_TRUE(lifecycle_->Approve({"courier", "refit-x", "alice", ""}).ok());
   // refit-x is active now; its drift may start a job.

@@ -4,6 +4,8 @@
 // file in a temp directory: what the sets directory may change and what the
 // ledger keeps, the preconditions of approve / shadow / rollback, and that a
 // restart serves what the ledger says.
+#include "daemon/registry/lifecycle.h"
+
 #include <filesystem>
 #include <memory>
 #include <string>
@@ -11,9 +13,8 @@
 
 #include "absl/strings/str_cat.h"
 #include "daemon/ledger/ledger.h"
-#include "daemon/registry/lifecycle.h"
-#include "daemon/scoring/set_registry.h"
 #include "daemon/registry/version_store.h"
+#include "daemon/scoring/set_registry.h"
 #include "gtest/gtest.h"
 #include "scorer/coefficient_set.h"
 #include "tests/testing/process.h"
@@ -33,7 +34,8 @@ struct Stack {
     store = *VersionStore::Open(options.path);
     lifecycle = std::make_unique<Lifecycle>(store.get());
     registry = std::make_unique<SetRegistry>(dir.File("sets"), lifecycle.get());
-    lifecycle->Attach(registry.get(), [this](const ReloadReport&) { ++changes; });
+    lifecycle->Attach(registry.get(),
+                      [this](const ReloadReport&) { ++changes; });
   }
   std::string Active(const std::string& set) {
     PlanPtr plan = registry->Find(set);
@@ -48,7 +50,9 @@ struct Stack {
 
 class LifecycleRulesTest : public ::testing::Test {
  protected:
-  void SetUp() override { std::filesystem::create_directories(dir_.File("sets")); }
+  void SetUp() override {
+    std::filesystem::create_directories(dir_.File("sets"));
+  }
   void WriteSet(const std::string& version, double intercept = -1.5) {
     ASSERT_TRUE(testing::WriteTextFile(
                     dir_.File("sets/courier.json"),
@@ -68,7 +72,8 @@ TEST_F(LifecycleRulesTest, NewFileVersionsActivateKnownOnesKeepTheLedgerState) {
   ASSERT_TRUE(s.registry->Reload().ok());
   EXPECT_EQ(s.Active("courier"), "v1");
 
-  ASSERT_TRUE(s.lifecycle->AddCandidate({Candidate("c1"), "test", "why", "", {}}).ok());
+  ASSERT_TRUE(
+      s.lifecycle->AddCandidate({Candidate("c1"), "test", "why", "", {}}).ok());
   EXPECT_EQ(s.Active("courier"), "v1") << "a candidate does not serve";
   ASSERT_TRUE(s.lifecycle->Approve({"courier", "c1", "alice", "ok"}).ok());
   EXPECT_EQ(s.Active("courier"), "c1");
@@ -96,7 +101,8 @@ TEST_F(LifecycleRulesTest, RestartServesWhatTheLedgerSays) {
   {
     Stack s(dir_);
     ASSERT_TRUE(s.registry->Reload().ok());
-    ASSERT_TRUE(s.lifecycle->AddCandidate({Candidate("c1"), "t", "", "", {}}).ok());
+    ASSERT_TRUE(
+        s.lifecycle->AddCandidate({Candidate("c1"), "t", "", "", {}}).ok());
     ASSERT_TRUE(s.lifecycle->Approve({"courier", "c1", "alice", ""}).ok());
   }
   Stack again(dir_);
@@ -132,9 +138,11 @@ TEST_F(LifecycleRulesTest, PreconditionsAreNamed) {
   Stack s(dir_);
   ASSERT_TRUE(s.registry->Reload().ok());
   // Nothing to roll back to yet.
-  absl::StatusOr<VersionRecord> r = s.lifecycle->Rollback({"courier", "", "a", ""});
+  absl::StatusOr<VersionRecord> r =
+      s.lifecycle->Rollback({"courier", "", "a", ""});
   EXPECT_EQ(r.status().code(), absl::StatusCode::kFailedPrecondition);
-  EXPECT_NE(r.status().message().find("nothing to roll back to"), std::string::npos);
+  EXPECT_NE(r.status().message().find("nothing to roll back to"),
+            std::string::npos);
   // Unknown version.
   r = s.lifecycle->Approve({"courier", "nope", "a", ""});
   EXPECT_EQ(r.status().code(), absl::StatusCode::kNotFound);
@@ -145,7 +153,8 @@ TEST_F(LifecycleRulesTest, PreconditionsAreNamed) {
   r = s.lifecycle->Shadow({"courier", "v1", "a", ""});
   EXPECT_EQ(r.status().code(), absl::StatusCode::kFailedPrecondition);
   // Loading a known version again.
-  ASSERT_TRUE(s.lifecycle->AddCandidate({Candidate("c1"), "t", "", "", {}}).ok());
+  ASSERT_TRUE(
+      s.lifecycle->AddCandidate({Candidate("c1"), "t", "", "", {}}).ok());
   r = s.lifecycle->AddCandidate({Candidate("c1"), "t", "", "", {}});
   EXPECT_EQ(r.status().code(), absl::StatusCode::kAlreadyExists);
   // A retired version is activated, not approved.
@@ -160,7 +169,8 @@ TEST_F(LifecycleRulesTest, ShadowsServeBesideTheActiveVersion) {
   WriteSet("v1");
   Stack s(dir_);
   ASSERT_TRUE(s.registry->Reload().ok());
-  ASSERT_TRUE(s.lifecycle->AddCandidate({Candidate("c1"), "t", "", "", {}}).ok());
+  ASSERT_TRUE(
+      s.lifecycle->AddCandidate({Candidate("c1"), "t", "", "", {}}).ok());
   ASSERT_TRUE(s.lifecycle->Shadow({"courier", "c1", "a", "try it"}).ok());
   EXPECT_EQ(s.Active("courier"), "v1");
   std::vector<PlanPtr> shadows = s.registry->Shadows("courier");

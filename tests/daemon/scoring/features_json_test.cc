@@ -5,7 +5,6 @@
 #include "daemon/scoring/features_json.h"
 
 #include "daemon/ledger/entries.h"
-
 #include "gmock/gmock.h"
 #include "gtest/gtest.h"
 #include "tests/testing/health_test_sets.h"
@@ -13,8 +12,8 @@
 namespace plumbline::daemon {
 namespace {
 
-using ::testing::HasSubstr;
 using scorer::RawValue;
+using ::testing::HasSubstr;
 using Kind = scorer::RawValue::Kind;
 
 class FeaturesJsonTest : public ::testing::Test {
@@ -32,7 +31,8 @@ class FeaturesJsonTest : public ::testing::Test {
 };
 
 TEST_F(FeaturesJsonTest, ParsesNumbersTextAndMissing) {
-  ASSERT_TRUE(Parse(R"({"region": "rural", "distance_km": 4.25, "hour": null})").ok());
+  ASSERT_TRUE(
+      Parse(R"({"region": "rural", "distance_km": 4.25, "hour": null})").ok());
   ASSERT_EQ(row_.size(), 3u);
   EXPECT_EQ(row_[0].kind, Kind::kNumber);
   EXPECT_EQ(row_[0].number, 4.25);
@@ -56,9 +56,12 @@ TEST_F(FeaturesJsonTest, RefusesWhatIsNotARecordOfThePlan) {
       {"[1, 2]", "not a JSON object"},
       {"{\"distance_km\": ", "not a JSON object"},
       {R"({"speed": 3})", "feature 'speed' is not a feature of set 'courier'"},
-      {R"({"distance_km": true})", "feature 'distance_km': expected a number or a string"},
-      {R"({"distance_km": "far"})", "feature 'distance_km': expected a number, got text 'far'"},
-      {R"({"region": 2})", "feature 'region': the number 2 is not a level index in [0, 2)"},
+      {R"({"distance_km": true})",
+       "feature 'distance_km': expected a number or a string"},
+      {R"({"distance_km": "far"})",
+       "feature 'distance_km': expected a number, got text 'far'"},
+      {R"({"region": 2})",
+       "feature 'region': the number 2 is not a level index in [0, 2)"},
       {R"({"region": 0.5})", "not a level index"},
   };
   for (const Case& c : cases) {

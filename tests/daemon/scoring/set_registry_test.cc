@@ -11,10 +11,10 @@
 namespace plumbline::daemon {
 namespace {
 
-using ::testing::ElementsAre;
-using ::testing::HasSubstr;
 using testing::CourierSetJson;
 using testing::DepotSetJson;
+using ::testing::ElementsAre;
+using ::testing::HasSubstr;
 using testing::InvalidSetJson;
 using testing::TempDir;
 using testing::WriteTextFile;
@@ -53,7 +53,8 @@ TEST_F(SetRegistryTest, LoadsEveryJsonFileAndIgnoresOthers) {
   EXPECT_EQ(registry_.Find("courier")->source(), dir_.File("courier.json"));
   EXPECT_EQ(registry_.Find("nope"), nullptr);
   EXPECT_THAT(log_, HasSubstr("level=info event=set_loaded set=courier "
-                              "version=v1 file=" + dir_.File("courier.json")));
+                              "version=v1 file=" +
+                              dir_.File("courier.json")));
 }
 
 TEST_F(SetRegistryTest, FileThatFailsValidationKeepsThePreviousVersion) {
@@ -76,8 +77,8 @@ TEST_F(SetRegistryTest, FileThatIsNotJsonKeepsThePreviousVersion) {
   Write("courier.json", "{\"name\": \"courier\", ");
   Reload();
   EXPECT_EQ(Version("courier"), "v1");
-  EXPECT_THAT(log_, HasSubstr("event=set_rejected file=" +
-                              dir_.File("courier.json")));
+  EXPECT_THAT(
+      log_, HasSubstr("event=set_rejected file=" + dir_.File("courier.json")));
 }
 
 TEST_F(SetRegistryTest, NewVersionReplacesTheOld) {

@@ -6,12 +6,12 @@
 // (max_batch_records 3, max_reasons 2) and names the ledger, and no --sets
 // flag, so it also proves that the config is read and that ./sets is the
 // default sets directory. No refused request may leave a row in the ledger.
+#include <grpcpp/client_context.h>
+
 #include <cmath>
 #include <filesystem>
 #include <functional>
 #include <limits>
-
-#include <grpcpp/client_context.h>
 
 #include "absl/strings/str_cat.h"
 #include "daemon/ledger/sqlite_db.h"
@@ -45,14 +45,17 @@ struct BadInputCase {
 
 void SetFeatureNumber(google::protobuf::Message* message, double x) {
   auto* request = static_cast<v1::ScoreRequest*>(message);
-  (*request->mutable_record()->mutable_features()->mutable_fields())
-      ["distance_km"].set_number_value(x);
+  (*request->mutable_record()
+        ->mutable_features()
+        ->mutable_fields())["distance_km"]
+      .set_number_value(x);
 }
 
 constexpr double kInf = std::numeric_limits<double>::infinity();
 
 // A valid dense row in the set's column order.
-constexpr char kDenseRow[] = R"({"recordId": "d0", "values": [9, 3, 2, 0, 18]})";
+constexpr char kDenseRow[] =
+    R"({"recordId": "d0", "values": [9, 3, 2, 0, 18]})";
 
 std::vector<BadInputCase> Cases() {
   using grpc::StatusCode;
@@ -76,12 +79,14 @@ std::vector<BadInputCase> Cases() {
        "feature 'distance_km': expected a number or a string, got a boolean"},
       {"list value", Rpc::kScore,
        R"({"set": "courier", "record": {"features": {"distance_km": [1, 2]}}})",
-       StatusCode::INVALID_ARGUMENT, "feature 'distance_km': expected a number "
-                                     "or a string, got a list"},
+       StatusCode::INVALID_ARGUMENT,
+       "feature 'distance_km': expected a number "
+       "or a string, got a list"},
       {"object value", Rpc::kScore,
        R"({"set": "courier", "record": {"features": {"distance_km": {"a": 1}}}})",
-       StatusCode::INVALID_ARGUMENT, "feature 'distance_km': expected a number "
-                                     "or a string, got an object"},
+       StatusCode::INVALID_ARGUMENT,
+       "feature 'distance_km': expected a number "
+       "or a string, got an object"},
       {"missing feature under REJECT (absent)", Rpc::kScore,
        R"({"set": "courier", "record": {"features": {"hour": 10}}})",
        StatusCode::INVALID_ARGUMENT, "feature 'distance_km': value is missing"},
@@ -148,10 +153,12 @@ std::vector<BadInputCase> Cases() {
       {"batch: dense over max_batch_records", Rpc::kScoreBatch,
        dense_prefix + kDenseRow + "," + kDenseRow + "," + kDenseRow + "," +
            kDenseRow + "]}}",
-       StatusCode::INVALID_ARGUMENT, "batch has 4 records, over the limit of 3"},
+       StatusCode::INVALID_ARGUMENT,
+       "batch has 4 records, over the limit of 3"},
       {"batch: records and dense rows both given", Rpc::kScoreBatch,
        R"({"set": "courier", "records": [{"features": {"distance_km": 9}}],
-           "dense": {"rows": [)" + std::string(kDenseRow) + "]}}",
+           "dense": {"rows": [)" +
+           std::string(kDenseRow) + "]}}",
        StatusCode::INVALID_ARGUMENT,
        "records (1) and dense.rows (1) are both given"},
       {"batch: reasons.top over max_reasons", Rpc::kScoreBatch,
@@ -240,7 +247,8 @@ class BadInputTest : public ::testing::Test {
                                            LedgerPath(), R"("})"))
                     .ok());
     absl::StatusOr<std::unique_ptr<PlumbdProcess>> plumbd =
-        PlumbdProcess::Start(dir_->path(), {"--config", dir_->File("plumbd.json")});
+        PlumbdProcess::Start(dir_->path(),
+                             {"--config", dir_->File("plumbd.json")});
     ASSERT_TRUE(plumbd.ok()) << plumbd.status();
     plumbd_ = plumbd->release();
   }
@@ -264,8 +272,8 @@ template <typename Request>
 bool ParseRequest(const BadInputCase& c, Request* request) {
   google::protobuf::util::JsonParseOptions options;
   options.ignore_unknown_fields = false;
-  const auto status =
-      google::protobuf::util::JsonStringToMessage(c.request_json, request, options);
+  const auto status = google::protobuf::util::JsonStringToMessage(
+      c.request_json, request, options);
   EXPECT_TRUE(status.ok()) << c.description << ": " << status.ToString();
   if (c.tweak) c.tweak(request);
   return status.ok();
@@ -299,7 +307,8 @@ TEST_F(BadInputTest, EveryBadRequestGetsItsCodeAndNamesTheProblem) {
   // ledger_path) holds no score.
   absl::StatusOr<std::unique_ptr<SqliteDb>> db = SqliteDb::Open(LedgerPath());
   ASSERT_TRUE(db.ok()) << db.status();
-  absl::StatusOr<int64_t> scores = (*db)->QueryInt64("SELECT COUNT(*) FROM scores");
+  absl::StatusOr<int64_t> scores =
+      (*db)->QueryInt64("SELECT COUNT(*) FROM scores");
   ASSERT_TRUE(scores.ok()) << scores.status();
   EXPECT_EQ(*scores, 0);
 }
@@ -312,7 +321,8 @@ TEST_F(BadInputTest, ValidRequestsOfTheSameShapesSucceed) {
   v1::ScoreBatchRequest request;
   ASSERT_TRUE(google::protobuf::util::JsonStringToMessage(
                   std::string(R"({"set": "courier", "reasons": {"top": 2},
-                      "dense": {"rows": [)") + kDenseRow + "]}}",
+                      "dense": {"rows": [)") +
+                      kDenseRow + "]}}",
                   &request)
                   .ok());
   grpc::ClientContext context;

@@ -7,12 +7,11 @@
 //
 // Expected log-odds are hand computations from the set's coefficients (listed
 // in tests/daemon/test_sets.h), not the scorer's output.
+#include <grpcpp/client_context.h>
 #include <signal.h>
 
 #include <cmath>
 #include <filesystem>
-
-#include <grpcpp/client_context.h>
 
 #include "absl/strings/str_cat.h"
 #include "gmock/gmock.h"
@@ -26,10 +25,10 @@ namespace {
 
 using ::grpc::health::v1::HealthCheckRequest;
 using ::grpc::health::v1::HealthCheckResponse;
-using ::testing::ElementsAre;
-using ::testing::HasSubstr;
 using testing::CourierSetJson;
 using testing::DepotSetJson;
+using ::testing::ElementsAre;
+using ::testing::HasSubstr;
 using testing::InvalidSetJson;
 using testing::PlumbdProcess;
 using testing::PollUntil;
@@ -37,21 +36,23 @@ using testing::TempDir;
 using testing::WriteTextFile;
 
 // Hand computation: probability = 1 / (1 + exp(-log_odds)).
-double HandLogistic(double log_odds) { return 1.0 / (1.0 + std::exp(-log_odds)); }
+double HandLogistic(double log_odds) {
+  return 1.0 / (1.0 + std::exp(-log_odds));
+}
 
 // Hand computations from the set's coefficients (test_sets.h), intercept -1.5.
 // Record A: distance 9, parcel_kg absent (IMPUTE 3), region rural, service
 // "overnight" (unseen → missing → IMPUTE standard), hour 18 (bin [17, inf)).
-const double kLogOddsA = -1.5 + 0.8 * (9.0 - 5.0) / 2.5 +
-                         0.3 * (3.0 - 2.0) / 1.0 + 0.9 + 0.0 + 0.5;
+const double kLogOddsA =
+    -1.5 + 0.8 * (9.0 - 5.0) / 2.5 + 0.3 * (3.0 - 2.0) / 1.0 + 0.9 + 0.0 + 0.5;
 // Record B: distance 50 (clipped to 40), parcel 1.5, region null (INDICATOR
 // 0.25), service express, hour null (INDICATOR 0.4).
 const double kLogOddsB = -1.5 + 0.8 * (40.0 - 5.0) / 2.5 +
                          0.3 * (1.5 - 2.0) / 1.0 + 0.25 - 0.3 + 0.4;
 // Record C: distance 2, parcel 2, region urban, service standard, hour 9
 // (bin [9, 12), an edge belongs to the bin above it).
-const double kLogOddsC = -1.5 + 0.8 * (2.0 - 5.0) / 2.5 +
-                         0.3 * (2.0 - 2.0) / 1.0 - 0.4 + 0.0 - 0.1;
+const double kLogOddsC =
+    -1.5 + 0.8 * (2.0 - 5.0) / 2.5 + 0.3 * (2.0 - 2.0) / 1.0 - 0.4 + 0.0 - 0.1;
 
 // Tolerance for a sum of a few terms in a different order than the scorer's.
 constexpr double kTol = 1e-12;
@@ -67,8 +68,9 @@ class PlumbdIntegrationTest : public ::testing::Test {
   void SetUp() override {
     sets_dir_ = dir_.File("sets");
     std::filesystem::create_directory(sets_dir_);
-    ASSERT_TRUE(WriteTextFile(courier_file(),
-                              CourierSetJson("courier", "2026-11")).ok());
+    ASSERT_TRUE(
+        WriteTextFile(courier_file(), CourierSetJson("courier", "2026-11"))
+            .ok());
     ASSERT_TRUE(WriteTextFile(depot_file(), DepotSetJson("depot", "d1")).ok());
     absl::StatusOr<std::unique_ptr<PlumbdProcess>> plumbd =
         PlumbdProcess::Start(dir_.path(), {"--sets", sets_dir_, "--ledger",
@@ -223,7 +225,8 @@ TEST_F(PlumbdIntegrationTest, ScoreBatchDenseMatchesHandComputation) {
   // Record B's top reason: distance clipped to 40 gives 0.8 * 35 / 2.5.
   ASSERT_EQ(reply.scores(1).reasons_size(), 1);
   EXPECT_EQ(reply.scores(1).reasons(0).feature(), "distance_km");
-  EXPECT_NEAR(reply.scores(1).reasons(0).contribution(), 0.8 * 35.0 / 2.5, kTol);
+  EXPECT_NEAR(reply.scores(1).reasons(0).contribution(), 0.8 * 35.0 / 2.5,
+              kTol);
 }
 
 TEST_F(PlumbdIntegrationTest, ScoreBatchDenseWithNamedColumnSubset) {
@@ -276,8 +279,9 @@ TEST_F(PlumbdIntegrationTest, HealthServesOverallServiceAndEverySet) {
 
 TEST_F(PlumbdIntegrationTest, ReloadOnSighupSwapsVersionsKeepsOldOnBadFile) {
   // New version with intercept 0.5: record A's log-odds rise by 2.
-  ASSERT_TRUE(WriteTextFile(courier_file(),
-                            CourierSetJson("courier", "2026-12", 0.5)).ok());
+  ASSERT_TRUE(
+      WriteTextFile(courier_file(), CourierSetJson("courier", "2026-12", 0.5))
+          .ok());
   plumbd_->Signal(SIGHUP);
   ASSERT_TRUE(PollUntil([&] { return VersionOf("courier") == "2026-12"; }))
       << plumbd_->Log();
@@ -291,8 +295,8 @@ TEST_F(PlumbdIntegrationTest, ReloadOnSighupSwapsVersionsKeepsOldOnBadFile) {
 
   // An invalid file is rejected; 2026-12 keeps serving.
   const int rejected_before = plumbd_->CountLogLines("event=set_rejected");
-  ASSERT_TRUE(WriteTextFile(courier_file(),
-                            InvalidSetJson("courier", "2027-01")).ok());
+  ASSERT_TRUE(
+      WriteTextFile(courier_file(), InvalidSetJson("courier", "2027-01")).ok());
   plumbd_->Signal(SIGHUP);
   ASSERT_TRUE(PollUntil([&] {
     return plumbd_->CountLogLines("event=reload_done") >= 2;
@@ -343,10 +347,10 @@ TEST(PlumbdStartupTest, LedgerThatCannotBeOpenedExitsWithStatus1) {
   std::filesystem::create_directory(dir.File("sets"));
   ASSERT_TRUE(WriteTextFile(dir.File("not-a-dir"), "x").ok());
   const std::string ledger = dir.File("not-a-dir/ledger.db");
-  absl::StatusOr<testing::ProcessResult> result = testing::RunProcess(
-      {PLUMBD_PATH, "--listen", "127.0.0.1:0", "--sets", dir.File("sets"),
-       "--ledger", ledger},
-      dir.path());
+  absl::StatusOr<testing::ProcessResult> result =
+      testing::RunProcess({PLUMBD_PATH, "--listen", "127.0.0.1:0", "--sets",
+                           dir.File("sets"), "--ledger", ledger},
+                          dir.path());
   ASSERT_TRUE(result.ok());
   EXPECT_EQ(result->exit_code, 1);
   EXPECT_THAT(result->err, HasSubstr("level=error event=startup_failed"));

@@ -7,11 +7,11 @@
 // and a start that fails before any ledger file is created.
 #include "daemon/server/plumbd.h"
 
+#include <grpcpp/client_context.h>
+
 #include <filesystem>
 #include <memory>
 #include <string>
-
-#include <grpcpp/client_context.h>
 
 #include "absl/strings/str_cat.h"
 #include "absl/time/time.h"
@@ -27,8 +27,8 @@ namespace plumbline::daemon {
 namespace {
 
 using ::plumbline::testing::StatusIs;
-using ::testing::HasSubstr;
 using testing::CourierSetJson;
+using ::testing::HasSubstr;
 using testing::TempDir;
 using testing::WriteTextFile;
 
@@ -96,8 +96,9 @@ TEST(PlumbdTest, ServesInProcessAndKeepsWhatItAcknowledgedAcrossARestart) {
 
 TEST(PlumbdTest, AMissingSetsDirectoryFailsBeforeTheLedgerIsCreated) {
   TempDir dir;
-  EXPECT_THAT(Plumbd::Start(TestOptions(dir)),
-              StatusIs(absl::StatusCode::kNotFound, HasSubstr("sets directory")));
+  EXPECT_THAT(
+      Plumbd::Start(TestOptions(dir)),
+      StatusIs(absl::StatusCode::kNotFound, HasSubstr("sets directory")));
   EXPECT_FALSE(std::filesystem::exists(dir.File("ledger.db")));
 }
 
@@ -107,9 +108,10 @@ TEST(PlumbdTest, FlagsOverrideTheConfigFile) {
                           R"({"listen": "127.0.0.1:7500",
                               "sets_dir": "/from/config",
                               "ledger_path": "/from/config.db"})"));
-  ASSERT_OK_AND_ASSIGN(DaemonOptions o,
-                       LoadPlumbdOptions({.config_file = dir.File("plumbd.json"),
-                                          .sets_dir = "/from/flag"}));
+  ASSERT_OK_AND_ASSIGN(
+      DaemonOptions o,
+      LoadPlumbdOptions(
+          {.config_file = dir.File("plumbd.json"), .sets_dir = "/from/flag"}));
   EXPECT_EQ(o.listen, "127.0.0.1:7500");
   EXPECT_EQ(o.sets_dir, "/from/flag");
   EXPECT_EQ(o.ledger.path, "/from/config.db");
@@ -125,9 +127,9 @@ TEST(PlumbdTest, FlagsOverrideTheConfigFile) {
 TEST(PlumbdTest, ABadConfigFileIsAnErrorNamingIt) {
   TempDir dir;
   ASSERT_OK(WriteTextFile(dir.File("plumbd.json"), R"({"listen_typo": 1})"));
-  EXPECT_THAT(LoadPlumbdOptions({.config_file = dir.File("plumbd.json")}),
-              StatusIs(absl::StatusCode::kInvalidArgument,
-                       HasSubstr("plumbd.json")));
+  EXPECT_THAT(
+      LoadPlumbdOptions({.config_file = dir.File("plumbd.json")}),
+      StatusIs(absl::StatusCode::kInvalidArgument, HasSubstr("plumbd.json")));
 }
 
 }  // namespace

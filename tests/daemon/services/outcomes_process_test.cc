@@ -6,6 +6,7 @@
 // features JSON as sent (named and dense form), outcomes joined to their
 // scores, nothing written for a refused call, and everything still there
 // after a restart.
+#include <grpcpp/client_context.h>
 #include <signal.h>
 
 #include <cmath>
@@ -13,8 +14,6 @@
 #include <memory>
 #include <string>
 #include <vector>
-
-#include <grpcpp/client_context.h>
 
 #include "absl/strings/str_cat.h"
 #include "daemon/ledger/sqlite_db.h"
@@ -178,11 +177,14 @@ TEST_F(OutcomesTest, ScoresAndOutcomesLandInTheLedgerAsSent) {
                       &many);
   ASSERT_TRUE(status.ok()) << status.error_message();
   ASSERT_EQ(many.results_size(), 8);
-  const grpc::StatusCode expected[] = {
-      grpc::StatusCode::OK,        grpc::StatusCode::FAILED_PRECONDITION,
-      grpc::StatusCode::OK,        grpc::StatusCode::NOT_FOUND,
-      grpc::StatusCode::INVALID_ARGUMENT, grpc::StatusCode::INVALID_ARGUMENT,
-      grpc::StatusCode::OK,        grpc::StatusCode::OK};
+  const grpc::StatusCode expected[] = {grpc::StatusCode::OK,
+                                       grpc::StatusCode::FAILED_PRECONDITION,
+                                       grpc::StatusCode::OK,
+                                       grpc::StatusCode::NOT_FOUND,
+                                       grpc::StatusCode::INVALID_ARGUMENT,
+                                       grpc::StatusCode::INVALID_ARGUMENT,
+                                       grpc::StatusCode::OK,
+                                       grpc::StatusCode::OK};
   for (int i = 0; i < 8; ++i) {
     EXPECT_EQ(many.results(i).code(), static_cast<int>(expected[i]))
         << i << ": " << many.results(i).message();
@@ -326,7 +328,8 @@ TEST_F(OutcomesTest, FullLedgerQueueRefusesTheBatchAndWritesNothing) {
   EXPECT_EQ(reply.scores_size(), 0);
   status = ScoreBatch(batch("five-", 5), &reply);
   ASSERT_TRUE(status.ok()) << status.error_message();
-  EXPECT_EQ(Count("SELECT COUNT(*) FROM scores WHERE record_id LIKE 'six-%'"), 0);
+  EXPECT_EQ(Count("SELECT COUNT(*) FROM scores WHERE record_id LIKE 'six-%'"),
+            0);
   EXPECT_EQ(Count("SELECT COUNT(*) FROM scores WHERE record_id LIKE 'five-%'"),
             5);
 }

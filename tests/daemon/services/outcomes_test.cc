@@ -5,10 +5,10 @@
 // messages, batch limits, and which labelled scores reach the sink.
 #include "daemon/services/outcomes.h"
 
+#include <grpcpp/server_context.h>
+
 #include <memory>
 #include <string>
-
-#include <grpcpp/server_context.h>
 
 #include "absl/strings/str_cat.h"
 #include "gmock/gmock.h"

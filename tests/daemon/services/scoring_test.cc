@@ -107,9 +107,11 @@ TEST_F(ScoringServiceTest, RecordsWithoutIdGetOneFromTheServer) {
   v1::ScoreBatchReply reply;
   ASSERT_TRUE(service_->ScoreBatch(nullptr, &request, &reply).ok());
   ASSERT_EQ(reply.scores_size(), 3);
-  EXPECT_THAT(reply.scores(0).record_id(), MatchesRegex("courier-[0-9]+-[0-9]+"));
+  EXPECT_THAT(reply.scores(0).record_id(),
+              MatchesRegex("courier-[0-9]+-[0-9]+"));
   EXPECT_EQ(reply.scores(1).record_id(), "given");
-  EXPECT_THAT(reply.scores(2).record_id(), MatchesRegex("courier-[0-9]+-[0-9]+"));
+  EXPECT_THAT(reply.scores(2).record_id(),
+              MatchesRegex("courier-[0-9]+-[0-9]+"));
   EXPECT_NE(reply.scores(0).record_id(), reply.scores(2).record_id());
   EXPECT_EQ(FeaturesOf(reply.scores(2).record_id()), R"({"distance_km":2})");
 }
@@ -142,8 +144,10 @@ TEST_F(ScoringServiceTest, RefusedByTheLedgerMeansNoScoreAndNoSink) {
   v1::ScoreBatchRequest request;
   request.set_set("courier");
   for (int i = 0; i < 3; ++i) {
-    (*request.add_records()->mutable_features()->mutable_fields())
-        ["distance_km"].set_number_value(i);
+    (*request.add_records()
+          ->mutable_features()
+          ->mutable_fields())["distance_km"]
+        .set_number_value(i);
   }
   v1::ScoreBatchReply reply;
   grpc::Status status = service_->ScoreBatch(nullptr, &request, &reply);

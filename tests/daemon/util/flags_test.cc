@@ -15,8 +15,7 @@ namespace {
 using ::testing::ElementsAre;
 using ::testing::HasSubstr;
 
-absl::StatusOr<std::vector<std::string>> Parse(
-    std::vector<const char*> args) {
+absl::StatusOr<std::vector<std::string>> Parse(std::vector<const char*> args) {
   args.insert(args.begin(), "prog");
   return ParseFlags(static_cast<int>(args.size()), args.data());
 }
@@ -37,7 +36,8 @@ TEST(ParseFlagsTest, DashesAndUnderscoresAndBothValueForms) {
 TEST(ParseFlagsTest, BadCommandLinesAreErrors) {
   absl::StatusOr<std::vector<std::string>> args = Parse({"--no_such_flag=1"});
   ASSERT_FALSE(args.ok());
-  EXPECT_THAT(args.status().message(), HasSubstr("unknown flag --no_such_flag"));
+  EXPECT_THAT(args.status().message(),
+              HasSubstr("unknown flag --no_such_flag"));
 
   args = Parse({"--test_batch=many"});
   ASSERT_FALSE(args.ok());
