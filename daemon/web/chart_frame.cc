@@ -22,8 +22,8 @@ std::string PathWithGaps(const std::vector<std::optional<Point>>& points) {
       pen_down = false;
       continue;
     }
-    absl::StrAppend(&d, d.empty() ? "" : " ", pen_down ? "L" : "M",
-                    Coord(p->x), " ", Coord(p->y));
+    absl::StrAppend(&d, d.empty() ? "" : " ", pen_down ? "L" : "M", Coord(p->x),
+                    " ", Coord(p->y));
     pen_down = true;
   }
   return d;
@@ -41,8 +41,8 @@ absl::Status ChartError(const ChartText& text, absl::string_view what) {
 
 absl::Status CheckChartText(const ChartText& text) {
   const std::string& id = text.id;
-  bool ok = !id.empty() && id.size() <= 64 && absl::ascii_isalpha(
-                                                  static_cast<unsigned char>(id[0]));
+  bool ok = !id.empty() && id.size() <= 64 &&
+            absl::ascii_isalpha(static_cast<unsigned char>(id[0]));
   for (char c : id) {
     const auto u = static_cast<unsigned char>(c);
     if (!absl::ascii_isalnum(u) && c != '-' && c != '_') ok = false;
@@ -89,19 +89,19 @@ void ChartFrame::Begin(absl::string_view summary, bool empty) {
   SvgWriter& w = *writer_;
   const std::string w_text = Coord(width_);
   const std::string h_text = Coord(height_);
-  w.Open("svg", {{"xmlns", "http://www.w3.org/2000/svg"},
-                 {"id", text_.id},
-                 {"class", "plumbline-chart"},
-                 {"data-chart", kind_},
-                 {"data-empty", empty ? "true" : "false"},
-                 {"role", "img"},
-                 {"aria-labelledby",
-                  absl::StrCat(SubId("title"), " ", SubId("desc"))},
-                 {"viewBox", absl::StrCat("0 0 ", w_text, " ", h_text)},
-                 {"width", w_text},
-                 {"height", h_text},
-                 {"style", "max-width:100%;height:auto"},
-                 {"font-family", kFontFamily}});
+  w.Open("svg",
+         {{"xmlns", "http://www.w3.org/2000/svg"},
+          {"id", text_.id},
+          {"class", "plumbline-chart"},
+          {"data-chart", kind_},
+          {"data-empty", empty ? "true" : "false"},
+          {"role", "img"},
+          {"aria-labelledby", absl::StrCat(SubId("title"), " ", SubId("desc"))},
+          {"viewBox", absl::StrCat("0 0 ", w_text, " ", h_text)},
+          {"width", w_text},
+          {"height", h_text},
+          {"style", "max-width:100%;height:auto"},
+          {"font-family", kFontFamily}});
   w.TextElement("title", {{"id", SubId("title")}},
                 text_.title.empty() ? kind_ : text_.title);
   std::string desc = text_.description;
@@ -118,8 +118,12 @@ void ChartFrame::Begin(absl::string_view summary, bool empty) {
                      {"height", "6"},
                      {"patternTransform", "rotate(45)"}});
   w.Leaf("rect", {{"width", "6"}, {"height", "6"}, {"fill", kOrange}});
-  w.Leaf("line", {{"x1", "0"}, {"y1", "0"}, {"x2", "0"}, {"y2", "6"},
-                  {"stroke", kInk}, {"stroke-width", "1.6"},
+  w.Leaf("line", {{"x1", "0"},
+                  {"y1", "0"},
+                  {"x2", "0"},
+                  {"y2", "6"},
+                  {"stroke", kInk},
+                  {"stroke-width", "1.6"},
                   {"stroke-opacity", "0.7"}});
   w.Close();
   w.Open("pattern", {{"id", SubId("cross")},
@@ -128,21 +132,28 @@ void ChartFrame::Begin(absl::string_view summary, bool empty) {
                      {"height", "5"},
                      {"patternTransform", "rotate(45)"}});
   w.Leaf("rect", {{"width", "5"}, {"height", "5"}, {"fill", kVermilion}});
-  w.Leaf("path", {{"d", "M0 0V5M0 0H5"}, {"stroke", kPaper},
-                  {"stroke-width", "1.4"}, {"stroke-opacity", "0.85"}});
+  w.Leaf("path", {{"d", "M0 0V5M0 0H5"},
+                  {"stroke", kPaper},
+                  {"stroke-width", "1.4"},
+                  {"stroke-opacity", "0.85"}});
   w.Close();
   w.Close();
 
   w.Leaf("rect", {{"width", w_text}, {"height", h_text}, {"fill", kPaper}});
   if (!text_.title.empty()) {
     DrawFittedText(&w,
-                   {{"x", "16"}, {"y", "25"}, {"font-size", Coord(kTitleSize)},
-                    {"font-weight", "bold"}, {"fill", kInk}},
+                   {{"x", "16"},
+                    {"y", "25"},
+                    {"font-size", Coord(kTitleSize)},
+                    {"font-weight", "bold"},
+                    {"fill", kInk}},
                    text_.title, CharsThatFit(width_ - 32, kTitleSize));
   }
   if (!text_.subtitle.empty()) {
     DrawFittedText(&w,
-                   {{"x", "16"}, {"y", "44"}, {"font-size", Coord(kTextSize)},
+                   {{"x", "16"},
+                    {"y", "44"},
+                    {"font-size", Coord(kTextSize)},
                     {"fill", kMutedInk}},
                    text_.subtitle, CharsThatFit(width_ - 32, kTextSize));
   }
@@ -160,25 +171,31 @@ void DrawFittedText(SvgWriter* w, std::vector<SvgAttribute> attributes,
 }
 
 void DrawYAxis(SvgWriter* w, const Rect& plot, const LinearScale& y,
-               const Ticks& ticks, absl::string_view title,
-               bool title_on_top) {
+               const Ticks& ticks, absl::string_view title, bool title_on_top) {
   w->Open("g", {{"class", "axis-y"}});
   for (double t : ticks.values) {
     const double py = y(t);
     if (py < plot.y - 0.5 || py > plot.bottom() + 0.5) continue;
-    w->Leaf("line", {{"x1", Coord(plot.x)}, {"x2", Coord(plot.right())},
-                     {"y1", Coord(py)}, {"y2", Coord(py)},
-                     {"stroke", kGrid}, {"stroke-width", "1"}});
+    w->Leaf("line", {{"x1", Coord(plot.x)},
+                     {"x2", Coord(plot.right())},
+                     {"y1", Coord(py)},
+                     {"y2", Coord(py)},
+                     {"stroke", kGrid},
+                     {"stroke-width", "1"}});
     w->TextElement("text",
-                   {{"x", Coord(plot.x - 6)}, {"y", Coord(py + 4)},
-                    {"text-anchor", "end"}, {"font-size", Coord(kSmallSize)},
+                   {{"x", Coord(plot.x - 6)},
+                    {"y", Coord(py + 4)},
+                    {"text-anchor", "end"},
+                    {"font-size", Coord(kSmallSize)},
                     {"fill", kMutedInk}},
                    TickLabel(t, ticks.step));
   }
   if (title_on_top) {
     DrawFittedText(w,
-                   {{"x", Coord(plot.x - 40)}, {"y", Coord(plot.y - 10)},
-                    {"font-size", Coord(kTextSize)}, {"fill", kInk}},
+                   {{"x", Coord(plot.x - 40)},
+                    {"y", Coord(plot.y - 10)},
+                    {"font-size", Coord(kTextSize)},
+                    {"fill", kInk}},
                    title, CharsThatFit(plot.width + 40, kTextSize));
     w->Close();
     return;
@@ -186,10 +203,13 @@ void DrawYAxis(SvgWriter* w, const Rect& plot, const LinearScale& y,
   const double cx = plot.x - 46;
   const double cy = plot.y + plot.height / 2;
   DrawFittedText(w,
-                 {{"x", Coord(cx)}, {"y", Coord(cy)}, {"text-anchor", "middle"},
-                  {"transform", absl::StrCat("rotate(-90 ", Coord(cx), " ",
-                                             Coord(cy), ")")},
-                  {"font-size", Coord(kTextSize)}, {"fill", kInk}},
+                 {{"x", Coord(cx)},
+                  {"y", Coord(cy)},
+                  {"text-anchor", "middle"},
+                  {"transform",
+                   absl::StrCat("rotate(-90 ", Coord(cx), " ", Coord(cy), ")")},
+                  {"font-size", Coord(kTextSize)},
+                  {"fill", kInk}},
                  title, CharsThatFit(plot.height, kTextSize));
   w->Close();
 }
@@ -200,30 +220,37 @@ void DrawXAxis(SvgWriter* w, const Rect& plot, const LinearScale& x,
   for (double t : ticks.values) {
     const double px = x(t);
     if (px < plot.x - 0.5 || px > plot.right() + 0.5) continue;
-    w->Leaf("line", {{"x1", Coord(px)}, {"x2", Coord(px)},
-                     {"y1", Coord(plot.y)}, {"y2", Coord(plot.bottom())},
-                     {"stroke", kGrid}, {"stroke-width", "1"}});
+    w->Leaf("line", {{"x1", Coord(px)},
+                     {"x2", Coord(px)},
+                     {"y1", Coord(plot.y)},
+                     {"y2", Coord(plot.bottom())},
+                     {"stroke", kGrid},
+                     {"stroke-width", "1"}});
     w->TextElement("text",
-                   {{"x", Coord(px)}, {"y", Coord(plot.bottom() + 16)},
+                   {{"x", Coord(px)},
+                    {"y", Coord(plot.bottom() + 16)},
                     {"text-anchor", "middle"},
-                    {"font-size", Coord(kSmallSize)}, {"fill", kMutedInk}},
+                    {"font-size", Coord(kSmallSize)},
+                    {"fill", kMutedInk}},
                    TickLabel(t, ticks.step));
   }
   DrawFittedText(w,
                  {{"x", Coord(plot.x + plot.width / 2)},
                   {"y", Coord(plot.bottom() + 36)},
                   {"text-anchor", "middle"},
-                  {"font-size", Coord(kTextSize)}, {"fill", kInk}},
+                  {"font-size", Coord(kTextSize)},
+                  {"fill", kInk}},
                  title, CharsThatFit(plot.width + 80, kTextSize));
   w->Close();
 }
 
 void DrawAxisLines(SvgWriter* w, const Rect& plot) {
-  w->Leaf("path", {{"d", absl::StrCat("M", Coord(plot.x), " ", Coord(plot.y),
-                                      "V", Coord(plot.bottom()), "H",
-                                      Coord(plot.right()))},
-                   {"fill", "none"}, {"stroke", kAxis},
-                   {"stroke-width", "1.2"}});
+  w->Leaf("path",
+          {{"d", absl::StrCat("M", Coord(plot.x), " ", Coord(plot.y), "V",
+                              Coord(plot.bottom()), "H", Coord(plot.right()))},
+           {"fill", "none"},
+           {"stroke", kAxis},
+           {"stroke-width", "1.2"}});
 }
 
 void OpenMarker(SvgWriter* w, const SeriesStyle& style, double x, double y,
@@ -266,9 +293,9 @@ void OpenMarker(SvgWriter* w, const SeriesStyle& style, double x, double y,
     }
     case Marker::kDiamond: {
       const double r = radius * 1.25;
-      points = absl::StrCat(Coord(x), ",", Coord(y - r), " ", Coord(x + r),
-                            ",", Coord(y), " ", Coord(x), ",", Coord(y + r),
-                            " ", Coord(x - r), ",", Coord(y));
+      points = absl::StrCat(Coord(x), ",", Coord(y - r), " ", Coord(x + r), ",",
+                            Coord(y), " ", Coord(x), ",", Coord(y + r), " ",
+                            Coord(x - r), ",", Coord(y));
       break;
     }
   }
@@ -314,29 +341,41 @@ void DrawLegendEntry(SvgWriter* w, double x, double y, double label_width,
   const double mid = y + kLegendLine / 2;
   switch (e.kind) {
     case LegendEntry::Kind::kSeries:
-      w->Leaf("line", {{"x1", Coord(x)}, {"x2", Coord(x + 28)},
-                       {"y1", Coord(mid)}, {"y2", Coord(mid)},
-                       {"stroke", e.series->colour}, {"stroke-width", "2.2"},
+      w->Leaf("line", {{"x1", Coord(x)},
+                       {"x2", Coord(x + 28)},
+                       {"y1", Coord(mid)},
+                       {"y2", Coord(mid)},
+                       {"stroke", e.series->colour},
+                       {"stroke-width", "2.2"},
                        {"stroke-dasharray", e.series->dash}});
       OpenMarker(w, *e.series, x + 14, mid, 4, {});
       w->Close();
       break;
     case LegendEntry::Kind::kBox:
-      w->Leaf("rect", {{"x", Coord(x + 4)}, {"y", Coord(mid - 6)},
-                       {"width", "20"}, {"height", "12"}, {"fill", e.fill},
-                       {"stroke", e.stroke}, {"stroke-width", "1.2"},
+      w->Leaf("rect", {{"x", Coord(x + 4)},
+                       {"y", Coord(mid - 6)},
+                       {"width", "20"},
+                       {"height", "12"},
+                       {"fill", e.fill},
+                       {"stroke", e.stroke},
+                       {"stroke-width", "1.2"},
                        {"stroke-dasharray", e.dash}});
       break;
     case LegendEntry::Kind::kReferenceLine:
-      w->Leaf("line", {{"x1", Coord(x)}, {"x2", Coord(x + 28)},
-                       {"y1", Coord(mid)}, {"y2", Coord(mid)},
-                       {"stroke", e.stroke}, {"stroke-width", "2"},
+      w->Leaf("line", {{"x1", Coord(x)},
+                       {"x2", Coord(x + 28)},
+                       {"y1", Coord(mid)},
+                       {"y2", Coord(mid)},
+                       {"stroke", e.stroke},
+                       {"stroke-width", "2"},
                        {"stroke-dasharray", e.dash}});
       break;
   }
   DrawFittedText(w,
-                 {{"x", Coord(x + kSwatchWidth)}, {"y", Coord(mid + 4)},
-                  {"font-size", Coord(kTextSize)}, {"fill", kInk}},
+                 {{"x", Coord(x + kSwatchWidth)},
+                  {"y", Coord(mid + 4)},
+                  {"font-size", Coord(kTextSize)},
+                  {"fill", kInk}},
                  e.label, CharsThatFit(label_width, kTextSize));
 }
 
@@ -378,20 +417,27 @@ double DrawLegendRow(SvgWriter* w, double x, double y, double width,
 
 void DrawNoData(SvgWriter* w, const Rect& plot, absl::string_view message) {
   w->Open("g", {{"class", "no-data"}});
-  w->Leaf("rect", {{"x", Coord(plot.x)}, {"y", Coord(plot.y)},
+  w->Leaf("rect", {{"x", Coord(plot.x)},
+                   {"y", Coord(plot.y)},
                    {"width", Coord(plot.width)},
-                   {"height", Coord(plot.height)}, {"fill", kNoDataFill},
+                   {"height", Coord(plot.height)},
+                   {"fill", kNoDataFill},
                    {"stroke", kGrid}});
   const double cx = plot.x + plot.width / 2;
   const double cy = plot.y + plot.height / 2;
   w->TextElement("text",
-                 {{"x", Coord(cx)}, {"y", Coord(cy - 4)},
-                  {"text-anchor", "middle"}, {"font-size", "15"},
-                  {"font-weight", "bold"}, {"fill", kMutedInk}},
+                 {{"x", Coord(cx)},
+                  {"y", Coord(cy - 4)},
+                  {"text-anchor", "middle"},
+                  {"font-size", "15"},
+                  {"font-weight", "bold"},
+                  {"fill", kMutedInk}},
                  "No data");
   DrawFittedText(w,
-                 {{"x", Coord(cx)}, {"y", Coord(cy + 16)},
-                  {"text-anchor", "middle"}, {"font-size", Coord(kTextSize)},
+                 {{"x", Coord(cx)},
+                  {"y", Coord(cy + 16)},
+                  {"text-anchor", "middle"},
+                  {"font-size", Coord(kTextSize)},
                   {"fill", kMutedInk}},
                  message, CharsThatFit(plot.width - 16, kTextSize));
   w->Close();

@@ -7,10 +7,12 @@
 //
 //   SvgWriter w;
 //   ChartFrame frame(&w, chart.text, "roc", 640, 400);
-//   frame.Begin(summary);
+//   frame.Begin(summary, /*empty=*/false);
+//   const Rect plot{72, ChartFrame::ContentTop(chart.text), 300, 300};
 //   LinearScale x{0, 1, plot.x, plot.right()};
 //   DrawXAxis(&w, plot, x, NiceTicks(0, 1, 5), "false positive rate (0–1)");
 //   frame.End();
+//   std::string svg = std::move(w).Release();
 //
 // Thread-compatible: a frame writes into one SvgWriter.
 #ifndef PLUMBLINE_DAEMON_WEB_CHART_FRAME_H_
@@ -81,7 +83,7 @@ absl::Status ChartError(const ChartText& text, absl::string_view what);
 class ChartFrame {
  public:
   // `kind` goes into data-chart. REQUIRES: CheckChartText(text).ok();
-  // *writer outlives the frame.
+  // *writer and `text` outlive the frame.
   ChartFrame(SvgWriter* writer, const ChartText& text, absl::string_view kind,
              double width, double height);
 

@@ -24,12 +24,12 @@
 // for times) in data- attributes that scripts and tests read back. Drawing
 // uses presentation attributes only, so several charts can share a page.
 //
-// Undefined values (NaN, and +-inf where a value cannot be infinite) are
-// drawn as gaps or "n/a", never written as numbers; a chart without any
-// defined value draws a "no data" panel. Input that cannot be right (a
-// probability outside [0, 1], a negative count, bins and proportions of
-// different lengths, a bad id) is INVALID_ARGUMENT naming the chart and the
-// field.
+// NaN means "undefined" in every input (a history also takes +-inf so):
+// such values are drawn as gaps or "n/a" and never written as numbers; a
+// chart without any defined value draws a "no data" panel. Input that
+// cannot be right (a probability outside [0, 1] or infinite, a negative
+// count, bins and shares of different lengths, times out of order, a bad
+// id) is INVALID_ARGUMENT naming the chart and the field.
 //
 //   web::StabilityBars bars;
 //   bars.text.id = "psi-courier";
@@ -118,7 +118,7 @@ absl::StatusOr<std::string> RenderBaselineHistogram(
 // ---- Stability bars per feature ----
 
 struct FeatureStability {
-  std::string feature;  // as the coefficient set names it; any text
+  std::string feature;      // as the coefficient set names it; any text
   double psi = kUndefined;  // >= 0, or NaN when not computed
   // The state the drift policy gave the feature. When absent it follows
   // from the chart's thresholds as daemon/drift_policy.h judges ABOVE:
@@ -129,7 +129,7 @@ struct FeatureStability {
 struct StabilityBars {
   ChartText text;
   std::vector<FeatureStability> features;  // drawn largest PSI first
-  double watch = 0.10;     // REQUIRES: 0 <= watch <= drifting, finite
+  double watch = 0.10;  // REQUIRES: 0 <= watch <= drifting, finite
   double drifting = 0.25;
 };
 
@@ -148,15 +148,15 @@ struct TimeSeries {
 };
 
 struct ThresholdLine {
-  std::string name;  // e.g. "watch", "drifting"
-  double value = 0;  // finite
+  std::string name;             // e.g. "watch", "drifting"
+  double value = 0;             // finite
   Level level = Level::kWatch;  // colour and dash of the line
 };
 
 struct TimeSeriesChart {
   ChartText text;
-  std::string value_label;  // y axis: "log-loss"
-  std::string value_unit;   // "nats per record"; empty for unitless
+  std::string value_label;         // y axis: "log-loss"
+  std::string value_unit;          // "nats per record"; empty for unitless
   std::vector<TimeSeries> series;  // 1 to kMaxSeries
   std::vector<ThresholdLine> thresholds;
 };

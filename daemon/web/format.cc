@@ -97,7 +97,8 @@ std::string DayText(absl::Time t) {
   const absl::CivilSecond cs = absl::ToCivilSecond(t, utc);
   std::string out = absl::StrCat(cs.day(), " ", kMonths[cs.month() - 1]);
   if (cs.hour() != 0 || cs.minute() != 0) {
-    absl::StrAppend(&out, absl::StrFormat(" %02d:%02d", cs.hour(), cs.minute()));
+    absl::StrAppend(&out,
+                    absl::StrFormat(" %02d:%02d", cs.hour(), cs.minute()));
   }
   return out;
 }
@@ -131,8 +132,8 @@ Ticks NiceTicks(double lo, double hi, int target) {
 
 std::string TickLabel(double value, double step) {
   if (!std::isfinite(value)) return "n/a";
-  const int decimals = std::clamp(
-      static_cast<int>(std::ceil(-std::log10(step) - 1e-9)), 0, 6);
+  const int decimals =
+      std::clamp(static_cast<int>(std::ceil(-std::log10(step) - 1e-9)), 0, 6);
   return FixNegativeZero(absl::StrFormat("%.*f", decimals, value));
 }
 

@@ -33,16 +33,15 @@ absl::Status CheckShares(const BaselineHistogram& chart,
                          const std::vector<double>& shares,
                          absl::string_view field) {
   if (shares.size() != BinCount(chart)) {
-    return ChartError(chart.text,
-                      absl::StrCat(field, " has ", shares.size(),
-                                   " shares for ", BinCount(chart), " bins"));
+    return ChartError(
+        chart.text, absl::StrCat(field, " has ", shares.size(), " shares for ",
+                                 BinCount(chart), " bins"));
   }
   for (size_t i = 0; i < shares.size(); ++i) {
     const double v = shares[i];
     if (!std::isnan(v) && !(v >= 0 && v <= 1)) {
-      return ChartError(chart.text,
-                        absl::StrCat(field, "[", i,
-                                     "] is not a share in [0, 1]"));
+      return ChartError(chart.text, absl::StrCat(field, "[", i,
+                                                 "] is not a share in [0, 1]"));
     }
   }
   return absl::OkStatus();
@@ -79,9 +78,9 @@ std::string BinName(const BaselineHistogram& chart, size_t i) {
   const auto& e = chart.edges;
   if (e.empty()) return "all values";
   if (i == 0) return absl::StrCat("below ", ShortNumber(e[0], 4));
-  if (i == e.size()) return absl::StrCat(ShortNumber(e[i - 1], 4), " and above");
-  return absl::StrCat(ShortNumber(e[i - 1], 4), kEnDash,
-                      ShortNumber(e[i], 4));
+  if (i == e.size())
+    return absl::StrCat(ShortNumber(e[i - 1], 4), " and above");
+  return absl::StrCat(ShortNumber(e[i - 1], 4), kEnDash, ShortNumber(e[i], 4));
 }
 
 }  // namespace
@@ -104,16 +103,16 @@ absl::StatusOr<std::string> RenderBaselineHistogram(
       max_share = std::max(max_share, chart.baseline[i]);
     }
   }
-  const std::string value_title =
-      internal::AxisTitle(chart.value_label.empty() ? "value"
-                                                    : chart.value_label,
-                          chart.value_unit);
+  const std::string value_title = internal::AxisTitle(
+      chart.value_label.empty() ? "value" : chart.value_label,
+      chart.value_unit);
 
   std::string summary = absl::StrCat(
       "Share of records per bin of ", SanitizeUtf8(value_title), ", ",
       SanitizeUtf8(chart.window_name),
-      has_baseline ? absl::StrCat(" against ", SanitizeUtf8(chart.baseline_name))
-                   : std::string(),
+      has_baseline
+          ? absl::StrCat(" against ", SanitizeUtf8(chart.baseline_name))
+          : std::string(),
       ", ", bins, " bins.");
   if (!any_defined) {
     summary = absl::StrCat("Share of records per bin of ",
@@ -161,7 +160,8 @@ absl::StatusOr<std::string> RenderBaselineHistogram(
   for (const std::string& level : chart.levels) {
     longest_level = std::max(longest_level, CharCount(level));
   }
-  const size_t slot_chars = internal::CharsThatFit(slot - 4, internal::kSmallSize);
+  const size_t slot_chars =
+      internal::CharsThatFit(slot - 4, internal::kSmallSize);
   const bool turned =
       categorical && slot_chars < 6 && longest_level > slot_chars;
   const double label_room = turned ? 78 : 20;
@@ -229,14 +229,16 @@ absl::StatusOr<std::string> RenderBaselineHistogram(
       if (window_defined) {
         const double bar_top = y(chart.window[i] * 100);
         const double pad = std::min(6.0, slot * 0.12);
-        w.Leaf("rect", {{"x", Coord(x0 + pad)}, {"y", Coord(bar_top)},
+        w.Leaf("rect", {{"x", Coord(x0 + pad)},
+                        {"y", Coord(bar_top)},
                         {"width", Coord(slot - 2 * pad)},
                         {"height", Coord(plot.bottom() - bar_top)},
-                        {"fill", kSkyBlue}, {"stroke", kBlue},
+                        {"fill", kSkyBlue},
+                        {"stroke", kBlue},
                         {"stroke-width", "1"}});
         if (print_values) {
-          labels.push_back({x0 + slot / 2, bar_top - 4,
-                            PercentText(chart.window[i], 3)});
+          labels.push_back(
+              {x0 + slot / 2, bar_top - 4, PercentText(chart.window[i], 3)});
         }
       } else {
         w.TextElement("text",
@@ -259,8 +261,11 @@ absl::StatusOr<std::string> RenderBaselineHistogram(
     if (has_baseline) {
       const std::string d = internal::PathWithGaps(step);
       if (!d.empty()) {
-        w.Leaf("path", {{"class", "baseline"}, {"d", d}, {"fill", "none"},
-                        {"stroke", kInk}, {"stroke-width", "2"},
+        w.Leaf("path", {{"class", "baseline"},
+                        {"d", d},
+                        {"fill", "none"},
+                        {"stroke", kInk},
+                        {"stroke-width", "2"},
                         {"stroke-dasharray", "6 3"}});
       }
     }
@@ -269,11 +274,14 @@ absl::StatusOr<std::string> RenderBaselineHistogram(
     w.Open("g", {{"class", "values"}, {"aria-hidden", "true"}});
     for (const Label& label : labels) {
       w.TextElement("text",
-                    {{"x", Coord(label.x)}, {"y", Coord(label.y)},
+                    {{"x", Coord(label.x)},
+                     {"y", Coord(label.y)},
                      {"text-anchor", "middle"},
                      {"font-size", Coord(internal::kSmallSize - 1)},
-                     {"fill", kInk}, {"stroke", kPaper},
-                     {"stroke-width", "3"}, {"stroke-linejoin", "round"},
+                     {"fill", kInk},
+                     {"stroke", kPaper},
+                     {"stroke-width", "3"},
+                     {"stroke-linejoin", "round"},
                      {"paint-order", "stroke"}},
                     label.text);
     }
@@ -288,8 +296,7 @@ absl::StatusOr<std::string> RenderBaselineHistogram(
       const double ly = plot.bottom() + 15;
       const std::string xs = Coord(cx), ys = Coord(ly);
       const std::string size = Coord(internal::kSmallSize);
-      const std::string rotate =
-          absl::StrCat("rotate(-35 ", xs, " ", ys, ")");
+      const std::string rotate = absl::StrCat("rotate(-35 ", xs, " ", ys, ")");
       std::vector<SvgAttribute> a = {
           {"x", xs}, {"y", ys}, {"font-size", size}, {"fill", kMutedInk}};
       if (turned) {
@@ -311,12 +318,15 @@ absl::StatusOr<std::string> RenderBaselineHistogram(
     const size_t every = static_cast<size_t>(std::ceil(label_width / slot));
     for (size_t i = 0; i < chart.edges.size(); ++i) {
       const double ex = plot.x + slot * static_cast<double>(i + 1);
-      w.Leaf("line", {{"x1", Coord(ex)}, {"x2", Coord(ex)},
+      w.Leaf("line", {{"x1", Coord(ex)},
+                      {"x2", Coord(ex)},
                       {"y1", Coord(plot.bottom())},
-                      {"y2", Coord(plot.bottom() + 4)}, {"stroke", kAxis}});
+                      {"y2", Coord(plot.bottom() + 4)},
+                      {"stroke", kAxis}});
       if ((i + 1) % every != 0 && every > 1) continue;
       w.TextElement("text",
-                    {{"x", Coord(ex)}, {"y", Coord(plot.bottom() + 16)},
+                    {{"x", Coord(ex)},
+                     {"y", Coord(plot.bottom() + 16)},
                      {"text-anchor", "middle"},
                      {"font-size", Coord(internal::kSmallSize)},
                      {"fill", kMutedInk}},

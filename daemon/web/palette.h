@@ -33,12 +33,12 @@ inline constexpr char kReddishPurple[] = "#CC79A7";
 
 // Neutrals of our own for text and scaffolding; text stays near black for
 // contrast well above WCAG AA on the white background.
-inline constexpr char kInk[] = "#1A1A1A";        // titles, labels, numbers
-inline constexpr char kMutedInk[] = "#4D4D4D";   // subtitles, tick labels
-inline constexpr char kAxis[] = "#333333";       // axis lines
-inline constexpr char kGrid[] = "#DDDDDD";       // grid lines
-inline constexpr char kReference[] = "#666666";  // diagonal, baseline
-inline constexpr char kPaper[] = "#FFFFFF";      // chart background
+inline constexpr char kInk[] = "#1A1A1A";         // titles, labels, numbers
+inline constexpr char kMutedInk[] = "#4D4D4D";    // subtitles, tick labels
+inline constexpr char kAxis[] = "#333333";        // axis lines
+inline constexpr char kGrid[] = "#DDDDDD";        // grid lines
+inline constexpr char kReference[] = "#666666";   // diagonal, baseline
+inline constexpr char kPaper[] = "#FFFFFF";       // chart background
 inline constexpr char kNoDataFill[] = "#F2F2F2";  // 'no data' panel, gaps
 
 // Generic font stack: nothing is loaded from anywhere.

@@ -38,9 +38,9 @@ bool Defined(const ReliabilityBin& b) {
 
 absl::Status Check(const ReliabilityDiagram& chart) {
   if (chart.series.size() > kMaxSeries) {
-    return ChartError(chart.text, absl::StrCat("at most ", kMaxSeries,
-                                               " series, got ",
-                                               chart.series.size()));
+    return ChartError(chart.text,
+                      absl::StrCat("at most ", kMaxSeries, " series, got ",
+                                   chart.series.size()));
   }
   for (size_t s = 0; s < chart.series.size(); ++s) {
     const auto& bins = chart.series[s].bins;
@@ -49,8 +49,9 @@ absl::Status Check(const ReliabilityDiagram& chart) {
       const std::string field = absl::StrCat("series[", s, "].bins[", i, "]");
       if (!InUnit(b.lower) || !InUnit(b.upper) || b.lower > b.upper) {
         return ChartError(chart.text,
-                          absl::StrCat(field, ": lower and upper must satisfy "
-                                              "0 <= lower <= upper <= 1"));
+                          absl::StrCat(field,
+                                       ": lower and upper must satisfy "
+                                       "0 <= lower <= upper <= 1"));
       }
       if (b.count < 0) {
         return ChartError(chart.text,
@@ -103,11 +104,10 @@ absl::StatusOr<std::string> RenderReliabilityDiagram(
       }
     }
     totals.push_back(total);
-    absl::StrAppend(&summary, " ", SanitizeUtf8(series.name), ": ",
-                    CountText(total), " records in ", series.bins.size(),
-                    " bins", empty > 0 ? absl::StrCat(", ", empty, " empty")
-                                       : std::string(),
-                    ".");
+    absl::StrAppend(
+        &summary, " ", SanitizeUtf8(series.name), ": ", CountText(total),
+        " records in ", series.bins.size(), " bins",
+        empty > 0 ? absl::StrCat(", ", empty, " empty") : std::string(), ".");
   }
   if (!any_defined) summary = "Reliability diagram: no labelled records.";
 
@@ -123,50 +123,60 @@ absl::StatusOr<std::string> RenderReliabilityDiagram(
   const LinearScale y{0, 1, plot.bottom(), plot.y};
   const Ticks ticks = NiceTicks(0, 1, 5);
   internal::DrawYAxis(&w, plot, y, ticks,
-                      "observed rate of positives (0\xE2\x80\x93" "1)");
+                      "observed rate of positives (0\xE2\x80\x93"
+                      "1)");
   const Rect x_axis_area{plot.x, plot.y, plot.width, strip.bottom() - plot.y};
   internal::DrawXAxis(&w, x_axis_area, x, ticks,
-                      "mean predicted probability (0\xE2\x80\x93" "1)");
+                      "mean predicted probability (0\xE2\x80\x93"
+                      "1)");
 
   std::vector<LegendEntry> legend;
   if (!any_defined) {
-    internal::DrawNoData(&w, x_axis_area,
-                         "no labelled records in this window");
+    internal::DrawNoData(&w, x_axis_area, "no labelled records in this window");
   } else {
     // The diagonal of perfect calibration.
-    w.Leaf("line", {{"class", "diagonal"}, {"x1", Coord(x(0))},
-                    {"y1", Coord(y(0))}, {"x2", Coord(x(1))},
-                    {"y2", Coord(y(1))}, {"stroke", kReference},
-                    {"stroke-width", "1.2"}, {"stroke-dasharray", "4 4"}});
+    w.Leaf("line", {{"class", "diagonal"},
+                    {"x1", Coord(x(0))},
+                    {"y1", Coord(y(0))},
+                    {"x2", Coord(x(1))},
+                    {"y2", Coord(y(1))},
+                    {"stroke", kReference},
+                    {"stroke-width", "1.2"},
+                    {"stroke-dasharray", "4 4"}});
     // Strip: its own frame and scale of counts.
-    w.Leaf("rect", {{"x", Coord(strip.x)}, {"y", Coord(strip.y)},
+    w.Leaf("rect", {{"x", Coord(strip.x)},
+                    {"y", Coord(strip.y)},
                     {"width", Coord(strip.width)},
-                    {"height", Coord(strip.height)}, {"fill", "none"},
+                    {"height", Coord(strip.height)},
+                    {"fill", "none"},
                     {"stroke", kGrid}});
     w.TextElement("text",
-                  {{"x", Coord(strip.x - 6)}, {"y", Coord(strip.y + 10)},
+                  {{"x", Coord(strip.x - 6)},
+                   {"y", Coord(strip.y + 10)},
                    {"text-anchor", "end"},
                    {"font-size", Coord(internal::kSmallSize)},
                    {"fill", kMutedInk}},
                   CountText(max_count));
     w.TextElement("text",
-                  {{"x", Coord(strip.x - 6)}, {"y", Coord(strip.bottom())},
+                  {{"x", Coord(strip.x - 6)},
+                   {"y", Coord(strip.bottom())},
                    {"text-anchor", "end"},
                    {"font-size", Coord(internal::kSmallSize)},
                    {"fill", kMutedInk}},
                   "0");
     const double sx = strip.x - 46, sy = strip.y + strip.height / 2;
     w.TextElement("text",
-                  {{"x", Coord(sx)}, {"y", Coord(sy)},
+                  {{"x", Coord(sx)},
+                   {"y", Coord(sy)},
                    {"text-anchor", "middle"},
                    {"transform", absl::StrCat("rotate(-90 ", Coord(sx), " ",
                                               Coord(sy), ")")},
                    {"font-size", Coord(internal::kSmallSize)},
                    {"fill", kInk}},
                   "records");
-    const LinearScale count_y{0, static_cast<double>(std::max<int64_t>(
-                                     max_count, 1)),
-                              strip.bottom(), strip.y + 2};
+    const LinearScale count_y{
+        0, static_cast<double>(std::max<int64_t>(max_count, 1)), strip.bottom(),
+        strip.y + 2};
     const size_t n_series = chart.series.size();
     for (size_t s = 0; s < n_series; ++s) {
       const ReliabilitySeries& series = chart.series[s];
@@ -182,7 +192,9 @@ absl::StatusOr<std::string> RenderReliabilityDiagram(
       }
       const std::string d = internal::PathWithGaps(points);
       if (!d.empty()) {
-        w.Leaf("path", {{"d", d}, {"fill", "none"}, {"stroke", style.colour},
+        w.Leaf("path", {{"d", d},
+                        {"fill", "none"},
+                        {"stroke", style.colour},
                         {"stroke-width", "2"},
                         {"stroke-dasharray", style.dash},
                         {"stroke-linejoin", "round"}});
@@ -203,9 +215,9 @@ absl::StatusOr<std::string> RenderReliabilityDiagram(
           attributes.push_back({"data-observed-rate", rate});
         }
         w.Open("g", attributes);
-        std::string tip = absl::StrCat(SanitizeUtf8(series.name), ", bin ",
-                                       BinRange(b), ": ", CountText(b.count),
-                                       " records");
+        std::string tip =
+            absl::StrCat(SanitizeUtf8(series.name), ", bin ", BinRange(b), ": ",
+                         CountText(b.count), " records");
         if (defined) {
           absl::StrAppend(&tip, ", mean predicted ",
                           ShortNumber(b.mean_predicted, 4), ", observed ",
@@ -234,8 +246,7 @@ absl::StatusOr<std::string> RenderReliabilityDiagram(
       }
       w.Close();
       legend.push_back(internal::SeriesEntry(
-          absl::StrCat(series.name, ", n = ", CountText(totals[s])),
-          style));
+          absl::StrCat(series.name, ", n = ", CountText(totals[s])), style));
     }
     legend.push_back(
         internal::LineEntry("perfect calibration", kReference, "4 4"));
@@ -254,7 +265,8 @@ absl::StatusOr<std::string> RenderReliabilityDiagram(
     double ny = plot.y + used + 18;
     for (const std::string& note : notes) {
       w.TextElement("text",
-                    {{"x", Coord(legend_x)}, {"y", Coord(ny)},
+                    {{"x", Coord(legend_x)},
+                     {"y", Coord(ny)},
                      {"font-size", Coord(internal::kSmallSize)},
                      {"fill", kMutedInk}},
                     note);

@@ -32,15 +32,15 @@ bool Defined(const RocPoint& p) {
 
 absl::Status Check(const RocChart& chart) {
   if (chart.curves.size() > kMaxSeries) {
-    return ChartError(chart.text, absl::StrCat("at most ", kMaxSeries,
-                                               " curves, got ",
-                                               chart.curves.size()));
+    return ChartError(chart.text,
+                      absl::StrCat("at most ", kMaxSeries, " curves, got ",
+                                   chart.curves.size()));
   }
   for (size_t c = 0; c < chart.curves.size(); ++c) {
     const RocCurve& curve = chart.curves[c];
     if (!std::isnan(curve.auc) && !(curve.auc >= 0 && curve.auc <= 1)) {
-      return ChartError(chart.text, absl::StrCat("curves[", c,
-                                                 "].auc is not in [0, 1]"));
+      return ChartError(chart.text,
+                        absl::StrCat("curves[", c, "].auc is not in [0, 1]"));
     }
     const RocPoint* previous = nullptr;
     for (size_t i = 0; i < curve.points.size(); ++i) {
@@ -67,7 +67,8 @@ absl::Status Check(const RocChart& chart) {
 }
 
 std::string AucText(double auc) {
-  return std::isnan(auc) ? "AUC n/a" : absl::StrCat("AUC ", ShortNumber(auc, 3));
+  return std::isnan(auc) ? "AUC n/a"
+                         : absl::StrCat("AUC ", ShortNumber(auc, 3));
 }
 
 }  // namespace
@@ -101,18 +102,24 @@ absl::StatusOr<std::string> RenderRocCurves(const RocChart& chart) {
   const LinearScale y{0, 1, plot.bottom(), plot.y};
   const Ticks ticks = NiceTicks(0, 1, 5);
   internal::DrawYAxis(&w, plot, y, ticks,
-                      "true positive rate (0\xE2\x80\x93" "1)");
+                      "true positive rate (0\xE2\x80\x93"
+                      "1)");
   internal::DrawXAxis(&w, plot, x, ticks,
-                      "false positive rate (0\xE2\x80\x93" "1)");
+                      "false positive rate (0\xE2\x80\x93"
+                      "1)");
 
   std::vector<LegendEntry> legend;
   if (!any_defined) {
     internal::DrawNoData(&w, plot, "no curve has points");
   } else {
-    w.Leaf("line", {{"class", "diagonal"}, {"x1", Coord(x(0))},
-                    {"y1", Coord(y(0))}, {"x2", Coord(x(1))},
-                    {"y2", Coord(y(1))}, {"stroke", kReference},
-                    {"stroke-width", "1.2"}, {"stroke-dasharray", "4 4"}});
+    w.Leaf("line", {{"class", "diagonal"},
+                    {"x1", Coord(x(0))},
+                    {"y1", Coord(y(0))},
+                    {"x2", Coord(x(1))},
+                    {"y2", Coord(y(1))},
+                    {"stroke", kReference},
+                    {"stroke-width", "1.2"},
+                    {"stroke-dasharray", "4 4"}});
     for (size_t c = 0; c < chart.curves.size(); ++c) {
       const RocCurve& curve = chart.curves[c];
       const SeriesStyle& style = SeriesStyleAt(c);
@@ -142,9 +149,9 @@ absl::StatusOr<std::string> RenderRocCurves(const RocChart& chart) {
                                               {"data-tpr", tpr}};
       if (!std::isnan(curve.auc)) attributes.push_back({"data-auc", auc});
       w.Open("g", attributes);
-      w.TextElement("title", {},
-                    absl::StrCat(SanitizeUtf8(curve.name), ": ",
-                                 AucText(curve.auc)));
+      w.TextElement(
+          "title", {},
+          absl::StrCat(SanitizeUtf8(curve.name), ": ", AucText(curve.auc)));
       if (n > 0) {
         w.Leaf("path", {{"d", internal::PathWithGaps(line)},
                         {"fill", "none"},
@@ -164,8 +171,8 @@ absl::StatusOr<std::string> RenderRocCurves(const RocChart& chart) {
           absl::StrCat(curve.name, " \xE2\x80\x94 ", AucText(curve.auc)),
           style));
     }
-    legend.push_back(internal::LineEntry("random ranking (AUC 0.5)",
-                                         kReference, "4 4"));
+    legend.push_back(
+        internal::LineEntry("random ranking (AUC 0.5)", kReference, "4 4"));
   }
   internal::DrawAxisLines(&w, plot);
   if (!legend.empty()) {

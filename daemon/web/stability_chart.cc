@@ -116,8 +116,7 @@ absl::StatusOr<std::string> RenderStabilityBars(const StabilityBars& chart) {
   std::vector<LegendEntry> legend = {
       internal::BoxEntry(absl::StrCat("steady: PSI \xE2\x89\xA4 ", watch_text),
                          kBluishGreen, kAxis),
-      internal::BoxEntry(absl::StrCat("watch: PSI > ", watch_text), "",
-                         kAxis),
+      internal::BoxEntry(absl::StrCat("watch: PSI > ", watch_text), "", kAxis),
       internal::BoxEntry(absl::StrCat("drifting: PSI > ", drifting_text), "",
                          kAxis)};
   SvgWriter scratch;
@@ -165,23 +164,27 @@ absl::StatusOr<std::string> RenderStabilityBars(const StabilityBars& chart) {
       if (r.state) attributes.push_back({"data-state", state_name});
       w.Open("g", attributes);
       const std::string words =
-          r.defined ? absl::StrCat(ShortNumber(f.psi, 3), "  ",
-                                   r.state ? state_name : "")
-                    : absl::StrCat("n/a  ", r.state ? state_name
-                                                    : "not computed");
-      w.TextElement("title", {},
-                    absl::StrCat(SanitizeUtf8(f.feature), ": PSI ",
-                                 ShortNumber(f.psi, 6), ", ",
-                                 r.state ? state_name : "not computed"));
+          r.defined
+              ? absl::StrCat(ShortNumber(f.psi, 3), "  ",
+                             r.state ? state_name : "")
+              : absl::StrCat("n/a  ", r.state ? state_name : "not computed");
+      w.TextElement(
+          "title", {},
+          absl::StrCat(SanitizeUtf8(f.feature), ": PSI ", ShortNumber(f.psi, 6),
+                       ", ", r.state ? state_name : "not computed"));
       if (i % 2 == 1) {
-        w.Leaf("rect", {{"x", "8"}, {"y", Coord(row_top)},
+        w.Leaf("rect", {{"x", "8"},
+                        {"y", Coord(row_top)},
                         {"width", Coord(kWidth - 16)},
-                        {"height", Coord(kRow)}, {"fill", "#F5F5F5"}});
+                        {"height", Coord(kRow)},
+                        {"fill", "#F5F5F5"}});
       }
       internal::DrawFittedText(
           &w,
-          {{"x", Coord(kNameRight)}, {"y", Coord(mid + 4)},
-           {"text-anchor", "end"}, {"font-size", Coord(internal::kTextSize)},
+          {{"x", Coord(kNameRight)},
+           {"y", Coord(mid + 4)},
+           {"text-anchor", "end"},
+           {"font-size", Coord(internal::kTextSize)},
            {"fill", kInk}},
           f.feature,
           internal::CharsThatFit(kNameRight - 16, internal::kTextSize));
@@ -190,49 +193,55 @@ absl::StatusOr<std::string> RenderStabilityBars(const StabilityBars& chart) {
         const double end = cut ? plot.right() : x(f.psi);
         const std::string fill =
             frame.LevelFill(r.state.value_or(Level::kSteady));
-        w.Leaf("rect", {{"x", Coord(plot.x)}, {"y", Coord(mid - kBar / 2)},
+        w.Leaf("rect", {{"x", Coord(plot.x)},
+                        {"y", Coord(mid - kBar / 2)},
                         {"width", Coord(std::max(end - plot.x, 0.0))},
-                        {"height", Coord(kBar)}, {"fill", fill},
-                        {"stroke", kAxis}, {"stroke-width", "0.8"}});
+                        {"height", Coord(kBar)},
+                        {"fill", fill},
+                        {"stroke", kAxis},
+                        {"stroke-width", "0.8"}});
         if (cut) {
           // Break mark: the bar goes on beyond the axis.
           const double bx = plot.right() - 12;
-          w.Leaf("path",
-                 {{"d", absl::StrCat("M", Coord(bx - 3), " ",
-                                     Coord(mid + kBar / 2 + 2), "L",
-                                     Coord(bx + 3), " ",
-                                     Coord(mid - kBar / 2 - 2), "M",
-                                     Coord(bx + 2), " ",
-                                     Coord(mid + kBar / 2 + 2), "L",
-                                     Coord(bx + 8), " ",
-                                     Coord(mid - kBar / 2 - 2))},
-                  {"stroke", kPaper}, {"stroke-width", "2.5"}});
+          w.Leaf(
+              "path",
+              {{"d", absl::StrCat(
+                         "M", Coord(bx - 3), " ", Coord(mid + kBar / 2 + 2),
+                         "L", Coord(bx + 3), " ", Coord(mid - kBar / 2 - 2),
+                         "M", Coord(bx + 2), " ", Coord(mid + kBar / 2 + 2),
+                         "L", Coord(bx + 8), " ", Coord(mid - kBar / 2 - 2))},
+               {"stroke", kPaper},
+               {"stroke-width", "2.5"}});
         }
       }
-      w.TextElement("text",
-                    {{"x", Coord(plot.right() + 10)}, {"y", Coord(mid + 4)},
-                     {"font-size", Coord(internal::kTextSize)},
-                     {"font-weight",
-                      r.state == Level::kDrifting ? "bold" : "normal"},
-                     {"fill", r.defined ? kInk : kMutedInk},
-                     {"xml:space", "preserve"}},
-                    words);
+      w.TextElement(
+          "text",
+          {{"x", Coord(plot.right() + 10)},
+           {"y", Coord(mid + 4)},
+           {"font-size", Coord(internal::kTextSize)},
+           {"font-weight", r.state == Level::kDrifting ? "bold" : "normal"},
+           {"fill", r.defined ? kInk : kMutedInk},
+           {"xml:space", "preserve"}},
+          words);
       w.Close();
     }
     // Threshold lines over the rows, labelled above them.
-    const std::pair<Level, double> lines[] = {{Level::kWatch, chart.watch},
-                                              {Level::kDrifting,
-                                               chart.drifting}};
+    const std::pair<Level, double> lines[] = {
+        {Level::kWatch, chart.watch}, {Level::kDrifting, chart.drifting}};
     for (const auto& [level, value] : lines) {
       if (value > ticks.values.back()) continue;
       const double lx = x(value);
       const LevelStyle& style = LevelStyleOf(level);
       const std::string v = ExactNumber(value);
-      w.Open("g", {{"class", "threshold"}, {"data-level", style.name},
+      w.Open("g", {{"class", "threshold"},
+                   {"data-level", style.name},
                    {"data-value", v}});
-      w.Leaf("line", {{"x1", Coord(lx)}, {"x2", Coord(lx)},
-                      {"y1", Coord(plot.y - 6)}, {"y2", Coord(plot.bottom())},
-                      {"stroke", kInk}, {"stroke-width", "1.4"},
+      w.Leaf("line", {{"x1", Coord(lx)},
+                      {"x2", Coord(lx)},
+                      {"y1", Coord(plot.y - 6)},
+                      {"y2", Coord(plot.bottom())},
+                      {"stroke", kInk},
+                      {"stroke-width", "1.4"},
                       {"stroke-dasharray", style.dash}});
       // Watch's label to the left of its line, drifting's to the right, so
       // close thresholds do not overwrite each other.

@@ -86,15 +86,32 @@ std::string Escape(absl::string_view text, bool attribute) {
   out.reserve(text.size());
   ForEachChar(text, [&](int32_t cp, absl::string_view bytes) {
     switch (cp) {
-      case '&': out += "&amp;"; break;
-      case '<': out += "&lt;"; break;
-      case '>': out += "&gt;"; break;
-      case '"': out += "&quot;"; break;
-      case '\'': out += "&apos;"; break;
-      case '\t': out += attribute ? "&#9;" : "\t"; break;
-      case '\n': out += attribute ? "&#10;" : "\n"; break;
-      case '\r': out += "&#13;"; break;  // parsers fold a raw CR in text too
-      default: absl::StrAppend(&out, bytes);
+      case '&':
+        out += "&amp;";
+        break;
+      case '<':
+        out += "&lt;";
+        break;
+      case '>':
+        out += "&gt;";
+        break;
+      case '"':
+        out += "&quot;";
+        break;
+      case '\'':
+        out += "&apos;";
+        break;
+      case '\t':
+        out += attribute ? "&#9;" : "\t";
+        break;
+      case '\n':
+        out += attribute ? "&#10;" : "\n";
+        break;
+      case '\r':
+        out += "&#13;";
+        break;  // parsers fold a raw CR in text too
+      default:
+        absl::StrAppend(&out, bytes);
     }
   });
   return out;
@@ -189,8 +206,8 @@ void SvgWriter::TextWithTooltip(absl::string_view tag,
                                 absl::string_view text,
                                 absl::string_view tooltip) {
   StartTag(tag, attributes);
-  absl::StrAppend(&out_, ">", EscapeText(text), "<title>",
-                  EscapeText(tooltip), "</title></", tag, ">\n");
+  absl::StrAppend(&out_, ">", EscapeText(text), "<title>", EscapeText(tooltip),
+                  "</title></", tag, ">\n");
 }
 
 void SvgWriter::Close() {

@@ -27,7 +27,9 @@ constexpr double kWidth = 640;
 constexpr double kPlotHeight = 210;
 constexpr double kRightRoom = 112;  // threshold labels
 
-double Seconds(absl::Time t) { return absl::ToDoubleSeconds(t - absl::UnixEpoch()); }
+double Seconds(absl::Time t) {
+  return absl::ToDoubleSeconds(t - absl::UnixEpoch());
+}
 
 bool Finite(absl::Time t) {
   return t != absl::InfiniteFuture() && t != absl::InfinitePast();
@@ -35,9 +37,9 @@ bool Finite(absl::Time t) {
 
 absl::Status Check(const TimeSeriesChart& chart) {
   if (chart.series.size() > kMaxSeries) {
-    return ChartError(chart.text, absl::StrCat("at most ", kMaxSeries,
-                                               " series, got ",
-                                               chart.series.size()));
+    return ChartError(chart.text,
+                      absl::StrCat("at most ", kMaxSeries, " series, got ",
+                                   chart.series.size()));
   }
   for (size_t s = 0; s < chart.series.size(); ++s) {
     const auto& points = chart.series[s].points;
@@ -53,8 +55,8 @@ absl::Status Check(const TimeSeriesChart& chart) {
   }
   for (size_t i = 0; i < chart.thresholds.size(); ++i) {
     if (!std::isfinite(chart.thresholds[i].value)) {
-      return ChartError(chart.text, absl::StrCat("thresholds[", i,
-                                                 "].value is not finite"));
+      return ChartError(
+          chart.text, absl::StrCat("thresholds[", i, "].value is not finite"));
     }
   }
   return absl::OkStatus();
@@ -70,7 +72,8 @@ std::vector<absl::Time> TimeTicks(absl::Time lo, absl::Time hi) {
     absl::CivilHour h = absl::ToCivilHour(lo, utc);
     h -= h.hour() % 6;
     for (; absl::FromCivil(h, utc) <= hi; h += 6) {
-      if (absl::FromCivil(h, utc) >= lo) ticks.push_back(absl::FromCivil(h, utc));
+      if (absl::FromCivil(h, utc) >= lo)
+        ticks.push_back(absl::FromCivil(h, utc));
     }
     return ticks;
   }
@@ -122,17 +125,17 @@ absl::StatusOr<std::string> RenderTimeSeries(const TimeSeriesChart& chart) {
   if (empty) {
     absl::StrAppend(&summary, ": no defined values.");
   } else {
-    absl::StrAppend(&summary, " from ", DayText(*t_lo), " to ",
-                    DayText(*t_hi), " (UTC), ", defined, " values");
+    absl::StrAppend(&summary, " from ", DayText(*t_lo), " to ", DayText(*t_hi),
+                    " (UTC), ", defined, " values");
     if (undefined > 0) absl::StrAppend(&summary, ", ", undefined, " undefined");
     absl::StrAppend(&summary, ".");
     for (const TimeSeries& series : chart.series) {
       // Latest defined value of each series, in words.
       for (auto it = series.points.rbegin(); it != series.points.rend(); ++it) {
         if (std::isfinite(it->value)) {
-          absl::StrAppend(&summary, " ", SanitizeUtf8(series.name),
-                          ": latest ", ShortNumber(it->value, 4), " on ",
-                          DayText(it->at), ".");
+          absl::StrAppend(&summary, " ", SanitizeUtf8(series.name), ": latest ",
+                          ShortNumber(it->value, 4), " on ", DayText(it->at),
+                          ".");
           break;
         }
       }
@@ -199,17 +202,21 @@ absl::StatusOr<std::string> RenderTimeSeries(const TimeSeriesChart& chart) {
   const std::vector<absl::Time> day_ticks = TimeTicks(t0, t1);
   const double label_width = 56;
   const size_t every = std::max<size_t>(
-      1, static_cast<size_t>(std::ceil(
-             label_width * static_cast<double>(day_ticks.size()) /
-             plot.width)));
+      1,
+      static_cast<size_t>(std::ceil(
+          label_width * static_cast<double>(day_ticks.size()) / plot.width)));
   for (size_t i = 0; i < day_ticks.size(); ++i) {
     const double px = x(Seconds(day_ticks[i]));
-    w.Leaf("line", {{"x1", Coord(px)}, {"x2", Coord(px)},
-                    {"y1", Coord(plot.y)}, {"y2", Coord(plot.bottom())},
-                    {"stroke", kGrid}, {"stroke-width", "1"}});
+    w.Leaf("line", {{"x1", Coord(px)},
+                    {"x2", Coord(px)},
+                    {"y1", Coord(plot.y)},
+                    {"y2", Coord(plot.bottom())},
+                    {"stroke", kGrid},
+                    {"stroke-width", "1"}});
     if (i % every != 0) continue;
     w.TextElement("text",
-                  {{"x", Coord(px)}, {"y", Coord(plot.bottom() + 16)},
+                  {{"x", Coord(px)},
+                   {"y", Coord(plot.bottom() + 16)},
                    {"text-anchor", "middle"},
                    {"font-size", Coord(internal::kSmallSize)},
                    {"fill", kMutedInk}},
@@ -219,7 +226,8 @@ absl::StatusOr<std::string> RenderTimeSeries(const TimeSeriesChart& chart) {
                 {{"x", Coord(plot.x + plot.width / 2)},
                  {"y", Coord(plot.bottom() + 36)},
                  {"text-anchor", "middle"},
-                 {"font-size", Coord(internal::kTextSize)}, {"fill", kInk}},
+                 {"font-size", Coord(internal::kTextSize)},
+                 {"fill", kInk}},
                 "date and time (UTC)");
   w.Close();
 
@@ -257,10 +265,10 @@ absl::StatusOr<std::string> RenderTimeSeries(const TimeSeriesChart& chart) {
                         {"fill", kNoDataFill},
                         {"stroke", kGrid},
                         {"stroke-dasharray", "3 3"}});
-        w.TextElement("title", {},
-                      absl::StrCat(SanitizeUtf8(chart.series[s].name),
-                                   ": no value from ", DayText(points[i].at),
-                                   " to ", DayText(points[j].at)));
+        w.TextElement(
+            "title", {},
+            absl::StrCat(SanitizeUtf8(chart.series[s].name), ": no value from ",
+                         DayText(points[i].at), " to ", DayText(points[j].at)));
         w.Close();
         i = j + 1;
       }
@@ -270,18 +278,25 @@ absl::StatusOr<std::string> RenderTimeSeries(const TimeSeriesChart& chart) {
       const LevelStyle& style = LevelStyleOf(t.level);
       const double ty = y(t.value);
       const std::string v = ExactNumber(t.value);
-      w.Open("g", {{"class", "threshold"}, {"data-name", t.name},
-                   {"data-level", style.name}, {"data-value", v}});
-      w.Leaf("line", {{"x1", Coord(plot.x)}, {"x2", Coord(plot.right())},
-                      {"y1", Coord(ty)}, {"y2", Coord(ty)},
-                      {"stroke", style.colour}, {"stroke-width", "1.8"},
-                      {"stroke-dasharray", style.dash == std::string("none")
-                                               ? "10 3"
-                                               : style.dash}});
+      w.Open("g", {{"class", "threshold"},
+                   {"data-name", t.name},
+                   {"data-level", style.name},
+                   {"data-value", v}});
+      w.Leaf("line",
+             {{"x1", Coord(plot.x)},
+              {"x2", Coord(plot.right())},
+              {"y1", Coord(ty)},
+              {"y2", Coord(ty)},
+              {"stroke", style.colour},
+              {"stroke-width", "1.8"},
+              {"stroke-dasharray",
+               style.dash == std::string("none") ? "10 3" : style.dash}});
       internal::DrawFittedText(
           &w,
-          {{"x", Coord(plot.right() + 6)}, {"y", Coord(ty + 4)},
-           {"font-size", Coord(internal::kSmallSize)}, {"fill", kInk}},
+          {{"x", Coord(plot.right() + 6)},
+           {"y", Coord(ty + 4)},
+           {"font-size", Coord(internal::kSmallSize)},
+           {"fill", kInk}},
           absl::StrCat(t.name, " ", ShortNumber(t.value, 4)),
           internal::CharsThatFit(kRightRoom - 10, internal::kSmallSize));
       w.Close();
@@ -302,7 +317,9 @@ absl::StatusOr<std::string> RenderTimeSeries(const TimeSeriesChart& chart) {
       }
       const std::string d = internal::PathWithGaps(line);
       if (!d.empty()) {
-        w.Leaf("path", {{"d", d}, {"fill", "none"}, {"stroke", style.colour},
+        w.Leaf("path", {{"d", d},
+                        {"fill", "none"},
+                        {"stroke", style.colour},
                         {"stroke-width", "2"},
                         {"stroke-dasharray", style.dash},
                         {"stroke-linejoin", "round"}});
@@ -314,8 +331,9 @@ absl::StatusOr<std::string> RenderTimeSeries(const TimeSeriesChart& chart) {
       for (size_t i = 0; i < series.points.size(); ++i) {
         const TimePoint& p = series.points[i];
         if (!line[i].has_value()) continue;
-        const bool isolated = (i == 0 || !line[i - 1].has_value()) &&
-                              (i + 1 == line.size() || !line[i + 1].has_value());
+        const bool isolated =
+            (i == 0 || !line[i - 1].has_value()) &&
+            (i + 1 == line.size() || !line[i + 1].has_value());
         const std::string at = ExactTime(p.at);
         const std::string value = ExactNumber(p.value);
         std::vector<SvgAttribute> attributes = {
@@ -326,10 +344,10 @@ absl::StatusOr<std::string> RenderTimeSeries(const TimeSeriesChart& chart) {
         }
         internal::OpenMarker(&w, style, line[i]->x, line[i]->y, 3.8,
                              attributes);
-        w.TextElement("title", {},
-                      absl::StrCat(SanitizeUtf8(series.name), ", ",
-                                   DayText(p.at), ": ",
-                                   ShortNumber(p.value, 4)));
+        w.TextElement(
+            "title", {},
+            absl::StrCat(SanitizeUtf8(series.name), ", ", DayText(p.at), ": ",
+                         ShortNumber(p.value, 4)));
         w.Close();
       }
       w.Close();

@@ -52,8 +52,9 @@ web::ReliabilityDiagram Reliability() {
   const double active_mean[] = {0.061, 0.148, 0.251, 0.347, 0.449,
                                 0.548, 0.652, 0.741, 0.838, kNaN};
   const double active_rate[] = {0.072, 0.171, 0.302, 0.431, 0.548,
-                                0.667, 0.752, 0.846, 0.9, kNaN};
-  const int64_t active_count[] = {1204, 902, 611, 402, 281, 170, 119, 81, 42, 0};
+                                0.667, 0.752, 0.846, 0.9,   kNaN};
+  const int64_t active_count[] = {1204, 902, 611, 402, 281,
+                                  170,  119, 81,  42,  0};
   const double cand_mean[] = {0.058, 0.152, 0.248, 0.352, 0.447,
                               0.551, 0.649, 0.752, 0.846, 0.93};
   const double cand_rate[] = {0.061, 0.149, 0.262, 0.343, 0.461,
@@ -94,10 +95,13 @@ web::BaselineHistogram ScoreHistogram() {
                 "courier_first_attempt v3 \xC2\xB7 last 24 h \xC2\xB7 "
                 "PSI 0.183 (watch)");
   c.value_label = "predicted probability of a failed first attempt";
-  c.value_unit = "0\xE2\x80\x93" "1";
+  c.value_unit =
+      "0\xE2\x80\x93"
+      "1";
   c.edges = {0.05, 0.08, 0.11, 0.14, 0.18, 0.23, 0.29, 0.37, 0.5};
   c.baseline = {0.1, 0.1, 0.1, 0.1, 0.1, 0.1, 0.1, 0.1, 0.1, 0.1};
-  c.window = {0.052, 0.061, 0.074, 0.088, 0.097, 0.111, 0.124, 0.129, 0.135, 0.129};
+  c.window = {0.052, 0.061, 0.074, 0.088, 0.097,
+              0.111, 0.124, 0.129, 0.135, 0.129};
   c.window_name = "last 24 h";
   c.baseline_name = "baseline (fit, 40 000 records)";
   return c;
@@ -141,7 +145,7 @@ web::TimeSeriesChart LogLossHistory() {
   c.value_label = "log-loss";
   c.value_unit = "nats per record";
   web::TimeSeries s{"log-loss, last 24 h", {}};
-  const double values[] = {0.412, 0.405, 0.418, 0.409, 0.421, kNaN, kNaN,
+  const double values[] = {0.412, 0.405, 0.418, 0.409, 0.421, kNaN,  kNaN,
                            0.433, 0.446, 0.458, 0.471, 0.489, 0.502, 0.517};
   for (int d = 0; d < 14; ++d) s.points.push_back({Day(1 + d), values[d]});
   c.series = {s};
@@ -163,10 +167,10 @@ web::TimeSeriesChart PsiHistory() {
     const double t = h / 24.0;
     score.points.push_back(
         {Day(1) + absl::Hours(h), 0.02 + 0.012 * t + 0.01 * std::sin(h / 5.0)});
-    rain.points.push_back(
-        {Day(1) + absl::Hours(h),
-         (h > 100 && h < 130) ? kNaN
-                              : 0.03 + 0.028 * t + 0.02 * std::sin(h / 7.0)});
+    rain.points.push_back({Day(1) + absl::Hours(h),
+                           (h > 100 && h < 130)
+                               ? kNaN
+                               : 0.03 + 0.028 * t + 0.02 * std::sin(h / 7.0)});
   }
   c.series = {score, rain};
   c.thresholds = {{"watch", 0.1, web::Level::kWatch},
@@ -180,7 +184,8 @@ web::ReliabilityDiagram EmptyReliability() {
   c.text = Text("empty-reliability", "Reliability, window without outcomes",
                 "courier_first_attempt v4 \xC2\xB7 shadow, no outcomes yet");
   web::ReliabilitySeries s{"shadow v4", {}};
-  for (int i = 0; i < 10; ++i) s.bins.push_back({i * 0.1, (i + 1) * 0.1, 0, kNaN, kNaN});
+  for (int i = 0; i < 10; ++i)
+    s.bins.push_back({i * 0.1, (i + 1) * 0.1, 0, kNaN, kNaN});
   c.series = {s};
   return c;
 }
@@ -192,8 +197,8 @@ web::TimeSeriesChart SinglePoint() {
   c.value_label = "calibration in the large";
   c.value_unit = "log-odds";
   c.series = {{"first evaluation", {{Day(20, 6), 0.031}}},
-              {"equal values", {{Day(20, 9), 0.05}, {Day(20, 12), 0.05},
-                                {Day(20, 15), 0.05}}}};
+              {"equal values",
+               {{Day(20, 9), 0.05}, {Day(20, 12), 0.05}, {Day(20, 15), 0.05}}}};
   return c;
 }
 
@@ -204,7 +209,8 @@ web::StabilityBars HostileNames() {
   c.features = {
       {"<b>bold</b> & \"quoted\" 'feature'", 0.3, std::nullopt},
       {"a_very_long_feature_name_from_an_upstream_system_that_never_ends_"
-       "rainfall_mm_per_hour_at_the_depot", 0.12, std::nullopt},
+       "rainfall_mm_per_hour_at_the_depot",
+       0.12, std::nullopt},
       {"bad utf-8 \xFF\xFE and control \x01 chars", 0.0, std::nullopt},
       {"caf\xC3\xA9 \xE2\x82\xAC parcel", 0.05, web::Level::kWatch},
   };

@@ -28,9 +28,9 @@
 namespace plumbline::web {
 namespace {
 
+using ::testing::HasSubstr;
 using testing::ParseXml;
 using testing::XmlElement;
-using ::testing::HasSubstr;
 
 constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 constexpr double kInf = std::numeric_limits<double>::infinity();
@@ -62,8 +62,8 @@ std::unique_ptr<XmlElement> CheckChart(const absl::StatusOr<std::string>& svg,
   EXPECT_TRUE(svg.ok()) << svg.status();
   if (!svg.ok()) return nullptr;
   // Never a NaN or an infinity, in any spelling, as a word of its own.
-  static const std::regex kNonFinite(R"((^|[^A-Za-z])-?(nan|inf|infinity)([^A-Za-z]|$))",
-                                     std::regex::icase);
+  static const std::regex kNonFinite(
+      R"((^|[^A-Za-z])-?(nan|inf|infinity)([^A-Za-z]|$))", std::regex::icase);
   EXPECT_FALSE(std::regex_search(*svg, kNonFinite)) << *svg;
   absl::StatusOr<std::unique_ptr<XmlElement>> root = ParseXml(*svg);
   EXPECT_TRUE(root.ok()) << root.status() << "\n" << *svg;
@@ -98,12 +98,11 @@ std::unique_ptr<XmlElement> CheckChart(const absl::StatusOr<std::string>& svg,
         EXPECT_EQ(value.find("http"), std::string::npos) << key << "=" << value;
       }
       if (value.rfind("url(#", 0) == 0) {
-        EXPECT_TRUE(ids.count(value.substr(5, value.size() - 6)) == 1)
-            << value;
+        EXPECT_TRUE(ids.count(value.substr(5, value.size() - 6)) == 1) << value;
       }
     }
-    for (const char* banned : {"script", "image", "foreignObject", "use",
-                               "style", "a", "iframe"}) {
+    for (const char* banned :
+         {"script", "image", "foreignObject", "use", "style", "a", "iframe"}) {
       EXPECT_NE(e->name, banned);
     }
   }
@@ -162,8 +161,10 @@ TEST(ReliabilityDiagramTest, DataAttributesEqualTheInputsExactly) {
   const std::string text = root->AllText();
   EXPECT_THAT(text, HasSubstr("active v3, n = 936"));
   EXPECT_THAT(text, HasSubstr("perfect calibration"));
-  EXPECT_THAT(text, HasSubstr("mean predicted probability (0\xE2\x80\x93" "1)"));
-  EXPECT_THAT(text, HasSubstr("observed rate of positives (0\xE2\x80\x93" "1)"));
+  EXPECT_THAT(text, HasSubstr("mean predicted probability (0\xE2\x80\x93"
+                              "1)"));
+  EXPECT_THAT(text, HasSubstr("observed rate of positives (0\xE2\x80\x93"
+                              "1)"));
   EXPECT_EQ(root->FindAll("line", "class", "diagonal").size(), 1u);
 }
 
@@ -175,7 +176,8 @@ TEST(ReliabilityDiagramTest, NoRecordsDrawsNoData) {
   EXPECT_EQ(root->Attribute("data-empty"), "true");
   EXPECT_THAT(root->AllText(), HasSubstr("No data"));
   // Bins that exist but hold nothing, NaN everywhere: the same.
-  c.series = {{"shadow v4", {{0, 0.5, 0, kNaN, kNaN}, {0.5, 1, 0, kNaN, kNaN}}}};
+  c.series = {
+      {"shadow v4", {{0, 0.5, 0, kNaN, kNaN}, {0.5, 1, 0, kNaN, kNaN}}}};
   root = CheckChart(RenderReliabilityDiagram(c), "rel-empty");
   ASSERT_NE(root, nullptr);
   EXPECT_EQ(root->Attribute("data-empty"), "true");
@@ -335,9 +337,9 @@ TEST(StabilityBarsTest, SortedLargestFirstWithStateInWords) {
   ASSERT_NE(root, nullptr);
   const auto rows = root->FindAll("g", "class", "feature");
   ASSERT_EQ(rows.size(), 6u);
-  const std::vector<std::string> order = {"rainfall_mm",  "parcel_weight_kg",
+  const std::vector<std::string> order = {"rainfall_mm",   "parcel_weight_kg",
                                           "building_type", "distance_km",
-                                          "hour_of_day",  "depot_region"};
+                                          "hour_of_day",   "depot_region"};
   const std::vector<std::string> states = {"drifting", "drifting", "steady",
                                            "steady",   "watch",    ""};
   for (size_t i = 0; i < rows.size(); ++i) {
@@ -360,7 +362,8 @@ TEST(StabilityBarsTest, SortedLargestFirstWithStateInWords) {
   const std::string text = root->AllText();
   EXPECT_THAT(text, HasSubstr("drifting: PSI > 0.25"));
   EXPECT_THAT(text, HasSubstr("population stability index (PSI, unitless)"));
-  EXPECT_THAT(root->Child("desc")->text, HasSubstr("drifting (2): rainfall_mm 0.412"));
+  EXPECT_THAT(root->Child("desc")->text,
+              HasSubstr("drifting (2): rainfall_mm 0.412"));
 }
 
 TEST(StabilityBarsTest, HostileFeatureNamesAreEscapedAndCut) {
@@ -446,8 +449,8 @@ TEST(TimeSeriesTest, PointsRoundTripAndUndefinedValuesBreakTheLine) {
   c.value_label = "log-loss";
   c.value_unit = "nats per record";
   TimeSeries s{"log-loss", {}};
-  const double values[] = {0.41234567890123, 0.405, kNaN, kInf, 0.433,
-                           0.446, 1.0 / 3};
+  const double values[] = {0.41234567890123, 0.405, kNaN, kInf, 0.433, 0.446,
+                           1.0 / 3};
   for (int d = 0; d < 7; ++d) {
     s.points.push_back({Day(1 + d) + absl::Nanoseconds(d), values[d]});
   }
@@ -476,10 +479,10 @@ TEST(TimeSeriesTest, PointsRoundTripAndUndefinedValuesBreakTheLine) {
   ASSERT_EQ(gaps.size(), 1u);
   absl::Time from, to;
   std::string error;
-  ASSERT_TRUE(absl::ParseTime(absl::RFC3339_full, *gaps[0]->Attribute("data-from"),
-                              &from, &error));
-  ASSERT_TRUE(absl::ParseTime(absl::RFC3339_full, *gaps[0]->Attribute("data-to"),
-                              &to, &error));
+  ASSERT_TRUE(absl::ParseTime(absl::RFC3339_full,
+                              *gaps[0]->Attribute("data-from"), &from, &error));
+  ASSERT_TRUE(absl::ParseTime(absl::RFC3339_full,
+                              *gaps[0]->Attribute("data-to"), &to, &error));
   EXPECT_EQ(from, s.points[2].at);
   EXPECT_EQ(to, s.points[3].at);
   const auto series = root->FindAll("g", "class", "series");
@@ -523,7 +526,8 @@ TEST(TimeSeriesTest, DegenerateInputs) {
   EXPECT_NE(CheckChart(RenderTimeSeries(c), "ts-empty"), nullptr);
   // Many points: markers stay as hover targets with their numbers.
   TimeSeries many{"hourly", {}};
-  for (int h = 0; h < 200; ++h) many.points.push_back({Day(1, 0) + absl::Hours(h), h * 0.001});
+  for (int h = 0; h < 200; ++h)
+    many.points.push_back({Day(1, 0) + absl::Hours(h), h * 0.001});
   c.series = {many};
   root = CheckChart(RenderTimeSeries(c), "ts-empty");
   ASSERT_NE(root, nullptr);
@@ -580,8 +584,10 @@ TEST(RocCurvesTest, PointsAndAucRoundTrip) {
   const std::string text = root->AllText();
   EXPECT_THAT(text, HasSubstr("active v3 \xE2\x80\x94 AUC 0.771"));
   EXPECT_THAT(text, HasSubstr("candidate v4 \xE2\x80\x94 AUC 0.805"));
-  EXPECT_THAT(text, HasSubstr("false positive rate (0\xE2\x80\x93" "1)"));
-  EXPECT_THAT(text, HasSubstr("true positive rate (0\xE2\x80\x93" "1)"));
+  EXPECT_THAT(text, HasSubstr("false positive rate (0\xE2\x80\x93"
+                              "1)"));
+  EXPECT_THAT(text, HasSubstr("true positive rate (0\xE2\x80\x93"
+                              "1)"));
 }
 
 TEST(RocCurvesTest, DegenerateInputs) {
@@ -621,9 +627,9 @@ TEST(RocCurvesTest, RejectsBadCurves) {
 // ---- What every chart shares ----
 
 TEST(ChartTextTest, RejectsIdsThatCannotNameAnElement) {
-  for (const std::string& id : std::vector<std::string>{
-           "", "1abc", "has space", "quote\"d", "a<b", std::string(65, 'a'),
-           "caf\xC3\xA9"}) {
+  for (const std::string& id :
+       std::vector<std::string>{"", "1abc", "has space", "quote\"d", "a<b",
+                                std::string(65, 'a'), "caf\xC3\xA9"}) {
     StabilityBars c;
     c.text.id = id;
     absl::StatusOr<std::string> svg = RenderStabilityBars(c);

@@ -17,16 +17,26 @@ namespace {
 using ::testing::ElementsAre;
 
 TEST(FormatTest, ExactNumberReadsBackAsTheSameDouble) {
-  const std::vector<double> values = {
-      0.1,     1.0 / 3,   2.0 / 3,  0.30000000000000004, 1e-300,
-      5e-324,  -0.0,      1e300,    std::numeric_limits<double>::max(),
-      0.4422,  123456789, -2.5e-7,  0.9999999999999999};
+  const std::vector<double> values = {0.1,
+                                      1.0 / 3,
+                                      2.0 / 3,
+                                      0.30000000000000004,
+                                      1e-300,
+                                      5e-324,
+                                      -0.0,
+                                      1e300,
+                                      std::numeric_limits<double>::max(),
+                                      0.4422,
+                                      123456789,
+                                      -2.5e-7,
+                                      0.9999999999999999};
   for (double v : values) {
     const std::string s = ExactNumber(v);
     EXPECT_EQ(std::strtod(s.c_str(), nullptr), v) << s;
     EXPECT_EQ(std::signbit(std::strtod(s.c_str(), nullptr)), std::signbit(v));
   }
-  EXPECT_EQ(ExactNumber(0.1), "0.1");  // shortest form, not 0.1000000000000000055
+  EXPECT_EQ(ExactNumber(0.1),
+            "0.1");  // shortest form, not 0.1000000000000000055
   EXPECT_EQ(ExactNumber(std::nan("")), "0");
   EXPECT_EQ(ExactNumber(std::numeric_limits<double>::infinity()), "0");
 }
@@ -35,7 +45,7 @@ TEST(FormatTest, ShortNumberRoundsToSignificantDigits) {
   EXPECT_EQ(ShortNumber(0.0123456, 3), "0.0123");
   EXPECT_EQ(ShortNumber(0.4122, 3), "0.412");
   EXPECT_EQ(ShortNumber(0.5, 3), "0.5");
-  EXPECT_EQ(ShortNumber(9.996, 3), "10");      // carry keeps 3 digits
+  EXPECT_EQ(ShortNumber(9.996, 3), "10");  // carry keeps 3 digits
   EXPECT_EQ(ShortNumber(0.09996, 3), "0.1");
   EXPECT_EQ(ShortNumber(1234.5678, 6), "1234.57");
   EXPECT_EQ(ShortNumber(1234.5678, 10), "1234.57");  // at most 6
@@ -59,9 +69,17 @@ TEST(FormatTest, CoordHasAtMostTwoDecimalsAndNeverNan) {
 TEST(FormatTest, CountTextGroupsDigitsWithNarrowSpaces) {
   EXPECT_EQ(CountText(0), "0");
   EXPECT_EQ(CountText(999), "999");
-  EXPECT_EQ(CountText(1204), "1\xE2\x80\xAF" "204");
-  EXPECT_EQ(CountText(1234567), "1\xE2\x80\xAF" "234\xE2\x80\xAF" "567");
-  EXPECT_EQ(CountText(-1204), "\xE2\x88\x92" "1\xE2\x80\xAF" "204");
+  EXPECT_EQ(CountText(1204),
+            "1\xE2\x80\xAF"
+            "204");
+  EXPECT_EQ(CountText(1234567),
+            "1\xE2\x80\xAF"
+            "234\xE2\x80\xAF"
+            "567");
+  EXPECT_EQ(CountText(-1204),
+            "\xE2\x88\x92"
+            "1\xE2\x80\xAF"
+            "204");
 }
 
 TEST(FormatTest, NiceTicksCoverTheRangeInRoundSteps) {
@@ -84,15 +102,14 @@ TEST(FormatTest, NiceTicksCoverTheRangeInRoundSteps) {
 }
 
 TEST(FormatTest, TimesAreExactInAttributesAndShortOnAxes) {
-  const absl::Time t =
-      absl::FromCivil(absl::CivilSecond(2024, 5, 14, 6, 30, 0),
-                      absl::UTCTimeZone()) +
-      absl::Nanoseconds(1);
+  const absl::Time t = absl::FromCivil(absl::CivilSecond(2024, 5, 14, 6, 30, 0),
+                                       absl::UTCTimeZone()) +
+                       absl::Nanoseconds(1);
   EXPECT_EQ(ExactTime(t), "2024-05-14T06:30:00.000000001+00:00");
   EXPECT_EQ(DayText(t), "14 May 06:30");
-  EXPECT_EQ(DayText(absl::FromCivil(absl::CivilDay(2024, 1, 2),
-                                    absl::UTCTimeZone())),
-            "2 Jan");
+  EXPECT_EQ(
+      DayText(absl::FromCivil(absl::CivilDay(2024, 1, 2), absl::UTCTimeZone())),
+      "2 Jan");
 }
 
 }  // namespace

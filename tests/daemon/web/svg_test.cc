@@ -27,11 +27,12 @@ TEST(SvgEscapeTest, KeepsLineBreaksInTextAndReferencesThemInAttributes) {
 TEST(SvgEscapeTest, ReplacesIllFormedUtf8AndForbiddenCharacters) {
   // A lone continuation byte, a truncated sequence, an overlong '/', a
   // UTF-16 surrogate encoded in UTF-8, a control character and U+FFFE.
-  EXPECT_EQ(SanitizeUtf8("a\x80" "b"), std::string("a") + kFffd + "b");
+  EXPECT_EQ(SanitizeUtf8("a\x80"
+                         "b"),
+            std::string("a") + kFffd + "b");
   EXPECT_EQ(SanitizeUtf8("\xE2\x82"), std::string(kFffd) + kFffd);
   EXPECT_EQ(SanitizeUtf8("\xC0\xAF"), std::string(kFffd) + kFffd);
-  EXPECT_EQ(SanitizeUtf8("\xED\xA0\x80"),
-            std::string(kFffd) + kFffd + kFffd);
+  EXPECT_EQ(SanitizeUtf8("\xED\xA0\x80"), std::string(kFffd) + kFffd + kFffd);
   EXPECT_EQ(SanitizeUtf8(std::string("x\x01y\0z", 5)),
             std::string("x") + kFffd + "y" + kFffd + "z");
   EXPECT_EQ(SanitizeUtf8("\xEF\xBF\xBE"), kFffd);

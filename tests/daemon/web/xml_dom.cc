@@ -37,7 +37,8 @@ void OnEnd(void* data, const XML_Char*) {
 
 void OnText(void* data, const XML_Char* s, int len) {
   auto* b = static_cast<Builder*>(data);
-  if (!b->stack.empty()) b->stack.back()->text.append(s, static_cast<size_t>(len));
+  if (!b->stack.empty())
+    b->stack.back()->text.append(s, static_cast<size_t>(len));
 }
 
 void Collect(const XmlElement& e, absl::string_view name,

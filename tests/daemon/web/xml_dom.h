@@ -6,7 +6,8 @@
 //
 //   absl::StatusOr<std::unique_ptr<XmlElement>> root = ParseXml(svg);
 //   ASSERT_TRUE(root.ok()) << root.status();
-//   std::vector<const XmlElement*> bins = (*root)->FindAll("g", "class", "bin");
+//   std::vector<const XmlElement*> bins = (*root)->FindAll("g", "class",
+//   "bin");
 //
 // Thread-compatible.
 #ifndef PLUMBLINE_TESTS_DAEMON_WEB_XML_DOM_H_
