@@ -1,4 +1,4 @@
-// File: daemon/web/svg.h
+// File: daemon/charts/svg.h
 //
 // A tiny writer of SVG (XML) text for the chart module: elements, attributes
 // and text, every attribute value and every text escaped on the way in, so
@@ -15,8 +15,8 @@
 //   std::string svg = std::move(w).Release();
 //
 // Thread-compatible: one writer per thread; the free functions are pure.
-#ifndef PLUMBLINE_DAEMON_WEB_SVG_H_
-#define PLUMBLINE_DAEMON_WEB_SVG_H_
+#ifndef PLUMBLINE_DAEMON_CHARTS_SVG_H_
+#define PLUMBLINE_DAEMON_CHARTS_SVG_H_
 
 #include <cstddef>
 #include <initializer_list>
@@ -26,7 +26,7 @@
 
 #include "absl/strings/string_view.h"
 
-namespace plumbline::web {
+namespace plumbline::charts {
 
 // Attribute name and (unescaped) value. Values may point into temporaries
 // of the calling expression: the writer copies them before returning.
@@ -92,6 +92,6 @@ class SvgWriter {
   std::vector<std::string> open_;
 };
 
-}  // namespace plumbline::web
+}  // namespace plumbline::charts
 
-#endif  // PLUMBLINE_DAEMON_WEB_SVG_H_
+#endif  // PLUMBLINE_DAEMON_CHARTS_SVG_H_

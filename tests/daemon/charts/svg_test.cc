@@ -1,13 +1,13 @@
-// Tests of daemon/web/svg.h: escaping, UTF-8 repair, ellipsis and the
+// Tests of daemon/charts/svg.h: escaping, UTF-8 repair, ellipsis and the
 // writer, each output parsed back with expat (xml_dom.h).
-#include "daemon/web/svg.h"
+#include "daemon/charts/svg.h"
 
 #include <string>
 
 #include "gtest/gtest.h"
-#include "tests/daemon/web/xml_dom.h"
+#include "tests/daemon/charts/xml_dom.h"
 
-namespace plumbline::web {
+namespace plumbline::charts {
 namespace {
 
 using testing::ParseXml;
@@ -78,4 +78,4 @@ TEST(SvgWriterTest, WritesNestedElementsThatParseBack) {
 }
 
 }  // namespace
-}  // namespace plumbline::web
+}  // namespace plumbline::charts

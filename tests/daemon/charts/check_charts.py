@@ -1,5 +1,5 @@
 #!/usr/bin/python3
-"""Checks the sample page of every chart kind that web_chart_sample wrote.
+"""Checks the sample page of every chart kind that chart_sample wrote.
 
   check_charts.py DIR
 

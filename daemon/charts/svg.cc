@@ -1,11 +1,11 @@
-#include "daemon/web/svg.h"
+#include "daemon/charts/svg.h"
 
 #include <cassert>
 #include <cstdint>
 
 #include "absl/strings/str_cat.h"
 
-namespace plumbline::web {
+namespace plumbline::charts {
 namespace {
 
 constexpr char kReplacement[] = "\xEF\xBF\xBD";  // U+FFFD in UTF-8
@@ -221,4 +221,4 @@ std::string SvgWriter::Release() && {
   return std::move(out_);
 }
 
-}  // namespace plumbline::web
+}  // namespace plumbline::charts

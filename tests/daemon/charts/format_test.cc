@@ -1,5 +1,5 @@
-// Tests of daemon/web/format.h: exact and readable numbers, ticks, times.
-#include "daemon/web/format.h"
+// Tests of daemon/charts/format.h: exact and readable numbers, ticks, times.
+#include "daemon/charts/format.h"
 
 #include <cmath>
 #include <cstdlib>
@@ -11,7 +11,7 @@
 #include "gmock/gmock.h"
 #include "gtest/gtest.h"
 
-namespace plumbline::web {
+namespace plumbline::charts {
 namespace {
 
 using ::testing::ElementsAre;
@@ -113,4 +113,4 @@ TEST(FormatTest, TimesAreExactInAttributesAndShortOnAxes) {
 }
 
 }  // namespace
-}  // namespace plumbline::web
+}  // namespace plumbline::charts

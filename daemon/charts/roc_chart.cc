@@ -8,10 +8,10 @@
 #include <vector>
 
 #include "absl/strings/str_cat.h"
-#include "daemon/web/chart_frame.h"
-#include "daemon/web/charts.h"
+#include "daemon/charts/chart_frame.h"
+#include "daemon/charts/charts.h"
 
-namespace plumbline::web {
+namespace plumbline::charts {
 namespace {
 
 using internal::ChartError;
@@ -183,4 +183,4 @@ absl::StatusOr<std::string> RenderRocCurves(const RocChart& chart) {
   return std::move(w).Release();
 }
 
-}  // namespace plumbline::web
+}  // namespace plumbline::charts

@@ -1,4 +1,4 @@
-// web_chart_sample: renders every chart kind of daemon/web/charts.h with
+// chart_sample: renders every chart kind of daemon/charts/charts.h with
 // invented data from the courier demo (set courier_first_attempt; features
 // distance_km, parcel_weight_kg, hour_of_day, building_type,
 // prior_failed_attempts, rainfall_mm) plus the awkward cases (no data, one
@@ -6,7 +6,7 @@
 // DIR/<id>.svg per chart. ctest parses them (check_charts.py) and takes a
 // headless Chromium screenshot of the page (screenshot_check.py).
 //
-//   web_chart_sample DIR
+//   chart_sample DIR
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
@@ -21,30 +21,30 @@
 #include "absl/strings/str_cat.h"
 #include "absl/time/civil_time.h"
 #include "absl/time/time.h"
-#include "daemon/web/charts.h"
-#include "daemon/web/svg.h"
+#include "daemon/charts/charts.h"
+#include "daemon/charts/svg.h"
 
-namespace web = plumbline::web;
+namespace charts = plumbline::charts;
 
 namespace {
 
-constexpr double kNaN = web::kUndefined;
+constexpr double kNaN = charts::kUndefined;
 
 absl::Time Day(int day, int hour = 0) {
   return absl::FromCivil(absl::CivilHour(2024, 5, day, hour),
                          absl::UTCTimeZone());
 }
 
-web::ChartText Text(std::string id, std::string title, std::string subtitle) {
-  web::ChartText t;
+charts::ChartText Text(std::string id, std::string title, std::string subtitle) {
+  charts::ChartText t;
   t.id = std::move(id);
   t.title = std::move(title);
   t.subtitle = std::move(subtitle);
   return t;
 }
 
-web::ReliabilityDiagram Reliability() {
-  web::ReliabilityDiagram c;
+charts::ReliabilityDiagram Reliability() {
+  charts::ReliabilityDiagram c;
   c.text = Text("holdout-reliability", "Reliability on the holdout",
                 "courier_first_attempt \xC2\xB7 10 equal-width bins \xC2\xB7 "
                 "3 812 holdout records");
@@ -60,8 +60,8 @@ web::ReliabilityDiagram Reliability() {
   const double cand_rate[] = {0.061, 0.149, 0.262, 0.343, 0.461,
                               0.538, 0.671, 0.739, 0.857, 1.0};
   const int64_t cand_count[] = {1096, 874, 640, 441, 302, 191, 128, 77, 56, 7};
-  web::ReliabilitySeries active{"active v3", {}};
-  web::ReliabilitySeries candidate{"candidate v4", {}};
+  charts::ReliabilitySeries active{"active v3", {}};
+  charts::ReliabilitySeries candidate{"candidate v4", {}};
   for (int i = 0; i < 10; ++i) {
     const double lo = i * 0.1, hi = (i + 1) * 0.1;
     active.bins.push_back(
@@ -73,12 +73,12 @@ web::ReliabilityDiagram Reliability() {
   return c;
 }
 
-web::RocChart Roc() {
-  web::RocChart c;
+charts::RocChart Roc() {
+  charts::RocChart c;
   c.text = Text("holdout-roc", "ROC on the holdout",
                 "courier_first_attempt \xC2\xB7 3 812 holdout records");
-  web::RocCurve active{"active v3", {}, 0.7712};
-  web::RocCurve candidate{"candidate v4", {}, 0.8046};
+  charts::RocCurve active{"active v3", {}, 0.7712};
+  charts::RocCurve candidate{"candidate v4", {}, 0.8046};
   // Smooth invented curves: tpr = 1 - (1 - fpr)^k.
   for (int i = 1; i < 60; ++i) {
     const double f = i / 60.0;
@@ -89,8 +89,8 @@ web::RocChart Roc() {
   return c;
 }
 
-web::BaselineHistogram ScoreHistogram() {
-  web::BaselineHistogram c;
+charts::BaselineHistogram ScoreHistogram() {
+  charts::BaselineHistogram c;
   c.text = Text("score-histogram", "Scores against the baseline",
                 "courier_first_attempt v3 \xC2\xB7 last 24 h \xC2\xB7 "
                 "PSI 0.183 (watch)");
@@ -107,8 +107,8 @@ web::BaselineHistogram ScoreHistogram() {
   return c;
 }
 
-web::BaselineHistogram BuildingHistogram() {
-  web::BaselineHistogram c;
+charts::BaselineHistogram BuildingHistogram() {
+  charts::BaselineHistogram c;
   c.text = Text("building-type-histogram", "building_type against the baseline",
                 "courier_first_attempt v3 \xC2\xB7 last 24 h");
   c.value_label = "building_type";
@@ -120,8 +120,8 @@ web::BaselineHistogram BuildingHistogram() {
   return c;
 }
 
-web::StabilityBars Stability() {
-  web::StabilityBars c;
+charts::StabilityBars Stability() {
+  charts::StabilityBars c;
   c.text = Text("feature-stability", "Feature stability",
                 "courier_first_attempt v3 \xC2\xB7 last 24 h against the "
                 "baseline \xC2\xB7 9 214 scored records");
@@ -137,32 +137,32 @@ web::StabilityBars Stability() {
   return c;
 }
 
-web::TimeSeriesChart LogLossHistory() {
-  web::TimeSeriesChart c;
+charts::TimeSeriesChart LogLossHistory() {
+  charts::TimeSeriesChart c;
   c.text = Text("log-loss-history", "Log-loss over 14 days",
                 "courier_first_attempt v3 \xC2\xB7 daily evaluation of the "
                 "last 24 h of labelled records");
   c.value_label = "log-loss";
   c.value_unit = "nats per record";
-  web::TimeSeries s{"log-loss, last 24 h", {}};
+  charts::TimeSeries s{"log-loss, last 24 h", {}};
   const double values[] = {0.412, 0.405, 0.418, 0.409, 0.421, kNaN,  kNaN,
                            0.433, 0.446, 0.458, 0.471, 0.489, 0.502, 0.517};
   for (int d = 0; d < 14; ++d) s.points.push_back({Day(1 + d), values[d]});
   c.series = {s};
   // 1.10x and 1.25x the training log-loss 0.402.
-  c.thresholds = {{"watch", 0.4422, web::Level::kWatch},
-                  {"drifting", 0.5025, web::Level::kDrifting}};
+  c.thresholds = {{"watch", 0.4422, charts::Level::kWatch},
+                  {"drifting", 0.5025, charts::Level::kDrifting}};
   return c;
 }
 
-web::TimeSeriesChart PsiHistory() {
-  web::TimeSeriesChart c;
+charts::TimeSeriesChart PsiHistory() {
+  charts::TimeSeriesChart c;
   c.text = Text("psi-history", "Stability over 14 days",
                 "courier_first_attempt v3 \xC2\xB7 hourly evaluations");
   c.value_label = "PSI";
   c.value_unit = "unitless";
-  web::TimeSeries score{"score PSI", {}};
-  web::TimeSeries rain{"rainfall_mm PSI", {}};
+  charts::TimeSeries score{"score PSI", {}};
+  charts::TimeSeries rain{"rainfall_mm PSI", {}};
   for (int h = 0; h < 14 * 24; h += 3) {
     const double t = h / 24.0;
     score.points.push_back(
@@ -173,25 +173,25 @@ web::TimeSeriesChart PsiHistory() {
                                : 0.03 + 0.028 * t + 0.02 * std::sin(h / 7.0)});
   }
   c.series = {score, rain};
-  c.thresholds = {{"watch", 0.1, web::Level::kWatch},
-                  {"drifting", 0.25, web::Level::kDrifting}};
+  c.thresholds = {{"watch", 0.1, charts::Level::kWatch},
+                  {"drifting", 0.25, charts::Level::kDrifting}};
   return c;
 }
 
 // The awkward cases.
-web::ReliabilityDiagram EmptyReliability() {
-  web::ReliabilityDiagram c;
+charts::ReliabilityDiagram EmptyReliability() {
+  charts::ReliabilityDiagram c;
   c.text = Text("empty-reliability", "Reliability, window without outcomes",
                 "courier_first_attempt v4 \xC2\xB7 shadow, no outcomes yet");
-  web::ReliabilitySeries s{"shadow v4", {}};
+  charts::ReliabilitySeries s{"shadow v4", {}};
   for (int i = 0; i < 10; ++i)
     s.bins.push_back({i * 0.1, (i + 1) * 0.1, 0, kNaN, kNaN});
   c.series = {s};
   return c;
 }
 
-web::TimeSeriesChart SinglePoint() {
-  web::TimeSeriesChart c;
+charts::TimeSeriesChart SinglePoint() {
+  charts::TimeSeriesChart c;
   c.text = Text("single-point-history", "Calibration in the large, first day",
                 "one evaluation so far; all later values equal");
   c.value_label = "calibration in the large";
@@ -202,8 +202,8 @@ web::TimeSeriesChart SinglePoint() {
   return c;
 }
 
-web::StabilityBars HostileNames() {
-  web::StabilityBars c;
+charts::StabilityBars HostileNames() {
+  charts::StabilityBars c;
   c.text = Text("hostile-names", "Names from users: <script>&\"quotes\"'",
                 "escaped, cut with an ellipsis, full text in the tooltip");
   c.features = {
@@ -212,13 +212,13 @@ web::StabilityBars HostileNames() {
        "rainfall_mm_per_hour_at_the_depot",
        0.12, std::nullopt},
       {"bad utf-8 \xFF\xFE and control \x01 chars", 0.0, std::nullopt},
-      {"caf\xC3\xA9 \xE2\x82\xAC parcel", 0.05, web::Level::kWatch},
+      {"caf\xC3\xA9 \xE2\x82\xAC parcel", 0.05, charts::Level::kWatch},
   };
   return c;
 }
 
-web::RocChart EmptyRoc() {
-  web::RocChart c;
+charts::RocChart EmptyRoc() {
+  charts::RocChart c;
   c.text = Text("empty-roc", "ROC, no labelled records", "");
   c.curves = {{"active v3", {}, kNaN}};
   return c;
@@ -228,7 +228,7 @@ web::RocChart EmptyRoc() {
 
 int main(int argc, char** argv) {
   if (argc != 2) {
-    std::cerr << "usage: web_chart_sample DIR\n";
+    std::cerr << "usage: chart_sample DIR\n";
     return 2;
   }
   const std::string dir = argv[1];
@@ -239,18 +239,18 @@ int main(int argc, char** argv) {
     return 1;
   }
   std::vector<std::pair<std::string, absl::StatusOr<std::string>>> charts = {
-      {"holdout-reliability", web::RenderReliabilityDiagram(Reliability())},
-      {"holdout-roc", web::RenderRocCurves(Roc())},
-      {"score-histogram", web::RenderBaselineHistogram(ScoreHistogram())},
+      {"holdout-reliability", charts::RenderReliabilityDiagram(Reliability())},
+      {"holdout-roc", charts::RenderRocCurves(Roc())},
+      {"score-histogram", charts::RenderBaselineHistogram(ScoreHistogram())},
       {"building-type-histogram",
-       web::RenderBaselineHistogram(BuildingHistogram())},
-      {"feature-stability", web::RenderStabilityBars(Stability())},
-      {"log-loss-history", web::RenderTimeSeries(LogLossHistory())},
-      {"psi-history", web::RenderTimeSeries(PsiHistory())},
-      {"empty-reliability", web::RenderReliabilityDiagram(EmptyReliability())},
-      {"single-point-history", web::RenderTimeSeries(SinglePoint())},
-      {"hostile-names", web::RenderStabilityBars(HostileNames())},
-      {"empty-roc", web::RenderRocCurves(EmptyRoc())},
+       charts::RenderBaselineHistogram(BuildingHistogram())},
+      {"feature-stability", charts::RenderStabilityBars(Stability())},
+      {"log-loss-history", charts::RenderTimeSeries(LogLossHistory())},
+      {"psi-history", charts::RenderTimeSeries(PsiHistory())},
+      {"empty-reliability", charts::RenderReliabilityDiagram(EmptyReliability())},
+      {"single-point-history", charts::RenderTimeSeries(SinglePoint())},
+      {"hostile-names", charts::RenderStabilityBars(HostileNames())},
+      {"empty-roc", charts::RenderRocCurves(EmptyRoc())},
   };
   std::string page =
       "<!DOCTYPE html>\n<html xmlns=\"http://www.w3.org/1999/xhtml\" "

@@ -1,4 +1,4 @@
-#include "tests/daemon/web/xml_dom.h"
+#include "tests/daemon/charts/xml_dom.h"
 
 #include <expat.h>
 
@@ -7,7 +7,7 @@
 
 #include "absl/strings/str_cat.h"
 
-namespace plumbline::web::testing {
+namespace plumbline::charts::testing {
 namespace {
 
 struct Builder {
@@ -117,4 +117,4 @@ absl::StatusOr<std::unique_ptr<XmlElement>> ParseXml(absl::string_view xml) {
   return std::move(builder.root);
 }
 
-}  // namespace plumbline::web::testing
+}  // namespace plumbline::charts::testing

@@ -11,10 +11,10 @@
 #include <vector>
 
 #include "absl/strings/str_cat.h"
-#include "daemon/web/chart_frame.h"
-#include "daemon/web/charts.h"
+#include "daemon/charts/chart_frame.h"
+#include "daemon/charts/charts.h"
 
-namespace plumbline::web {
+namespace plumbline::charts {
 namespace {
 
 using internal::ChartError;
@@ -277,4 +277,4 @@ absl::StatusOr<std::string> RenderReliabilityDiagram(
   return std::move(w).Release();
 }
 
-}  // namespace plumbline::web
+}  // namespace plumbline::charts

@@ -1,4 +1,4 @@
-#include "daemon/web/chart_frame.h"
+#include "daemon/charts/chart_frame.h"
 
 #include <algorithm>
 #include <cmath>
@@ -7,7 +7,7 @@
 #include "absl/strings/ascii.h"
 #include "absl/strings/str_cat.h"
 
-namespace plumbline::web::internal {
+namespace plumbline::charts::internal {
 
 size_t CharsThatFit(double width, double size) {
   const double n = std::floor(width / (size * kGlyphWidth));
@@ -443,4 +443,4 @@ void DrawNoData(SvgWriter* w, const Rect& plot, absl::string_view message) {
   w->Close();
 }
 
-}  // namespace plumbline::web::internal
+}  // namespace plumbline::charts::internal

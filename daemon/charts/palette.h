@@ -1,4 +1,4 @@
-// File: daemon/web/palette.h
+// File: daemon/charts/palette.h
 //
 // The colours, dash patterns and markers every Plumbline chart draws with,
 // so the model-health page and the refit dossier look alike. Colours come
@@ -14,12 +14,12 @@
 //   writer.Leaf("path", {{"stroke", s.colour}, {"stroke-dasharray", s.dash}});
 //
 // Thread-safe: constants only.
-#ifndef PLUMBLINE_DAEMON_WEB_PALETTE_H_
-#define PLUMBLINE_DAEMON_WEB_PALETTE_H_
+#ifndef PLUMBLINE_DAEMON_CHARTS_PALETTE_H_
+#define PLUMBLINE_DAEMON_CHARTS_PALETTE_H_
 
 #include <cstddef>
 
-namespace plumbline::web {
+namespace plumbline::charts {
 
 // Okabe–Ito colours (sRGB hex, as published).
 inline constexpr char kBlack[] = "#000000";
@@ -90,6 +90,6 @@ inline const LevelStyle& LevelStyleOf(Level level) {
   return kLevelStyles[static_cast<size_t>(level)];
 }
 
-}  // namespace plumbline::web
+}  // namespace plumbline::charts
 
-#endif  // PLUMBLINE_DAEMON_WEB_PALETTE_H_
+#endif  // PLUMBLINE_DAEMON_CHARTS_PALETTE_H_

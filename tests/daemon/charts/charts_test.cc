@@ -1,8 +1,8 @@
-// Tests of daemon/web/charts.h. Every chart is parsed with expat
+// Tests of daemon/charts/charts.h. Every chart is parsed with expat
 // (xml_dom.h): well-formed, its id, role, <title> and <desc> present, ids
 // unique and its own, nothing loaded from elsewhere, no "nan" or "inf", and
 // the numbers in its data- attributes equal to the inputs exactly.
-#include "daemon/web/charts.h"
+#include "daemon/charts/charts.h"
 
 #include <algorithm>
 #include <cmath>
@@ -19,13 +19,13 @@
 #include "absl/strings/str_split.h"
 #include "absl/time/civil_time.h"
 #include "absl/time/time.h"
-#include "daemon/web/format.h"
-#include "daemon/web/svg.h"
+#include "daemon/charts/format.h"
+#include "daemon/charts/svg.h"
 #include "gmock/gmock.h"
 #include "gtest/gtest.h"
-#include "tests/daemon/web/xml_dom.h"
+#include "tests/daemon/charts/xml_dom.h"
 
-namespace plumbline::web {
+namespace plumbline::charts {
 namespace {
 
 using ::testing::HasSubstr;
@@ -659,4 +659,4 @@ TEST(ChartTextTest, TwoChartsOnOnePageShareNoId) {
 }
 
 }  // namespace
-}  // namespace plumbline::web
+}  // namespace plumbline::charts

@@ -1,4 +1,4 @@
-// File: daemon/web/charts.h
+// File: daemon/charts/charts.h
 //
 // The charts of the model-health page and the refit dossier, drawn
 // server-side as SVG by one small module so both look the same and need no
@@ -31,17 +31,17 @@
 // count, bins and shares of different lengths, times out of order, a bad
 // id) is INVALID_ARGUMENT naming the chart and the field.
 //
-//   web::StabilityBars bars;
+//   charts::StabilityBars bars;
 //   bars.text.id = "psi-courier";
 //   bars.text.title = "Feature stability";
 //   bars.features.push_back({"rainfall_mm", 0.31, std::nullopt});
 //   bars.features.push_back({"parcel_weight_kg", 0.04, std::nullopt});
-//   absl::StatusOr<std::string> svg = web::RenderStabilityBars(bars);
+//   absl::StatusOr<std::string> svg = charts::RenderStabilityBars(bars);
 //   if (!svg.ok()) return svg.status();
 //
 // Thread-safe: pure functions.
-#ifndef PLUMBLINE_DAEMON_WEB_CHARTS_H_
-#define PLUMBLINE_DAEMON_WEB_CHARTS_H_
+#ifndef PLUMBLINE_DAEMON_CHARTS_CHARTS_H_
+#define PLUMBLINE_DAEMON_CHARTS_CHARTS_H_
 
 #include <cstdint>
 #include <limits>
@@ -51,9 +51,9 @@
 
 #include "absl/status/statusor.h"
 #include "absl/time/time.h"
-#include "daemon/web/palette.h"
+#include "daemon/charts/palette.h"
 
-namespace plumbline::web {
+namespace plumbline::charts {
 
 inline constexpr double kUndefined = std::numeric_limits<double>::quiet_NaN();
 
@@ -183,6 +183,6 @@ struct RocChart {
 
 absl::StatusOr<std::string> RenderRocCurves(const RocChart& chart);
 
-}  // namespace plumbline::web
+}  // namespace plumbline::charts
 
-#endif  // PLUMBLINE_DAEMON_WEB_CHARTS_H_
+#endif  // PLUMBLINE_DAEMON_CHARTS_CHARTS_H_

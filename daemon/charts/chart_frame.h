@@ -1,9 +1,9 @@
-// File: daemon/web/chart_frame.h
+// File: daemon/charts/chart_frame.h
 //
 // What the chart kinds of charts.h share: checking the caller's words, the
 // <svg> root with its <title>, <desc>, heading and fill patterns, linear
 // scales, axes with grid lines, legends, series markers and the "no data"
-// panel. Internal to daemon/web; callers use charts.h.
+// panel. Internal to daemon/charts; callers use charts.h.
 //
 //   SvgWriter w;
 //   ChartFrame frame(&w, chart.text, "roc", 640, 400);
@@ -15,8 +15,8 @@
 //   std::string svg = std::move(w).Release();
 //
 // Thread-compatible: a frame writes into one SvgWriter.
-#ifndef PLUMBLINE_DAEMON_WEB_CHART_FRAME_H_
-#define PLUMBLINE_DAEMON_WEB_CHART_FRAME_H_
+#ifndef PLUMBLINE_DAEMON_CHARTS_CHART_FRAME_H_
+#define PLUMBLINE_DAEMON_CHARTS_CHART_FRAME_H_
 
 #include <optional>
 #include <string>
@@ -24,12 +24,12 @@
 
 #include "absl/status/status.h"
 #include "absl/strings/string_view.h"
-#include "daemon/web/charts.h"
-#include "daemon/web/format.h"
-#include "daemon/web/palette.h"
-#include "daemon/web/svg.h"
+#include "daemon/charts/charts.h"
+#include "daemon/charts/format.h"
+#include "daemon/charts/palette.h"
+#include "daemon/charts/svg.h"
 
-namespace plumbline::web::internal {
+namespace plumbline::charts::internal {
 
 // Font sizes (px) and the average glyph width of the sans-serif fonts we
 // name, as a share of the size; used to fit text into a width.
@@ -161,6 +161,6 @@ void DrawNoData(SvgWriter* w, const Rect& plot, absl::string_view message);
 void DrawFittedText(SvgWriter* w, std::vector<SvgAttribute> attributes,
                     absl::string_view text, size_t max_chars);
 
-}  // namespace plumbline::web::internal
+}  // namespace plumbline::charts::internal
 
-#endif  // PLUMBLINE_DAEMON_WEB_CHART_FRAME_H_
+#endif  // PLUMBLINE_DAEMON_CHARTS_CHART_FRAME_H_

@@ -10,10 +10,10 @@
 
 #include "absl/strings/str_cat.h"
 #include "absl/time/civil_time.h"
-#include "daemon/web/chart_frame.h"
-#include "daemon/web/charts.h"
+#include "daemon/charts/chart_frame.h"
+#include "daemon/charts/charts.h"
 
-namespace plumbline::web {
+namespace plumbline::charts {
 namespace {
 
 using internal::ChartError;
@@ -358,4 +358,4 @@ absl::StatusOr<std::string> RenderTimeSeries(const TimeSeriesChart& chart) {
   return std::move(w).Release();
 }
 
-}  // namespace plumbline::web
+}  // namespace plumbline::charts

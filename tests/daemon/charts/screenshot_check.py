@@ -28,7 +28,7 @@ FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic",
          "--no-first-run", "--disable-background-networking",
          "--disable-component-update", "--disable-sync",
          "--hide-scrollbars", "--force-device-scale-factor=1"]
-# Okabe-Ito colours (daemon/web/palette.h) that fill large areas.
+# Okabe-Ito colours (daemon/charts/palette.h) that fill large areas.
 FILLS = {"sky blue": (0x56, 0xB4, 0xE9), "bluish green": (0x00, 0x9E, 0x73),
          "vermilion": (0xD5, 0x5E, 0x00)}
 

@@ -1,4 +1,4 @@
-#include "daemon/web/format.h"
+#include "daemon/charts/format.h"
 
 #include <algorithm>
 #include <charconv>
@@ -8,7 +8,7 @@
 #include "absl/strings/str_cat.h"
 #include "absl/strings/str_format.h"
 
-namespace plumbline::web {
+namespace plumbline::charts {
 namespace {
 
 constexpr char kNarrowNbsp[] = "\xE2\x80\xAF";  // U+202F
@@ -137,4 +137,4 @@ std::string TickLabel(double value, double step) {
   return FixNegativeZero(absl::StrFormat("%.*f", decimals, value));
 }
 
-}  // namespace plumbline::web
+}  // namespace plumbline::charts

@@ -1,4 +1,4 @@
-// File: tests/daemon/web/xml_dom.h
+// File: tests/daemon/charts/xml_dom.h
 //
 // A small element tree parsed with expat (Debian's libexpat), so the chart
 // tests check that every SVG is well-formed XML and read back its ids,
@@ -10,8 +10,8 @@
 //   "bin");
 //
 // Thread-compatible.
-#ifndef PLUMBLINE_TESTS_DAEMON_WEB_XML_DOM_H_
-#define PLUMBLINE_TESTS_DAEMON_WEB_XML_DOM_H_
+#ifndef PLUMBLINE_TESTS_DAEMON_CHARTS_XML_DOM_H_
+#define PLUMBLINE_TESTS_DAEMON_CHARTS_XML_DOM_H_
 
 #include <map>
 #include <memory>
@@ -22,7 +22,7 @@
 #include "absl/status/statusor.h"
 #include "absl/strings/string_view.h"
 
-namespace plumbline::web::testing {
+namespace plumbline::charts::testing {
 
 struct XmlElement {
   std::string name;
@@ -47,6 +47,6 @@ struct XmlElement {
 // well-formed.
 absl::StatusOr<std::unique_ptr<XmlElement>> ParseXml(absl::string_view xml);
 
-}  // namespace plumbline::web::testing
+}  // namespace plumbline::charts::testing
 
-#endif  // PLUMBLINE_TESTS_DAEMON_WEB_XML_DOM_H_
+#endif  // PLUMBLINE_TESTS_DAEMON_CHARTS_XML_DOM_H_

@@ -10,10 +10,10 @@
 
 #include "absl/strings/str_cat.h"
 #include "absl/strings/str_join.h"
-#include "daemon/web/chart_frame.h"
-#include "daemon/web/charts.h"
+#include "daemon/charts/chart_frame.h"
+#include "daemon/charts/charts.h"
 
-namespace plumbline::web {
+namespace plumbline::charts {
 namespace {
 
 using internal::ChartError;
@@ -261,4 +261,4 @@ absl::StatusOr<std::string> RenderStabilityBars(const StabilityBars& chart) {
   return std::move(w).Release();
 }
 
-}  // namespace plumbline::web
+}  // namespace plumbline::charts

@@ -1,4 +1,4 @@
-// File: daemon/web/format.h
+// File: daemon/charts/format.h
 //
 // How the charts write numbers: exactly in data- attributes (so a test or a
 // script reads back the very double it gave), at a readable precision in
@@ -14,8 +14,8 @@
 //   TickLabel(0.2, t.step)      -> "0.2"
 //
 // Thread-safe (pure functions).
-#ifndef PLUMBLINE_DAEMON_WEB_FORMAT_H_
-#define PLUMBLINE_DAEMON_WEB_FORMAT_H_
+#ifndef PLUMBLINE_DAEMON_CHARTS_FORMAT_H_
+#define PLUMBLINE_DAEMON_CHARTS_FORMAT_H_
 
 #include <cstdint>
 #include <string>
@@ -23,7 +23,7 @@
 
 #include "absl/time/time.h"
 
-namespace plumbline::web {
+namespace plumbline::charts {
 
 // Most significant digits any chart prints as visible text.
 inline constexpr int kMaxDisplayDigits = 6;
@@ -66,6 +66,6 @@ Ticks NiceTicks(double lo, double hi, int target);
 // A tick value with just the decimals its step needs.
 std::string TickLabel(double value, double step);
 
-}  // namespace plumbline::web
+}  // namespace plumbline::charts
 
-#endif  // PLUMBLINE_DAEMON_WEB_FORMAT_H_
+#endif  // PLUMBLINE_DAEMON_CHARTS_FORMAT_H_
