@@ -8,8 +8,11 @@ from __future__ import annotations
 
 import datetime
 import math
+import json
 import os
+import shutil
 import subprocess
+import tempfile
 import unittest
 
 import grpc
@@ -73,19 +76,21 @@ class Scoring(DaemonTestCase):
     def test_batch_forms_agree(self):
         frame = pd.DataFrame({"distance_km": [1.0, 6.0, 14.5, 3.2],
                               "building_type": ["house", None, "flat", "flat"],
-                              "rainfall_mm": [0.0, 5.0, 30.0, np.nan]})
-        frame.loc[3, "rainfall_mm"] = 0.5
+                              "rainfall_mm": [0.0, 5.0, 30.0, 0.5]})
         expected = [courier_log_odds(d, b, r) for d, b, r in
                     frame.itertuples(index=False, name=None)]
         by_frame = self.client.score_batch("courier_test", frame,
                                            record_ids=["a", "b", "c", "d"])
         self.assertEqual(by_frame.record_ids, ["a", "b", "c", "d"])
         np.testing.assert_allclose(by_frame.log_odds, expected, rtol=0, atol=1e-14)
-        # Numeric columns only: the dense form, columns named by the frame.
-        numeric = frame[["rainfall_mm", "distance_km"]]
-        dense = self.client.score_batch("courier_test", numeric.assign(
-            building_type=np.nan)[["distance_km", "rainfall_mm"]])
-        self.assertEqual(len(dense), 4)
+        # Numeric columns only: the dense form, columns named by the frame
+        # in their own order; building_type is absent, so missing (0.2).
+        dense = self.client.score_batch("courier_test",
+                                        frame[["rainfall_mm", "distance_km"]])
+        np.testing.assert_allclose(
+            dense.log_odds, [courier_log_odds(d, None, r) for d, _, r in
+                             frame.itertuples(index=False, name=None)],
+            rtol=0, atol=1e-14)
         # A 2-D array in the set's order: building_type as a level index.
         array = np.array([[1.0, 0.0, 0.0], [14.5, 1.0, 30.0]])
         by_array = self.client.score_batch("courier_test", array)
@@ -231,7 +236,6 @@ class TokenProtected(unittest.TestCase):
         lines = [l for l in out.splitlines() if l and not l.startswith("#")]
         cls.token = next(l for l in lines if not l.startswith("{"))
         entry = next(l for l in lines if l.startswith("{"))
-        import json
         config = {"security": {"access": {"tokens": [json.loads(entry)]}}}
         cls.daemon = Plumbd(config=config, sets=[COURIER])
         cls.addClassCleanup(cls.daemon.stop)
@@ -256,6 +260,77 @@ class TokenProtected(unittest.TestCase):
                 self.assertEqual(c.sets()[0].name, "courier_test")
         finally:
             del os.environ["PLUMBLINE_TOKEN"]
+
+
+OPENSSL_CONFIG = """[req]
+distinguished_name = dn
+prompt = no
+[dn]
+[ca]
+basicConstraints = critical,CA:TRUE
+keyUsage = critical,keyCertSign,cRLSign
+subjectKeyIdentifier = hash
+[server]
+subjectAltName = IP:127.0.0.1,DNS:localhost
+extendedKeyUsage = serverAuth
+[client]
+extendedKeyUsage = clientAuth
+"""
+
+
+def make_certs(dir: str) -> None:
+    """A test CA, a server certificate for 127.0.0.1 and a client
+    certificate, with Debian's openssl command (EC P-256 keys), as
+    tests/daemon/security_testing.cc makes them."""
+    with open(os.path.join(dir, "openssl.cnf"), "w") as f:
+        f.write(OPENSSL_CONFIG)
+    key = ("-newkey ec -pkeyopt ec_paramgen_curve:prime256v1 -nodes "
+           "-config openssl.cnf")
+    script = f"""set -e
+openssl req -x509 {key} -keyout ca.key -out ca.crt -days 2 -subj '/CN=Plumbline Test CA' -extensions ca
+for leaf in server:localhost:2 client:router-1:3; do
+  name=${{leaf%%:*}}; rest=${{leaf#*:}}; cn=${{rest%%:*}}; serial=${{rest#*:}}
+  openssl req -new {key} -keyout $name.key -out $name.csr -subj "/CN=$cn"
+  openssl x509 -req -in $name.csr -CA ca.crt -CAkey ca.key -set_serial $serial -days 2 -out $name.crt -extfile openssl.cnf -extensions $name
+done
+"""
+    subprocess.run(["/bin/sh", "-c", script], cwd=dir, check=True,
+                   capture_output=True, timeout=60)
+
+
+class MutualTls(unittest.TestCase):
+    """plumbd with TLS and required client certificates."""
+
+    @classmethod
+    def setUpClass(cls):
+        cls.certs = tempfile.mkdtemp(prefix="plumbline-python-tls-")
+        cls.addClassCleanup(shutil.rmtree, cls.certs, True)
+        make_certs(cls.certs)
+        path = lambda f: os.path.join(cls.certs, f)
+        config = {"security": {"tls": {"cert_file": path("server.crt"),
+                                       "key_file": path("server.key"),
+                                       "client_ca_file": path("ca.crt")}}}
+        cls.daemon = Plumbd(config=config, sets=[COURIER])
+        cls.addClassCleanup(cls.daemon.stop)
+        cls.daemon.start()
+
+    def test_client_certificate(self):
+        path = lambda f: os.path.join(self.certs, f)
+        record = {"distance_km": 6.0, "building_type": "flat", "rainfall_mm": 0.0}
+        tls = plumbline.Tls(ca=path("ca.crt"), cert=path("client.crt"),
+                            key=path("client.key"))
+        with plumbline.Client(self.daemon.addr, token="", tls=tls) as c:
+            # By hand: -1.5 + 0 + 0.5 + 0 = -1.0.
+            self.assertAlmostEqual(c.score("courier_test", record).log_odds, -1.0,
+                                   places=14)
+        # Without a client certificate the handshake fails.
+        with plumbline.Client(self.daemon.addr, token="", tls=path("ca.crt"),
+                              timeout=10) as c:
+            with self.assertRaises(plumbline.PlumblineError) as e:
+                c.score("courier_test", record)
+            self.assertEqual(e.exception.code, grpc.StatusCode.UNAVAILABLE)
+        with self.assertRaises(ValueError):
+            plumbline.Tls(ca=path("ca.crt"), cert=path("client.crt")).credentials()
 
 
 if __name__ == "__main__":

@@ -213,6 +213,8 @@ class ColumnTransformerShapes(DaemonTestCase):
         used = X.drop(columns=["ClinLR"])  # dropped by the model: not a feature
         self.assert_scores_match("anes_ct", used, model.predict_proba(X)[:, 1],
                                  "ColumnTransformer: onehot, bins")
+        np.testing.assert_allclose(export.to_sklearn(doc).predict_proba(used)[:, 1],
+                                   model.predict_proba(X)[:, 1], rtol=0, atol=1e-12)
         # An unseen party id (9): scikit-learn ignores it (all zeros), plumbd
         # gives it 0 (UNSEEN_ZERO). Ages on and just below each bin edge.
         probe = X.iloc[:12].copy()
@@ -268,6 +270,11 @@ class ColumnTransformerShapes(DaemonTestCase):
         self.load(doc)
         self.assert_scores_match("fair_ct", X, model.predict_proba(X)[:, 1],
                                  "ColumnTransformer: imputers, infrequent, passthrough")
+        # to_sklearn: the set as an estimator in Python gives the same
+        # probabilities (reference: predict_proba).
+        back = export.to_sklearn(doc)
+        np.testing.assert_allclose(back.predict_proba(X)[:, 1],
+                                   model.predict_proba(X)[:, 1], rtol=0, atol=1e-12)
         # Unseen levels: occupation "occ9" is ignored, religious "rel9" goes
         # to the infrequent group.
         probe = X.iloc[:10].copy()
