@@ -289,17 +289,24 @@ class ColumnTransformerShapes(DaemonTestCase):
         # A scaler after the ColumnTransformer scales the one-hot columns
         # too; each level still has one coefficient (and the unseen level
         # a constant, moved into the intercept).
+        # ClinLR (1..7, stored as floats) is one-hot encoded as it is: its
+        # levels are "1".."7".
         X, y = anes96()
         ct = ColumnTransformer([("party", OneHotEncoder(handle_unknown="ignore"),
                                  ["PID"]),
+                                ("clinton", OneHotEncoder(drop="first"), ["ClinLR"]),
                                 ("num", "passthrough", ["age", "selfLR"])],
                                sparse_threshold=0)
         model = make_pipeline(ct, StandardScaler(), LogisticRegression()).fit(X, y)
         doc = export.from_sklearn(model, list(X.columns), X, name="anes_scaled_ct",
                                   version="1")
-        self.assertEqual([f["name"] for f in doc["features"]], ["PID", "age", "selfLR"])
+        self.assertEqual([f["name"] for f in doc["features"]],
+                         ["PID", "age", "selfLR", "ClinLR"])
+        clinton = doc["features"][3]["categorical"]
+        self.assertEqual([lv["value"] for lv in clinton["levels"]],
+                         [str(i) for i in range(1, 8)])
         self.load(doc)
-        used = X[["PID", "age", "selfLR"]]
+        used = X[["PID", "age", "selfLR", "ClinLR"]]
         self.assert_scores_match("anes_scaled_ct", used, model.predict_proba(X)[:, 1],
                                  "StandardScaler after a ColumnTransformer")
         probe = X.iloc[:5].copy()
@@ -358,11 +365,11 @@ class Refusals(unittest.TestCase):
         self.assert_refused(model, X, list(X.columns), "simpleimputer",
                             "missing_values=-1.0")
 
-    def test_float_categories(self):
+    def test_fractional_categories(self):
         X, y = anes96()
-        ct = ColumnTransformer([("educ", OneHotEncoder(), ["income"])])
+        ct = ColumnTransformer([("pop", OneHotEncoder(), ["logpopul"])])
         model = make_pipeline(ct, LogisticRegression()).fit(X, y)
-        self.assert_refused(model, X, list(X.columns), "column 'income'",
+        self.assert_refused(model, X, list(X.columns), "column 'logpopul'",
                             "cannot be a level")
 
 

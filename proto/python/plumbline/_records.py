@@ -19,6 +19,11 @@ def is_integer(v: Any) -> bool:
         type(v).__name__ not in ("bool_", "bool")
 
 
+def is_number(v: Any) -> bool:
+    return isinstance(v, numbers.Real) and not isinstance(v, bool) and \
+        type(v).__name__ not in ("bool_", "bool")
+
+
 def _is_missing(v: Any, nan_is_missing: bool) -> bool:
     if v is None or type(v).__name__ in ("NAType", "NaTType"):
         return True
@@ -112,7 +117,7 @@ def batch_requests(set: str, rows: Any, *, record_ids, columns, nan_is_missing,
     for i, r in enumerate(rows):
         if not isinstance(r, Mapping):
             raise ValueError(f"rows[{i}] is a {type(r).__name__}, not a dict")
-    needs_schema = any(is_integer(v) for r in rows for v in r.values())
+    needs_schema = any(is_number(v) for r in rows for v in r.values())
     info = schema() if needs_schema else None
     return _record_requests(set, rows, _ids(record_ids, len(rows)), info,
                             nan_is_missing, reasons, chunk_rows)

@@ -120,8 +120,9 @@ class Client:
         """Scores one record against the active version of `set`.
 
         features: name -> value; numbers for numeric and binned features,
-        strings for categorical ones (integers are sent as their decimal
-        text when the set's feature is categorical), None for missing.
+        strings for categorical ones (an integer, or an integral float, is
+        sent as its decimal text when the set's feature is categorical, as
+        the export writes integer categories), None for missing.
         NaN counts as missing unless nan_is_missing is False (plumbd then
         refuses it). reasons: how many reason codes to return, in `order`
         ("raises", "lowers" or "magnitude"). record_id: the id to report
@@ -272,9 +273,10 @@ class Client:
                              f"set '{set}' is not loaded", "ListSets")
 
     def _schema_if_needed(self, set: str, rows: Iterable[Mapping[str, Any]]):
-        """The schema, fetched only when a value's meaning depends on it (an
-        integer may name a categorical level)."""
-        if any(_records.is_integer(v) for row in rows for v in row.values()):
+        """The schema (one ListSets per set and client), fetched only when a
+        value's meaning depends on it: a number may be an integer-coded
+        level of a categorical feature."""
+        if any(_records.is_number(v) for row in rows for v in row.values()):
             return self._schema(set)
         return None
 

@@ -100,7 +100,7 @@ def numeric_column(values: Sequence[Any], name: str):
 
 def level_text(v: Any, where: str) -> str:
     """The level string plumbd sees for a category value: text as is,
-    integers as their decimal text."""
+    integers (also integral floats) as their decimal text."""
     if isinstance(v, (bool, np.bool_)):
         raise ValueError(f"{where}: boolean categories cannot be levels; map "
                          "them to strings before fitting")
@@ -110,8 +110,13 @@ def level_text(v: Any, where: str) -> str:
         return v
     if isinstance(v, (int, np.integer)):
         return str(int(v))
+    if isinstance(v, (float, np.floating)) and math.isfinite(v) and float(v).is_integer():
+        # Integer codes stored as floats (pandas does so for an integer
+        # column with a missing cell): the level is the integer's text, and
+        # the client sends 3.0 for a categorical feature as "3".
+        return str(int(v))
     raise ValueError(f"{where}: category {v!r} ({type(v).__name__}) cannot be a "
-                     "level; plumbd's levels are strings: use str or int "
+                     "level; plumbd's levels are strings: use text or integer "
                      "categories")
 
 

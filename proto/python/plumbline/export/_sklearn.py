@@ -168,6 +168,8 @@ def from_sklearn(model, feature_names: Sequence[str], training_frame, *,
     unused = [n for n in names if n not in terms]
     docs = [f.doc for f in features]
     _add_baselines(docs, names, training_frame)
+    if hasattr(training_frame, "columns") and hasattr(training_frame, "iloc"):
+        training_frame = training_frame[names]  # the label may be a column too
     probability = model.predict_proba(training_frame)[:, 1]
     rows = D.frame_rows(training_frame)
     ll = loss = None
