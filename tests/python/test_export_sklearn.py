@@ -182,6 +182,31 @@ class ScalerPipeline(DaemonTestCase):
                                  "named records with nulls")
 
 
+    def test_step_orders(self):
+        # Less usual orders of the same steps: an imputer after the scaler
+        # (missing becomes a constant in scaled units: INDICATOR), two
+        # scalers in a row (composed), bin indices scaled, indicator
+        # columns scaled with the rest (their constant moves to the
+        # intercept).
+        X, y = breast_cancer_with_gaps()
+        X = X[["mean radius", "mean texture", "mean smoothness", "worst area"]]
+        shapes = {
+            "bc_scale_then_impute": [StandardScaler(), SimpleImputer(add_indicator=True)],
+            "bc_two_scalers": [SimpleImputer(), StandardScaler(),
+                               StandardScaler(with_mean=False)],
+            "bc_bins_scaled": [SimpleImputer(), KBinsDiscretizer(n_bins=4, encode="ordinal"),
+                               StandardScaler()],
+            "bc_flags_scaled": [SimpleImputer(add_indicator=True), StandardScaler()],
+        }
+        for name, steps in shapes.items():
+            with self.subTest(name):
+                model = make_pipeline(*steps, LogisticRegression(max_iter=3000)).fit(X, y)
+                doc = export.from_sklearn(model, list(X.columns), X, name=name,
+                                          version="1")
+                self.load(doc)
+                self.assert_scores_match(name, X, model.predict_proba(X)[:, 1], name)
+
+
 class ColumnTransformerShapes(DaemonTestCase):
     def test_onehot_and_bins(self):
         X, y = anes96()
