@@ -11,7 +11,7 @@ Whatever cannot be written that way is refused, naming the step.
 """
 from __future__ import annotations
 
-from typing import Any, Dict, List, Optional, Sequence, Tuple
+from typing import Any, Dict, List, Sequence, Tuple
 
 from plumbline.export._columns import MISSING, PRESENT, RAISE, UNKNOWN, Sym
 from plumbline.export._document import finite

@@ -12,7 +12,7 @@ from __future__ import annotations
 import bisect
 import json
 import math
-from typing import Any, Dict, List, Mapping, Sequence, Union
+from typing import Any, List, Mapping, Union
 
 import numpy as np
 
