@@ -1,0 +1,88 @@
+"""Writes reference values for the monitor's alarm and exact-figure code.
+
+Usage: /usr/bin/python3 alarm_reference.py OUT.json
+
+Every number comes from Debian's python3-scipy, python3-sklearn,
+python3-statsmodels and python3-numpy, named per field below, or from a
+simulation written here in NumPy, independently of the C++ code:
+  chi2_isf            scipy.stats.chi2.isf on a grid of (upper tail, dof)
+  psi_cases           PSI in numpy (floor 1e-4, the rule of
+                      monitor/stability.h), p-value scipy.stats.chi2.sf of
+                      PSI / (1/n + 1/m) on B - 1 dof, critical PSI
+                      scipy.stats.chi2.isf(alpha, B - 1) * (1/n + 1/m)
+The data: seeded numpy draws.
+"""
+import json
+import sys
+
+import numpy as np
+import scipy
+import sklearn
+import statsmodels
+from scipy.stats import chi2
+
+PSI_FLOOR = 1e-4
+
+
+def floats(a):
+    return [float(v) for v in np.asarray(a, dtype=float)]
+
+
+def chi2_isf_grid():
+    tails, dofs, values = [], [], []
+    for dof in [1, 2, 3, 4, 5, 7, 9, 10, 14, 19, 30, 50, 99, 200, 1000]:
+        for tail in [0.5, 0.2, 0.1, 0.05, 0.01, 1e-3, 1e-4, 1e-6, 1e-9,
+                     1e-12]:
+            tails.append(tail)
+            dofs.append(float(dof))
+            values.append(float(chi2.isf(tail, dof)))
+    return {"upper_tail": tails, "dof": dofs, "isf": values}
+
+
+def psi_case(rng, name, expected_p, actual_p, n, m, alpha):
+    """Baseline of n and window of m records from two multinomials."""
+    base = rng.multinomial(n, expected_p) / n
+    window = rng.multinomial(m, actual_p) / m
+    e = np.maximum(base, PSI_FLOOR)
+    a = np.maximum(window, PSI_FLOOR)
+    psi = float(np.sum((a - e) * np.log(a / e)))
+    bins = int(np.sum(base > 0))
+    scale = 1.0 / n + 1.0 / m
+    stat = psi / scale
+    return {"name": name, "baseline": floats(base), "window": floats(window),
+            "n": n, "m": m, "bins": bins, "alpha": alpha, "psi": psi,
+            "statistic": stat, "p_value": float(chi2.sf(stat, bins - 1)),
+            "critical_psi": float(chi2.isf(alpha, bins - 1) * scale)}
+
+
+def psi_cases(rng):
+    deciles = np.full(10, 0.1)
+    shifted = np.array([0.07, 0.08, 0.09, 0.1, 0.1, 0.1, 0.11, 0.11, 0.12,
+                        0.12])
+    five = np.array([0.1, 0.2, 0.4, 0.2, 0.1])
+    return [
+        psi_case(rng, "stable_deciles", deciles, deciles, 20000, 5000, 0.01),
+        psi_case(rng, "shifted_deciles", deciles, shifted, 20000, 5000, 0.01),
+        psi_case(rng, "small_window", deciles, shifted, 20000, 300, 0.05),
+        psi_case(rng, "five_bins", five, five, 1000, 1000, 0.001),
+        psi_case(rng, "five_bins_moved", five, five[::-1] * 0.5 + 0.1, 3000,
+                 800, 0.05),
+    ]
+
+
+def main() -> None:
+    rng = np.random.default_rng(20240917)
+    out = {
+        "versions": {"sklearn": sklearn.__version__,
+                     "scipy": scipy.__version__,
+                     "statsmodels": statsmodels.__version__,
+                     "numpy": np.__version__},
+        "chi2_isf": chi2_isf_grid(),
+        "psi_cases": psi_cases(rng),
+    }
+    with open(sys.argv[1], "w") as f:
+        json.dump(out, f)
+
+
+if __name__ == "__main__":
+    main()

@@ -1,0 +1,122 @@
+// File: tests/monitor/alarm_reference_test.cc
+//
+// The monitor's alarm statistics and exact figures against SciPy 1.10,
+// scikit-learn 1.2, statsmodels 0.13 and NumPy simulations (Debian
+// packages). tests/monitor/alarm_reference.py writes the data and the
+// reference values as JSON in the same ctest run (fixture alarm_reference)
+// and passes the path in PLUMBLINE_ALARM_REF. Its own executable because
+// gtest_discover_tests gives one suite one environment variable and one
+// fixture (see DEVELOPERS.md on fit_reference_test); the tests keep the
+// `monitor.` prefix. Tolerances are stated beside each check.
+#include <cmath>
+#include <cstdint>
+#include <string>
+#include <vector>
+
+#include "absl/status/statusor.h"
+#include "google/protobuf/struct.pb.h"
+#include "gtest/gtest.h"
+#include "monitor/stability.h"
+#include "monitor/stability_significance.h"
+#include "tests/testing/json_file.h"
+
+namespace plumbline::monitor {
+namespace {
+
+using google::protobuf::Struct;
+using google::protobuf::Value;
+
+const Value& Field(const Struct& s, const std::string& key) {
+  static const Value* const kNull = new Value();
+  auto it = s.fields().find(key);
+  if (it == s.fields().end()) {
+    ADD_FAILURE() << "reference JSON has no \"" << key << "\"";
+    return *kNull;
+  }
+  return it->second;
+}
+const Struct& Object(const Struct& s, const std::string& key) {
+  return Field(s, key).struct_value();
+}
+double Number(const Struct& s, const std::string& key) {
+  return Field(s, key).number_value();
+}
+std::vector<double> Numbers(const Struct& s, const std::string& key) {
+  absl::StatusOr<std::vector<double>> v = testing::NumberList(s, key);
+  EXPECT_TRUE(v.ok()) << v.status();
+  return v.ok() ? *v : std::vector<double>();
+}
+std::vector<Struct> Cases(const Struct& s, const std::string& key) {
+  std::vector<Struct> out;
+  for (const Value& v : Field(s, key).list_value().values()) {
+    out.push_back(v.struct_value());
+  }
+  EXPECT_FALSE(out.empty()) << key;
+  return out;
+}
+
+// |actual - expected| <= rel * |expected|.
+void ExpectRelative(double actual, double expected, double rel,
+                    const std::string& what) {
+  EXPECT_NEAR(actual, expected, rel * std::abs(expected)) << what;
+}
+
+class AlarmReferenceTest : public ::testing::Test {
+ protected:
+  static void SetUpTestSuite() {
+    absl::StatusOr<Struct> json = testing::ReadJsonFile(
+        testing::ReferencePathFromEnv("PLUMBLINE_ALARM_REF"));
+    ASSERT_TRUE(json.ok()) << json.status();
+    reference_ = new Struct(*std::move(json));
+  }
+  static const Struct& Root() { return *reference_; }
+
+  static Struct* reference_;
+};
+Struct* AlarmReferenceTest::reference_ = nullptr;
+
+// ---- PSI significance ----
+
+TEST_F(AlarmReferenceTest, ChiSquareQuantileMatchesScipy) {
+  const Struct& grid = Object(Root(), "chi2_isf");
+  const std::vector<double> tails = Numbers(grid, "upper_tail");
+  const std::vector<double> dofs = Numbers(grid, "dof");
+  const std::vector<double> isf = Numbers(grid, "isf");
+  ASSERT_EQ(tails.size(), isf.size());
+  for (size_t i = 0; i < tails.size(); ++i) {
+    absl::StatusOr<double> q = ChiSquareUpperQuantile(tails[i], dofs[i]);
+    ASSERT_TRUE(q.ok()) << q.status();
+    // reference: scipy.stats.chi2.isf, SciPy 1.10 (its own cephes-based
+    // inverse, not Boost); 1e-12 relative.
+    ExpectRelative(*q, isf[i], 1e-12,
+                   "tail " + std::to_string(tails[i]) + " dof " +
+                       std::to_string(dofs[i]));
+  }
+}
+
+TEST_F(AlarmReferenceTest, PsiSignificanceMatchesScipy) {
+  for (const Struct& c : Cases(Root(), "psi_cases")) {
+    const std::string name = Field(c, "name").string_value();
+    const double psi =
+        PsiFromProportions(Numbers(c, "baseline"), Numbers(c, "window"));
+    // reference: the PSI in numpy with the 1e-4 floor; 1e-12 relative.
+    ExpectRelative(psi, Number(c, "psi"), 1e-12, name);
+    absl::StatusOr<PsiSignificance> s =
+        TestPsi({.psi = psi,
+                 .baseline_count = static_cast<int64_t>(Number(c, "n")),
+                 .window_count = static_cast<int64_t>(Number(c, "m")),
+                 .bins = static_cast<int>(Number(c, "bins"))},
+                Number(c, "alpha"));
+    ASSERT_TRUE(s.ok()) << s.status();
+    ExpectRelative(s->statistic, Number(c, "statistic"), 1e-12, name);
+    // reference: scipy.stats.chi2.sf of the statistic on B - 1 dof. 1e-10
+    // relative: the tail amplifies the statistic's last-bit differences by
+    // about statistic / 2 (up to 50 here) on top of the tail's own 1e-12.
+    ExpectRelative(s->p_value, Number(c, "p_value"), 1e-10, name);
+    // reference: scipy.stats.chi2.isf(alpha, B - 1) * (1/n + 1/m); 1e-12.
+    ExpectRelative(s->critical_psi, Number(c, "critical_psi"), 1e-12, name);
+  }
+}
+
+}  // namespace
+}  // namespace plumbline::monitor
