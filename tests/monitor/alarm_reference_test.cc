@@ -16,6 +16,8 @@
 #include "absl/status/statusor.h"
 #include "google/protobuf/struct.pb.h"
 #include "gtest/gtest.h"
+#include "monitor/cusum_run_length.h"
+#include "monitor/risk_adjusted_cusum.h"
 #include "monitor/stability.h"
 #include "monitor/stability_significance.h"
 #include "tests/testing/json_file.h"
@@ -115,6 +117,33 @@ TEST_F(AlarmReferenceTest, PsiSignificanceMatchesScipy) {
     ExpectRelative(s->p_value, Number(c, "p_value"), 1e-10, name);
     // reference: scipy.stats.chi2.isf(alpha, B - 1) * (1/n + 1/m); 1e-12.
     ExpectRelative(s->critical_psi, Number(c, "critical_psi"), 1e-12, name);
+  }
+}
+
+// ---- Risk-adjusted CUSUM ----
+
+TEST_F(AlarmReferenceTest, CusumRunLengthMatchesNumpySimulation) {
+  const Struct& cusum = Object(Root(), "cusum");
+  absl::StatusOr<RiskDistribution> risks =
+      RiskDistribution::FromLogOdds(Numbers(cusum, "log_odds"));
+  ASSERT_TRUE(risks.ok()) << risks.status();
+  for (const Struct& c : Cases(cusum, "charts")) {
+    const std::string name = Field(c, "name").string_value();
+    const LogOddsChange alternative{Number(c, "shift"), Number(c, "slope")};
+    const LogOddsChange truth{Number(c, "truth_shift"),
+                              Number(c, "truth_slope")};
+    absl::StatusOr<RunLengthEstimate> arl =
+        AverageRunLength(alternative, Number(c, "limit"), *risks, truth);
+    ASSERT_TRUE(arl.ok()) << arl.status();
+    // reference: the mean run length of 10,000 NumPy runs of the chart
+    // (alarm_reference.py, its own weights and loop). The Markov-chain ARL
+    // must lie within the 99.9% interval of that mean (z = 3.2905, scipy
+    // norm.isf(0.0005)) widened by the chain's stated error.
+    const double se = Number(c, "standard_error");
+    EXPECT_NEAR(arl->value, Number(c, "arl"),
+                3.2905 * se + arl->discretisation_error)
+        << name << ": chain " << arl->value << ", NumPy " << Number(c, "arl")
+        << " +- " << se;
   }
 }
 
