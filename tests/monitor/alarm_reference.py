@@ -14,6 +14,17 @@ simulation written here in NumPy, independently of the C++ code:
                       in NumPy (10,000 seeded runs per chart, vectorised;
                       weights written as log(p_A / p) and
                       log((1 - p_A) / (1 - p)) with scipy.special.log_expit)
+  exact_cases         per window of records:
+                        auc                    sklearn.metrics.roc_auc_score
+                        hosmer_lemeshow        deciles of risk written here in
+                                               numpy (groups by sorted rank,
+                                               ties to the group of their
+                                               first rank), p-value
+                                               scipy.stats.chi2.sf on g - 2 dof
+                        calibration_intercept  statsmodels GLM(Binomial) on a
+                                               constant with offset = log-odds
+                        calibration_slope      statsmodels Logit on
+                                               [1, log-odds]
 The data: seeded numpy draws.
 """
 import json
@@ -23,7 +34,9 @@ import numpy as np
 import scipy
 import sklearn
 import statsmodels
-from scipy.special import log_expit
+import statsmodels.api as sm
+from sklearn.metrics import roc_auc_score
+from scipy.special import expit, log_expit
 from scipy.stats import chi2
 
 PSI_FLOOR = 1e-4
@@ -121,6 +134,64 @@ def cusum_cases(rng):
     return {"log_odds": floats(z), "charts": cases}
 
 
+def hl_deciles_of_risk(p, y, g=10):
+    """Hosmer-Lemeshow over deciles of risk; ties kept in one group."""
+    n = p.size
+    sorted_p = np.sort(p, kind="stable")
+    # Rank of the first record holding each record's probability.
+    first_rank = np.searchsorted(sorted_p, p, side="left")
+    # Group k starts at rank floor(k n / g).
+    starts = (np.arange(1, g) * n) // g
+    group = np.searchsorted(starts, first_rank, side="right")
+    count = np.bincount(group, minlength=g).astype(float)
+    observed = np.bincount(group, weights=y, minlength=g)
+    expected = np.bincount(group, weights=p, minlength=g)
+    keep = count > 0
+    count, observed, expected = count[keep], observed[keep], expected[keep]
+    stat = float(np.sum((observed - expected) ** 2 /
+                        (expected * (1 - expected / count))))
+    groups = int(keep.sum())
+    return {"statistic": stat, "groups": groups,
+            "p_value": float(chi2.sf(stat, groups - 2))}
+
+
+def exact_case(name, z, y):
+    z = np.asarray(z, dtype=float)
+    y = np.asarray(y, dtype=int)
+    p = 1.0 / (1.0 + np.exp(-z))
+    ones = np.ones((z.size, 1))
+    offset_fit = sm.GLM(y, ones, family=sm.families.Binomial(),
+                        offset=z).fit(method="IRLS", tol=1e-14, maxiter=200)
+    joint_fit = sm.Logit(y, sm.add_constant(z)).fit(
+        method="newton", tol=1e-12, maxiter=100, disp=0)
+    return {"name": name, "log_odds": floats(z),
+            "labels": [int(v) for v in y],
+            "auc": float(roc_auc_score(y, z)),
+            "hosmer_lemeshow": hl_deciles_of_risk(p, y),
+            "calibration_intercept": float(offset_fit.params[0]),
+            "calibration_intercept_se": float(offset_fit.bse[0]),
+            "calibration_slope": float(joint_fit.params[1]),
+            "calibration_slope_se": float(joint_fit.bse[1])}
+
+
+def exact_cases(rng):
+    cases = []
+    # Over-confident model (true slope 0.7) that under-predicts a little.
+    z = rng.normal(-1.0, 1.5, 5000)
+    cases.append(exact_case("overconfident", z,
+                            rng.random(5000) < expit(0.3 + 0.7 * z)))
+    # Log-odds on a 0.5 grid: runs of ties straddle the decile cuts.
+    z = np.round(rng.normal(-0.5, 1.2, 3003) * 2) / 2
+    cases.append(exact_case("tied", z, rng.random(3003) < expit(0.2 + z)))
+    # A window that is not a multiple of 10 records.
+    z = rng.normal(0.0, 1.5, 57)
+    cases.append(exact_case("small", z, rng.random(57) < expit(z)))
+    # A well-calibrated model on a larger window.
+    z = rng.normal(-2.0, 1.0, 20000)
+    cases.append(exact_case("calibrated", z, rng.random(20000) < expit(z)))
+    return cases
+
+
 def main() -> None:
     rng = np.random.default_rng(20240917)
     out = {
@@ -131,6 +202,7 @@ def main() -> None:
         "chi2_isf": chi2_isf_grid(),
         "psi_cases": psi_cases(rng),
         "cusum": cusum_cases(rng),
+        "exact_cases": exact_cases(rng),
     }
     with open(sys.argv[1], "w") as f:
         json.dump(out, f)
