@@ -215,6 +215,7 @@ absl::StatusOr<AlarmSimulator> AlarmSimulator::Create(
   }
   absl::StatusOr<RiskDistribution> risks = RiskDistribution::FromLogOdds(z);
   if (!risks.ok()) return risks.status();
+  sim.risk_log_odds_ = z;
   for (int c = kUpper; c < kComponents; ++c) {
     if (c == kSlope && options.slope_alternative <= 0) continue;
     absl::StatusOr<ControlLimit> h =

@@ -98,6 +98,10 @@ class AlarmSimulator {
   }
   // The alternative of a CUSUM component.
   LogOddsChange alternative(int component) const;
+  // The risk distribution the limits were computed on.
+  absl::StatusOr<RiskDistribution> risks() const {
+    return RiskDistribution::FromLogOdds(risk_log_odds_);
+  }
 
  private:
   explicit AlarmSimulator(const AlarmPolicyOptions& options)
@@ -106,6 +110,7 @@ class AlarmSimulator {
   AlarmPolicyOptions options_;
   std::array<double, kComponents> limits_{};
   std::array<RunLengthEstimate, kComponents> arls_{};
+  std::vector<double> risk_log_odds_;
 };
 
 }  // namespace plumbline::monitor::testing
