@@ -71,16 +71,9 @@ absl::Status NotConverged(int steps, absl::string_view why) {
       steps, why));
 }
 
-}  // namespace
-
-absl::StatusOr<CalibrationFit> CalibrationInterceptSlope(
-    absl::Span<const double> log_odds, absl::Span<const int> labels) {
-  if (absl::Status s = internal::CheckLabelledScores(
-          "calibration intercept/slope", log_odds, labels,
-          internal::ScoreKind::kFiniteLogOdds);
-      !s.ok()) {
-    return s;
-  }
+// Groups of equal log-odds from records.
+std::vector<LogOddsGroup> Grouped(absl::Span<const double> log_odds,
+                                  absl::Span<const int> labels) {
   std::vector<std::pair<double, int>> sorted(log_odds.size());
   for (size_t i = 0; i < log_odds.size(); ++i) {
     sorted[i] = {log_odds[i], labels[i]};
@@ -92,7 +85,104 @@ absl::StatusOr<CalibrationFit> CalibrationInterceptSlope(
       groups.push_back({z, 0, 0});
     (label == 1 ? groups.back().positives : groups.back().negatives) += 1;
   }
-  return FitCalibrationGroups(groups);
+  return groups;
+}
+
+}  // namespace
+
+absl::StatusOr<CalibrationInterceptFit> CalibrationIntercept(
+    absl::Span<const double> log_odds, absl::Span<const int> labels) {
+  if (absl::Status s = internal::CheckLabelledScores(
+          "calibration intercept", log_odds, labels,
+          internal::ScoreKind::kFiniteLogOdds);
+      !s.ok()) {
+    return s;
+  }
+  return FitCalibrationInterceptGroups(Grouped(log_odds, labels));
+}
+
+absl::StatusOr<CalibrationInterceptFit> FitCalibrationInterceptGroups(
+    absl::Span<const LogOddsGroup> groups) {
+  int64_t positives = 0, total = 0;
+  for (const LogOddsGroup& g : groups) {
+    positives += g.positives;
+    total += g.positives + g.negatives;
+  }
+  if (total == 0) {
+    return absl::FailedPreconditionError(
+        "calibration intercept is undefined: no labelled records");
+  }
+  if (positives == 0 || positives == total) {
+    return absl::FailedPreconditionError(absl::StrFormat(
+        "calibration intercept is undefined: all %d labelled records have "
+        "label %d",
+        total, positives == 0 ? 0 : 1));
+  }
+  // The log-likelihood a -> sum n_pos log s(a + z) + n_neg log s(-a - z) is
+  // strictly concave, so Newton with step halving converges from a = 0.
+  auto log_likelihood = [&](double a) {
+    CompensatedSum ll;
+    for (const LogOddsGroup& g : groups) {
+      ll.Add(static_cast<double>(g.positives) * LogLogistic(a + g.log_odds) +
+             static_cast<double>(g.negatives) * LogLogistic(-a - g.log_odds));
+    }
+    return ll.Value();
+  };
+  auto derivatives = [&](double a, double& gradient, double& information) {
+    CompensatedSum grad, info;
+    for (const LogOddsGroup& g : groups) {
+      const double p = Logistic(a + g.log_odds);
+      const double n = static_cast<double>(g.positives + g.negatives);
+      grad.Add(static_cast<double>(g.positives) - n * p);
+      info.Add(n * p * (1 - p));
+    }
+    gradient = grad.Value();
+    information = info.Value();
+  };
+  double a = 0;
+  double ll = log_likelihood(a);
+  for (int step = 1; step <= kMaxNewtonSteps; ++step) {
+    double gradient = 0, information = 0;
+    derivatives(a, gradient, information);
+    if (!(information > 0)) return NotConverged(step, "zero information");
+    const double delta = gradient / information;
+    double scale = 1.0;
+    double next = a + delta;
+    double next_ll = log_likelihood(next);
+    const double slack = 1e-12 * (std::abs(ll) + 1.0);
+    for (int h = 0; h < kMaxHalvings && !(next_ll >= ll - slack); ++h) {
+      scale /= 2;
+      next = a + scale * delta;
+      next_ll = log_likelihood(next);
+    }
+    const bool small = std::abs(scale * delta) <= kStepTolerance * (1 + std::abs(a));
+    a = next;
+    ll = next_ll;
+    if (!std::isfinite(a)) return NotConverged(step, "estimate overflowed");
+    if (small) {
+      derivatives(a, gradient, information);
+      if (!(information > 0)) {
+        return NotConverged(step, "zero information at the estimate");
+      }
+      CalibrationInterceptFit fit;
+      fit.intercept = a;
+      fit.standard_error = 1 / std::sqrt(information);
+      fit.iterations = step;
+      return fit;
+    }
+  }
+  return NotConverged(kMaxNewtonSteps, "step still large");
+}
+
+absl::StatusOr<CalibrationFit> CalibrationInterceptSlope(
+    absl::Span<const double> log_odds, absl::Span<const int> labels) {
+  if (absl::Status s = internal::CheckLabelledScores(
+          "calibration intercept/slope", log_odds, labels,
+          internal::ScoreKind::kFiniteLogOdds);
+      !s.ok()) {
+    return s;
+  }
+  return FitCalibrationGroups(Grouped(log_odds, labels));
 }
 
 absl::StatusOr<CalibrationFit> FitCalibrationGroups(

@@ -1,7 +1,25 @@
 // File: monitor/calibration_fit.h
 //
-// Calibration intercept and slope: the logistic regression of the outcome on
-// the model's own log-odds,
+// Calibration intercept and slope, in the two fits of the calibration
+// hierarchy (Van Calster et al. 2016, J Clin Epidemiol, "A calibration
+// hierarchy for risk models"):
+//
+//  - CalibrationIntercept: the calibration intercept with the slope fixed
+//    at 1, i.e. the model's log-odds as an offset,
+//        logit P(label = 1) = a + log_odds,
+//    which is what the literature means by the "calibration-in-the-large"
+//    intercept (0 when the mean predicted risk matches the event rate;
+//    > 0 when the model under-predicts). Newton on one parameter.
+//  - CalibrationInterceptSlope: the joint fit below; its slope is the
+//    calibration slope. Its intercept is not the calibration-in-the-large
+//    intercept (it depends on the slope) and should not be reported as one.
+//
+// (LossFigures::calibration_in_the_large in outcome_accumulators.h is the
+// difference of means, mean predicted - observed rate, on the probability
+// scale: a related figure, not this intercept.)
+//
+// The joint fit: the logistic regression of the outcome on the model's own
+// log-odds,
 //
 //   logit P(label = 1) = intercept + slope * log_odds,
 //
@@ -51,7 +69,23 @@ struct LogOddsGroup {
 absl::StatusOr<CalibrationFit> CalibrationInterceptSlope(
     absl::Span<const double> log_odds, absl::Span<const int> labels);
 
-// The same fit over grouped records. REQUIRES: finite log_odds, counts >= 0.
+// The calibration intercept with the slope fixed at 1 (log-odds as offset).
+struct CalibrationInterceptFit {
+  double intercept = 0;
+  // 1 / sqrt(Fisher information) at the estimate (as statsmodels' GLM
+  // reports it).
+  double standard_error = 0;
+  int iterations = 0;  // Newton steps taken
+};
+
+// Errors as for CalibrationInterceptSlope, except that equal log-odds are
+// fine (the intercept is defined whenever both labels occur).
+absl::StatusOr<CalibrationInterceptFit> CalibrationIntercept(
+    absl::Span<const double> log_odds, absl::Span<const int> labels);
+absl::StatusOr<CalibrationInterceptFit> FitCalibrationInterceptGroups(
+    absl::Span<const LogOddsGroup> groups);
+
+// The joint fit over grouped records. REQUIRES: finite log_odds, counts >= 0.
 // Groups with equal log-odds may repeat; order matters only in the last bits.
 absl::StatusOr<CalibrationFit> FitCalibrationGroups(
     absl::Span<const LogOddsGroup> groups);

@@ -15,7 +15,19 @@
 //       monitor::HosmerLemeshow(probabilities, labels);  // deciles
 //   if (hl.ok() && hl->p_value < 0.01) { ... }
 //
-// Groups "of equal count" are the equal-count reliability bins
+// Two groupings by equal count are offered. HosmerLemeshowDecilesOfRisk is
+// the textbook one (Hosmer, Lemeshow & Sturdivant, Applied Logistic
+// Regression, 3rd ed., "deciles of risk"): records sorted by predicted
+// probability, group k (0-based) holding sorted ranks floor(k n / g) to
+// floor((k + 1) n / g) - 1, so group sizes differ by at most one. Tie rule:
+// tied probabilities are never split; a run of equal probabilities goes
+// whole to the group of its first (lowest-ranked) record, so a group can
+// grow or become empty when ties straddle a cut. Empty groups are dropped
+// and the degrees of freedom are (non-empty groups) - 2. The exact window
+// figures (monitor/labelled_record_store.h) use it.
+//
+// HosmerLemeshow's groups "of equal count" are the equal-count reliability
+// bins
 // (monitor/reliability.h): edges at the sample deciles, so tied
 // probabilities share a group and counts are equal up to ties. The streaming
 // versions are ScoreGridAccumulator::HosmerLemeshow (deciles from the score
@@ -45,6 +57,14 @@ struct HosmerLemeshowResult {
 // for bad input (see monitor/metrics.h) or groups < 3; FAILED_PRECONDITION
 // when ties leave fewer than 3 non-empty groups.
 absl::StatusOr<HosmerLemeshowResult> HosmerLemeshow(
+    absl::Span<const double> probabilities, absl::Span<const int> labels,
+    int groups = 10);
+
+// Over g groups formed by deciles of risk (see above), for g = `groups` >= 3
+// (10 by default). INVALID_ARGUMENT for bad input or groups < 3;
+// FAILED_PRECONDITION when ties or few records leave fewer than 3 non-empty
+// groups. O(n log n).
+absl::StatusOr<HosmerLemeshowResult> HosmerLemeshowDecilesOfRisk(
     absl::Span<const double> probabilities, absl::Span<const int> labels,
     int groups = 10);
 

@@ -15,6 +15,26 @@ using ::testing::HasSubstr;
 
 // Agreement with statsmodels' Logit is checked in reference_test.cc.
 
+TEST(CalibrationFitTest, InterceptWithOffsetByHand) {
+  // Slope fixed at 1 and every log-odds equal to c: the fit solves
+  // logistic(a + c) = observed rate, so a = logit(rate) - c. By hand, with
+  // 3 of 4 positive: rate 3/4, logit = log 3; information n p (1 - p) =
+  // 4 * 3/16 = 3/4, standard error sqrt(4/3).
+  for (double c : {0.0, -1.25, 2.0}) {
+    const std::vector<double> z(4, c);
+    const std::vector<int> y = {1, 0, 1, 1};
+    absl::StatusOr<CalibrationInterceptFit> fit = CalibrationIntercept(z, y);
+    ASSERT_TRUE(fit.ok()) << fit.status();
+    EXPECT_NEAR(fit->intercept, std::log(3.0) - c, 1e-13) << c;
+    EXPECT_NEAR(fit->standard_error, std::sqrt(4.0 / 3), 1e-12) << c;
+  }
+  EXPECT_THAT(CalibrationIntercept(std::vector<double>{0.1, 0.2},
+                                   std::vector<int>{1, 1})
+                  .status()
+                  .message(),
+              HasSubstr("all 2 labelled records have label 1"));
+}
+
 TEST(CalibrationFitTest, TwoLevelsAreFittedExactly) {
   // With two distinct log-odds the model is saturated: the fit reproduces
   // each level's observed rate. At 0: 3 of 4 positive, so intercept =

@@ -32,6 +32,41 @@ TEST(HosmerLemeshowTest, ThreeGroupsByHand) {
   EXPECT_NEAR(hl->p_value, std::erfc(std::sqrt(statistic / 2)), 1e-15);
 }
 
+TEST(HosmerLemeshowTest, DecilesOfRiskKeepTiesTogetherByHand) {
+  // Ten records in g = 3 groups: cuts at ranks floor(10/3) = 3 and
+  // floor(20/3) = 6, so ranks [0, 3), [3, 6), [6, 10) before ties. Sorted:
+  //   rank 0 1   2 3 4   5 6 7   8   9
+  //   p   .1 .1 .2 .2 .2 .5 .5 .5 .8  .9
+  // The run of 0.2 starts at rank 2 (group 0) and stays there; the run of
+  // 0.5 starts at rank 5 (group 1) and stays there. By hand:
+  //   group 0: p {.1,.1,.2,.2,.2}, y {0,1,0,0,1}: n 5, O 2, E 0.8,
+  //            var 0.8 (1 - 0.8/5) = 0.672, term 1.44 / 0.672 = 15/7
+  //   group 1: p {.5,.5,.5}, y {1,1,0}: O 2, E 1.5, var 0.75, term 1/3
+  //   group 2: p {.8,.9}, y {1,0}: O 1, E 1.7, var 1.7 (1 - 0.85) = 0.255,
+  //            term 0.49 / 0.255 = 98/51
+  // Records given out of order to exercise the sort.
+  const std::vector<double> p = {0.5, 0.1, 0.9, 0.2, 0.5, 0.2,
+                                 0.8, 0.1, 0.2, 0.5};
+  const std::vector<int> y = {1, 0, 0, 0, 1, 0, 1, 1, 1, 0};
+  absl::StatusOr<HosmerLemeshowResult> hl = HosmerLemeshowDecilesOfRisk(p, y, 3);
+  ASSERT_TRUE(hl.ok()) << hl.status();
+  EXPECT_EQ(hl->groups, 3);
+  EXPECT_EQ(hl->degrees_of_freedom, 1);
+  const double statistic = 15.0 / 7 + 1.0 / 3 + 98.0 / 51;
+  EXPECT_NEAR(hl->statistic, statistic, 1e-13);
+  EXPECT_NEAR(hl->p_value, std::erfc(std::sqrt(statistic / 2)), 1e-15);
+}
+
+TEST(HosmerLemeshowTest, DecilesOfRiskNeedThreeGroups) {
+  // Two distinct probabilities: every tie run fills one group.
+  const std::vector<double> p = {0.2, 0.2, 0.2, 0.7, 0.7, 0.7};
+  const std::vector<int> y = {0, 1, 0, 1, 1, 0};
+  EXPECT_THAT(HosmerLemeshowDecilesOfRisk(p, y).status().message(),
+              HasSubstr("fill 2"));
+  EXPECT_EQ(HosmerLemeshowDecilesOfRisk(p, y, 2).status().code(),
+            absl::StatusCode::kInvalidArgument);
+}
+
 TEST(HosmerLemeshowTest, TooFewGroups) {
   EXPECT_THAT(
       HosmerLemeshow(std::vector<double>{0.1, 0.2}, std::vector<int>{0, 1}, 2)
