@@ -155,7 +155,8 @@ absl::StatusOr<CalibrationInterceptFit> FitCalibrationInterceptGroups(
       next = a + scale * delta;
       next_ll = log_likelihood(next);
     }
-    const bool small = std::abs(scale * delta) <= kStepTolerance * (1 + std::abs(a));
+    const bool small =
+        std::abs(scale * delta) <= kStepTolerance * (1 + std::abs(a));
     a = next;
     ll = next_ll;
     if (!std::isfinite(a)) return NotConverged(step, "estimate overflowed");

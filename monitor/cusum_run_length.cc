@@ -69,8 +69,8 @@ Jumps LatticeJumps(const WeightAtoms& atoms, double step) {
     const double x = atoms.weight[a] / step;
     const double below = std::floor(x);
     const double fraction = x - below;
-    const size_t k = static_cast<size_t>(static_cast<int64_t>(below) -
-                                         jumps.lowest);
+    const size_t k =
+        static_cast<size_t>(static_cast<int64_t>(below) - jumps.lowest);
     sums[k].Add(atoms.probability[a] * (1 - fraction));
     sums[k + 1].Add(atoms.probability[a] * fraction);
   }
@@ -94,7 +94,8 @@ absl::StatusOr<double> LatticeArl(const WeightAtoms& atoms, double limit,
   for (int64_t i = 0; i < m; ++i) {
     // Jumps j with i + j <= 0 go to state 0; those with 0 < i + j < m to
     // i + j; the rest are alarms (absorbed, no entry).
-    const int64_t to_zero = std::clamp<int64_t>(-i - jumps.lowest + 1, 0, count);
+    const int64_t to_zero =
+        std::clamp<int64_t>(-i - jumps.lowest + 1, 0, count);
     double diagonal = 1.0;
     if (to_zero > 0) {
       const double p = cumulative[static_cast<size_t>(to_zero)];
@@ -112,8 +113,7 @@ absl::StatusOr<double> LatticeArl(const WeightAtoms& atoms, double limit,
       if (target == i) {
         diagonal -= p;
       } else {
-        entries.emplace_back(static_cast<int>(i), static_cast<int>(target),
-                             -p);
+        entries.emplace_back(static_cast<int>(i), static_cast<int>(target), -p);
       }
     }
     entries.emplace_back(static_cast<int>(i), static_cast<int>(i), diagonal);
@@ -143,8 +143,7 @@ absl::StatusOr<double> LatticeArl(const WeightAtoms& atoms, double limit,
         "could not be solved",
         states, limit));
   }
-  if (!std::isfinite(arl[0]) ||
-      arl[0] < 1 || arl[0] > kMaxArl) {
+  if (!std::isfinite(arl[0]) || arl[0] < 1 || arl[0] > kMaxArl) {
     return absl::InternalError(absl::StrFormat(
         "CUSUM run length: the Markov chain (%d states, limit %g) gave an "
         "ARL of %g, outside [1, %g]",
@@ -211,8 +210,8 @@ absl::StatusOr<RiskDistribution> RiskDistribution::FromWeighted(
     }
     if (!(weights[i] >= 0) || std::isinf(weights[i])) {
       return absl::InvalidArgumentError(absl::StrFormat(
-          "risk distribution: weights[%d] is %g; it must be finite and >= 0",
-          i, weights[i]));
+          "risk distribution: weights[%d] is %g; it must be finite and >= 0", i,
+          weights[i]));
     }
     total.Add(weights[i]);
   }
@@ -243,9 +242,9 @@ absl::StatusOr<RiskDistribution> RiskDistribution::FromProbabilityHistogram(
         min, max));
   }
   if (proportions.size() != edges.size() + 1) {
-    return absl::InvalidArgumentError(absl::StrFormat(
-        "risk histogram: %d edges need %d proportions; got %d", edges.size(),
-        edges.size() + 1, proportions.size()));
+    return absl::InvalidArgumentError(
+        absl::StrFormat("risk histogram: %d edges need %d proportions; got %d",
+                        edges.size(), edges.size() + 1, proportions.size()));
   }
   std::vector<double> bounds = {min};
   for (size_t i = 0; i < edges.size(); ++i) {
@@ -276,8 +275,8 @@ absl::StatusOr<RiskDistribution> RiskDistribution::FromProbabilityHistogram(
   for (size_t b = 0; b < proportions.size(); ++b) {
     if (proportions[b] == 0) continue;
     for (int j = 0; j < points_per_bin; ++j) {
-      const double p = bounds[b] + (bounds[b + 1] - bounds[b]) * (j + 0.5) /
-                                       points_per_bin;
+      const double p =
+          bounds[b] + (bounds[b + 1] - bounds[b]) * (j + 0.5) / points_per_bin;
       log_odds.push_back(std::log(p) - std::log1p(-p));
       weights.push_back(proportions[b] / points_per_bin);
     }
@@ -314,7 +313,8 @@ absl::StatusOr<ControlLimit> ChooseControlLimit(
   const double log_target = std::log(in_control_arl);
   int evaluations = 0;
   // f(h) = log ARL(h) - log target, increasing in h.
-  auto f = [&](double h) -> absl::StatusOr<std::pair<double, RunLengthEstimate>> {
+  auto f =
+      [&](double h) -> absl::StatusOr<std::pair<double, RunLengthEstimate>> {
     ++evaluations;
     absl::StatusOr<RunLengthEstimate> arl =
         Extrapolated(atoms, h, options.lattice_states);

@@ -49,8 +49,8 @@
 // Cost: one LU of an M x M band matrix per solve (dense when the band is
 // wide, Eigen's SparseLU otherwise) and two solves per ARL;
 // ChooseControlLimit needs about 6-10 ARLs: 0.1-1.4 s at M = 1000 on one
-// core (longest for small limits, whose band is widest). Thread-safe: RiskDistribution is immutable, the
-// functions are pure.
+// core (longest for small limits, whose band is widest). Thread-safe:
+// RiskDistribution is immutable, the functions are pure.
 #ifndef PLUMBLINE_MONITOR_CUSUM_RUN_LENGTH_H_
 #define PLUMBLINE_MONITOR_CUSUM_RUN_LENGTH_H_
 
@@ -119,9 +119,9 @@ absl::StatusOr<RunLengthEstimate> AverageRunLength(
     const RunLengthOptions& options = {});
 
 struct ControlLimit {
-  double limit = 0;         // h
-  double target_arl = 0;    // the in-control ARL asked for
-  RunLengthEstimate arl;    // in-control ARL at `limit` (~ target_arl)
+  double limit = 0;       // h
+  double target_arl = 0;  // the in-control ARL asked for
+  RunLengthEstimate arl;  // in-control ARL at `limit` (~ target_arl)
 };
 
 // The h whose in-control ARL is `in_control_arl` (records), found by the

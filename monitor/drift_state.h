@@ -22,8 +22,9 @@
 //
 //   absl::StatusOr<DriftStateMachine> m = DriftStateMachine::Create({});
 //   DriftConditions c{
-//       .watch = FigureCondition("psi(score)", psi, {.enter = 0.1, .release = 0.08}),
-//       .drifting = FigureCondition("psi(score)", psi, {.enter = 0.25, .release = 0.2})};
+//       .watch = FigureCondition("psi(score)", psi, {.enter = 0.1, .release =
+//       0.08}), .drifting = FigureCondition("psi(score)", psi, {.enter = 0.25,
+//       .release = 0.2})};
 //   if (std::optional<DriftTransition> t = m->Evaluate(c)) Log(t->reason);
 //
 // Not thread-safe; a value type (the daemon keeps one per set version under

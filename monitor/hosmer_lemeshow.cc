@@ -55,7 +55,8 @@ absl::StatusOr<HosmerLemeshowResult> HosmerLemeshowDecilesOfRisk(
     return probabilities[a] < probabilities[b];
   });
   const int64_t count = static_cast<int64_t>(n);
-  // Group of sorted rank r: the k with floor(k n / g) <= r < floor((k+1) n / g).
+  // Group of sorted rank r: the k with floor(k n / g) <= r < floor((k+1) n /
+  // g).
   auto group_of_rank = [&](int64_t r) {
     int64_t k = (r * groups) / count;  // a first guess, corrected below
     while (k + 1 < groups && (k + 1) * count / groups <= r) ++k;

@@ -54,9 +54,9 @@ absl::Status LabelledRecordStore::Merge(const LabelledRecordStore& other) {
 
 absl::StatusOr<ExactOutcomeFigures> LabelledRecordStore::Result(
     int hosmer_lemeshow_groups) const {
-  if (absl::Status s = internal::CheckBinCount(
-          "labelled record store", "hosmer_lemeshow_groups",
-          hosmer_lemeshow_groups, 3);
+  if (absl::Status s = internal::CheckBinCount("labelled record store",
+                                               "hosmer_lemeshow_groups",
+                                               hosmer_lemeshow_groups, 3);
       !s.ok()) {
     return s;
   }
@@ -77,8 +77,8 @@ absl::StatusOr<ExactOutcomeFigures> LabelledRecordStore::Result(
   // On the log-odds: Logistic() rounds to exactly 1 above about 37, which
   // would tie scores that the log-odds still order.
   figures.auc = Auc(log_odds_, labels);
-  figures.hosmer_lemeshow = HosmerLemeshowDecilesOfRisk(
-      probabilities, labels, hosmer_lemeshow_groups);
+  figures.hosmer_lemeshow = HosmerLemeshowDecilesOfRisk(probabilities, labels,
+                                                        hosmer_lemeshow_groups);
   figures.calibration_intercept = CalibrationIntercept(log_odds_, labels);
   figures.calibration_slope = CalibrationInterceptSlope(log_odds_, labels);
   return figures;

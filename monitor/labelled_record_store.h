@@ -44,8 +44,9 @@
 //   absl::StatusOr<LabelledRecordStore> empty =
 //       LabelledRecordStore::Create(/*capacity=*/1000);
 //   auto window = CountWindow<LabelledRecordStore>::Create(10000, 10, *empty);
-//   absl::Status s = window->Add(log_odds, label);                  // per outcome
-//   absl::StatusOr<ExactOutcomeFigures> f = window->Merged().Result();  // per tick
+//   absl::Status s = window->Add(log_odds, label);                  // per
+//   outcome absl::StatusOr<ExactOutcomeFigures> f = window->Merged().Result();
+//   // per tick
 //
 // Not thread-safe; a value type that copies (copies hold all records).
 #ifndef PLUMBLINE_MONITOR_LABELLED_RECORD_STORE_H_

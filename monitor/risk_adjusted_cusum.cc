@@ -19,9 +19,9 @@ double Softplus(double x) {
 
 absl::Status CheckAlternative(const LogOddsChange& alternative) {
   if (!std::isfinite(alternative.shift)) {
-    return absl::InvalidArgumentError(absl::StrFormat(
-        "CUSUM alternative: shift is %g; it must be finite",
-        alternative.shift));
+    return absl::InvalidArgumentError(
+        absl::StrFormat("CUSUM alternative: shift is %g; it must be finite",
+                        alternative.shift));
   }
   if (!(alternative.slope > 0) || std::isinf(alternative.slope)) {
     return absl::InvalidArgumentError(absl::StrFormat(

@@ -18,7 +18,8 @@
 //
 // With slope 1 and shift log(R_A) the alternative is "odds multiplied by
 // R_A", and W is Steiner et al.'s weight with R_0 = 1:
-//   y = 1: W = log(R_A / (1 - p + R_A p)),  y = 0: W = log(1 / (1 - p + R_A p)).
+//   y = 1: W = log(R_A / (1 - p + R_A p)),  y = 0: W = log(1 / (1 - p + R_A
+//   p)).
 // R_A > 1 watches for more positive outcomes than predicted (upper chart),
 // R_A < 1 for fewer (lower chart); both charts accumulate upwards.
 // A slope alternative (shift 0, slope 0.8: the model's log-odds are too
@@ -73,8 +74,8 @@ double CusumWeight(const LogOddsChange& alternative, double log_odds,
 
 // What one record did to the chart.
 struct CusumStep {
-  double weight = 0;  // W of the record
-  double value = 0;   // S after the record, before any reset
+  double weight = 0;   // W of the record
+  double value = 0;    // S after the record, before any reset
   bool alarm = false;  // value >= limit; the chart restarted at 0
 };
 

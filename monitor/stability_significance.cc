@@ -43,8 +43,7 @@ absl::StatusOr<double> ChiSquareUpperQuantile(double upper_tail, double dof) {
   return 2 * half;
 }
 
-absl::StatusOr<PsiSignificance> TestPsi(const PsiCounts& counts,
-                                        double alpha) {
+absl::StatusOr<PsiSignificance> TestPsi(const PsiCounts& counts, double alpha) {
   if (!(counts.psi >= 0) || std::isinf(counts.psi)) {
     return absl::InvalidArgumentError(absl::StrFormat(
         "PSI test: psi is %g; it must be finite and >= 0", counts.psi));
@@ -60,8 +59,8 @@ absl::StatusOr<PsiSignificance> TestPsi(const PsiCounts& counts,
         "PSI test: bins is %d; it must be at least 2", counts.bins));
   }
   if (!(alpha > 0 && alpha < 1)) {
-    return absl::InvalidArgumentError(absl::StrFormat(
-        "PSI test: alpha is %g; it must lie in (0, 1)", alpha));
+    return absl::InvalidArgumentError(
+        absl::StrFormat("PSI test: alpha is %g; it must lie in (0, 1)", alpha));
   }
   const double scale = 1.0 / static_cast<double>(counts.baseline_count) +
                        1.0 / static_cast<double>(counts.window_count);

@@ -64,8 +64,7 @@ struct PsiSignificance {
 // INVALID_ARGUMENT naming the field when psi < 0 or not finite, a count
 // < 1, bins < 2, or alpha outside (0, 1); INTERNAL if the chi-square tail or
 // its inverse fails (not seen for B <= 1e6).
-absl::StatusOr<PsiSignificance> TestPsi(const PsiCounts& counts,
-                                        double alpha);
+absl::StatusOr<PsiSignificance> TestPsi(const PsiCounts& counts, double alpha);
 
 // x with P(X > x) = upper_tail for X chi-square with `dof` degrees of
 // freedom (scipy.stats.chi2.isf). INVALID_ARGUMENT unless 0 < upper_tail < 1

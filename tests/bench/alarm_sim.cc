@@ -52,8 +52,8 @@ std::string Interval(int64_t k, int64_t n) {
   const double nn = static_cast<double>(n);
   const double p = static_cast<double>(k) / nn;
   const double centre = (p + z * z / (2 * nn)) / (1 + z * z / nn);
-  const double half =
-      z * std::sqrt(p * (1 - p) / nn + z * z / (4 * nn * nn)) / (1 + z * z / nn);
+  const double half = z * std::sqrt(p * (1 - p) / nn + z * z / (4 * nn * nn)) /
+                      (1 + z * z / nn);
   return absl::StrFormat("[%.4f, %.4f]", std::max(0.0, centre - half),
                          centre + half);
 }
@@ -80,8 +80,7 @@ int Main() {
       "%d records vs a baseline of %lld, alpha %.4g per evaluation (%.4g per "
       "test)%s; CUSUMs with in-control ARL %.0f records:\n",
       o.evaluation_records, o.evaluation_records * o.window_buckets,
-      static_cast<long long>(o.baseline_records), o.psi_alpha,
-      o.psi_alpha / 4,
+      static_cast<long long>(o.baseline_records), o.psi_alpha, o.psi_alpha / 4,
       o.psi_effect_size > 0
           ? absl::StrFormat(" and PSI >= %.3g", o.psi_effect_size).c_str()
           : "",
@@ -89,11 +88,12 @@ int Main() {
   for (int c = kUpper; c < kComponents; ++c) {
     if (!sim->has_component(c)) continue;
     const LogOddsChange a = sim->alternative(c);
-    std::printf("  %-12s alternative shift %+.4f slope %.2f: h = %.4f (chain "
-                "ARL %.0f, stated error %.0f)\n",
-                ComponentName(c), a.shift, a.slope, sim->limit(c),
-                sim->in_control_arl(c).value,
-                sim->in_control_arl(c).discretisation_error);
+    std::printf(
+        "  %-12s alternative shift %+.4f slope %.2f: h = %.4f (chain "
+        "ARL %.0f, stated error %.0f)\n",
+        ComponentName(c), a.shift, a.slope, sim->limit(c),
+        sim->in_control_arl(c).value,
+        sim->in_control_arl(c).discretisation_error);
   }
 
   const int streams = absl::GetFlag(FLAGS_stable_streams);
@@ -104,21 +104,24 @@ int Main() {
       "with a full window; each stream its own baseline)\n\n",
       streams, static_cast<long long>(records),
       static_cast<long long>(s.records), static_cast<long long>(s.evaluations));
-  std::printf("| component | stated / evaluation | measured / evaluation "
-              "[95%% CI] | stated / 10k records | measured / 10k records |\n");
+  std::printf(
+      "| component | stated / evaluation | measured / evaluation "
+      "[95%% CI] | stated / 10k records | measured / 10k records |\n");
   std::printf("|---|---|---|---|---|\n");
   const double evals = static_cast<double>(s.evaluations);
   const double per_10k_evals = 10000.0 / e;
   double stated_any = 0;
   for (int c = 0; c < kComponents; ++c) {
     if (!sim->has_component(c)) continue;
-    const double measured = static_cast<double>(s.evaluation_signals[c]) / evals;
+    const double measured =
+        static_cast<double>(s.evaluation_signals[c]) / evals;
     if (c == kPsi) {
       stated_any += o.psi_alpha;
-      std::printf("| psi (4 tests, any) | <= %.4f | %.4f %s | <= %.3f | %.3f |\n",
-                  o.psi_alpha, measured,
-                  Interval(s.evaluation_signals[c], s.evaluations).c_str(),
-                  o.psi_alpha * per_10k_evals, measured * per_10k_evals);
+      std::printf(
+          "| psi (4 tests, any) | <= %.4f | %.4f %s | <= %.3f | %.3f |\n",
+          o.psi_alpha, measured,
+          Interval(s.evaluation_signals[c], s.evaluations).c_str(),
+          o.psi_alpha * per_10k_evals, measured * per_10k_evals);
       for (int q = 0; q < 4; ++q) {
         const double m = static_cast<double>(s.psi_test_signals[q]) / evals;
         std::printf("| psi test %s | %.4f | %.4f %s | %.3f | %.3f |\n",
@@ -132,8 +135,8 @@ int Main() {
     const double arl = sim->in_control_arl(c).value;
     const double stated_eval = 1 - std::exp(-e / arl);
     stated_any += stated_eval;
-    const double alarms_10k =
-        static_cast<double>(s.alarms[c]) * 10000 / static_cast<double>(s.records);
+    const double alarms_10k = static_cast<double>(s.alarms[c]) * 10000 /
+                              static_cast<double>(s.records);
     std::printf("| %s | %.4f | %.4f %s | %.3f | %.3f (%lld alarms) |\n",
                 ComponentName(c), stated_eval, measured,
                 Interval(s.evaluation_signals[c], s.evaluations).c_str(),
@@ -143,15 +146,17 @@ int Main() {
   std::printf("| any signal | <= %.4f | %.4f %s | <= %.3f | %.3f |\n",
               stated_any, any, Interval(s.any_signal, s.evaluations).c_str(),
               stated_any * per_10k_evals, any * per_10k_evals);
-  std::printf("| entries into drifting (release after %d quiet evaluations) "
-              "| | | | %.3f |\n",
-              o.release_evaluations,
-              static_cast<double>(s.drifting_entries) * 10000 /
-                  static_cast<double>(s.records));
-  std::printf("\nIntervals treat evaluations as independent; PSI windows "
-              "overlap (%d evaluations each), so the true intervals of the "
-              "PSI rows are wider.\n",
-              o.window_buckets);
+  std::printf(
+      "| entries into drifting (release after %d quiet evaluations) "
+      "| | | | %.3f |\n",
+      o.release_evaluations,
+      static_cast<double>(s.drifting_entries) * 10000 /
+          static_cast<double>(s.records));
+  std::printf(
+      "\nIntervals treat evaluations as independent; PSI windows "
+      "overlap (%d evaluations each), so the true intervals of the "
+      "PSI rows are wider.\n",
+      o.window_buckets);
 
   const std::vector<PopulationShift> shifts = {
       {"outcome +0.2 log-odds", 0.2, 1, 0},
@@ -162,12 +167,14 @@ int Main() {
   };
   const int runs = absl::GetFlag(FLAGS_shift_runs);
   const int64_t cap = absl::GetFlag(FLAGS_max_records);
-  std::printf("\nShifts: %d streams each, the change from record 1 after "
-              "the onset (charts fresh, PSI window full of stable records); "
-              "undetected after %lld records counts as > %lld.\n\n",
-              runs, static_cast<long long>(cap), static_cast<long long>(cap));
-  std::printf("| shift | detected | median records to detection | quartiles "
-              "| first signal: psi / upper / lower / slope |\n");
+  std::printf(
+      "\nShifts: %d streams each, the change from record 1 after "
+      "the onset (charts fresh, PSI window full of stable records); "
+      "undetected after %lld records counts as > %lld.\n\n",
+      runs, static_cast<long long>(cap), static_cast<long long>(cap));
+  std::printf(
+      "| shift | detected | median records to detection | quartiles "
+      "| first signal: psi / upper / lower / slope |\n");
   std::printf("|---|---|---|---|---|\n");
   for (size_t k = 0; k < shifts.size(); ++k) {
     std::vector<int64_t> delays;
@@ -198,8 +205,9 @@ int Main() {
   // The chain's zero-state ARL of each chart under the outcome changes
   // (the charts do not see feature shifts: the model stays right).
   absl::StatusOr<RiskDistribution> risks = sim->risks();
-  std::printf("\nMarkov-chain ARL (records from a fresh chart to its alarm) "
-              "under the outcome changes:\n\n| shift |");
+  std::printf(
+      "\nMarkov-chain ARL (records from a fresh chart to its alarm) "
+      "under the outcome changes:\n\n| shift |");
   for (int c = kUpper; c < kComponents; ++c) {
     if (sim->has_component(c)) std::printf(" %s |", ComponentName(c));
   }
@@ -212,8 +220,9 @@ int Main() {
       absl::StatusOr<RunLengthEstimate> arl = AverageRunLength(
           sim->alternative(c), sim->limit(c), *risks,
           {.shift = shift.outcome_shift, .slope = shift.outcome_slope});
-      std::printf(" %s |", arl.ok() ? absl::StrFormat("%.0f", arl->value).c_str()
-                                    : "error");
+      std::printf(" %s |", arl.ok()
+                               ? absl::StrFormat("%.0f", arl->value).c_str()
+                               : "error");
     }
     std::printf("\n");
   }

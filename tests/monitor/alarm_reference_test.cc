@@ -92,9 +92,9 @@ TEST_F(AlarmReferenceTest, ChiSquareQuantileMatchesScipy) {
     ASSERT_TRUE(q.ok()) << q.status();
     // reference: scipy.stats.chi2.isf, SciPy 1.10 (its own cephes-based
     // inverse, not Boost); 1e-12 relative.
-    ExpectRelative(*q, isf[i], 1e-12,
-                   "tail " + std::to_string(tails[i]) + " dof " +
-                       std::to_string(dofs[i]));
+    ExpectRelative(
+        *q, isf[i], 1e-12,
+        "tail " + std::to_string(tails[i]) + " dof " + std::to_string(dofs[i]));
   }
 }
 
@@ -188,7 +188,8 @@ TEST_F(AlarmReferenceTest, ExactFiguresMatchSklearnStatsmodelsAndNumpy) {
     // ranks), p-value scipy.stats.chi2.sf. Statistic 1e-12 relative (the
     // same sums in another order); p-value 1e-10 relative (the tail
     // amplifies the statistic's last bits, up to 200x at statistic ~400).
-    EXPECT_EQ(f->hosmer_lemeshow->groups, static_cast<int>(Number(hl, "groups")))
+    EXPECT_EQ(f->hosmer_lemeshow->groups,
+              static_cast<int>(Number(hl, "groups")))
         << name;
     ExpectRelative(f->hosmer_lemeshow->statistic, Number(hl, "statistic"),
                    1e-12, name);

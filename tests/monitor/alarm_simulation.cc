@@ -68,7 +68,8 @@ Baseline DrawBaseline(std::mt19937_64& rng, int64_t n) {
     for (double x : v) {
       proportions[probe->BinOf(x)] += 1.0 / static_cast<double>(n);
     }
-    absl::StatusOr<BinnedBaseline> b = BinnedBaseline::Create(edges, proportions);
+    absl::StatusOr<BinnedBaseline> b =
+        BinnedBaseline::Create(edges, proportions);
     baseline[q] = std::make_shared<const BinnedBaseline>(*std::move(b));
   }
   return baseline;
@@ -147,11 +148,12 @@ class PolicyRun {
   std::array<bool, kComponents> Evaluate(bool* entered_drifting) {
     std::array<bool, kComponents> signals = alarmed_;
     const std::array<bool, kQuantities> psi = PsiSignals();
-    signals[kPsi] = std::any_of(psi.begin(), psi.end(), [](bool b) { return b; });
+    signals[kPsi] =
+        std::any_of(psi.begin(), psi.end(), [](bool b) { return b; });
     last_psi_ = psi;
     alarmed_ = {};
-    const bool any = std::any_of(signals.begin(), signals.end(),
-                                 [](bool b) { return b; });
+    const bool any =
+        std::any_of(signals.begin(), signals.end(), [](bool b) { return b; });
     DriftConditions conditions;
     conditions.watch.released = true;
     conditions.drifting = {.entered = any, .released = !any, .reason = ""};
@@ -257,7 +259,8 @@ StableCounts AlarmSimulator::RunStable(int streams, int64_t records,
       counts.drifting_entries += entered ? 1 : 0;
     }
     counts.records += records;
-    for (int c = kUpper; c < kComponents; ++c) counts.alarms[c] += run.alarms(c);
+    for (int c = kUpper; c < kComponents; ++c)
+      counts.alarms[c] += run.alarms(c);
   }
   return counts;
 }

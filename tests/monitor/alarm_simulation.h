@@ -33,10 +33,10 @@ struct AlarmPolicyOptions {
   int evaluation_records = 1000;  // records between evaluations (a bucket)
   int window_buckets = 5;         // PSI window = this many buckets
   int64_t baseline_records = 20000;
-  double psi_alpha = 0.01;        // per evaluation, over the four PSI tests
-  double psi_effect_size = 0;     // also require PSI >= this (0: off)
-  double cusum_arl = 100000;      // in-control ARL of each chart, records
-  double odds_ratio = 1.5;        // upper chart R_A; the lower uses 1/R_A
+  double psi_alpha = 0.01;          // per evaluation, over the four PSI tests
+  double psi_effect_size = 0;       // also require PSI >= this (0: off)
+  double cusum_arl = 100000;        // in-control ARL of each chart, records
+  double odds_ratio = 1.5;          // upper chart R_A; the lower uses 1/R_A
   double slope_alternative = 0.75;  // slope chart's alternative; 0: no chart
   int release_evaluations = 3;
 };
@@ -44,9 +44,9 @@ struct AlarmPolicyOptions {
 // A change of the population, starting at a stream's onset.
 struct PopulationShift {
   std::string name;
-  double outcome_shift = 0;       // true log-odds = slope * z + shift
+  double outcome_shift = 0;  // true log-odds = slope * z + shift
   double outcome_slope = 1;
-  double feature_shift_sd = 0;    // mean shift of feature 0, in SDs
+  double feature_shift_sd = 0;  // mean shift of feature 0, in SDs
 };
 
 // Signals of the components, in this order.
@@ -62,7 +62,7 @@ struct StableCounts {
   // last evaluation).
   std::array<int64_t, kComponents> evaluation_signals{};
   std::array<int64_t, kComponents> alarms{};  // CUSUM alarms (PSI: unused)
-  int64_t any_signal = 0;        // evaluations with any signal
+  int64_t any_signal = 0;                     // evaluations with any signal
   int64_t drifting_entries = 0;  // DriftStateMachine entries into drifting
 };
 
@@ -74,8 +74,8 @@ struct DetectionResult {
 class AlarmSimulator {
  public:
   // Computes the CUSUM limits (about a second each).
-  static absl::StatusOr<AlarmSimulator> Create(const AlarmPolicyOptions& options,
-                                               uint64_t seed);
+  static absl::StatusOr<AlarmSimulator> Create(
+      const AlarmPolicyOptions& options, uint64_t seed);
 
   // `streams` stable streams of `records` records each, every stream with
   // its own baseline drawn from the same population (so the PSI rates are

@@ -19,7 +19,9 @@ constexpr double kZ999 = 3.2905267314919255;
 
 // Half-width of the 99.9% normal-approximation binomial interval of a rate
 // p measured on n independent trials.
-double HalfWidth(double p, double n) { return kZ999 * std::sqrt(p * (1 - p) / n); }
+double HalfWidth(double p, double n) {
+  return kZ999 * std::sqrt(p * (1 - p) / n);
+}
 
 TEST(AlarmSimulationTest, StableFalseAlarmRatesMatchTheStatedOnes) {
   AlarmPolicyOptions options;
@@ -48,8 +50,8 @@ TEST(AlarmSimulationTest, StableFalseAlarmRatesMatchTheStatedOnes) {
   // geometric, so the count's variance is at most the binomial one).
   const StableCounts cusum = sim->RunStable(20, 50000, 200);
   for (int c = kUpper; c < kComponents; ++c) {
-    const double rate =
-        static_cast<double>(cusum.alarms[c]) / static_cast<double>(cusum.records);
+    const double rate = static_cast<double>(cusum.alarms[c]) /
+                        static_cast<double>(cusum.records);
     const double stated = 1.0 / sim->in_control_arl(c).value;
     EXPECT_NEAR(rate, stated,
                 HalfWidth(stated, static_cast<double>(cusum.records)) +

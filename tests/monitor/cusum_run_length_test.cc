@@ -111,9 +111,9 @@ INSTANTIATE_TEST_SUITE_P(
     Charts, ControlLimitTest,
     ::testing::Values(
         ChartCase{"upper", LogOddsChange::OddsRatio(1.5), {.shift = 0.5}},
-        ChartCase{"lower", LogOddsChange::OddsRatio(1 / 1.5),
-                  {.shift = -0.5}},
-        ChartCase{"slope", LogOddsChange{.shift = 0, .slope = 0.75},
+        ChartCase{"lower", LogOddsChange::OddsRatio(1 / 1.5), {.shift = -0.5}},
+        ChartCase{"slope",
+                  LogOddsChange{.shift = 0, .slope = 0.75},
                   {.shift = 0, .slope = 0.8}}),
     [](const ::testing::TestParamInfo<ChartCase>& param) {
       return param.param.name;
@@ -136,8 +136,8 @@ TEST(CusumRunLengthTest, HistogramOfTheBaselineGivesNearlyTheSameLimit) {
       RiskDistribution::FromProbabilityHistogram(edges, proportions, p.front(),
                                                  p.back());
   ASSERT_TRUE(histogram.ok()) << histogram.status();
-  absl::StatusOr<ControlLimit> h = ChooseControlLimit(
-      LogOddsChange::OddsRatio(1.5), 10000, *histogram);
+  absl::StatusOr<ControlLimit> h =
+      ChooseControlLimit(LogOddsChange::OddsRatio(1.5), 10000, *histogram);
   ASSERT_TRUE(h.ok()) << h.status();
   absl::StatusOr<RunLengthEstimate> arl =
       AverageRunLength(LogOddsChange::OddsRatio(1.5), h->limit, risks);
@@ -150,11 +150,10 @@ TEST(CusumRunLengthTest, RefusesBadArguments) {
   const LogOddsChange upper = LogOddsChange::OddsRatio(1.5);
   EXPECT_THAT(ChooseControlLimit(upper, 1.0, risks).status().message(),
               HasSubstr("in_control_arl is 1"));
-  EXPECT_THAT(
-      AverageRunLength(upper, 3.0, risks, {}, {.lattice_states = 5})
-          .status()
-          .message(),
-      HasSubstr("lattice_states is 5"));
+  EXPECT_THAT(AverageRunLength(upper, 3.0, risks, {}, {.lattice_states = 5})
+                  .status()
+                  .message(),
+              HasSubstr("lattice_states is 5"));
   EXPECT_THAT(AverageRunLength(upper, -1, risks).status().message(),
               HasSubstr("limit is -1"));
   EXPECT_THAT(RiskDistribution::FromLogOdds(std::vector<double>{0.0, INFINITY})
@@ -162,8 +161,8 @@ TEST(CusumRunLengthTest, RefusesBadArguments) {
                   .message(),
               HasSubstr("log_odds[1] is inf"));
   EXPECT_THAT(RiskDistribution::FromProbabilityHistogram(
-                  std::vector<double>{0.3, 0.2}, std::vector<double>{0.3, 0.3, 0.4},
-                  0.1, 0.9)
+                  std::vector<double>{0.3, 0.2},
+                  std::vector<double>{0.3, 0.3, 0.4}, 0.1, 0.9)
                   .status()
                   .message(),
               HasSubstr("edges[1] is 0.2"));

@@ -27,10 +27,12 @@ struct SimulatedRunLengths {
   int censored = 0;  // runs stopped at max_records without an alarm
 };
 
-inline SimulatedRunLengths SimulateRunLengths(
-    const LogOddsChange& alternative, double limit,
-    const RiskDistribution& risks, const LogOddsChange& truth, int runs,
-    uint64_t seed, int64_t max_records) {
+inline SimulatedRunLengths SimulateRunLengths(const LogOddsChange& alternative,
+                                              double limit,
+                                              const RiskDistribution& risks,
+                                              const LogOddsChange& truth,
+                                              int runs, uint64_t seed,
+                                              int64_t max_records) {
   std::mt19937_64 rng(seed);
   std::discrete_distribution<size_t> pick(risks.weights().begin(),
                                           risks.weights().end());

@@ -28,7 +28,7 @@ DriftConditions Psi(double value) {
 
 // Runs the values through a fresh machine and returns its transitions.
 std::vector<DriftTransition> Transitions(const std::vector<double>& values,
-                                 int release_evaluations = 3) {
+                                         int release_evaluations = 3) {
   absl::StatusOr<DriftStateMachine> m =
       DriftStateMachine::Create({.release_evaluations = release_evaluations});
   EXPECT_TRUE(m.ok()) << m.status();
@@ -51,8 +51,8 @@ TEST(DriftStateTest, EntersEscalatesAndReleasesWithReasons) {
   //     < 0.08, so not straight to steady)
   //   8 0.12 watch, run 0; 9 0.07 run 1; 10 0.05 run 2; 11 0.06 run 3
   //     -> steady at 11
-  const std::vector<DriftTransition> t =
-      Transitions({0.05, 0.12, 0.30, 0.21, 0.15, 0.19, 0.18, 0.12, 0.07, 0.05, 0.06});
+  const std::vector<DriftTransition> t = Transitions(
+      {0.05, 0.12, 0.30, 0.21, 0.15, 0.19, 0.18, 0.12, 0.07, 0.05, 0.06});
   ASSERT_EQ(t.size(), 4u);
   EXPECT_EQ(t[0].to, DriftState::kWatch);
   EXPECT_EQ(t[0].evaluation, 2);
@@ -98,7 +98,8 @@ TEST(DriftStateTest, FigureHoveringAtTheReleaseThresholdNeedsTheDwell) {
 TEST(DriftStateTest, DriftingGoesStraightToSteadyWhenBothRelease) {
   // 0.30 enters drifting; then 0.01 three times releases drifting (< 0.20)
   // and watch (< 0.08) over the same run: straight to steady.
-  const std::vector<DriftTransition> t = Transitions({0.30, 0.01, 0.01, 0.01}, 3);
+  const std::vector<DriftTransition> t =
+      Transitions({0.30, 0.01, 0.01, 0.01}, 3);
   ASSERT_EQ(t.size(), 2u);
   EXPECT_EQ(t[0].from, DriftState::kSteady);
   EXPECT_EQ(t[0].to, DriftState::kDrifting);
@@ -113,8 +114,8 @@ TEST(DriftStateTest, AnyOfCombinesFigures) {
   EXPECT_TRUE(any.entered);
   EXPECT_FALSE(any.released);
   EXPECT_EQ(any.reason, "psi 0.3 >= 0.25");
-  const LevelCondition quiet = AnyOf(
-      {FigureCondition("psi", 0.01, kDriftBand), b});
+  const LevelCondition quiet =
+      AnyOf({FigureCondition("psi", 0.01, kDriftBand), b});
   EXPECT_FALSE(quiet.entered);
   EXPECT_TRUE(quiet.released);
   EXPECT_EQ(quiet.reason, "psi 0.01 < 0.2; cusum 1 < 4");
@@ -125,10 +126,9 @@ TEST(DriftStateTest, AnyOfCombinesFigures) {
 }
 
 TEST(DriftStateTest, RefusesZeroDwell) {
-  EXPECT_THAT(DriftStateMachine::Create({.release_evaluations = 0})
-                  .status()
-                  .message(),
-              HasSubstr("release_evaluations is 0"));
+  EXPECT_THAT(
+      DriftStateMachine::Create({.release_evaluations = 0}).status().message(),
+      HasSubstr("release_evaluations is 0"));
   EXPECT_EQ(DriftStateName(DriftState::kDrifting), "drifting");
 }
 

@@ -45,10 +45,11 @@ TEST(HosmerLemeshowTest, DecilesOfRiskKeepTiesTogetherByHand) {
   //   group 2: p {.8,.9}, y {1,0}: O 1, E 1.7, var 1.7 (1 - 0.85) = 0.255,
   //            term 0.49 / 0.255 = 98/51
   // Records given out of order to exercise the sort.
-  const std::vector<double> p = {0.5, 0.1, 0.9, 0.2, 0.5, 0.2,
-                                 0.8, 0.1, 0.2, 0.5};
+  const std::vector<double> p = {0.5, 0.1, 0.9, 0.2, 0.5,
+                                 0.2, 0.8, 0.1, 0.2, 0.5};
   const std::vector<int> y = {1, 0, 0, 0, 1, 0, 1, 1, 1, 0};
-  absl::StatusOr<HosmerLemeshowResult> hl = HosmerLemeshowDecilesOfRisk(p, y, 3);
+  absl::StatusOr<HosmerLemeshowResult> hl =
+      HosmerLemeshowDecilesOfRisk(p, y, 3);
   ASSERT_TRUE(hl.ok()) << hl.status();
   EXPECT_EQ(hl->groups, 3);
   EXPECT_EQ(hl->degrees_of_freedom, 1);

@@ -73,7 +73,8 @@ TEST(LabelledRecordStoreTest, CountWindowOfStoresHoldsExactlyTheWindow) {
   EXPECT_EQ(merged.size(), window->size());
   EXPECT_EQ(merged.refused(), 0);
   EXPECT_EQ(merged.capacity(), 11000);  // ten buckets plus the empty start
-  const size_t begin = stream.log_odds.size() - static_cast<size_t>(merged.size());
+  const size_t begin =
+      stream.log_odds.size() - static_cast<size_t>(merged.size());
   const auto z = stream.LogOdds(begin, stream.log_odds.size());
   const auto y = stream.Labels(begin, stream.log_odds.size());
   absl::StatusOr<ExactOutcomeFigures> f = merged.Result();

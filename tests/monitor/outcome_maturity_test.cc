@@ -32,13 +32,16 @@ TEST(OutcomeMaturityTest, CoverageByAgeByHand) {
   //   (none)               -> [30d, inf): 0 scored, NaN, mature
   //   scored 1h after now (skew) counts as age 0: first bucket, 3 scored.
   const absl::Duration day = absl::Hours(24);
-  const std::vector<ScoredRecord> records = {
-      {kNow - absl::Hours(2), false}, {kNow - absl::Hours(20), true},
-      {kNow - day, true},             {kNow - 3 * day, false},
-      {kNow - 7 * day, true},         {kNow - 10 * day, true},
-      {kNow - 29 * day, false},       {kNow + absl::Hours(1), false}};
-  absl::StatusOr<std::vector<AgeCoverage>> c = OutcomeCoverageByAge(
-      records, kNow, {day, 7 * day, 30 * day}, 7 * day);
+  const std::vector<ScoredRecord> records = {{kNow - absl::Hours(2), false},
+                                             {kNow - absl::Hours(20), true},
+                                             {kNow - day, true},
+                                             {kNow - 3 * day, false},
+                                             {kNow - 7 * day, true},
+                                             {kNow - 10 * day, true},
+                                             {kNow - 29 * day, false},
+                                             {kNow + absl::Hours(1), false}};
+  absl::StatusOr<std::vector<AgeCoverage>> c =
+      OutcomeCoverageByAge(records, kNow, {day, 7 * day, 30 * day}, 7 * day);
   ASSERT_TRUE(c.ok()) << c.status();
   ASSERT_EQ(c->size(), 4u);
   EXPECT_EQ((*c)[0].scored, 3);
@@ -60,8 +63,7 @@ TEST(OutcomeMaturityTest, CoverageByAgeByHand) {
 
 TEST(OutcomeMaturityTest, RefusesBadEdgesAndTimes) {
   const std::vector<ScoredRecord> none;
-  EXPECT_THAT(OutcomeCoverageByAge(none, kNow,
-                                   {absl::Hours(2), absl::Hours(1)},
+  EXPECT_THAT(OutcomeCoverageByAge(none, kNow, {absl::Hours(2), absl::Hours(1)},
                                    absl::Hours(1))
                   .status()
                   .message(),
@@ -70,10 +72,9 @@ TEST(OutcomeMaturityTest, RefusesBadEdgesAndTimes) {
       OutcomeCoverageByAge(none, kNow, {}, -absl::Hours(1)).status().message(),
       HasSubstr("horizon is -1h"));
   const std::vector<ScoredRecord> bad = {{absl::InfinitePast(), true}};
-  EXPECT_THAT(OutcomeCoverageByAge(bad, kNow, {}, absl::Hours(1))
-                  .status()
-                  .message(),
-              HasSubstr("records[0].scored_at is infinite"));
+  EXPECT_THAT(
+      OutcomeCoverageByAge(bad, kNow, {}, absl::Hours(1)).status().message(),
+      HasSubstr("records[0].scored_at is infinite"));
 }
 
 }  // namespace

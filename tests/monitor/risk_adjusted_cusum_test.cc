@@ -21,13 +21,13 @@ const double kLogOddsOfPoint2 = std::log(0.25);
 TEST(RiskAdjustedCusumTest, OddsRatioWeightsByHand) {
   // Steiner et al. (2000) with R_0 = 1, R_A = 2 and p = 0.2, by hand:
   // 1 - p + R_A p = 0.8 + 0.4 = 1.2;
-  //   y = 1: W = ln(2 / 1.2) = ln(5/3) = 1.6094379124341003 - 1.0986122886681098
+  //   y = 1: W = ln(2 / 1.2) = ln(5/3) = 1.6094379124341003
+  //   - 1.0986122886681098
   //          = 0.5108256237659905
   //   y = 0: W = ln(1 / 1.2) = -0.1823215567939546
   const LogOddsChange r2 = LogOddsChange::OddsRatio(2.0);
   EXPECT_NEAR(CusumWeight(r2, kLogOddsOfPoint2, 1), 0.5108256237659905, 1e-15);
-  EXPECT_NEAR(CusumWeight(r2, kLogOddsOfPoint2, 0), -0.1823215567939546,
-              1e-15);
+  EXPECT_NEAR(CusumWeight(r2, kLogOddsOfPoint2, 0), -0.1823215567939546, 1e-15);
   // A lower chart, R_A = 2/3 and p = 0.7, by hand:
   // 1 - p + R_A p = 0.3 + 0.7 * 2/3 = 0.7666...;
   //   y = 1: W = ln((2/3) / 0.76667) = ln(20/23) = -0.13976194237515874
@@ -64,9 +64,9 @@ TEST(RiskAdjustedCusumTest, AccumulatesAlarmsAndResets) {
   ASSERT_TRUE(chart.ok()) << chart.status();
   const double up = 0.5108256237659905, down = -0.1823215567939546;
   const std::vector<int> labels = {1, 1, 0, 1, 0, 1, 1};
-  const std::vector<double> values = {up,      2 * up,  0.0,    up,
-                                      up + down, 2 * up + down, 3 * up + down};
-  const std::vector<bool> alarms = {false, true, false, false,
+  const std::vector<double> values = {
+      up, 2 * up, 0.0, up, up + down, 2 * up + down, 3 * up + down};
+  const std::vector<bool> alarms = {false, true,  false, false,
                                     false, false, true};
   for (size_t i = 0; i < labels.size(); ++i) {
     absl::StatusOr<CusumStep> step = chart->Add(kLogOddsOfPoint2, labels[i]);
@@ -82,8 +82,9 @@ TEST(RiskAdjustedCusumTest, AccumulatesAlarmsAndResets) {
 }
 
 TEST(RiskAdjustedCusumTest, RefusesBadInput) {
-  EXPECT_THAT(RiskAdjustedCusum::Create(LogOddsChange{}, 4.0).status().message(),
-              HasSubstr("is the model itself"));
+  EXPECT_THAT(
+      RiskAdjustedCusum::Create(LogOddsChange{}, 4.0).status().message(),
+      HasSubstr("is the model itself"));
   EXPECT_THAT(RiskAdjustedCusum::Create({.shift = 0, .slope = -1}, 4.0)
                   .status()
                   .message(),

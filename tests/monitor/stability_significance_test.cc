@@ -58,8 +58,10 @@ TEST(StabilitySignificanceTest, CriticalPsiHasPValueAlpha) {
   // alpha (Boost's inverse against the project's tail).
   for (int bins : {2, 5, 10, 20, 101}) {
     for (double alpha : {0.2, 0.05, 0.01, 1e-4, 1e-8}) {
-      PsiCounts counts{.psi = 0, .baseline_count = 20000,
-                       .window_count = 3000, .bins = bins};
+      PsiCounts counts{.psi = 0,
+                       .baseline_count = 20000,
+                       .window_count = 3000,
+                       .bins = bins};
       absl::StatusOr<PsiSignificance> s = TestPsi(counts, alpha);
       ASSERT_TRUE(s.ok()) << s.status();
       counts.psi = s->critical_psi;
@@ -72,8 +74,8 @@ TEST(StabilitySignificanceTest, CriticalPsiHasPValueAlpha) {
 }
 
 TEST(StabilitySignificanceTest, RefusesBadArguments) {
-  const PsiCounts good{.psi = 0.1, .baseline_count = 10, .window_count = 10,
-                       .bins = 4};
+  const PsiCounts good{
+      .psi = 0.1, .baseline_count = 10, .window_count = 10, .bins = 4};
   PsiCounts c = good;
   c.psi = -0.1;
   EXPECT_THAT(TestPsi(c, 0.05).status().message(), HasSubstr("psi is -0.1"));
@@ -83,8 +85,7 @@ TEST(StabilitySignificanceTest, RefusesBadArguments) {
             absl::StatusCode::kInvalidArgument);
   c = good;
   c.window_count = 0;
-  EXPECT_THAT(TestPsi(c, 0.05).status().message(),
-              HasSubstr("window_count 0"));
+  EXPECT_THAT(TestPsi(c, 0.05).status().message(), HasSubstr("window_count 0"));
   c = good;
   c.bins = 1;
   EXPECT_THAT(TestPsi(c, 0.05).status().message(), HasSubstr("bins is 1"));
@@ -104,8 +105,8 @@ std::vector<double> SampleProportions(const std::vector<double>& p,
   for (size_t i = 0; i < p.size(); ++i) {
     int64_t k = left;
     if (i + 1 < p.size()) {
-      std::binomial_distribution<int64_t> draw(
-          left, std::min(1.0, p[i] / mass_left));
+      std::binomial_distribution<int64_t> draw(left,
+                                               std::min(1.0, p[i] / mass_left));
       k = draw(rng);
     }
     out[i] = static_cast<double>(k) / static_cast<double>(count);
@@ -133,7 +134,9 @@ TEST(StabilitySignificanceTest, StableSamplesRejectAtTheStatedRate) {
     const std::vector<double> window = SampleProportions(p, 2000, rng);
     absl::StatusOr<PsiSignificance> s =
         TestPsi({.psi = PsiFromProportions(baseline, window),
-                 .baseline_count = 20000, .window_count = 2000, .bins = 10},
+                 .baseline_count = 20000,
+                 .window_count = 2000,
+                 .bins = 10},
                 kAlpha);
     ASSERT_TRUE(s.ok()) << s.status();
     rejections += s->significant ? 1 : 0;

@@ -35,7 +35,8 @@ absl::Time Day(int day, int hour = 0) {
                          absl::UTCTimeZone());
 }
 
-charts::ChartText Text(std::string id, std::string title, std::string subtitle) {
+charts::ChartText Text(std::string id, std::string title,
+                       std::string subtitle) {
   charts::ChartText t;
   t.id = std::move(id);
   t.title = std::move(title);
@@ -247,7 +248,8 @@ int main(int argc, char** argv) {
       {"feature-stability", charts::RenderStabilityBars(Stability())},
       {"log-loss-history", charts::RenderTimeSeries(LogLossHistory())},
       {"psi-history", charts::RenderTimeSeries(PsiHistory())},
-      {"empty-reliability", charts::RenderReliabilityDiagram(EmptyReliability())},
+      {"empty-reliability",
+       charts::RenderReliabilityDiagram(EmptyReliability())},
       {"single-point-history", charts::RenderTimeSeries(SinglePoint())},
       {"hostile-names", charts::RenderStabilityBars(HostileNames())},
       {"empty-roc", charts::RenderRocCurves(EmptyRoc())},
