@@ -151,8 +151,17 @@ absl::Status LearnCategorical(const FeatureSpec& spec,
   out.feature.mutable_missing()->set_impute_level(reference);
   v1::Distribution* baseline = out.feature.mutable_baseline();
   const double total = static_cast<double>(values.texts.size());
+  // Known levels first, in their order; then the others in byte order.
+  std::vector<std::pair<std::string, int64_t>> ordered;
+  for (const std::string& level : spec.known_levels) {
+    if (auto it = counts.find(level); it != counts.end()) {
+      ordered.emplace_back(it->first, it->second);
+      counts.erase(it);
+    }
+  }
+  for (const auto& [level, count] : counts) ordered.emplace_back(level, count);
   int index = 0;
-  for (const auto& [level, count] : counts) {
+  for (const auto& [level, count] : ordered) {
     t->add_levels()->set_value(level);
     (*baseline->mutable_level_proportions())[level] =
         static_cast<double>(count) / total;

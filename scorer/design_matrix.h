@@ -71,6 +71,11 @@ struct FeatureSpec {
   // Categorical: what the set does with a level not seen in training.
   v1::CategoricalTransform::UnseenRule unseen =
       v1::CategoricalTransform::UNSEEN_AS_MISSING;
+  // Categorical: levels in the order a set already serving gives them (a
+  // refit). Those the data holds keep this order and come first, so dense
+  // callers' level codes keep their meaning; other levels follow in byte
+  // order. Empty: byte order.
+  std::vector<std::string> known_levels;
 };
 
 // Where a design column's coefficient goes in the set.

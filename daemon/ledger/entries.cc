@@ -102,9 +102,4 @@ std::string FeaturesJson(const scorer::ScoringPlan& plan,
   return json;
 }
 
-std::string RecordIdGenerator::Next(absl::string_view set, absl::Time now) {
-  const uint64_t n = counter_.fetch_add(1, std::memory_order_relaxed) + 1;
-  return absl::StrCat(set, "-", absl::ToUnixMicros(now), "-", n);
-}
-
 }  // namespace plumbline::daemon

@@ -17,7 +17,7 @@
 // trip like %.17g, but without %.17g's noise digits (4.2 stays "4.2") and
 // faster (%.17g through absl::StrAppendFormat: 1.7 us per record).
 //
-// Thread-safe: the free functions are pure; RecordIdGenerator may be shared.
+// Thread-safe: pure functions.
 #ifndef PLUMBLINE_DAEMON_LEDGER_ENTRIES_H_
 #define PLUMBLINE_DAEMON_LEDGER_ENTRIES_H_
 
@@ -55,17 +55,6 @@ void AppendJsonNumber(double x, std::string* out);
 std::string FeaturesJson(const scorer::ScoringPlan& plan,
                          absl::Span<const scorer::RawValue> values,
                          absl::Span<const uint8_t> sent);
-
-// Server-side record ids "<set>-<unix micros>-<n>", n counting up from 1
-// for the life of the generator. Unique within the process; across
-// restarts as long as the clock does not run backwards.
-class RecordIdGenerator {
- public:
-  std::string Next(absl::string_view set, absl::Time now);
-
- private:
-  std::atomic<uint64_t> counter_{0};
-};
 
 }  // namespace plumbline::daemon
 

@@ -6,8 +6,10 @@
 #include <filesystem>
 #include <utility>
 
+#include "absl/container/flat_hash_set.h"
 #include "absl/strings/str_cat.h"
 #include "absl/synchronization/notification.h"
+#include "absl/time/time.h"
 #include "daemon/ledger/lookup.h"
 #include "daemon/ledger/schema.h"
 #include "daemon/ledger/set_ids.h"
@@ -18,6 +20,12 @@ namespace plumbline::daemon {
 
 struct Ledger::Job {
   std::vector<ScoreEntry> scores;
+  // Per score, what the writer did (AppendScores' answer).
+  std::vector<ScoreWrite> written;
+  // Why this job's scores were refused as a whole (ALREADY_EXISTS: a
+  // record id scored before with other features); OK otherwise. The rest
+  // of the group commits.
+  absl::Status refused;
   std::vector<OutcomeEntry> outcomes;
   std::vector<OutcomeResult> results;
   // Per outcome, what ReportOutcomes did before queueing it.
@@ -49,7 +57,7 @@ constexpr int kCheckpointFrames = 1000;
 // under sustained load rarely does (the WAL reached 108-112 MB in a
 // 400,000-row run; with this, 17 MB); most pages are copied already.
 constexpr int kWriterCheckpointFrames = 4 * kCheckpointFrames;
-constexpr int kScoreColumns = 6;
+constexpr int kScoreColumns = 7;
 // Outcomes, likewise, per INSERT.
 constexpr int kOutcomesPerInsert = 128;
 constexpr int kOutcomeColumns = 4;
@@ -62,6 +70,12 @@ struct Ledger::Statements {
   std::unique_ptr<SqliteStatement> insert_outcome;
   std::unique_ptr<SqliteStatement> insert_outcomes;  // kOutcomesPerInsert rows
   std::unique_ptr<SqliteStatement> savepoint, rollback_to, release;
+  // The stored primary score of (record id, set name id).
+  std::unique_ptr<SqliteStatement> find_primary;
+  // Around all of a group's scores, and around one job's.
+  std::unique_ptr<SqliteStatement> scores_savepoint, scores_rollback_to,
+      scores_release;
+  std::unique_ptr<SqliteStatement> job_savepoint, job_rollback_to, job_release;
   std::unique_ptr<SqliteStatement> begin;
   std::unique_ptr<SqliteStatement> commit;
   std::unique_ptr<SqliteStatement> rollback;
@@ -71,18 +85,28 @@ namespace {
 
 int64_t Micros(absl::Time t) { return absl::ToUnixMicros(t); }
 
-// Binds `e` with its set id to parameters first + 1 .. first +
+// Binds `e` with its set ids to parameters first + 1 .. first +
 // kScoreColumns. The text is not copied: the job owns `e` until it is
-// notified, after the commit.
+// notified, after the commit. An active-role score carries its set name's
+// id in primary_set (one per record id and set); a shadow score NULL.
 void BindScore(SqliteStatement& ins, int first, const ScoreEntry& e,
-               int64_t set_id) {
+               const LedgerSetId& ids) {
   ins.BindTextNoCopy(first + 1, e.record_id);
-  ins.BindInt64(first + 2, set_id);
+  ins.BindInt64(first + 2, ids.set_id);
   ins.BindInt64(first + 3, Micros(e.scored_at));
   ins.BindDouble(first + 4, e.log_odds);
   ins.BindDouble(first + 5, e.probability);
   ins.BindTextNoCopy(first + 6, e.features_json);
+  if (e.role == ScoreRole::kActive) {
+    ins.BindInt64(first + 7, ids.name_id);
+  } else {
+    ins.BindNull(first + 7);
+  }
 }
+
+constexpr char kInsertScoreColumns[] =
+    "INSERT INTO scores(record_id, set_id, scored_at_us, log_odds,"
+    " probability, features, primary_set) VALUES ";
 
 }  // namespace
 
@@ -103,6 +127,10 @@ absl::StatusOr<std::unique_ptr<Ledger>> Ledger::Open(LedgerOptions options) {
     }
   }
   std::unique_ptr<Ledger> ledger(new Ledger(std::move(options)));
+  absl::StatusOr<std::unique_ptr<LedgerLock>> lock =
+      LedgerLock::Acquire(ledger->options_.path, ledger->options_.holder_note);
+  if (!lock.ok()) return lock.status();
+  ledger->lock_ = *std::move(lock);
   auto db = SqliteDb::Open(ledger->options_.path);
   if (!db.ok()) return db.status();
   ledger->writer_db_ = *std::move(db);
@@ -129,9 +157,16 @@ absl::StatusOr<std::unique_ptr<Ledger>> Ledger::Open(LedgerOptions options) {
     std::unique_ptr<SqliteStatement>* out;
     const char* sql;
   } prepared[] = {
-      {&s->insert_score,
-       "INSERT INTO scores(record_id, set_id, scored_at_us, log_odds,"
-       " probability, features) VALUES (?1,?2,?3,?4,?5,?6)"},
+      {&s->find_primary,
+       "SELECT ss.set_version, s.scored_at_us, s.log_odds, s.probability,"
+       " s.features FROM scores s JOIN score_sets ss ON ss.id = s.set_id"
+       " WHERE s.record_id = ?1 AND s.primary_set = ?2"},
+      {&s->scores_savepoint, "SAVEPOINT scores"},
+      {&s->scores_rollback_to, "ROLLBACK TO scores"},
+      {&s->scores_release, "RELEASE scores"},
+      {&s->job_savepoint, "SAVEPOINT job"},
+      {&s->job_rollback_to, "ROLLBACK TO job"},
+      {&s->job_release, "RELEASE job"},
       {&s->find_outcome, "SELECT label FROM outcomes WHERE record_id = ?1"},
       {&s->find_scores, kFindScoresSql},
       {&s->insert_outcome,
@@ -149,13 +184,19 @@ absl::StatusOr<std::unique_ptr<Ledger>> Ledger::Open(LedgerOptions options) {
     if (!stmt.ok()) return stmt.status();
     *p.out = *std::move(stmt);
   }
-  std::string many =
-      "INSERT INTO scores(record_id, set_id, scored_at_us, log_odds,"
-      " probability, features) VALUES ";
+  // Scores go in with ON CONFLICT DO NOTHING: a row the unique index
+  // scores_by_record refuses (the record id of a set scored before) is
+  // skipped, and the writer then sorts out repeats from conflicts.
+  auto stmt = w.Prepare(absl::StrCat(kInsertScoreColumns,
+                                     "(?,?,?,?,?,?,?) ON CONFLICT DO NOTHING"));
+  if (!stmt.ok()) return stmt.status();
+  s->insert_score = *std::move(stmt);
+  std::string many = kInsertScoreColumns;
   for (int r = 0; r < kScoresPerInsert; ++r) {
-    absl::StrAppend(&many, r == 0 ? "" : ",", "(?,?,?,?,?,?)");
+    absl::StrAppend(&many, r == 0 ? "" : ",", "(?,?,?,?,?,?,?)");
   }
-  auto stmt = w.Prepare(many);
+  absl::StrAppend(&many, " ON CONFLICT DO NOTHING");
+  stmt = w.Prepare(many);
   if (!stmt.ok()) return stmt.status();
   s->insert_scores = *std::move(stmt);
   many =
@@ -234,14 +275,28 @@ absl::Status Ledger::Enqueue(const std::shared_ptr<Job>& job) {
   return absl::OkStatus();
 }
 
-absl::Status Ledger::AppendScores(std::vector<ScoreEntry> scores) {
-  if (scores.empty()) return absl::OkStatus();
+absl::StatusOr<std::vector<ScoreWrite>> Ledger::AppendScores(
+    std::vector<ScoreEntry> scores) {
+  if (scores.empty()) return std::vector<ScoreWrite>();
+  for (const ScoreEntry& e : scores) {
+    if (e.record_id.empty()) {
+      return absl::InvalidArgumentError(
+          absl::StrCat("set '", e.set_name,
+                       "': a score without a record id cannot be "
+                       "recorded"));
+    }
+  }
   auto job = std::make_shared<Job>();
+  const size_t n = scores.size();
   job->scores = std::move(scores);
+  job->written.resize(n);
   if (absl::Status st = Enqueue(job); !st.ok()) return st;
-  if (options_.ack == LedgerOptions::Ack::kQueued) return absl::OkStatus();
+  if (options_.ack == LedgerOptions::Ack::kQueued) {
+    return std::vector<ScoreWrite>(n);  // repeats are not known yet
+  }
   job->done.WaitForNotification();
-  return job->status;
+  if (!job->status.ok()) return job->status;
+  return std::move(job->written);
 }
 
 absl::StatusOr<std::vector<OutcomeResult>> Ledger::ReportOutcomes(
@@ -352,49 +407,152 @@ void Ledger::Finish(const std::vector<std::shared_ptr<Job>>& group,
   }
   if (st.ok() && observer) observer(latency, rows);
   for (const auto& job : group) {
-    job->status = st;
+    job->status = st.ok() ? job->refused : st;
     job->done.Notify();
   }
+}
+
+absl::Status Ledger::WriteScores(std::vector<std::shared_ptr<Job>>& group) {
+  Statements& s = *stmts_;
+  // Scores in queue order, kScoresPerInsert rows per statement.
+  std::vector<const ScoreEntry*> scores;
+  std::vector<LedgerSetId> ids;
+  for (const auto& job : group) {
+    for (const ScoreEntry& e : job->scores) {
+      absl::StatusOr<LedgerSetId> id = set_ids_->Id(e);
+      if (!id.ok()) return id.status();
+      scores.push_back(&e);
+      ids.push_back(*id);
+    }
+  }
+  if (scores.empty()) return absl::OkStatus();
+  // Usually every record id is new and the rows go in as they are. When
+  // fewer went in than were sent, some (record id, set) was there before:
+  // all of it is undone and the jobs go again one by one (WriteJobScores),
+  // so each repeat and each conflict gets its own answer.
+  if (absl::Status st = s.scores_savepoint->Run(); !st.ok()) return st;
+  int64_t inserted = 0;
+  size_t next = 0;
+  absl::Status st;
+  for (; st.ok() && scores.size() - next >= kScoresPerInsert;
+       next += kScoresPerInsert) {
+    for (int r = 0; r < kScoresPerInsert; ++r) {
+      BindScore(*s.insert_scores, r * kScoreColumns, *scores[next + r],
+                ids[next + r]);
+    }
+    st = s.insert_scores->Run();
+    inserted += writer_db_->Changes();
+  }
+  for (; st.ok() && next < scores.size(); ++next) {
+    BindScore(*s.insert_score, 0, *scores[next], ids[next]);
+    st = s.insert_score->Run();
+    inserted += writer_db_->Changes();
+  }
+  if (!st.ok()) return st;
+  const bool all_new = inserted == static_cast<int64_t>(scores.size());
+  if (!all_new) {
+    if (absl::Status r = s.scores_rollback_to->Run(); !r.ok()) return r;
+  }
+  if (absl::Status r = s.scores_release->Run(); !r.ok()) return r;
+  if (all_new) return absl::OkStatus();
+  size_t first = 0;
+  for (auto& job : group) {
+    const size_t n = job->scores.size();
+    if (absl::Status r = WriteJobScores(*job, &ids[first]); !r.ok()) return r;
+    first += n;
+  }
+  return absl::OkStatus();
+}
+
+absl::Status Ledger::WriteJobScores(Job& job, const LedgerSetId* ids) {
+  Statements& s = *stmts_;
+  if (absl::Status st = s.job_savepoint->Run(); !st.ok()) return st;
+  // Record ids of this job found stored with the same features: their
+  // shadow scores were stored with them and are not written again.
+  absl::flat_hash_set<std::string> repeats;
+  for (size_t i = 0; i < job.scores.size(); ++i) {
+    const ScoreEntry& e = job.scores[i];
+    if (e.role == ScoreRole::kShadow && repeats.contains(e.record_id)) {
+      job.written[i].repeat = true;
+      continue;
+    }
+    BindScore(*s.insert_score, 0, e, ids[i]);
+    if (absl::Status st = s.insert_score->Run(); !st.ok()) return st;
+    if (writer_db_->Changes() == 1) continue;
+    // Refused by scores_by_record: this set scored the record id before.
+    s.find_primary->BindTextNoCopy(1, e.record_id);
+    s.find_primary->BindInt64(2, ids[i].name_id);
+    absl::StatusOr<bool> row = s.find_primary->Step();
+    ScoreEntry stored;
+    if (row.ok() && *row) {
+      stored.record_id = e.record_id;
+      stored.set_name = e.set_name;
+      stored.set_version = s.find_primary->ColumnText(0);
+      stored.scored_at = absl::FromUnixMicros(s.find_primary->ColumnInt64(1));
+      stored.log_odds = s.find_primary->ColumnDouble(2);
+      stored.probability = s.find_primary->ColumnDouble(3);
+      stored.features_json = s.find_primary->ColumnText(4);
+    }
+    s.find_primary->Reset();
+    if (!row.ok()) return row.status();
+    if (!*row) {
+      return absl::InternalError(absl::StrCat(
+          "ledger: record id '", e.record_id, "' of set '", e.set_name,
+          "' was refused as a repeat but no stored score was found"));
+    }
+    if (stored.features_json == e.features_json) {
+      repeats.insert(e.record_id);
+      job.written[i].repeat = true;
+      job.written[i].stored = std::move(stored);
+      continue;
+    }
+    // The same id for a different record: the whole job is refused and the
+    // rest of the group goes on.
+    job.refused = absl::AlreadyExistsError(absl::StrCat(
+        "record id '", e.record_id, "' was already scored by set '", e.set_name,
+        "' (version ", stored.set_version, ", ",
+        absl::FormatTime("%Y-%m-%dT%H:%M:%E6SZ", stored.scored_at,
+                         absl::UTCTimeZone()),
+        ") with other features; a record id names one record of a set: give "
+        "a new record a new id (a retry with the same features returns the "
+        "stored score)"));
+    if (absl::Status st = s.job_rollback_to->Run(); !st.ok()) return st;
+    break;
+  }
+  if (!job.refused.ok()) {
+    for (ScoreWrite& w : job.written) w = ScoreWrite{};
+    absl::MutexLock lock(&mu_);
+    ++stats_.conflicting_records;
+  } else {
+    int64_t repeated = 0;
+    for (const ScoreWrite& w : job.written) repeated += w.repeat ? 1 : 0;
+    absl::MutexLock lock(&mu_);
+    stats_.repeated_records += repeated;
+  }
+  if (!job.refused.ok() && options_.ack == LedgerOptions::Ack::kQueued) {
+    // The caller was answered before this ran: the log is the only trace.
+    LogEvent(LogLevel::kError, "ledger_scores_refused",
+             {{"error", job.refused.message()},
+              {"rows", absl::StrCat(job.scores.size())},
+              {"effect",
+               "acknowledged (ack=queued) but not recorded: a record id "
+               "scored before with other features"}});
+  }
+  return s.job_release->Run();
 }
 
 absl::Status Ledger::RunGroup(std::vector<std::shared_ptr<Job>>& group) {
   Statements& s = *stmts_;
   if (absl::Status st = s.begin->Run(); !st.ok()) return st;
-  absl::Status st;
-  // Scores first, in queue order, kScoresPerInsert rows per statement.
-  std::vector<const ScoreEntry*> scores;
-  std::vector<int64_t> set_ids;
-  for (const auto& job : group) {
-    for (const ScoreEntry& e : job->scores) {
-      if (!st.ok()) break;
-      absl::StatusOr<int64_t> id = set_ids_->Id(e);
-      if (!id.ok()) {
-        st = id.status();
-        break;
-      }
-      scores.push_back(&e);
-      set_ids.push_back(*id);
-    }
-  }
-  size_t next = 0;
-  for (; st.ok() && scores.size() - next >= kScoresPerInsert;
-       next += kScoresPerInsert) {
-    for (int r = 0; r < kScoresPerInsert; ++r) {
-      BindScore(*s.insert_scores, r * kScoreColumns, *scores[next + r],
-                set_ids[next + r]);
-    }
-    st = s.insert_scores->Run();
-  }
-  for (; st.ok() && next < scores.size(); ++next) {
-    BindScore(*s.insert_score, 0, *scores[next], set_ids[next]);
-    st = s.insert_score->Run();
-  }
+  absl::Status st = WriteScores(group);
   if (st.ok()) st = WriteOutcomes(group);
   if (st.ok()) st = s.commit->Run();
   if (!st.ok()) {
     s.rollback->Run().IgnoreError();  // the original error is what matters
     set_ids_->Forget();  // the rollback may have undone new score_sets rows
     for (auto& job : group) {
+      job->refused = absl::OkStatus();
+      for (ScoreWrite& w : job->written) w = ScoreWrite{};
       for (size_t i = 0; i < job->results.size(); ++i) {
         if (job->checked[i] != Job::kRefused) job->results[i] = OutcomeResult{};
       }

@@ -46,6 +46,7 @@
 #include "absl/status/statusor.h"
 #include "absl/synchronization/mutex.h"
 #include "absl/time/time.h"
+#include "daemon/ledger/lock.h"
 #include "daemon/ledger/sqlite_db.h"
 #include "daemon/util/set_version.h"
 #include "daemon/util/time.h"
@@ -53,13 +54,19 @@
 namespace plumbline::daemon {
 
 class LedgerSetIds;
+struct LedgerSetId;
 class ScoreLookup;
 class WalCheckpointer;
 class WalSyncer;
 
 struct LedgerOptions {
-  // SQLite file; its directory is created if missing.
+  // SQLite file; its directory is created if missing. Open takes the lock
+  // of daemon/ledger/lock.h ("<path>.lock") for as long as the ledger is
+  // open: one writer per ledger.
   std::string path = "./var/ledger.db";
+  // What the lock file says about this writer besides pid, host and start
+  // time (plumbd: its listen address).
+  std::string holder_note;
   // Rows (scores + outcomes) that may wait for the writer; beyond this new
   // writes get RESOURCE_EXHAUSTED.
   size_t queue_capacity_rows = 200000;
@@ -95,6 +102,17 @@ struct ScoreEntry {
   double probability = 0;
   // The feature values as received, as a JSON object.
   std::string features_json;
+};
+
+// What AppendScores did with one score.
+struct ScoreWrite {
+  // True when this set had already recorded a score under this record id
+  // with the same features (a retry): nothing new was written, and for an
+  // active-role score `stored` holds the score recorded then (version,
+  // time, log-odds, probability, features). A repeat's shadow scores are
+  // repeats too (stored left empty).
+  bool repeat = false;
+  ScoreEntry stored;
 };
 
 struct OutcomeEntry {
@@ -139,6 +157,11 @@ struct LedgerStats {
   // Retention passes that failed (logged as event=ledger_retention_failed;
   // rows past retention stay until a later pass succeeds).
   int64_t retention_failures = 0;
+  // Scores not written because the same record id and set had been
+  // recorded with the same features (retries); and calls refused because a
+  // record id had been recorded with other features.
+  int64_t repeated_records = 0;
+  int64_t conflicting_records = 0;
 };
 
 class Ledger {
@@ -153,9 +176,19 @@ class Ledger {
   Ledger(const Ledger&) = delete;
   Ledger& operator=(const Ledger&) = delete;
 
-  // Records scores. RESOURCE_EXHAUSTED when the queue is full; the error of
-  // the transaction when it failed to commit (nothing was acknowledged).
-  absl::Status AppendScores(std::vector<ScoreEntry> scores);
+  // Records scores, all or none; one ScoreWrite per score, in order.
+  // A record id names one record of a set: one active-role score per
+  // (record id, set) within retention (shadow scores share their record's
+  // id). A score whose id and set were recorded before with the same
+  // features is a repeat (nothing written, the stored score returned); with
+  // other features the call fails ALREADY_EXISTS naming the id and writes
+  // nothing. INVALID_ARGUMENT for an empty record id; RESOURCE_EXHAUSTED
+  // when the queue is full; the error of the transaction when it failed to
+  // commit (nothing was acknowledged). With ack=queued the answer comes
+  // before the writer has run: no repeat is reported, and a conflict is
+  // logged (event=ledger_scores_refused) and counted, not returned.
+  absl::StatusOr<std::vector<ScoreWrite>> AppendScores(
+      std::vector<ScoreEntry> scores);
 
   // Records outcomes; one result per outcome, in order. The call itself fails
   // only when the queue is full or the transaction could not commit.
@@ -194,6 +227,11 @@ class Ledger {
   absl::Status Enqueue(const std::shared_ptr<Job>& job);
   void WriterLoop();
   absl::Status RunGroup(std::vector<std::shared_ptr<Job>>& group);
+  // Inserts the group's scores; the jobs' `written` and `refused` say how.
+  absl::Status WriteScores(std::vector<std::shared_ptr<Job>>& group);
+  // One job's scores row by row (some (record id, set) was there before),
+  // `ids` its scores' set ids.
+  absl::Status WriteJobScores(Job& job, const LedgerSetId* ids);
   // Counts a group's commit (when `st` is OK) and acknowledges its jobs.
   void Finish(const std::vector<std::shared_ptr<Job>>& group, absl::Status st,
               absl::Time start, size_t rows);
@@ -213,6 +251,7 @@ class Ledger {
 
   // Constant after Open.
   const LedgerOptions options_;
+  std::unique_ptr<LedgerLock> lock_;       // released last
   std::unique_ptr<SqliteDb> writer_db_;    // used by the writer thread only
   std::unique_ptr<Statements> stmts_;      // writer thread only
   std::unique_ptr<LedgerSetIds> set_ids_;  // writer thread only

@@ -11,7 +11,10 @@ namespace plumbline::daemon {
 const char kFindScoresSql[] =
     "SELECT ss.set_name, ss.set_version, ss.role, s.log_odds, s.probability,"
     " s.scored_at_us FROM scores s JOIN score_sets ss ON ss.id = s.set_id"
-    " WHERE s.record_id = ?1 ORDER BY s.id";
+    " WHERE s.record_id = ?1"
+    // The record's score of each set and their shadows; not the repeats
+    // schemas before 5 let in (kept, primary_set NULL, role active).
+    " AND (s.primary_set IS NOT NULL OR ss.role = 'shadow') ORDER BY s.id";
 
 namespace {
 
@@ -84,7 +87,7 @@ absl::StatusOr<std::unique_ptr<ScoreLookup::Reader>> ScoreLookup::Acquire() {
       // loop, each id one search of scores_by_record.
       {&r->find,
        "SELECT j.key, s.id, s.set_id, s.log_odds, s.probability,"
-       " s.scored_at_us FROM json_each(?1) j"
+       " s.scored_at_us, s.primary_set IS NOT NULL FROM json_each(?1) j"
        " CROSS JOIN scores s ON s.record_id = j.value"},
       {&r->sets, "SELECT id, set_name, set_version, role FROM score_sets"},
       {&r->end, "COMMIT"},
@@ -145,6 +148,7 @@ absl::Status ScoreLookup::Find(const std::vector<OutcomeEntry>& outcomes,
     int64_t id, set_id;
     double log_odds, probability;
     int64_t scored_at_us;
+    bool primary;
   };
   std::vector<Row> rows;
   rows.reserve(at.size());
@@ -165,7 +169,8 @@ absl::Status ScoreLookup::Find(const std::vector<OutcomeEntry>& outcomes,
       if (k < 0 || static_cast<size_t>(k) >= at.size()) continue;
       rows.push_back(Row{at[static_cast<size_t>(k)], r.find->ColumnInt64(1),
                          r.find->ColumnInt64(2), r.find->ColumnDouble(3),
-                         r.find->ColumnDouble(4), r.find->ColumnInt64(5)});
+                         r.find->ColumnDouble(4), r.find->ColumnInt64(5),
+                         r.find->ColumnInt64(6) != 0});
     }
     r.find->Reset();
   }
@@ -188,6 +193,8 @@ absl::Status ScoreLookup::Find(const std::vector<OutcomeEntry>& outcomes,
   for (const Row& row : rows) {
     auto names = sets_.find(row.set_id);
     if (names == sets_.end()) continue;  // cannot happen: loaded above
+    // As kFindScoresSql: not the repeats schemas before 5 let in.
+    if (!row.primary && names->second.role != ScoreRole::kShadow) continue;
     const OutcomeEntry& o = outcomes[row.outcome];
     LabelledScore& l = results[row.outcome].labelled.emplace_back();
     l.record_id = o.record_id;

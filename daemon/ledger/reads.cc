@@ -47,6 +47,8 @@ absl::Status Ledger::ForEachLabelled(
       " FROM outcomes o JOIN scores s ON s.record_id = o.record_id"
       " JOIN score_sets ss ON ss.id = s.set_id"
       " WHERE ss.set_name = ?1 AND o.observed_at_us >= ?2"
+      // As the outcome lookup: not the repeats schemas before 5 let in.
+      " AND (s.primary_set IS NOT NULL OR ss.role = 'shadow')"
       " ORDER BY o.observed_at_us DESC, s.id DESC LIMIT ?3",
       set_name, limit, since, [&fn](const SqliteStatement& s) {
         fn(LabelledScore{s.ColumnText(0), s.ColumnText(1), s.ColumnText(2),

@@ -115,6 +115,29 @@ constexpr const char* kMigrations[] = {
     // retention by age deletes the oldest ids up to the first score within
     // the age (scored_at_us grows with id).
     "DROP INDEX scores_by_set_time;",
+    // 4 -> 5, record identity: a record id names one record of a set. A
+    // set name gets a small integer (set_names); an active-role score
+    // carries its set's in primary_set (shadow scores: NULL), and the
+    // unique index on (record_id, primary_set) admits one such score per
+    // set and id (NULLs never collide, so a record's shadow scores share
+    // its id). Of the repeats earlier schemas let in, the first active
+    // score of each (record id, set) becomes the primary one; the others
+    // stay, with primary_set NULL, and no outcome labels them.
+    "CREATE TABLE set_names("
+    "  id INTEGER PRIMARY KEY,"
+    "  name TEXT NOT NULL UNIQUE);"
+    "INSERT INTO set_names(name)"
+    "  SELECT set_name FROM score_sets GROUP BY set_name ORDER BY MIN(id);"
+    "ALTER TABLE scores ADD COLUMN primary_set INTEGER;"
+    "UPDATE scores SET primary_set ="
+    "  (SELECT n.id FROM score_sets ss JOIN set_names n ON n.name = ss.set_name"
+    "   WHERE ss.id = scores.set_id)"
+    "  WHERE id IN (SELECT MIN(s.id) FROM scores s"
+    "               JOIN score_sets ss ON ss.id = s.set_id"
+    "               WHERE ss.role = 'active'"
+    "               GROUP BY s.record_id, ss.set_name);"
+    "DROP INDEX scores_by_record;"
+    "CREATE UNIQUE INDEX scores_by_record ON scores(record_id, primary_set);",
 };
 
 }  // namespace

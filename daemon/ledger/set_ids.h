@@ -4,10 +4,13 @@
 // the table score_sets, and each score row refers to it by a small integer
 // (schema version 2): rows get shorter and the index by set compares
 // integers, which makes ingest markedly cheaper (tests/bench/ledger_bench).
-// LedgerSetIds hands the writer the id of a score's triple, adding the
-// triple to score_sets the first time it is seen, and keeps the ids in
-// memory. Consecutive scores of one call share their triple, so most lookups
-// are three string comparisons with the previous one.
+// A set's name has its own small integer too (table set_names, schema 5):
+// an active-role score row carries it in scores.primary_set, and the unique
+// index scores_by_record(record_id, primary_set) keeps one record id to one
+// score per set. LedgerSetIds hands the writer both ids of a score,
+// adding rows the first time a triple or a name is seen, and keeps them in
+// memory. Consecutive scores of one call share their triple, so most
+// lookups are three string comparisons with the previous one.
 //
 // Used by Ledger's writer thread only: not thread-safe.
 #ifndef PLUMBLINE_DAEMON_LEDGER_SET_IDS_H_
@@ -24,14 +27,19 @@
 
 namespace plumbline::daemon {
 
+struct LedgerSetId {
+  int64_t set_id = -1;   // score_sets.id of (name, version, role)
+  int64_t name_id = -1;  // set_names.id of the name
+};
+
 class LedgerSetIds {
  public:
   // Prepares its statements on `db`, which must outlive this object.
   static absl::StatusOr<std::unique_ptr<LedgerSetIds>> Create(SqliteDb& db);
 
-  // The id of `score`'s (set_name, set_version, role), inserting it into
-  // score_sets if new. REQUIRES: a write transaction is open on the db.
-  absl::StatusOr<int64_t> Id(const ScoreEntry& score);
+  // The ids of `score`'s set, inserting rows into score_sets and set_names
+  // if new. REQUIRES: a write transaction is open on the db.
+  absl::StatusOr<LedgerSetId> Id(const ScoreEntry& score);
 
   // Drops what is cached; call after a rollback, which may have undone
   // inserts this object remembers.
@@ -40,13 +48,17 @@ class LedgerSetIds {
  private:
   LedgerSetIds() = default;
 
-  std::unique_ptr<SqliteStatement> insert_;
-  std::unique_ptr<SqliteStatement> find_;
-  absl::flat_hash_map<std::string, int64_t> ids_;
-  // The last triple looked up and its id (last_id_ < 0: none).
+  // The id of `name` in set_names, inserting it if new.
+  absl::StatusOr<int64_t> NameId(const std::string& name);
+
+  std::unique_ptr<SqliteStatement> insert_, find_;
+  std::unique_ptr<SqliteStatement> insert_name_, find_name_;
+  absl::flat_hash_map<std::string, LedgerSetId> ids_;
+  absl::flat_hash_map<std::string, int64_t> name_ids_;
+  // The last triple looked up and its ids (last_.set_id < 0: none).
   std::string last_name_, last_version_;
   ScoreRole last_role_ = ScoreRole::kActive;
-  int64_t last_id_ = -1;
+  LedgerSetId last_;
 };
 
 }  // namespace plumbline::daemon

@@ -49,6 +49,15 @@ class LedgerQueueGauge final : public prometheus::Collectable {
             "Retention passes that failed (rows past retention stay "
             "until a later pass succeeds; see event=ledger_retention_failed).",
             static_cast<double>(stats.retention_failures)),
+        Counter("plumbline_ledger_repeated_records_total",
+                "Scores not recorded again because their set had recorded "
+                "the record id with the same features (retries); the stored "
+                "score was returned.",
+                static_cast<double>(stats.repeated_records)),
+        Counter("plumbline_ledger_conflicting_records_total",
+                "Score calls refused (ALREADY_EXISTS) because a record id had "
+                "been recorded by the set with other features.",
+                static_cast<double>(stats.conflicting_records)),
         Gauge("plumbline_ledger_queue_rows",
               "Rows (scores and outcomes) waiting for the ledger writer.",
               static_cast<double>(stats.queued_rows)),

@@ -85,6 +85,11 @@ std::vector<scorer::FeatureSpec> SpecsFrom(const v1::CoefficientSet& set) {
       case v1::Feature::kCategorical:
         spec.kind = scorer::FeatureKind::kCategorical;
         spec.unseen = f.categorical().unseen();
+        // The serving version's level order: dense codes keep their
+        // meaning across the refit (daemon/registry/compatibility.h).
+        for (const auto& level : f.categorical().levels()) {
+          spec.known_levels.push_back(level.value());
+        }
         break;
       case v1::Feature::kBinned:
         spec.kind = scorer::FeatureKind::kBinned;

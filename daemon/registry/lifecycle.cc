@@ -7,7 +7,10 @@
 
 #include "absl/status/status.h"
 #include "absl/strings/str_cat.h"
+#include "absl/strings/str_join.h"
+#include "daemon/registry/compatibility.h"
 #include "daemon/util/event_log.h"
+#include "google/protobuf/util/message_differencer.h"
 #include "scorer/coefficient_set.h"
 
 namespace plumbline::daemon {
@@ -35,6 +38,29 @@ void Lifecycle::Detach() {
   absl::MutexLock lock(&attach_mu_);
   registry_ = nullptr;
   on_change_ = nullptr;
+}
+
+absl::StatusOr<std::vector<std::string>> Lifecycle::ChangesFromActive(
+    const std::string& set, const v1::CoefficientSet& to) {
+  absl::StatusOr<std::optional<VersionRecord>> active = store_->Active(set);
+  if (!active.ok()) return active.status();
+  if (!active->has_value() || (*active)->version == to.version()) {
+    return std::vector<std::string>();
+  }
+  absl::StatusOr<PlanPtr> plan = PlanFor(**active, nullptr);
+  if (!plan.ok()) return plan.status();
+  return SchemaChanges((*plan)->set(), to);
+}
+
+absl::Status Lifecycle::CheckSchemaChanges(
+    absl::string_view what, const StateChange& change,
+    const std::vector<std::string>& changes, absl::Time now,
+    std::vector<AuditRecord>* audit) {
+  if (changes.empty()) return absl::OkStatus();
+  if (!change.allow_schema_change) return SchemaChangeRefused(what, changes);
+  audit->push_back({now, change.set, change.version, "schema_change_allowed",
+                    change.actor, absl::StrJoin(changes, "; ")});
+  return absl::OkStatus();
 }
 
 absl::StatusOr<PlanPtr> Lifecycle::PlanFor(const VersionRecord& record,
@@ -113,7 +139,14 @@ absl::StatusOr<ServingMap> Lifecycle::Resolve(const PlanMap& from_files) {
       if (!stored.ok()) return stored.status();
       const std::optional<VersionRecord>& known = *stored;
       if (known.has_value()) {
-        if (known->document != *document &&
+        // By meaning, not by bytes: the JSON of a map field (baselines'
+        // level proportions) has no fixed key order.
+        absl::StatusOr<v1::CoefficientSet> stored_set =
+            scorer::ParseCoefficientSet(known->document, "the ledger");
+        const bool same = stored_set.ok() &&
+                          google::protobuf::util::MessageDifferencer::Equals(
+                              *stored_set, plan->set());
+        if (!same &&
             warned_.insert({Key(name, plan->version()), plan->source()})
                 .second) {
           LogEvent(LogLevel::kWarning, "set_version_reused",
@@ -143,13 +176,37 @@ absl::StatusOr<ServingMap> Lifecycle::Resolve(const PlanMap& from_files) {
           !s.ok()) {
         return s;
       }
+      plans_.emplace(Key(name, record.version), plan);
+      // A file cannot say "allow": a version whose schema would refuse
+      // today's calls stays a candidate for a person to activate.
+      absl::StatusOr<std::vector<std::string>> changes =
+          ChangesFromActive(name, plan->set());
+      if (!changes.ok()) return changes.status();
+      if (!changes->empty()) {
+        const std::string why = absl::StrCat(
+            "not activated: calls valid for the active version would fail "
+            "or change meaning: ",
+            absl::StrJoin(*changes, "; "),
+            " (plumbctl activate --allow_schema_change serves it)");
+        LogEvent(LogLevel::kError, "set_version_not_activated",
+                 {{"set", name},
+                  {"version", record.version},
+                  {"file", plan->source()},
+                  {"error", why}});
+        if (absl::Status s =
+                store_->AppendAudit({now, name, record.version, "not_activated",
+                                     kSetsDirectory, why});
+            !s.ok()) {
+          return s;
+        }
+        continue;
+      }
       if (absl::Status s =
               ActivateInStore(name, record.version, kSetsDirectory,
                               "new version in the sets directory", now);
           !s.ok()) {
         return s;
       }
-      plans_.emplace(Key(name, record.version), plan);
     }
     // A set some file provided that no file provides now leaves service.
     absl::StatusOr<std::vector<VersionRecord>> all = store_->List("");
@@ -237,9 +294,24 @@ absl::StatusOr<VersionRecord> Lifecycle::AddCandidate(NewVersion version) {
   {
     absl::MutexLock lock(&mu_);
     record.created_at = now_();
+    absl::StatusOr<std::vector<std::string>> changes =
+        ChangesFromActive(name, version.set);
+    if (!changes.ok()) return changes.status();
+    std::vector<AuditRecord> schema_audit;
+    if (absl::Status st = CheckSchemaChanges(
+            absl::StrCat("load version '", ver, "' of set '", name, "'"),
+            StateChange{name, ver, version.created_by, version.reason,
+                        version.allow_schema_change},
+            *changes, record.created_at, &schema_audit);
+        !st.ok()) {
+      return st;
+    }
     absl::Status s = store_->InTransaction([&]() -> absl::Status {
       mu_.AssertHeld();  // the caller holds it; tells the lock analysis
       if (absl::Status st = store_->Insert(record); !st.ok()) return st;
+      for (const AuditRecord& entry : schema_audit) {
+        if (absl::Status st = store_->AppendAudit(entry); !st.ok()) return st;
+      }
       for (AuditRecord entry : version.audit) {
         entry.at = record.created_at;
         entry.set = name;
@@ -282,14 +354,32 @@ absl::StatusOr<VersionRecord> Lifecycle::ChangeActive(
     if (absl::Status s = check(*record); !s.ok()) return s;
     // Compile before writing, so a version that cannot serve never becomes
     // active.
-    if (absl::StatusOr<PlanPtr> plan = PlanFor(*record, nullptr); !plan.ok()) {
+    absl::StatusOr<PlanPtr> plan = PlanFor(*record, nullptr);
+    if (!plan.ok()) {
       return absl::FailedPreconditionError(
           absl::StrCat("version '", change.version,
                        "' cannot be served: ", plan.status().message()));
     }
     const absl::Time now = now_();
+    absl::StatusOr<std::vector<std::string>> changes =
+        ChangesFromActive(change.set, (*plan)->set());
+    if (!changes.ok()) return changes.status();
+    std::vector<AuditRecord> schema_audit;
+    if (absl::Status s = CheckSchemaChanges(
+            absl::StrCat(before.empty() && after.empty() ? "activate"
+                         : !before.empty()               ? before
+                                                         : after,
+                         " version '", change.version, "' of set '", change.set,
+                         "'"),
+            change, *changes, now, &schema_audit);
+        !s.ok()) {
+      return s;
+    }
     absl::Status s = store_->InTransaction([&]() -> absl::Status {
       mu_.AssertHeld();  // the caller holds it; tells the lock analysis
+      for (const AuditRecord& entry : schema_audit) {
+        if (absl::Status st = store_->AppendAudit(entry); !st.ok()) return st;
+      }
       if (!before.empty()) {
         if (absl::Status st =
                 store_->AppendAudit({now, change.set, change.version, before,
@@ -366,12 +456,29 @@ absl::StatusOr<VersionRecord> Lifecycle::Shadow(const StateChange& change) {
           VersionStateName(record->state),
           "; only candidate and retired versions can become shadows"));
     }
-    if (absl::StatusOr<PlanPtr> plan = PlanFor(*record, nullptr); !plan.ok()) {
+    absl::StatusOr<PlanPtr> plan = PlanFor(*record, nullptr);
+    if (!plan.ok()) {
       return absl::FailedPreconditionError(plan.status().message());
     }
     const absl::Time now = now_();
+    // A shadow scores the active version's calls: one that would refuse
+    // them records nothing.
+    absl::StatusOr<std::vector<std::string>> changes =
+        ChangesFromActive(change.set, (*plan)->set());
+    if (!changes.ok()) return changes.status();
+    std::vector<AuditRecord> schema_audit;
+    if (absl::Status st =
+            CheckSchemaChanges(absl::StrCat("shadow version '", change.version,
+                                            "' of set '", change.set, "'"),
+                               change, *changes, now, &schema_audit);
+        !st.ok()) {
+      return st;
+    }
     absl::Status s = store_->InTransaction([&]() -> absl::Status {
       mu_.AssertHeld();  // the caller holds it; tells the lock analysis
+      for (const AuditRecord& entry : schema_audit) {
+        if (absl::Status st = store_->AppendAudit(entry); !st.ok()) return st;
+      }
       if (absl::Status st = store_->SetState(change.set, change.version,
                                              VersionState::kShadow);
           !st.ok()) {
@@ -382,6 +489,39 @@ absl::StatusOr<VersionRecord> Lifecycle::Shadow(const StateChange& change) {
     });
     if (!s.ok()) return s;
     record->state = VersionState::kShadow;
+    result = *std::move(record);
+  }
+  Apply();
+  return result;
+}
+
+absl::StatusOr<VersionRecord> Lifecycle::StopShadow(const StateChange& change) {
+  VersionRecord result;
+  {
+    absl::MutexLock lock(&mu_);
+    absl::StatusOr<std::optional<VersionRecord>> stored =
+        store_->Get(change.set, change.version);
+    if (!stored.ok()) return stored.status();
+    std::optional<VersionRecord>& record = *stored;
+    if (!record.has_value() || record->state != VersionState::kShadow) {
+      return absl::FailedPreconditionError(
+          absl::StrCat("version '", change.version, "' of set '", change.set,
+                       "' is not a shadow"));
+    }
+    const absl::Time now = now_();
+    absl::Status s = store_->InTransaction([&]() -> absl::Status {
+      mu_.AssertHeld();  // the caller holds it; tells the lock analysis
+      if (absl::Status st = store_->SetState(change.set, change.version,
+                                             VersionState::kRetired);
+          !st.ok()) {
+        return st;
+      }
+      return store_->AppendAudit({now, change.set, change.version,
+                                  "shadow_stopped", change.actor,
+                                  change.reason});
+    });
+    if (!s.ok()) return s;
+    record->state = VersionState::kRetired;
     result = *std::move(record);
   }
   Apply();
@@ -411,6 +551,7 @@ absl::StatusOr<VersionRecord> Lifecycle::Rollback(const StateChange& change) {
   }
   StateChange to = change;
   to.version = previous;
+  to.allow_schema_change = true;  // back to what callers used before
   if (to.reason.empty())
     to.reason = "rollback to the previously active version";
   return ChangeActive(to, "", "rolled_back",

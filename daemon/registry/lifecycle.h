@@ -55,6 +55,12 @@ struct StateChange {
   std::string version;  // unused by Rollback
   std::string actor;
   std::string reason;
+  // Serve a version although calls valid for the active one would fail or
+  // change meaning (daemon/registry/compatibility.h); the differences go to
+  // the audit as "schema_change_allowed". Without it such a change is
+  // FAILED_PRECONDITION listing them. Rollback always allows it (it returns
+  // to what callers used before) and records it likewise.
+  bool allow_schema_change = false;
 };
 
 // A new version that does not come from the sets directory.
@@ -65,6 +71,8 @@ struct NewVersion {
   std::string comparison;
   // The audit entries written with it (action "loaded" is always written).
   std::vector<AuditRecord> audit;
+  // As StateChange::allow_schema_change, against the active version.
+  bool allow_schema_change = false;
 };
 
 class Lifecycle final : public VersionResolver {
@@ -107,6 +115,10 @@ class Lifecycle final : public VersionResolver {
   // Marks a candidate or retired version SHADOW. FAILED_PRECONDITION for the
   // active version.
   absl::StatusOr<VersionRecord> Shadow(const StateChange& change);
+  // Retires a SHADOW that keeps failing (plumbd, after the tracker's limit):
+  // recorded "shadow_stopped" with change.reason. FAILED_PRECONDITION if
+  // the version is not a shadow.
+  absl::StatusOr<VersionRecord> StopShadow(const StateChange& change);
   // Activates the version that was active before the current one.
   // FAILED_PRECONDITION if the set has no active version or no earlier one.
   absl::StatusOr<VersionRecord> Rollback(const StateChange& change);
@@ -143,6 +155,17 @@ class Lifecycle final : public VersionResolver {
       ABSL_EXCLUSIVE_LOCKS_REQUIRED(mu_);
   // Refreshes the registry and reports the change.
   void Apply();
+  // The schema changes from `set`'s active version to `to` (none when the
+  // set has no active version or `to` is it).
+  absl::StatusOr<std::vector<std::string>> ChangesFromActive(
+      const std::string& set, const v1::CoefficientSet& to)
+      ABSL_EXCLUSIVE_LOCKS_REQUIRED(mu_);
+  // OK when `changes` is empty; else the refusal, unless `allow`, when the
+  // audit entry to write with the change is appended to `audit`.
+  static absl::Status CheckSchemaChanges(
+      absl::string_view what, const StateChange& change,
+      const std::vector<std::string>& changes, absl::Time now,
+      std::vector<AuditRecord>* audit);
 
   VersionStore* const store_;
   const std::function<absl::Time()> now_;

@@ -19,9 +19,10 @@
 namespace plumbline::daemon {
 
 DaemonServer::DaemonServer(SetRegistry* registry, ScoringLimits limits,
-                           Ledger* ledger, HealthSink* health_sink)
+                           Ledger* ledger, HealthSink* health_sink,
+                           ShadowOptions shadows)
     : registry_(registry),
-      service_(registry, limits, ledger, health_sink),
+      service_(registry, limits, ledger, health_sink, std::move(shadows)),
       outcomes_(ledger, health_sink, limits.max_batch_records) {}
 
 absl::StatusOr<std::unique_ptr<DaemonServer>> DaemonServer::Start(
@@ -35,7 +36,8 @@ absl::StatusOr<std::unique_ptr<DaemonServer>> DaemonServer::Start(
   limits.max_batch_records = options.max_batch_records;
   limits.max_reasons = options.max_reasons;
   std::unique_ptr<DaemonServer> daemon(
-      new DaemonServer(registry, limits, ledger, attachments.health_sink));
+      new DaemonServer(registry, limits, ledger, attachments.health_sink,
+                       std::move(attachments.shadows)));
 
   grpc::EnableDefaultHealthCheckService(true);
   grpc::ServerBuilder builder;

@@ -55,6 +55,8 @@ struct ServerAttachments {
   // Told about every record scored and every score labelled; may be null.
   // Must outlive the server.
   HealthSink* health_sink = nullptr;
+  // How the scoring service accounts for shadows (daemon/services/scoring.h).
+  ShadowOptions shadows;
   // More services to register, each with the health name that is SERVING
   // while the server is up. Must outlive the server.
   std::vector<std::pair<grpc::Service*, std::string>> services;
@@ -97,7 +99,7 @@ class DaemonServer {
 
  private:
   DaemonServer(SetRegistry* registry, ScoringLimits limits, Ledger* ledger,
-               HealthSink* health_sink);
+               HealthSink* health_sink, ShadowOptions shadows);
 
   // Constant after Start.
   SetRegistry* const registry_;

@@ -100,6 +100,9 @@ DaemonOptions OptionsFromConfig(const v1::DaemonConfig& config) {
     options.max_batch_records = config.max_batch_records();
   }
   if (config.max_reasons() != 0) options.max_reasons = config.max_reasons();
+  if (config.shadow_failure_limit() != 0) {
+    options.shadow_failure_limit = config.shadow_failure_limit();
+  }
   if (config.max_message_bytes() != 0) {
     options.max_message_bytes = config.max_message_bytes();
   }

@@ -65,6 +65,8 @@ struct DaemonOptions {
   uint32_t max_reasons = 20;
   // Largest gRPC message the server accepts, in bytes.
   uint32_t max_message_bytes = 64u << 20;
+  // Consecutive calls a shadow version may fail before it is retired.
+  uint32_t shadow_failure_limit = 100;
   // The SQLite ledger: ledger.path is the file (DaemonConfig.ledger_path,
   // default ./var/ledger.db); the rest comes from DaemonConfig.ledger.
   LedgerOptions ledger;

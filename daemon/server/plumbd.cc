@@ -11,6 +11,7 @@
 #include "daemon/access/access_control.h"
 #include "daemon/metrics/health.h"
 #include "daemon/metrics/ledger.h"
+#include "daemon/metrics/shadows.h"
 #include "daemon/server/health_options.h"
 #include "daemon/util/address.h"
 #include "daemon/util/event_log.h"
@@ -106,7 +107,10 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
   std::unique_ptr<Plumbd> d(new Plumbd(std::move(options)));
   const DaemonOptions& o = d->options_;
 
-  absl::StatusOr<std::unique_ptr<Ledger>> ledger = Ledger::Open(o.ledger);
+  LedgerOptions ledger_options = o.ledger;
+  ledger_options.holder_note = absl::StrCat("listen ", o.listen);
+  absl::StatusOr<std::unique_ptr<Ledger>> ledger =
+      Ledger::Open(std::move(ledger_options));
   if (!ledger.ok()) return ledger.status();
   d->ledger_ = *std::move(ledger);
   if (o.ledger.queue_capacity_rows < o.max_batch_records) {
@@ -157,6 +161,8 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
   }
   ExportLedgerMetrics(d->ledger_.get(), d->exporter_.get());
   d->exporter_->Add(std::make_shared<HealthMetrics>(d->monitor_.get()));
+  d->shadow_tracker_ = std::make_unique<ShadowTracker>(o.shadow_failure_limit);
+  d->exporter_->Add(std::make_shared<ShadowMetrics>(d->shadow_tracker_.get()));
   d->request_metrics_ =
       std::make_unique<RequestMetrics>(d->exporter_->registry());
   LogEvent(LogLevel::kInfo, "metrics_listening",
@@ -171,10 +177,23 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
 
   d->monitor_service_ =
       std::make_unique<MonitorService>(d->registry_.get(), d->monitor_.get());
-  d->registry_service_ =
-      std::make_unique<RegistryService>(d->lifecycle_.get(), d->refits_.get());
+  d->registry_service_ = std::make_unique<RegistryService>(
+      d->lifecycle_.get(), d->refits_.get(), d->shadow_tracker_.get());
   ServerAttachments attachments;
   attachments.health_sink = d->monitor_.get();
+  attachments.shadows.tracker = d->shadow_tracker_.get();
+  attachments.shadows.stop = [lifecycle = d->lifecycle_.get()](
+                                 const SetVersion& shadow,
+                                 const std::string& why) {
+    absl::StatusOr<VersionRecord> stopped =
+        lifecycle->StopShadow({shadow.set, shadow.version, "plumbd", why});
+    if (!stopped.ok()) {
+      LogEvent(LogLevel::kError, "shadow_stop_failed",
+               {{"set", shadow.set},
+                {"version", shadow.version},
+                {"error", stopped.status().message()}});
+    }
+  };
   attachments.services.emplace_back(d->monitor_service_.get(),
                                     kMonitorServiceName);
   attachments.services.emplace_back(d->registry_service_.get(),

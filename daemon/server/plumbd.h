@@ -48,6 +48,7 @@
 #include "daemon/registry/lifecycle.h"
 #include "daemon/registry/version_store.h"
 #include "daemon/scoring/set_registry.h"
+#include "daemon/scoring/shadow_tracker.h"
 #include "daemon/server/grpc_server.h"
 #include "daemon/server/options.h"
 #include "daemon/services/monitor.h"
@@ -137,6 +138,7 @@ class Plumbd {
   std::unique_ptr<Lifecycle> lifecycle_;
   std::unique_ptr<SetRegistry> registry_;
   std::unique_ptr<HealthMonitor> monitor_;
+  std::unique_ptr<ShadowTracker> shadow_tracker_;
   std::unique_ptr<MetricsExporter> exporter_;
   std::unique_ptr<RequestMetrics> request_metrics_;
   std::unique_ptr<RefitRunner> refit_runner_;

@@ -66,8 +66,22 @@ v1::VersionInfo ToVersionInfo(const VersionRecord& r) {
   return info;
 }
 
-RegistryService::RegistryService(Lifecycle* lifecycle, RefitWorker* refits)
-    : lifecycle_(lifecycle), refits_(refits) {}
+RegistryService::RegistryService(Lifecycle* lifecycle, RefitWorker* refits,
+                                 const ShadowTracker* shadows)
+    : lifecycle_(lifecycle), refits_(refits), shadows_(shadows) {}
+
+void RegistryService::AddShadowReport(v1::VersionInfo& info) const {
+  if (shadows_ == nullptr) return;
+  const ShadowStats s = shadows_->Of(SetVersion{info.set(), info.version()});
+  if (s.scored_calls == 0 && s.failures.empty()) return;
+  v1::ShadowReport* r = info.mutable_shadow();
+  r->set_scored_calls(s.scored_calls);
+  for (const auto& [reason, n] : s.failures)
+    (*r->mutable_failures())[reason] = n;
+  r->set_consecutive_failures(s.consecutive_failures);
+  r->set_last_error(s.last_error);
+  r->set_stopped(s.stopped);
+}
 
 grpc::Status RegistryService::ListVersions(
     grpc::ServerContext* context, const v1::ListVersionsRequest* request,
@@ -85,8 +99,11 @@ grpc::Status RegistryService::ListVersions(
     return ToGrpcStatus(absl::NotFoundError(absl::StrCat(
         "no version of a set named '", request->set(), "' is known")));
   }
-  for (const VersionRecord& r : *list)
-    *reply->add_versions() = ToVersionInfo(r);
+  for (const VersionRecord& r : *list) {
+    v1::VersionInfo* info = reply->add_versions();
+    *info = ToVersionInfo(r);
+    AddShadowReport(*info);
+  }
   return grpc::Status::OK;
 }
 
@@ -103,6 +120,7 @@ grpc::Status RegistryService::LoadCandidate(
   version.created_by = Actor(request->actor());
   version.reason =
       request->reason().empty() ? "loaded by hand" : request->reason();
+  version.allow_schema_change = request->allow_schema_change();
   return Reply(lifecycle_->AddCandidate(std::move(version)), reply);
 }
 
@@ -115,10 +133,10 @@ grpc::Status RegistryService::ChangeVersion(
       !s.ok()) {
     return ToGrpcStatus(s);
   }
-  return Reply(
-      (lifecycle_->*change)({request.set(), request.version(),
-                             Actor(request.actor()), request.reason()}),
-      reply);
+  return Reply((lifecycle_->*change)({request.set(), request.version(),
+                                      Actor(request.actor()), request.reason(),
+                                      request.allow_schema_change()}),
+               reply);
 }
 
 grpc::Status RegistryService::Activate(grpc::ServerContext* context,

@@ -13,6 +13,7 @@
 
 #include "daemon/refit/worker.h"
 #include "daemon/registry/lifecycle.h"
+#include "daemon/scoring/shadow_tracker.h"
 #include "plumbline/v1/registry.grpc.pb.h"
 
 namespace plumbline::daemon {
@@ -23,7 +24,9 @@ v1::VersionInfo ToVersionInfo(const VersionRecord& record);
 class RegistryService final : public v1::Registry::Service {
  public:
   // Both must outlive the service.
-  RegistryService(Lifecycle* lifecycle, RefitWorker* refits);
+  // `shadows` (may be null) gives `ListVersions` each shadow's report.
+  RegistryService(Lifecycle* lifecycle, RefitWorker* refits,
+                  const ShadowTracker* shadows = nullptr);
 
   grpc::Status ListVersions(grpc::ServerContext* context,
                             const v1::ListVersionsRequest* request,
@@ -56,9 +59,13 @@ class RegistryService final : public v1::Registry::Service {
       grpc::ServerContext* context, const v1::VersionRequest& request,
       absl::StatusOr<VersionRecord> (Lifecycle::*change)(const StateChange&),
       v1::VersionInfo* reply);
+  // Fills info.shadow from the tracker when the version has been scored as
+  // a shadow.
+  void AddShadowReport(v1::VersionInfo& info) const;
 
   Lifecycle* const lifecycle_;
   RefitWorker* const refits_;
+  const ShadowTracker* const shadows_;
 };
 
 }  // namespace plumbline::daemon

@@ -5,6 +5,7 @@
 #include <utility>
 #include <vector>
 
+#include "absl/container/flat_hash_map.h"
 #include "absl/strings/str_cat.h"
 #include "absl/time/clock.h"
 #include "daemon/access/access_control.h"
@@ -15,11 +16,12 @@ namespace plumbline::daemon {
 
 ScoringService::ScoringService(const SetRegistry* registry,
                                ScoringLimits limits, Ledger* ledger,
-                               HealthSink* health_sink)
+                               HealthSink* health_sink, ShadowOptions shadows)
     : registry_(registry),
       limits_(limits),
       ledger_(ledger),
-      health_sink_(health_sink) {}
+      health_sink_(health_sink),
+      shadows_(std::move(shadows)) {}
 
 absl::StatusOr<ServingSet> ScoringService::Lookup(
     const std::string& set) const {
@@ -27,6 +29,20 @@ absl::StatusOr<ServingSet> ScoringService::Lookup(
   ServingSet serving = registry_->FindServing(set);
   if (serving.active == nullptr) return SetNotFound(set, registry_->Names());
   return serving;
+}
+
+void ScoringService::StopShadow(const SetVersion& key,
+                                const absl::Status& last) {
+  const std::string why =
+      absl::StrCat("stopped after ", shadows_.tracker->limit(),
+                   " consecutive calls it could not score; last: ",
+                   absl::StatusCodeToString(last.code()));
+  LogEvent(LogLevel::kError, "shadow_stopped",
+           {{"set", key.set},
+            {"version", key.version},
+            {"reason", why},
+            RecordValueField("last_error", last.message())});
+  if (shadows_.stop) shadows_.stop(key, why);
 }
 
 void ScoringService::LogShadowFailure(const scorer::ScoringPlan& plan,
@@ -52,9 +68,17 @@ std::vector<ScoringService::ShadowRun> ScoringService::ScoreShadows(
     std::vector<PlanPtr> shadows, ScoreFn score) {
   std::vector<ShadowRun> runs;
   for (PlanPtr& plan : shadows) {
+    const SetVersion key{plan->name(), plan->version()};
+    if (shadows_.tracker != nullptr && shadows_.tracker->Stopped(key)) {
+      continue;  // retired by now, or about to be
+    }
     ShadowRun run;
     run.plan = std::move(plan);
     absl::StatusOr<Reply> reply = score(*run.plan, &run.inputs);
+    if (shadows_.tracker != nullptr &&
+        shadows_.tracker->Record(key, reply.status()) == ShadowTracker::kStop) {
+      StopShadow(key, reply.status());
+    }
     if (!reply.ok()) {
       LogShadowFailure(*run.plan, reply.status());
       continue;
@@ -78,6 +102,19 @@ absl::Status ScoringService::Record(const scorer::ScoringPlan& plan,
                                     absl::Span<v1::Scored* const> scores,
                                     const std::vector<ShadowRun>& shadows) {
   const absl::Time now = absl::Now();
+  // A record id names one record: two records of one call may not share
+  // one (the ledger refuses ids recorded before, see Ledger::AppendScores).
+  absl::flat_hash_map<absl::string_view, size_t> first_of;
+  for (size_t i = 0; i < scores.size(); ++i) {
+    const std::string& id = scores[i]->record_id();
+    if (id.empty()) continue;
+    auto [it, inserted] = first_of.emplace(id, i);
+    if (!inserted) {
+      return absl::InvalidArgumentError(absl::StrCat(
+          "records ", it->second, " and ", i, " of the batch share record id '",
+          id, "'; a record id names one record"));
+    }
+  }
   std::vector<ScoreEntry> entries(scores.size());
   entries.reserve(scores.size() * (1 + shadows.size()));
   for (size_t i = 0; i < scores.size(); ++i) {
@@ -111,22 +148,47 @@ absl::Status ScoringService::Record(const scorer::ScoringPlan& plan,
                                          run.inputs.Sent(record));
     }
   }
-  if (absl::Status s = ledger_->AppendScores(std::move(entries)); !s.ok()) {
-    // A full queue is the caller's to retry and would flood the log; any
-    // other refusal is a ledger problem the operator must see.
-    if (s.code() != absl::StatusCode::kResourceExhausted) {
+  absl::StatusOr<std::vector<ScoreWrite>> written =
+      ledger_->AppendScores(std::move(entries));
+  if (!written.ok()) {
+    const absl::Status& s = written.status();
+    // A full queue is the caller's to retry and would flood the log, and a
+    // record id recorded before with other features is the caller's
+    // mistake; any other refusal is a ledger problem the operator must see.
+    if (s.code() != absl::StatusCode::kResourceExhausted &&
+        s.code() != absl::StatusCode::kAlreadyExists &&
+        s.code() != absl::StatusCode::kInvalidArgument) {
       LogEvent(LogLevel::kError, "ledger_write_failed",
                {{"set", plan.name()}, {"error", s.message()}});
     }
     return s;
   }
+  // Repeats (retries): the stored score goes back, and the monitor, which
+  // saw the record the first time, does not see it again.
+  std::vector<bool> repeat(scores.size(), false);
+  for (size_t i = 0; i < scores.size() && i < written->size(); ++i) {
+    const ScoreWrite& w = (*written)[i];
+    if (!w.repeat) continue;
+    repeat[i] = true;
+    v1::Scored& scored = *scores[i];
+    scored.set_repeat(true);
+    scored.set_log_odds(w.stored.log_odds);
+    scored.set_probability(w.stored.probability);
+    if (w.stored.set_version != plan.version()) {
+      // Reasons come from the version that scored: this one did not.
+      scored.set_repeat_version(w.stored.set_version);
+      scored.clear_reasons();
+    }
+  }
   if (health_sink_ != nullptr) {
     for (size_t i = 0; i < scores.size(); ++i) {
+      if (repeat[i]) continue;
       health_sink_->OnScored(plan, inputs.Values(static_cast<int>(i)),
                              scores[i]->log_odds(), now);
     }
     for (const ShadowRun& run : shadows) {
       for (size_t i = 0; i < scores.size(); ++i) {
+        if (repeat[i]) continue;
         health_sink_->OnScored(*run.plan,
                                run.inputs.Values(static_cast<int>(i)),
                                run.log_odds[i], now);

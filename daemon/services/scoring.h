@@ -22,6 +22,7 @@
 #ifndef PLUMBLINE_DAEMON_SERVICES_SCORING_H_
 #define PLUMBLINE_DAEMON_SERVICES_SCORING_H_
 
+#include <functional>
 #include <string>
 #include <vector>
 
@@ -34,17 +35,29 @@
 #include "daemon/ledger/ledger.h"
 #include "daemon/scoring/core.h"
 #include "daemon/scoring/set_registry.h"
+#include "daemon/scoring/shadow_tracker.h"
+#include "daemon/util/record_ids.h"
 #include "daemon/util/set_version.h"
 #include "plumbline/v1/scoring.grpc.pb.h"
 
 namespace plumbline::daemon {
+
+// How the service keeps account of its shadows (both may be empty).
+struct ShadowOptions {
+  // Counts each shadow's failures and says when to stop one; must outlive
+  // the service.
+  ShadowTracker* tracker = nullptr;
+  // Retires a stopped shadow (plumbd: the lifecycle, audited with `why`).
+  std::function<void(const SetVersion& shadow, const std::string& why)> stop;
+};
 
 class ScoringService final : public v1::Scoring::Service {
  public:
   // `registry` and `ledger` must outlive the service; `health_sink` may be
   // null (nothing is told) and must otherwise outlive it too.
   ScoringService(const SetRegistry* registry, ScoringLimits limits,
-                 Ledger* ledger, HealthSink* health_sink);
+                 Ledger* ledger, HealthSink* health_sink,
+                 ShadowOptions shadows = {});
 
   grpc::Status Score(grpc::ServerContext* context,
                      const v1::ScoreRequest* request,
@@ -84,12 +97,15 @@ class ScoringService final : public v1::Scoring::Service {
 
   void LogShadowFailure(const scorer::ScoringPlan& plan,
                         const absl::Status& status);
+  // Logs that `key` reached the tracker's limit and calls shadows_.stop.
+  void StopShadow(const SetVersion& key, const absl::Status& last);
 
   // Constant after construction.
   const SetRegistry* const registry_;
   const ScoringLimits limits_;
   Ledger* const ledger_;
   HealthSink* const health_sink_;
+  const ShadowOptions shadows_;
 
   RecordIdGenerator record_ids_;
 

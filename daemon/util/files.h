@@ -20,8 +20,10 @@ namespace plumbline::daemon {
 // the errno-based code; the message names the path.
 absl::StatusOr<std::string> ReadFileToString(const std::string& path);
 
-// Writes `contents` to `path` + ".tmp" and renames it over `path`, so a
-// reader sees either the old file or the whole new one.
+// Writes `contents` to `path` + ".tmp", fsyncs it, renames it over `path`
+// and fsyncs the directory, so a reader (and a restart after a crash) sees
+// either the old file or the whole new one. On an error the .tmp file is
+// removed.
 absl::Status WriteFileAtomically(const std::string& path,
                                  absl::string_view contents);
 

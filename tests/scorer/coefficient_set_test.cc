@@ -1,5 +1,7 @@
 #include "scorer/coefficient_set.h"
 
+#include <unistd.h>
+
 #include <cctype>
 #include <cmath>
 #include <cstdio>
@@ -58,7 +60,9 @@ TEST(CoefficientSetTest, ReadsAFileAndRoundTripsExactly) {
   set.set_intercept(-1.0 / 3.0);
   auto json = CoefficientSetToJson(set);
   ASSERT_TRUE(json.ok());
-  const std::string path = ::testing::TempDir() + "/roundtrip_set.json";
+  // Its own name: other checkouts may run this test at the same time.
+  const std::string path = ::testing::TempDir() + "/roundtrip_set_" +
+                           std::to_string(getpid()) + ".json";
   {
     FILE* f = std::fopen(path.c_str(), "w");
     ASSERT_NE(f, nullptr);

@@ -60,6 +60,26 @@ TEST(DesignMatrixTest, LearnsTransformsAndReferenceLevels) {
   EXPECT_DOUBLE_EQ(set.features(3).missing().impute_number(), 20.0 / 6.0);
 }
 
+TEST(DesignMatrixTest, KnownLevelsKeepTheirOrderAndNewOnesFollow) {
+  // A refit of a set serving [office, house] (in that order) on data that
+  // also holds "flat": the serving order stays, so dense codes 0 and 1 keep
+  // their meaning, and the new level comes after them.
+  std::vector<FeatureSpec> specs = Specs();
+  specs[1].known_levels = {"office", "house", "shed"};  // shed: not in data
+  absl::StatusOr<DesignLayout> layout = DesignLayout::Learn(specs, Parcels());
+  ASSERT_TRUE(layout.ok()) << layout.status();
+  const auto& building = layout->skeleton().features(1).categorical();
+  ASSERT_EQ(building.levels_size(), 3);
+  EXPECT_EQ(building.levels(0).value(), "office");
+  EXPECT_EQ(building.levels(1).value(), "house");
+  EXPECT_EQ(building.levels(2).value(), "flat");
+  // The reference is still the most frequent level (flat, 4 rows).
+  EXPECT_EQ(building.reference_level(), "flat");
+  EXPECT_THAT(layout->column_names(),
+              ElementsAre("distance_km", "building=office", "building=house",
+                          "hour>=13", "weight_kg", "weight_kg:missing"));
+}
+
 TEST(DesignMatrixTest, LearnsBaselines) {
   absl::StatusOr<DesignLayout> layout = DesignLayout::Learn(Specs(), Parcels());
   ASSERT_TRUE(layout.ok()) << layout.status();

@@ -16,6 +16,7 @@
 #include "gmock/gmock.h"
 #include "gtest/gtest.h"
 #include "tests/testing/health_test_sets.h"
+#include "tests/testing/process.h"
 
 namespace plumbline::daemon {
 namespace {
@@ -292,11 +293,9 @@ class HealthRebuildTest : public HealthMonitorTest {
  protected:
   void SetUp() override {
     HealthMonitorTest::SetUp();
-    dir_ = std::filesystem::path(::testing::TempDir()) /
-           absl::StrCat(
-               "health_rebuild_",
-               ::testing::UnitTest::GetInstance()->current_test_info()->name());
-    std::filesystem::remove_all(dir_);
+    // A directory of its own (mkdtemp): tests of other checkouts may run
+    // at the same time, and a ledger takes a lock.
+    dir_ = std::filesystem::path(temp_.path());
     LedgerOptions options;
     options.path = (dir_ / "ledger.db").string();
     options.durable_commits = false;
@@ -309,6 +308,7 @@ class HealthRebuildTest : public HealthMonitorTest {
     std::filesystem::remove_all(dir_);
   }
 
+  testing::TempDir temp_;
   std::filesystem::path dir_;
   std::unique_ptr<Ledger> ledger_;
   std::vector<OutcomeEntry> outcomes_;

@@ -101,18 +101,5 @@ TEST(FeaturesJsonTest, StringsAreEscapedAndReadBackUnchanged) {
   EXPECT_EQ(out, R"("a\u0001z")");
 }
 
-TEST(RecordIdGeneratorTest, IdsNameTheSetTheTimeAndCountUp) {
-  RecordIdGenerator ids;
-  const absl::Time t = absl::FromUnixMicros(1764577800123456);
-  EXPECT_EQ(ids.Next("courier", t), "courier-1764577800123456-1");
-  EXPECT_EQ(ids.Next("courier", t), "courier-1764577800123456-2");
-  absl::flat_hash_set<std::string> seen;
-  for (int i = 0; i < 1000; ++i) {
-    const std::string id = ids.Next("depot", t);
-    EXPECT_THAT(id, MatchesRegex("depot-1764577800123456-[0-9]+"));
-    EXPECT_TRUE(seen.insert(id).second) << id;
-  }
-}
-
 }  // namespace
 }  // namespace plumbline::daemon

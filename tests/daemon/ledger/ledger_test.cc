@@ -1,5 +1,7 @@
 #include "daemon/ledger/ledger.h"
 
+#include <unistd.h>
+
 #include <atomic>
 #include <filesystem>
 #include <string>
@@ -10,6 +12,8 @@
 #include "absl/time/clock.h"
 #include "gmock/gmock.h"
 #include "gtest/gtest.h"
+#include "tests/testing/process.h"
+#include "tests/testing/status_matchers.h"
 
 namespace plumbline::daemon {
 namespace {
@@ -19,11 +23,9 @@ using ::testing::HasSubstr;
 class LedgerTest : public ::testing::Test {
  protected:
   void SetUp() override {
-    dir_ = std::filesystem::path(::testing::TempDir()) /
-           absl::StrCat(
-               "ledger_test_",
-               ::testing::UnitTest::GetInstance()->current_test_info()->name());
-    std::filesystem::remove_all(dir_);
+    // A directory of its own (mkdtemp): tests of other checkouts may run
+    // at the same time, and a ledger takes a lock.
+    dir_ = std::filesystem::path(temp_.path());
     options_.path = (dir_ / "sub" / "ledger.db").string();
   }
 
@@ -44,6 +46,14 @@ class LedgerTest : public ::testing::Test {
                       R"({"distance_km":3})"};
   }
 
+  // `n` scores with ids "<prefix>-0" .. "<prefix>-<n-1>".
+  static std::vector<ScoreEntry> Scores(const std::string& prefix, int n) {
+    std::vector<ScoreEntry> out;
+    for (int i = 0; i < n; ++i)
+      out.push_back(Score(absl::StrCat(prefix, "-", i)));
+    return out;
+  }
+
   // Another connection holding the write lock: the writer waits on SQLite's
   // busy timeout and what is queued stays queued until "COMMIT" on it.
   std::unique_ptr<SqliteDb> HoldWriteLock() {
@@ -62,8 +72,9 @@ class LedgerTest : public ::testing::Test {
       int64_t queued) {
     absl::StatusOr<std::vector<OutcomeResult>> results;
     std::thread reporter([&] { results = ledger.ReportOutcomes(outcomes); });
-    while (ledger.stats().queued_rows < queued)
-      absl::SleepFor(absl::Milliseconds(1));
+    EXPECT_TRUE(testing::PollUntil([&] {
+      return ledger.stats().queued_rows >= queued;
+    })) << "the rows never queued behind the lock";
     EXPECT_TRUE(blocker.Exec("COMMIT").ok());
     reporter.join();
     return results;
@@ -77,6 +88,7 @@ class LedgerTest : public ::testing::Test {
     return n.ok() ? *n : -1;
   }
 
+  testing::TempDir temp_;
   std::filesystem::path dir_;
   LedgerOptions options_;
 };
@@ -172,12 +184,10 @@ TEST_F(LedgerTest, SurvivesReopenAndReadsLabelledNewestFirst) {
 TEST_F(LedgerTest, FullQueueIsResourceExhaustedNotADrop) {
   options_.queue_capacity_rows = 10;
   auto ledger = OpenLedger();
-  std::vector<ScoreEntry> too_many(11, Score("x"));
-  absl::Status st = ledger->AppendScores(too_many);
+  absl::Status st = ledger->AppendScores(Scores("x", 11)).status();
   EXPECT_EQ(st.code(), absl::StatusCode::kResourceExhausted);
   EXPECT_THAT(st.message(), HasSubstr("queue capacity of 10 rows"));
-  EXPECT_TRUE(
-      ledger->AppendScores(std::vector<ScoreEntry>(10, Score("y"))).ok());
+  EXPECT_TRUE(ledger->AppendScores(Scores("y", 10)).ok());
   EXPECT_EQ(Count("scores"), 10);
 }
 
@@ -190,10 +200,8 @@ TEST_F(LedgerTest, QueueHoldingRowsNotYetCommittedRefusesMore) {
   // against the capacity.
   auto blocker = HoldWriteLock();
   ASSERT_NE(blocker, nullptr);
-  ASSERT_TRUE(
-      ledger->AppendScores(std::vector<ScoreEntry>(3, Score("q"))).ok());
-  absl::Status st =
-      ledger->AppendScores(std::vector<ScoreEntry>(8, Score("r")));
+  ASSERT_TRUE(ledger->AppendScores(Scores("q", 3)).ok());
+  absl::Status st = ledger->AppendScores(Scores("r", 8)).status();
   EXPECT_EQ(st.code(), absl::StatusCode::kResourceExhausted);
   EXPECT_THAT(st.message(),
               HasSubstr("queue is full (3 rows waiting, capacity 10)"));
@@ -279,6 +287,10 @@ TEST_F(LedgerTest, MigratesAVersion3LedgerDroppingTheSetTimeIndex) {
     ASSERT_TRUE((*db)
                     ->Exec("CREATE INDEX scores_by_set_time ON scores(set_id, "
                            "scored_at_us);"
+                           // Nor what schema 5 adds.
+                           "DROP INDEX scores_by_record; DROP TABLE set_names;"
+                           "ALTER TABLE scores DROP COLUMN primary_set;"
+                           "CREATE INDEX scores_by_record ON scores(record_id);"
                            "PRAGMA user_version = 3;")
                     .ok());
   }
@@ -425,8 +437,9 @@ TEST_F(LedgerTest, RetentionBetweenLookupAndWriteIsNoticed) {
   auto ledger = OpenLedger();
   ASSERT_NE(ledger, nullptr);
   ASSERT_TRUE(ledger->AppendScores({Score("old")}).ok());
-  while (ledger->stats().committed_rows < 1)
-    absl::SleepFor(absl::Milliseconds(1));
+  ASSERT_TRUE(testing::PollUntil([&] {
+    return ledger->stats().committed_rows >= 1;
+  })) << "the first score was never committed";
   auto blocker = HoldWriteLock();
   ASSERT_NE(blocker, nullptr);
   // Committed after the lock is released, then retention keeps only it.
@@ -545,6 +558,154 @@ TEST_F(LedgerTest, OutcomesLabelEveryScoreOfTheirRecordWithItsSet) {
   EXPECT_EQ(l[1].set_version, "v2");
   EXPECT_EQ(l[1].role, ScoreRole::kShadow);
   EXPECT_EQ(l[1].log_odds, 0.3);
+}
+
+// ---- Record identity: one record id, one score per set ----
+
+TEST_F(LedgerTest, ARetryWithTheSameFeaturesReturnsTheStoredScore) {
+  auto ledger = OpenLedger();
+  ASSERT_NE(ledger, nullptr);
+  ScoreEntry shadow = Score("r1", 0.9);
+  shadow.set_version = "v2";
+  shadow.role = ScoreRole::kShadow;
+  ASSERT_OK_AND_ASSIGN(auto first,
+                       ledger->AppendScores({Score("r1", 0.5), shadow}));
+  EXPECT_FALSE(first[0].repeat);
+  // The retry: scored again (by a later version, say) with the same
+  // features. Nothing is written; the first score comes back.
+  ScoreEntry again = Score("r1", 0.7);
+  again.set_version = "v3";
+  ASSERT_OK_AND_ASSIGN(auto second, ledger->AppendScores({again, shadow}));
+  ASSERT_EQ(second.size(), 2u);
+  EXPECT_TRUE(second[0].repeat);
+  EXPECT_EQ(second[0].stored.set_version, "v1");
+  EXPECT_EQ(second[0].stored.log_odds, 0.5);
+  EXPECT_EQ(second[0].stored.probability, 0.6);
+  EXPECT_TRUE(second[1].repeat);  // its shadow score came with it
+  EXPECT_EQ(Count("scores"), 2);
+  EXPECT_EQ(ledger->stats().repeated_records, 2);
+  // The outcome labels the one score and its shadow.
+  ASSERT_OK_AND_ASSIGN(auto labelled, ledger->ReportOutcomes({{"r1", 1}}));
+  EXPECT_EQ(labelled[0].labelled.size(), 2u);
+}
+
+TEST_F(LedgerTest, TheSameIdWithOtherFeaturesIsRefusedAndWritesNothing) {
+  auto ledger = OpenLedger();
+  ASSERT_NE(ledger, nullptr);
+  ASSERT_OK(ledger->AppendScores({Score("r1")}));
+  ScoreEntry other = Score("r1");
+  other.features_json = R"({"distance_km":4})";
+  // The whole call is refused: the new record in it is not written either.
+  EXPECT_THAT(ledger->AppendScores({Score("r2"), other}),
+              plumbline::testing::StatusIs(
+                  absl::StatusCode::kAlreadyExists,
+                  ::testing::AllOf(HasSubstr("record id 'r1'"),
+                                   HasSubstr("set 'courier' (version v1"))));
+  EXPECT_EQ(Count("scores"), 1);
+  EXPECT_EQ(ledger->stats().conflicting_records, 1);
+  // Other calls of the same group are unaffected.
+  ASSERT_OK(ledger->AppendScores({Score("r2")}));
+  EXPECT_EQ(Count("scores"), 2);
+}
+
+TEST_F(LedgerTest, AnotherSetMayUseTheSameIdAndTheOutcomeLabelsBoth) {
+  auto ledger = OpenLedger();
+  ASSERT_NE(ledger, nullptr);
+  ScoreEntry depot = Score("r1", 0.3);
+  depot.set_name = "depot";
+  ASSERT_OK_AND_ASSIGN(auto a, ledger->AppendScores({Score("r1", 0.2)}));
+  ASSERT_OK_AND_ASSIGN(auto b, ledger->AppendScores({depot}));
+  EXPECT_FALSE(b[0].repeat);
+  ASSERT_OK_AND_ASSIGN(auto results, ledger->ReportOutcomes({{"r1", 0}}));
+  ASSERT_EQ(results[0].labelled.size(), 2u);
+  EXPECT_EQ(results[0].labelled[0].set_name, "courier");
+  EXPECT_EQ(results[0].labelled[1].set_name, "depot");
+}
+
+TEST_F(LedgerTest, ConcurrentCallsWithOneIdStoreOneScore) {
+  auto ledger = OpenLedger();
+  ASSERT_NE(ledger, nullptr);
+  // Eight callers race with the same record (a client retrying in
+  // parallel): one score is stored, every caller gets it back.
+  std::vector<std::thread> callers;
+  std::atomic<int> ok{0}, repeats{0};
+  for (int t = 0; t < 8; ++t) {
+    callers.emplace_back([&] {
+      auto written = ledger->AppendScores({Score("same")});
+      if (!written.ok()) return;
+      ++ok;
+      if ((*written)[0].repeat) ++repeats;
+    });
+  }
+  for (std::thread& c : callers) c.join();
+  EXPECT_EQ(ok.load(), 8);
+  EXPECT_EQ(repeats.load(), 7);
+  EXPECT_EQ(Count("scores"), 1);
+}
+
+TEST_F(LedgerTest, LargeBatchesWithARepeatGoRowByRow) {
+  auto ledger = OpenLedger();
+  ASSERT_NE(ledger, nullptr);
+  ASSERT_OK(ledger->AppendScores({Score("x-200")}));
+  // 300 rows: two 128-row statements and 44 single rows; one is a repeat.
+  std::vector<ScoreEntry> batch;
+  for (int i = 0; i < 300; ++i) batch.push_back(Score(absl::StrCat("x-", i)));
+  ASSERT_OK_AND_ASSIGN(auto written, ledger->AppendScores(batch));
+  for (int i = 0; i < 300; ++i) EXPECT_EQ(written[i].repeat, i == 200) << i;
+  EXPECT_EQ(Count("scores"), 300);
+}
+
+TEST_F(LedgerTest, MigratesAVersion4LedgerKeepingRepeatsButLabellingTheFirst) {
+  // A version 4 ledger holding the same record id twice for one set (as
+  // versions before 5 allowed) and once for another.
+  {
+    auto ledger = OpenLedger();
+    ASSERT_NE(ledger, nullptr);
+    ScoreEntry depot = Score("dup", 0.4);
+    depot.set_name = "depot";
+    ASSERT_OK(ledger->AppendScores({Score("dup", 0.1), depot}));
+  }
+  {
+    auto db = SqliteDb::Open(options_.path);
+    ASSERT_TRUE(db.ok());
+    // Back to schema 4: no set_names, no primary_set, a plain index.
+    ASSERT_OK((*db)->Exec(
+        "DROP INDEX scores_by_record; DROP TABLE set_names;"
+        "ALTER TABLE scores DROP COLUMN primary_set;"
+        "CREATE INDEX scores_by_record ON scores(record_id);"
+        "INSERT INTO scores(record_id, set_id, scored_at_us, log_odds,"
+        " probability, features) SELECT record_id, set_id, scored_at_us + 1,"
+        " 0.9, 0.7, features FROM scores WHERE log_odds = 0.1;"
+        "PRAGMA user_version = 4;"));
+  }
+  auto ledger = OpenLedger();
+  ASSERT_NE(ledger, nullptr);
+  EXPECT_EQ(Count("scores"), 3);  // the repeat is kept
+  ASSERT_OK_AND_ASSIGN(auto results, ledger->ReportOutcomes({{"dup", 1}}));
+  // The first courier score and the depot score: not the later repeat.
+  ASSERT_EQ(results[0].labelled.size(), 2u);
+  EXPECT_EQ(results[0].labelled[0].log_odds, 0.1);
+  EXPECT_EQ(results[0].labelled[1].set_name, "depot");
+  // And from now on the id is taken for courier.
+  ScoreEntry other = Score("dup");
+  other.features_json = "{}";
+  EXPECT_THAT(ledger->AppendScores({other}),
+              plumbline::testing::StatusIs(absl::StatusCode::kAlreadyExists));
+}
+
+TEST_F(LedgerTest, ASecondWriterOnTheSameLedgerIsRefusedNamingTheFirst) {
+  options_.holder_note = "listen 127.0.0.1:7390";
+  auto first = OpenLedger();
+  ASSERT_NE(first, nullptr);
+  EXPECT_THAT(Ledger::Open(options_),
+              plumbline::testing::StatusIs(
+                  absl::StatusCode::kFailedPrecondition,
+                  ::testing::AllOf(HasSubstr("is in use by another plumbd"),
+                                   HasSubstr(absl::StrCat("pid ", getpid())),
+                                   HasSubstr("listen 127.0.0.1:7390"))));
+  first.reset();
+  // Released with the ledger.
+  EXPECT_NE(OpenLedger(), nullptr);
 }
 
 }  // namespace

@@ -15,6 +15,8 @@
 #include "daemon/ledger/ledger.h"
 #include "daemon/registry/version_store.h"
 #include "daemon/scoring/set_registry.h"
+#include "gmock/gmock.h"
+#include "google/protobuf/util/json_util.h"
 #include "gtest/gtest.h"
 #include "scorer/coefficient_set.h"
 #include "tests/testing/process.h"
@@ -183,6 +185,149 @@ TEST_F(LifecycleRulesTest, ShadowsServeBesideTheActiveVersion) {
   ASSERT_TRUE(s.lifecycle->Activate({"courier", "c1", "a", ""}).ok());
   EXPECT_TRUE(s.registry->Shadows("courier").empty());
   EXPECT_EQ(s.Active("courier"), "c1");
+}
+
+// ---- Schema changes: calls valid today must not fail tomorrow ----
+
+// The courier set of tests/testing/test_sets.h without its 'region'
+// feature: callers that send region would be refused.
+v1::CoefficientSet WithoutRegion(const std::string& version) {
+  v1::CoefficientSet set = *scorer::ParseCoefficientSet(
+      testing::CourierSetJson("courier", version, -0.5), "test");
+  auto* features = set.mutable_features();
+  for (int i = 0; i < features->size(); ++i) {
+    if (features->Get(i).name() == "region") {
+      features->DeleteSubrange(i, 1);
+      break;
+    }
+  }
+  return set;
+}
+
+std::vector<std::string> AuditActions(Stack& s) {
+  std::vector<std::string> actions;
+  for (const AuditRecord& r : *s.lifecycle->Audit("courier")) {
+    actions.push_back(r.action);
+  }
+  return actions;
+}
+
+TEST_F(LifecycleRulesTest, AnIncompatibleVersionIsRefusedNamingTheDifference) {
+  WriteSet("v1");
+  Stack s(dir_);
+  ASSERT_TRUE(s.registry->Reload().ok());
+  // Loading it is refused unless allowed...
+  absl::StatusOr<VersionRecord> refused =
+      s.lifecycle->AddCandidate({WithoutRegion("c1"), "t", "", "", {}});
+  ASSERT_EQ(refused.status().code(), absl::StatusCode::kFailedPrecondition);
+  EXPECT_THAT(std::string(refused.status().message()),
+              ::testing::HasSubstr("feature 'region' is gone"));
+  NewVersion allowed{WithoutRegion("c1"), "t", "", "", {}};
+  allowed.allow_schema_change = true;
+  ASSERT_TRUE(s.lifecycle->AddCandidate(allowed).ok());
+  // ...and so are activating, approving and shadowing it.
+  for (auto op :
+       {&Lifecycle::Activate, &Lifecycle::Approve, &Lifecycle::Shadow}) {
+    absl::StatusOr<VersionRecord> r =
+        (s.lifecycle.get()->*op)({"courier", "c1", "alice", "try"});
+    EXPECT_EQ(r.status().code(), absl::StatusCode::kFailedPrecondition);
+    EXPECT_THAT(std::string(r.status().message()),
+                ::testing::HasSubstr("--allow_schema_change"));
+  }
+  EXPECT_EQ(s.Active("courier"), "v1");
+  StateChange approve{"courier", "c1", "alice", "callers updated"};
+  approve.allow_schema_change = true;
+  ASSERT_TRUE(s.lifecycle->Approve(approve).ok());
+  EXPECT_EQ(s.Active("courier"), "c1");
+  // Both allowances are in the audit, with the difference.
+  const std::vector<AuditRecord> audit = *s.lifecycle->Audit("courier");
+  int allowed_entries = 0;
+  for (const AuditRecord& r : audit) {
+    if (r.action != "schema_change_allowed") continue;
+    ++allowed_entries;
+    EXPECT_THAT(r.detail, ::testing::HasSubstr("feature 'region' is gone"));
+  }
+  EXPECT_EQ(allowed_entries, 2);
+  // Rolling back returns to the schema callers used before: allowed, and
+  // recorded.
+  ASSERT_TRUE(s.lifecycle->Rollback({"courier", "", "alice", "undo"}).ok());
+  EXPECT_EQ(s.Active("courier"), "v1");
+}
+
+TEST_F(LifecycleRulesTest, ACompatibleVersionNeedsNoAllowance) {
+  WriteSet("v1");
+  Stack s(dir_);
+  ASSERT_TRUE(s.registry->Reload().ok());
+  // Other coefficients, same features: nothing to allow.
+  ASSERT_TRUE(
+      s.lifecycle->AddCandidate({Candidate("c1"), "t", "", "", {}}).ok());
+  ASSERT_TRUE(s.lifecycle->Approve({"courier", "c1", "alice", "ok"}).ok());
+  for (const std::string& action : AuditActions(s)) {
+    EXPECT_NE(action, "schema_change_allowed");
+  }
+}
+
+TEST_F(LifecycleRulesTest, AnIncompatibleFileVersionStaysACandidate) {
+  WriteSet("v1");
+  Stack s(dir_);
+  ASSERT_TRUE(s.registry->Reload().ok());
+  std::string json;
+  ASSERT_TRUE(
+      google::protobuf::util::MessageToJsonString(WithoutRegion("v2"), &json)
+          .ok());
+  ASSERT_TRUE(
+      testing::WriteTextFile(dir_.File("sets/courier.json"), json).ok());
+  ASSERT_TRUE(s.registry->Reload().ok());
+  EXPECT_EQ(s.Active("courier"), "v1") << "the old version keeps serving";
+  bool found = false;
+  for (const VersionRecord& r : *s.lifecycle->List("courier")) {
+    if (r.version != "v2") continue;
+    found = true;
+    EXPECT_EQ(r.state, VersionState::kCandidate);
+  }
+  EXPECT_TRUE(found);
+  EXPECT_THAT(AuditActions(s), ::testing::Contains("not_activated"));
+  // A person who has updated the callers serves it.
+  StateChange activate{"courier", "v2", "alice", "callers updated"};
+  activate.allow_schema_change = true;
+  ASSERT_TRUE(s.lifecycle->Activate(activate).ok());
+  EXPECT_EQ(s.Active("courier"), "v2");
+}
+
+TEST_F(LifecycleRulesTest, TheSameFileWithAnotherMapOrderIsNotAChange) {
+  // Baselines hold maps (level proportions) whose JSON key order is not
+  // fixed: the same set written with keys in another order is the same
+  // version, not a reuse.
+  WriteSet("v1");
+  Stack s(dir_);
+  ASSERT_TRUE(s.registry->Reload().ok());
+  std::string json = testing::CourierSetJson("courier", "v1", -1.5);
+  v1::CoefficientSet set = *scorer::ParseCoefficientSet(json, "t");
+  // Re-serialize (protobuf may order map keys differently from the file).
+  std::string again;
+  ASSERT_TRUE(google::protobuf::util::MessageToJsonString(set, &again).ok());
+  ASSERT_TRUE(
+      testing::WriteTextFile(dir_.File("sets/courier.json"), again).ok());
+  ASSERT_TRUE(s.registry->Reload().ok());
+  EXPECT_EQ(s.Active("courier"), "v1");
+}
+
+TEST_F(LifecycleRulesTest, AStoppedShadowIsRetiredAndAudited) {
+  WriteSet("v1");
+  Stack s(dir_);
+  ASSERT_TRUE(s.registry->Reload().ok());
+  ASSERT_TRUE(
+      s.lifecycle->AddCandidate({Candidate("c1"), "t", "", "", {}}).ok());
+  ASSERT_TRUE(s.lifecycle->Shadow({"courier", "c1", "a", "try it"}).ok());
+  ASSERT_TRUE(s.lifecycle
+                  ->StopShadow({"courier", "c1", "plumbd",
+                                "stopped after 100 consecutive calls"})
+                  .ok());
+  EXPECT_TRUE(s.registry->Shadows("courier").empty());
+  EXPECT_THAT(AuditActions(s), ::testing::Contains("shadow_stopped"));
+  EXPECT_EQ(
+      s.lifecycle->StopShadow({"courier", "c1", "plumbd", ""}).status().code(),
+      absl::StatusCode::kFailedPrecondition);
 }
 
 }  // namespace

@@ -139,7 +139,7 @@ TEST_F(OutcomesTest, ScoresAndOutcomesLandInTheLedgerAsSent) {
   ASSERT_TRUE(status.ok()) << status.error_message();
   ASSERT_EQ(scored.scores_size(), 4);
   const std::string generated = scored.scores(3).record_id();
-  EXPECT_THAT(generated, MatchesRegex("courier-[0-9]+-[0-9]+"));
+  EXPECT_THAT(generated, MatchesRegex("courier-[0-9]+-[0-9a-f]{8}-[0-9]+"));
 
   // ReportOutcome: new, same label again, different label, unknown id,
   // label 2, empty id.

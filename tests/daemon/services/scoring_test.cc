@@ -108,10 +108,10 @@ TEST_F(ScoringServiceTest, RecordsWithoutIdGetOneFromTheServer) {
   ASSERT_TRUE(service_->ScoreBatch(nullptr, &request, &reply).ok());
   ASSERT_EQ(reply.scores_size(), 3);
   EXPECT_THAT(reply.scores(0).record_id(),
-              MatchesRegex("courier-[0-9]+-[0-9]+"));
+              MatchesRegex("courier-[0-9]+-[0-9a-f]{8}-[0-9]+"));
   EXPECT_EQ(reply.scores(1).record_id(), "given");
   EXPECT_THAT(reply.scores(2).record_id(),
-              MatchesRegex("courier-[0-9]+-[0-9]+"));
+              MatchesRegex("courier-[0-9]+-[0-9a-f]{8}-[0-9]+"));
   EXPECT_NE(reply.scores(0).record_id(), reply.scores(2).record_id());
   EXPECT_EQ(FeaturesOf(reply.scores(2).record_id()), R"({"distance_km":2})");
 }
