@@ -3,6 +3,10 @@
 // commit, outcomes and retention. The read side is in ledger_reads.cc.
 #include "daemon/ledger/ledger.h"
 
+#include <sys/stat.h>
+
+#include <cerrno>
+#include <cstring>
 #include <filesystem>
 #include <utility>
 
@@ -112,7 +116,9 @@ constexpr char kInsertScoreColumns[] =
 
 int Ledger::SchemaVersion() { return LatestLedgerSchemaVersion(); }
 
-Ledger::Ledger(LedgerOptions options) : options_(std::move(options)) {}
+Ledger::Ledger(LedgerOptions options)
+    : options_(std::move(options)),
+      env_(options_.env != nullptr ? options_.env : LedgerEnv::Default()) {}
 
 absl::StatusOr<std::unique_ptr<Ledger>> Ledger::Open(LedgerOptions options) {
   const std::filesystem::path dir =
@@ -131,10 +137,28 @@ absl::StatusOr<std::unique_ptr<Ledger>> Ledger::Open(LedgerOptions options) {
       LedgerLock::Acquire(ledger->options_.path, ledger->options_.holder_note);
   if (!lock.ok()) return lock.status();
   ledger->lock_ = *std::move(lock);
-  auto db = SqliteDb::Open(ledger->options_.path);
+  const std::string& path = ledger->options_.path;
+  // SQLite takes an empty file for a new database; plumbd never leaves one
+  // (its first act is to write the header), so one is a truncated ledger or
+  // someone else's file.
+  if (struct stat st; ::stat(path.c_str(), &st) == 0 && st.st_size == 0) {
+    return absl::FailedPreconditionError(absl::StrCat(
+        "ledger ", path,
+        " exists but is empty (0 bytes): a truncated ledger or not one "
+        "plumbd made; restore it from a backup, or remove it to start a new "
+        "ledger"));
+  }
+  auto db = SqliteDb::Open(path, ledger->env_);
   if (!db.ok()) return db.status();
   ledger->writer_db_ = *std::move(db);
   SqliteDb& w = *ledger->writer_db_;
+  // SQLite opens a file it may not write read-only without a word.
+  if (sqlite3_db_readonly(w.handle(), "main") == 1) {
+    return absl::FailedPreconditionError(absl::StrCat(
+        "ledger ", path,
+        " cannot be written (a read-only or immutable file, or a read-only "
+        "file system): plumbd must write every score it acknowledges"));
+  }
   if (absl::Status st = w.Exec("PRAGMA journal_mode=WAL"); !st.ok()) return st;
   // NORMAL: COMMIT does not fsync; with durable_commits WalSyncer does it
   // before the acknowledgement (see daemon/wal_io.h).
@@ -142,14 +166,24 @@ absl::StatusOr<std::unique_ptr<Ledger>> Ledger::Open(LedgerOptions options) {
     return st;
   }
   if (absl::Status st = MigrateLedger(w); !st.ok()) return st;
-  auto checkpointer = WalCheckpointer::Start(ledger->options_.path);
+  // The file the writer writes: CheckFile compares the path with it before
+  // every group, so a deleted or replaced ledger stops acknowledgement.
+  if (struct stat st; ::stat(path.c_str(), &st) == 0) {
+    ledger->file_dev_ = st.st_dev;
+    ledger->file_ino_ = st.st_ino;
+  } else {
+    return absl::UnavailableError(
+        absl::StrCat("ledger ", path, ": cannot stat: ", std::strerror(errno)));
+  }
+  auto checkpointer =
+      WalCheckpointer::Start(ledger->options_.path, ledger->env_);
   if (!checkpointer.ok()) return checkpointer.status();
   ledger->checkpointer_ = *std::move(checkpointer);
   // Replaces SQLite's automatic checkpoint inside COMMIT.
   sqlite3_wal_hook(w.handle(), &Ledger::OnWalCommit, ledger.get());
   if (ledger->options_.durable_commits) {
     ledger->syncer_ = std::make_unique<WalSyncer>(
-        absl::StrCat(ledger->options_.path, "-wal"));
+        absl::StrCat(ledger->options_.path, "-wal"), ledger->env_);
   }
 
   auto s = std::make_unique<Statements>();
@@ -213,7 +247,8 @@ absl::StatusOr<std::unique_ptr<Ledger>> Ledger::Open(LedgerOptions options) {
   if (!set_ids.ok()) return set_ids.status();
   ledger->set_ids_ = *std::move(set_ids);
   ledger->stmts_ = std::move(s);
-  ledger->lookup_ = std::make_unique<ScoreLookup>(ledger->options_.path);
+  ledger->lookup_ =
+      std::make_unique<ScoreLookup>(ledger->options_.path, ledger->env_);
   ledger->writer_ = std::thread([l = ledger.get()] { l->WriterLoop(); });
   return ledger;
 }
@@ -254,6 +289,7 @@ LedgerStats Ledger::stats() const {
 absl::Status Ledger::Enqueue(const std::shared_ptr<Job>& job) {
   absl::MutexLock lock(&mu_);
   if (stopping_) return absl::UnavailableError("ledger is shutting down");
+  if (!failed_.ok()) return failed_;
   const auto rows = static_cast<int64_t>(job->rows());
   const auto capacity = static_cast<int64_t>(options_.queue_capacity_rows);
   if (rows > capacity) {
@@ -353,9 +389,14 @@ void Ledger::WriterLoop() {
       }
     }
     const absl::Time start = absl::Now();
-    absl::Status st = RunGroup(group);
     size_t rows = 0;
     for (const auto& job : group) rows += job->rows();
+    // Nothing is written once the ledger has failed (an fsync that failed,
+    // the file removed or replaced): it could not be acknowledged.
+    absl::Status st = Failure();
+    if (st.ok()) st = CheckFile();
+    if (st.ok()) st = RunGroup(group);
+    if (!st.ok()) WriteFailed(st, rows);
     {
       absl::MutexLock lock(&mu_);
       queued_rows_ -= static_cast<int64_t>(rows);
@@ -365,6 +406,14 @@ void Ledger::WriterLoop() {
       // with the next group.
       syncer_->After(
           [this, group = std::move(group), start, rows](absl::Status synced) {
+            if (!synced.ok()) {
+              // Committed but maybe not on disk: after a failed fsync the
+              // kernel may have dropped the pages it could not write, and a
+              // later fsync would then succeed without them. So nothing
+              // more is acknowledged (fail-stop, as databases do).
+              Fail(synced);
+              WriteFailed(synced, rows);
+            }
             Finish(group, std::move(synced), start, rows);
           });
     } else {
@@ -390,6 +439,72 @@ void Ledger::WriterLoop() {
       checkpointer_->CheckpointOn(*writer_db_);
     }
   }
+}
+
+absl::Status Ledger::Failure() const {
+  absl::MutexLock lock(&mu_);
+  return failed_;
+}
+
+void Ledger::Fail(const absl::Status& cause) {
+  {
+    absl::MutexLock lock(&mu_);
+    if (!failed_.ok()) return;
+    failed_ = absl::UnavailableError(absl::StrCat(
+        "the ledger stopped taking writes: ", cause.message(),
+        "; nothing more is acknowledged until plumbd is restarted on a "
+        "healthy ledger"));
+    stats_.failed = true;
+  }
+  LogEvent(LogLevel::kError, "ledger_failed",
+           {{"file", options_.path},
+            {"error", cause.message()},
+            {"effect",
+             "every write is refused with UNAVAILABLE until plumbd is "
+             "restarted; acknowledged rows are on disk"}});
+}
+
+absl::Status Ledger::CheckFile() {
+  struct stat now;
+  absl::Status lost;
+  if (::stat(options_.path.c_str(), &now) != 0) {
+    lost = absl::UnavailableError(absl::StrCat(
+        "ledger ", options_.path, " is gone (", std::strerror(errno),
+        "): rows written now would go to a deleted file"));
+  } else if (now.st_dev != file_dev_ || now.st_ino != file_ino_) {
+    lost = absl::UnavailableError(
+        absl::StrCat("ledger ", options_.path,
+                     " was replaced by another file since plumbd opened it"));
+  }
+  if (!lost.ok()) Fail(lost);
+  return lost;
+}
+
+void Ledger::WriteFailed(const absl::Status& st, size_t rows) {
+  absl::string_view reason = "other";
+  switch (st.code()) {
+    case absl::StatusCode::kResourceExhausted:
+      reason = "disk_full";
+      break;
+    case absl::StatusCode::kUnavailable:
+      reason = "unavailable";
+      break;
+    case absl::StatusCode::kDataLoss:
+      reason = "corrupt";
+      break;
+    default:
+      break;
+  }
+  LogEvent(LogLevel::kError, "ledger_write_failed",
+           {{"file", options_.path},
+            {"reason", reason},
+            {"rows", absl::StrCat(rows)},
+            {"error", st.message()},
+            {"effect",
+             "the calls get the error; nothing of them is "
+             "acknowledged"}});
+  absl::MutexLock lock(&mu_);
+  ++stats_.write_failures[std::string(reason)];
 }
 
 void Ledger::Finish(const std::vector<std::shared_ptr<Job>>& group,

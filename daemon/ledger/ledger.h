@@ -36,6 +36,7 @@
 #include <cstdint>
 #include <deque>
 #include <functional>
+#include <map>
 #include <memory>
 #include <string>
 #include <thread>
@@ -67,6 +68,9 @@ struct LedgerOptions {
   // What the lock file says about this writer besides pid, host and start
   // time (plumbd: its listen address).
   std::string holder_note;
+  // Every file access of the ledger goes through it (daemon/ledger/env.h);
+  // null: LedgerEnv::Default(). Must outlive the ledger.
+  LedgerEnv* env = nullptr;
   // Rows (scores + outcomes) that may wait for the writer; beyond this new
   // writes get RESOURCE_EXHAUSTED.
   size_t queue_capacity_rows = 200000;
@@ -162,6 +166,12 @@ struct LedgerStats {
   // record id had been recorded with other features.
   int64_t repeated_records = 0;
   int64_t conflicting_records = 0;
+  // Groups that failed to commit (or to sync), by reason: "disk_full",
+  // "unavailable" (I/O error, locked, file lost), "corrupt", "other".
+  std::map<std::string, int64_t> write_failures;
+  // Whether the ledger has stopped taking writes for good (an fsync that
+  // failed, the file deleted or replaced); plumbd must be restarted.
+  bool failed = false;
 };
 
 class Ledger {
@@ -232,6 +242,15 @@ class Ledger {
   // One job's scores row by row (some (record id, set) was there before),
   // `ids` its scores' set ids.
   absl::Status WriteJobScores(Job& job, const LedgerSetId* ids);
+  // OK, or why the ledger stopped taking writes.
+  absl::Status Failure() const;
+  // Stops taking writes for good (this process), logging why once.
+  void Fail(const absl::Status& cause);
+  // UNAVAILABLE (and Fail) if the ledger's path no longer names the file
+  // the writer opened (deleted, or replaced by another file).
+  absl::Status CheckFile();
+  // Logs and counts a group that failed to commit or sync.
+  void WriteFailed(const absl::Status& st, size_t rows);
   // Counts a group's commit (when `st` is OK) and acknowledges its jobs.
   void Finish(const std::vector<std::shared_ptr<Job>>& group, absl::Status st,
               absl::Time start, size_t rows);
@@ -251,6 +270,7 @@ class Ledger {
 
   // Constant after Open.
   const LedgerOptions options_;
+  LedgerEnv* const env_;                   // options_.env or the default
   std::unique_ptr<LedgerLock> lock_;       // released last
   std::unique_ptr<SqliteDb> writer_db_;    // used by the writer thread only
   std::unique_ptr<Statements> stmts_;      // writer thread only
@@ -266,6 +286,7 @@ class Ledger {
   int64_t queued_rows_ ABSL_GUARDED_BY(mu_) = 0;
   bool stopping_ ABSL_GUARDED_BY(mu_) = false;
   LedgerStats stats_ ABSL_GUARDED_BY(mu_);
+  absl::Status failed_ ABSL_GUARDED_BY(mu_);  // OK while healthy
 
   // Retention passes run so far (written by the writer after each pass).
   std::atomic<int64_t> retention_passes_{0};
@@ -273,6 +294,8 @@ class Ledger {
   // Writer thread only.
   absl::Time last_retention_ = absl::InfinitePast();
   int wal_frames_ = 0;  // the WAL's size after the last commit
+  // Device and inode of the ledger file at Open (constant after Open).
+  uint64_t file_dev_ = 0, file_ino_ = 0;
 
   std::thread writer_;
 };

@@ -59,7 +59,8 @@ struct ScoreLookup::Reader {
   std::unique_ptr<SqliteStatement> begin, find, sets, end;
 };
 
-ScoreLookup::ScoreLookup(std::string path) : path_(std::move(path)) {}
+ScoreLookup::ScoreLookup(std::string path, LedgerEnv* env)
+    : path_(std::move(path)), env_(env) {}
 ScoreLookup::~ScoreLookup() = default;
 
 absl::StatusOr<std::unique_ptr<ScoreLookup::Reader>> ScoreLookup::Acquire() {
@@ -72,7 +73,7 @@ absl::StatusOr<std::unique_ptr<ScoreLookup::Reader>> ScoreLookup::Acquire() {
     }
   }
   auto r = std::make_unique<Reader>();
-  auto db = SqliteDb::Open(path_);
+  auto db = SqliteDb::Open(path_, env_);
   if (!db.ok()) return db.status();
   r->db = *std::move(db);
   sqlite3_busy_timeout(r->db->handle(), kReaderBusyMillis);

@@ -48,7 +48,8 @@ absl::StatusOr<bool> FindScores(SqliteStatement& find,
 class ScoreLookup {
  public:
   // Connections open lazily, on the ledger file at `path`.
-  explicit ScoreLookup(std::string path);
+  // `env` must outlive the lookup.
+  ScoreLookup(std::string path, LedgerEnv* env);
   ~ScoreLookup();
   ScoreLookup(const ScoreLookup&) = delete;
   ScoreLookup& operator=(const ScoreLookup&) = delete;
@@ -75,6 +76,7 @@ class ScoreLookup {
   absl::Status LoadSets(Reader& r);
 
   const std::string path_;
+  LedgerEnv* const env_;
   absl::Mutex mu_;
   std::vector<std::unique_ptr<Reader>> idle_ ABSL_GUARDED_BY(mu_);
   // score_sets as committed. A row never changes once committed (retention

@@ -15,11 +15,11 @@ absl::Time FromMicros(int64_t us) { return absl::FromUnixMicros(us); }
 
 // Opens a read connection, binds (set name, since, limit) to ?1..?3 of `sql`
 // and calls `row` for each result row.
-absl::Status ReadRows(const std::string& path, absl::string_view sql,
-                      const std::string& set_name, int64_t limit,
-                      absl::Time since,
+absl::Status ReadRows(const std::string& path, LedgerEnv* env,
+                      absl::string_view sql, const std::string& set_name,
+                      int64_t limit, absl::Time since,
                       const std::function<void(const SqliteStatement&)>& row) {
-  auto db = SqliteDb::Open(path);
+  auto db = SqliteDb::Open(path, env);
   if (!db.ok()) return db.status();
   auto q = (*db)->Prepare(sql);
   if (!q.ok()) return q.status();
@@ -41,7 +41,7 @@ absl::Status Ledger::ForEachLabelled(
     const std::string& set_name, int64_t limit, absl::Time since,
     const std::function<void(const LabelledScore&)>& fn) {
   return ReadRows(
-      options_.path,
+      options_.path, env_,
       "SELECT s.record_id, ss.set_name, ss.set_version, ss.role, s.log_odds,"
       " s.probability, o.label, s.scored_at_us, o.observed_at_us, s.features"
       " FROM outcomes o JOIN scores s ON s.record_id = o.record_id"
@@ -63,7 +63,7 @@ absl::Status Ledger::ForEachScore(
     const std::string& set_name, int64_t limit, absl::Time since,
     const std::function<void(const ScoreEntry&)>& fn) {
   return ReadRows(
-      options_.path,
+      options_.path, env_,
       // Newest id first, stopping at the limit (schema 4 has no index by set
       // and time); CROSS JOIN keeps scores the outer loop so the planner
       // cannot choose a scan of the whole set followed by a sort.

@@ -1,5 +1,6 @@
 #include "daemon/ledger/sqlite_db.h"
 
+#include <cstring>
 #include <utility>
 
 #include "absl/strings/str_cat.h"
@@ -62,7 +63,8 @@ bool SqliteStatement::ColumnIsNull(int i) const {
 }
 
 absl::StatusOr<std::unique_ptr<SqliteDb>> SqliteDb::Open(
-    const std::string& path) {
+    const std::string& path, LedgerEnv* env) {
+  if (env == nullptr) env = LedgerEnv::Default();
   // SQLite's memory statistics take a global mutex on every allocation; the
   // ledger never reads them, and without them its ingest needs about 15%
   // less CPU per row (tests/bench/ledger_bench). The setting only takes
@@ -74,9 +76,12 @@ absl::StatusOr<std::unique_ptr<SqliteDb>> SqliteDb::Open(
   const int rc = sqlite3_open_v2(
       path.c_str(), &db,
       SQLITE_OPEN_READWRITE | SQLITE_OPEN_CREATE | SQLITE_OPEN_NOMUTEX,
-      nullptr);
+      env->vfs_name().c_str());
   if (rc != SQLITE_OK) {
     std::string msg = db != nullptr ? sqlite3_errmsg(db) : sqlite3_errstr(rc);
+    if (db != nullptr && sqlite3_system_errno(db) != 0) {
+      absl::StrAppend(&msg, " [", std::strerror(sqlite3_system_errno(db)), "]");
+    }
     sqlite3_close(db);
     return absl::UnavailableError(
         absl::StrCat("ledger ", path, ": cannot open: ", msg));
@@ -93,11 +98,8 @@ absl::Status SqliteDb::Exec(absl::string_view sql) {
   const std::string text(sql);
   const int rc = sqlite3_exec(db_, text.c_str(), nullptr, nullptr, &err);
   if (rc == SQLITE_OK) return absl::OkStatus();
-  std::string msg = err != nullptr ? err : sqlite3_errstr(rc);
-  sqlite3_free(err);
-  return absl::InternalError(
-      absl::StrCat("ledger ", path_, ": ", msg,
-                   " (while running: ", sql.substr(0, 80), ")"));
+  sqlite3_free(err);  // the connection's message says the same
+  return Error(rc, sql);
 }
 
 absl::StatusOr<std::unique_ptr<SqliteStatement>> SqliteDb::Prepare(
@@ -124,8 +126,17 @@ absl::StatusOr<int64_t> SqliteDb::QueryInt64(absl::string_view sql) {
 }
 
 absl::Status SqliteDb::Error(int rc, absl::string_view what) const {
+  // For I/O errors, what the system said (the env's injected errno too).
+  std::string system;
+  const int primary = rc & 0xff;
+  if (primary == SQLITE_IOERR || primary == SQLITE_FULL ||
+      primary == SQLITE_CANTOPEN || primary == SQLITE_READONLY) {
+    if (const int e = sqlite3_system_errno(db_); e != 0) {
+      system = absl::StrCat(" [", std::strerror(e), "]");
+    }
+  }
   const std::string msg =
-      absl::StrCat("ledger ", path_, ": ", sqlite3_errmsg(db_),
+      absl::StrCat("ledger ", path_, ": ", sqlite3_errmsg(db_), system,
                    " (while running: ", what.substr(0, 80), ")");
   switch (rc & 0xff) {
     case SQLITE_BUSY:
@@ -133,6 +144,12 @@ absl::Status SqliteDb::Error(int rc, absl::string_view what) const {
       return absl::UnavailableError(msg);
     case SQLITE_FULL:
       return absl::ResourceExhaustedError(msg);
+    // The disk or the file failed (an I/O error, a file made read-only or
+    // removed under us): nothing was written; retry later.
+    case SQLITE_IOERR:
+    case SQLITE_READONLY:
+    case SQLITE_CANTOPEN:
+      return absl::UnavailableError(msg);
     case SQLITE_CORRUPT:
     case SQLITE_NOTADB:
       return absl::DataLossError(msg);

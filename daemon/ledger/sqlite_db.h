@@ -26,6 +26,7 @@
 #include "absl/status/status.h"
 #include "absl/status/statusor.h"
 #include "absl/strings/string_view.h"
+#include "daemon/ledger/env.h"
 
 namespace plumbline::daemon {
 
@@ -71,8 +72,10 @@ class SqliteDb {
  public:
   // Opens (creating if needed) the database at `path`, with a busy timeout so
   // concurrent readers wait for the writer instead of failing at once.
+  // Every file access goes through `env` (daemon/ledger/env.h; null: the
+  // default env), which must outlive the connection.
   static absl::StatusOr<std::unique_ptr<SqliteDb>> Open(
-      const std::string& path);
+      const std::string& path, LedgerEnv* env = nullptr);
   ~SqliteDb();
   SqliteDb(const SqliteDb&) = delete;
   SqliteDb& operator=(const SqliteDb&) = delete;

@@ -12,7 +12,8 @@
 
 namespace plumbline::daemon {
 
-WalSyncer::WalSyncer(std::string wal_path) : wal_path_(std::move(wal_path)) {
+WalSyncer::WalSyncer(std::string wal_path, LedgerEnv* env)
+    : wal_path_(std::move(wal_path)), env_(env) {
   for (int i = 0; i < kThreads; ++i) threads_.emplace_back([this] { Loop(); });
 }
 
@@ -38,6 +39,13 @@ absl::Status WalSyncer::Sync(int fd) {
   }
   // fdatasync, as SQLite's own sync of the WAL does on Linux; it also writes
   // the file size, which reading the appended frames needs.
+  if (const int e = env_->Before(LedgerEnv::Op::kSync, wal_path_, 0, 0);
+      e != 0) {
+    errno = e;
+    return absl::UnavailableError(absl::StrCat(
+        "ledger WAL ", wal_path_, ": fdatasync failed: ", strerror(e),
+        "; the last commits may not be on disk"));
+  }
   if (fdatasync(fd) != 0) {
     return absl::UnavailableError(absl::StrCat(
         "ledger WAL ", wal_path_, ": fdatasync failed: ", strerror(errno),
@@ -73,8 +81,8 @@ void WalSyncer::Loop() {
 }
 
 absl::StatusOr<std::unique_ptr<WalCheckpointer>> WalCheckpointer::Start(
-    const std::string& path) {
-  auto db = SqliteDb::Open(path);
+    const std::string& path, LedgerEnv* env) {
+  auto db = SqliteDb::Open(path, env);
   if (!db.ok()) return db.status();
   // A connection sees the WAL only after its first read; before that its
   // checkpoints return OK without copying anything (found by counting the

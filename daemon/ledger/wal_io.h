@@ -50,7 +50,8 @@ class WalSyncer {
  public:
   // `wal_path` is the database's "-wal" file; it is opened at the first
   // sync (SQLite creates it with the first write).
-  explicit WalSyncer(std::string wal_path);
+  // Each fdatasync asks `env` first (daemon/ledger/env.h; must outlive this).
+  WalSyncer(std::string wal_path, LedgerEnv* env);
   // Syncs and runs everything handed over, then stops.
   ~WalSyncer();
   WalSyncer(const WalSyncer&) = delete;
@@ -71,6 +72,7 @@ class WalSyncer {
   absl::Status Sync(int fd);
 
   const std::string wal_path_;
+  LedgerEnv* const env_;
 
   absl::Mutex mu_;
   int fd_ ABSL_GUARDED_BY(mu_) = -1;  // opened by the first sync
@@ -83,7 +85,7 @@ class WalCheckpointer {
  public:
   // Opens its own connection to `path`.
   static absl::StatusOr<std::unique_ptr<WalCheckpointer>> Start(
-      const std::string& path);
+      const std::string& path, LedgerEnv* env);
   // Stops after the checkpoint in progress, if any.
   ~WalCheckpointer();
   WalCheckpointer(const WalCheckpointer&) = delete;

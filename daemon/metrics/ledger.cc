@@ -43,7 +43,31 @@ class LedgerQueueGauge final : public prometheus::Collectable {
 
   std::vector<prometheus::MetricFamily> Collect() const override {
     const LedgerStats stats = ledger_->stats();
+    prometheus::MetricFamily failures;
+    failures.name = "plumbline_ledger_write_failures_total";
+    failures.help =
+        "Ledger groups that failed to commit or to sync, by reason "
+        "(disk_full, unavailable, corrupt, other); their calls got the error "
+        "and nothing of them was acknowledged.";
+    failures.type = prometheus::MetricType::Counter;
+    // Every reason from the start, so an alert on the rate sees the first.
+    for (const char* reason :
+         {"disk_full", "unavailable", "corrupt", "other"}) {
+      prometheus::ClientMetric m;
+      m.label = {{"reason", reason}};
+      auto it = stats.write_failures.find(reason);
+      m.counter.value = it == stats.write_failures.end()
+                            ? 0
+                            : static_cast<double>(it->second);
+      failures.metric.push_back(m);
+    }
     return {
+        failures,
+        Gauge("plumbline_ledger_failed",
+              "1 once the ledger has stopped taking writes (a failed fsync, "
+              "its file deleted or replaced): restart plumbd on a healthy "
+              "ledger.",
+              stats.failed ? 1.0 : 0.0),
         Counter(
             "plumbline_ledger_retention_failures_total",
             "Retention passes that failed (rows past retention stay "

@@ -158,6 +158,45 @@ absl::StatusOr<ServingMap> Lifecycle::Resolve(const PlanMap& from_files) {
                      "versions are immutable, the ledger's copy is used: "
                      "give the changed set a new version"}});
         }
+        if (known->state == VersionState::kRetired) {
+          // The file of a retired version is back (a restore, a removal
+          // undone). A set serving nothing serves it again; a set serving
+          // another version keeps it, and the log says how to switch.
+          absl::StatusOr<std::optional<VersionRecord>> active =
+              store_->Active(name);
+          if (!active.ok()) return active.status();
+          if (!active->has_value()) {
+            if (absl::Status s =
+                    ActivateInStore(name, known->version, kSetsDirectory,
+                                    absl::StrCat("its file is back in the sets "
+                                                 "directory: ",
+                                                 plan->source()),
+                                    now);
+                !s.ok()) {
+              return s;
+            }
+            LogEvent(LogLevel::kInfo, "set_version_reactivated",
+                     {{"set", name},
+                      {"version", known->version},
+                      {"file", plan->source()}});
+          } else if (warned_
+                         .insert({Key(name, known->version),
+                                  absl::StrCat("retired:", plan->source())})
+                         .second) {
+            LogEvent(LogLevel::kWarning, "set_file_version_retired",
+                     {{"set", name},
+                      {"version", known->version},
+                      {"file", plan->source()},
+                      {"serving", (*active)->version},
+                      {"effect",
+                       absl::StrCat("the file names a retired version; "
+                                    "version ",
+                                    (*active)->version,
+                                    " keeps serving (plumbctl activate --set ",
+                                    name, " --version ", known->version,
+                                    " serves the file's)")}});
+          }
+        }
         continue;
       }
       VersionRecord record;

@@ -66,8 +66,9 @@ absl::string_view VersionStateName(VersionState state) {
 }
 
 absl::StatusOr<std::unique_ptr<VersionStore>> VersionStore::Open(
-    const std::string& ledger_path) {
-  absl::StatusOr<std::unique_ptr<SqliteDb>> db = SqliteDb::Open(ledger_path);
+    const std::string& ledger_path, LedgerEnv* env) {
+  absl::StatusOr<std::unique_ptr<SqliteDb>> db =
+      SqliteDb::Open(ledger_path, env);
   if (!db.ok()) return db.status();
   if (absl::Status s = (*db)->Exec("PRAGMA synchronous=FULL"); !s.ok()) {
     return s;

@@ -69,9 +69,11 @@ struct AuditRecord {
 
 class VersionStore {
  public:
-  // Opens a connection to a ledger that Ledger::Open has already migrated.
+  // Opens a connection to a ledger that Ledger::Open has already migrated,
+  // through `env` (the ledger's I/O seam; null: the default), which must
+  // outlive the store.
   static absl::StatusOr<std::unique_ptr<VersionStore>> Open(
-      const std::string& ledger_path);
+      const std::string& ledger_path, LedgerEnv* env = nullptr);
 
   // Runs `body` in one IMMEDIATE transaction: committed if it returns OK,
   // rolled back otherwise (its status is returned).

@@ -129,7 +129,7 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
   // The versions of every set live in the ledger; the lifecycle decides
   // which one serves (daemon/registry/lifecycle.h).
   absl::StatusOr<std::unique_ptr<VersionStore>> versions =
-      VersionStore::Open(o.ledger.path);
+      VersionStore::Open(o.ledger.path, o.ledger.env);
   if (!versions.ok()) return versions.status();
   d->versions_ = *std::move(versions);
   d->lifecycle_ = std::make_unique<Lifecycle>(d->versions_.get());

@@ -206,7 +206,8 @@ v1::CoefficientSet WithoutRegion(const std::string& version) {
 
 std::vector<std::string> AuditActions(Stack& s) {
   std::vector<std::string> actions;
-  for (const AuditRecord& r : *s.lifecycle->Audit("courier")) {
+  const std::vector<AuditRecord> audit = *s.lifecycle->Audit("courier");
+  for (const AuditRecord& r : audit) {
     actions.push_back(r.action);
   }
   return actions;
@@ -280,7 +281,8 @@ TEST_F(LifecycleRulesTest, AnIncompatibleFileVersionStaysACandidate) {
   ASSERT_TRUE(s.registry->Reload().ok());
   EXPECT_EQ(s.Active("courier"), "v1") << "the old version keeps serving";
   bool found = false;
-  for (const VersionRecord& r : *s.lifecycle->List("courier")) {
+  const std::vector<VersionRecord> versions = *s.lifecycle->List("courier");
+  for (const VersionRecord& r : versions) {
     if (r.version != "v2") continue;
     found = true;
     EXPECT_EQ(r.state, VersionState::kCandidate);
@@ -328,6 +330,35 @@ TEST_F(LifecycleRulesTest, AStoppedShadowIsRetiredAndAudited) {
   EXPECT_EQ(
       s.lifecycle->StopShadow({"courier", "c1", "plumbd", ""}).status().code(),
       absl::StatusCode::kFailedPrecondition);
+}
+
+TEST_F(LifecycleRulesTest, ARestoredFileServesItsVersionAgain) {
+  WriteSet("v1");
+  Stack s(dir_);
+  ASSERT_TRUE(s.registry->Reload().ok());
+  // The file goes (its version is retired), then comes back: the set served
+  // nothing meanwhile, so the version serves again.
+  const std::string text =
+      testing::ReadTextFile(dir_.File("sets/courier.json"));
+  std::filesystem::remove(dir_.File("sets/courier.json"));
+  ASSERT_TRUE(s.registry->Reload().ok());
+  EXPECT_EQ(s.Active("courier"), "");
+  ASSERT_TRUE(
+      testing::WriteTextFile(dir_.File("sets/courier.json"), text).ok());
+  ASSERT_TRUE(s.registry->Reload().ok());
+  EXPECT_EQ(s.Active("courier"), "v1");
+  EXPECT_EQ((*s.lifecycle->List("courier"))[0].state, VersionState::kActive);
+}
+
+TEST_F(LifecycleRulesTest, AFileNamingARetiredVersionDoesNotDisplaceTheActive) {
+  WriteSet("v1");
+  Stack s(dir_);
+  ASSERT_TRUE(s.registry->Reload().ok());
+  WriteSet("v2");  // a deployment: v2 serves, v1 is retired
+  ASSERT_TRUE(s.registry->Reload().ok());
+  WriteSet("v1");  // the old file again
+  ASSERT_TRUE(s.registry->Reload().ok());
+  EXPECT_EQ(s.Active("courier"), "v2") << "a person decides, not a file";
 }
 
 }  // namespace

@@ -108,10 +108,10 @@ TEST(PlumbdTest, FlagsOverrideTheConfigFile) {
                           R"({"listen": "127.0.0.1:7500",
                               "sets_dir": "/from/config",
                               "ledger_path": "/from/config.db"})"));
-  ASSERT_OK_AND_ASSIGN(
-      DaemonOptions o,
-      LoadPlumbdOptions(
-          {.config_file = dir.File("plumbd.json"), .sets_dir = "/from/flag"}));
+  PlumbdOverrides flags;
+  flags.config_file = dir.File("plumbd.json");
+  flags.sets_dir = "/from/flag";
+  ASSERT_OK_AND_ASSIGN(DaemonOptions o, LoadPlumbdOptions(flags));
   EXPECT_EQ(o.listen, "127.0.0.1:7500");
   EXPECT_EQ(o.sets_dir, "/from/flag");
   EXPECT_EQ(o.ledger.path, "/from/config.db");
@@ -119,16 +119,19 @@ TEST(PlumbdTest, FlagsOverrideTheConfigFile) {
 
   // An ephemeral gRPC port with no metrics address anywhere: metrics take a
   // free port too.
-  ASSERT_OK_AND_ASSIGN(DaemonOptions e,
-                       LoadPlumbdOptions({.listen = "127.0.0.1:0"}));
+  PlumbdOverrides ephemeral;
+  ephemeral.listen = "127.0.0.1:0";
+  ASSERT_OK_AND_ASSIGN(DaemonOptions e, LoadPlumbdOptions(ephemeral));
   EXPECT_EQ(e.metrics_listen, "127.0.0.1:0");
 }
 
 TEST(PlumbdTest, ABadConfigFileIsAnErrorNamingIt) {
   TempDir dir;
   ASSERT_OK(WriteTextFile(dir.File("plumbd.json"), R"({"listen_typo": 1})"));
+  PlumbdOverrides flags;
+  flags.config_file = dir.File("plumbd.json");
   EXPECT_THAT(
-      LoadPlumbdOptions({.config_file = dir.File("plumbd.json")}),
+      LoadPlumbdOptions(flags),
       StatusIs(absl::StatusCode::kInvalidArgument, HasSubstr("plumbd.json")));
 }
 
