@@ -237,7 +237,7 @@ PlumbctlParser::PlumbctlParser()
              absl::StrSplit(text.substr(0, usage_end), '\n')) {
           *context.out << "  " << line << "\n";
         }
-        *context.out << text.substr(usage_end);
+        *context.out << text.substr(usage_end + 1);
       }
       return absl::OkStatus();
     }
