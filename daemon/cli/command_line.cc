@@ -10,6 +10,7 @@
 #include "absl/strings/str_join.h"
 #include "absl/strings/str_replace.h"
 #include "absl/strings/str_split.h"
+#include "absl/strings/strip.h"
 #include "absl/time/time.h"
 #include "daemon/cli/client.h"
 #include "daemon/cli/completion.h"
@@ -139,6 +140,18 @@ std::string ParseErrorMessage(const CLI::ParseError& error,
     }
     return absl::StrCat(group->get_name(),
                         " needs a subcommand: ", absl::StrJoin(subs, ", "));
+  }
+  if (dynamic_cast<const CLI::ConversionError*>(&error) != nullptr) {
+    // CLI11 writes "Could not convert: --verbose = maybe". Only switches
+    // are typed (every other flag's value is text the command parses).
+    absl::string_view what = error.what();
+    if (absl::ConsumePrefix(&what, "Could not convert: ")) {
+      const size_t eq = what.find(" = ");
+      if (eq != absl::string_view::npos) {
+        return absl::StrCat(where, what.substr(0, eq), ": '",
+                            what.substr(eq + 3), "' is not true or false");
+      }
+    }
   }
   if (dynamic_cast<const CLI::ArgumentMismatch*>(&error) != nullptr) {
     // CLI11 writes "--set: 1 required NAME missing".
