@@ -7,7 +7,8 @@
 #
 # install (ctest ops.deb_install, the fixture's setup): cpack builds
 # plumbline_VERSION_amd64.deb from the build tree into SCRATCH; its control
-# fields, Depends (dpkg-shlibdeps), conffiles and file list are checked;
+# fields, Depends (dpkg-shlibdeps, and that apt resolves them: apt-get -s),
+# conffiles and file list are checked;
 # then `dpkg --root=SCRATCH/root --force-script-chrootless -i` installs it
 # into a fresh root, under fakeroot when not run as root. dpkg then runs the
 # real maintainer scripts with DPKG_ROOT set, and they work under that root
@@ -83,6 +84,14 @@ for script in postinst prerm postrm; do
   dpkg-deb --info "$deb" "$script" >/dev/null ||
     fail "no $script in the package"
 done
+
+# apt resolves every Depends (names and versions) on this machine: the
+# install `apt-get install ./plumbline_*.deb` would do, only simulated
+# (apt-get -s changes nothing).
+apt-get -s install "$deb" >"$scratch/apt.log" 2>&1 ||
+  { cat "$scratch/apt.log"; fail "apt-get -s install cannot resolve the package"; }
+grep -q '^Inst plumbline ' "$scratch/apt.log" ||
+  { cat "$scratch/apt.log"; fail "apt-get -s install would not install plumbline"; }
 
 # ---- Files: Debian's places, nothing under /usr/local.
 contents=$(dpkg-deb --contents "$deb" | awk '{print $6}')
