@@ -21,8 +21,6 @@ namespace {
 
 using Table = std::vector<std::vector<std::string>>;
 
-std::string FormatDouble(double x) { return absl::StrFormat("%.17g", x); }
-
 // Limits for offline scoring: the caller's own machine, no daemon to protect.
 ScoringLimits OfflineLimits() {
   ScoringLimits limits;
@@ -31,23 +29,29 @@ ScoringLimits OfflineLimits() {
   return limits;
 }
 
-absl::Status PrintScoreReply(const v1::ScoreReply& reply, bool with_reasons,
-                             std::ostream& out) {
+std::string ScoreReplyText(const v1::ScoreReply& reply, bool with_reasons) {
   const v1::Scored& score = reply.score();
-  out << FormatTable({{"set", reply.set()},
-                      {"version", reply.version()},
-                      {"record_id", score.record_id()},
-                      {"log_odds", FormatDouble(score.log_odds())},
-                      {"probability", FormatDouble(score.probability())}});
+  std::string text =
+      FormatTable({{"set", reply.set()},
+                   {"version", reply.version()},
+                   {"record_id", score.record_id()},
+                   {"log_odds", FormatNumber(score.log_odds())},
+                   {"probability", FormatNumber(score.probability())}});
   if (with_reasons) {
     Table reasons = {{"feature", "contribution"}};
     for (const v1::Reason& reason : score.reasons()) {
       reasons.push_back(
-          {reason.feature(), FormatDouble(reason.contribution())});
+          {reason.feature(), FormatNumber(reason.contribution())});
     }
-    out << "reasons\n" << FormatTable(reasons, "  ");
+    absl::StrAppend(&text, "reasons\n", FormatTable(reasons, "  "));
   }
-  return absl::OkStatus();
+  return text;
+}
+
+absl::Status PrintScoreReply(const v1::ScoreReply& reply, bool with_reasons,
+                             OutputFormat format, std::ostream& out) {
+  return PrintReply(
+      reply, format, [&] { return ScoreReplyText(reply, with_reasons); }, out);
 }
 
 absl::Status ScoreJson(const ClientOptions& client,
@@ -76,13 +80,13 @@ absl::Status ScoreJson(const ClientOptions& client,
     absl::StatusOr<v1::ScoreReply> reply =
         ScoreWithPlan(**plan, request, OfflineLimits());
     if (!reply.ok()) return reply.status();
-    return PrintScoreReply(*reply, with_reasons, out);
+    return PrintScoreReply(*reply, with_reasons, options.format, out);
   }
   request.set_set(options.set);
   ScoringClient remote(client.addr, client.timeout);
   absl::StatusOr<v1::ScoreReply> reply = remote.Score(request);
   if (!reply.ok()) return reply.status();
-  return PrintScoreReply(*reply, with_reasons, out);
+  return PrintScoreReply(*reply, with_reasons, options.format, out);
 }
 
 absl::Status ScoreCsv(const ClientOptions& client,
@@ -119,8 +123,8 @@ absl::Status ScoreCsv(const ClientOptions& client,
         << absl::StrJoin(result->absent_features, ", ")
         << "; they were sent as missing\n";
   }
-  err << "scored " << result->records << " records in " << result->batches
-      << " batches\n";
+  err << "scored " << CountOf(result->records, "record") << " in "
+      << CountOf(result->batches, "batch", "batches") << "\n";
   return absl::OkStatus();
 }
 
@@ -134,35 +138,43 @@ absl::StatusOr<v1::ReasonOrder> ParseReasonOrder(const std::string& text) {
       "--reason_order: '", text, "'; expected raises, lowers or magnitude"));
 }
 
-absl::Status RunSetsCommand(const ClientOptions& client, bool verbose,
-                            std::ostream& out) {
-  ScoringClient remote(client.addr, client.timeout);
-  absl::StatusOr<v1::ListSetsReply> sets = remote.ListSets();
-  if (!sets.ok()) return sets.status();
-  if (sets->sets().empty()) {
-    out << "no sets loaded\n";
-    return absl::OkStatus();
-  }
+namespace {
+
+std::string SetsText(const v1::ListSetsReply& sets, bool verbose) {
+  if (sets.sets().empty()) return "no sets loaded\n";
   Table table = {{"NAME", "VERSION", "FEATURES", "SOURCE"}};
-  for (const v1::SetSummary& set : sets->sets()) {
+  for (const v1::SetSummary& set : sets.sets()) {
     table.push_back({set.name(), set.version(),
                      absl::StrCat(set.features_size()), set.source()});
   }
-  out << FormatTable(table);
-  if (!verbose) return absl::OkStatus();
-  for (const v1::SetSummary& set : sets->sets()) {
-    out << "\n" << set.name() << " " << set.version();
-    if (!set.description().empty()) out << ": " << set.description();
-    out << "\n";
+  std::string text = FormatTable(table);
+  if (!verbose) return text;
+  for (const v1::SetSummary& set : sets.sets()) {
+    absl::StrAppend(&text, "\n", set.name(), " ", set.version());
+    if (!set.description().empty()) {
+      absl::StrAppend(&text, ": ", set.description());
+    }
+    absl::StrAppend(&text, "\n");
     Table features = {{"feature", "kind", "missing", "levels"}};
     for (const v1::FeatureSummary& feature : set.features()) {
       features.push_back(
           {feature.name(), v1::FeatureSummary::Kind_Name(feature.kind()),
            feature.missing(), absl::StrJoin(feature.levels(), ", ")});
     }
-    out << FormatTable(features, "  ");
+    absl::StrAppend(&text, FormatTable(features, "  "));
   }
-  return absl::OkStatus();
+  return text;
+}
+
+}  // namespace
+
+absl::Status RunSetsCommand(const ClientOptions& client, bool verbose,
+                            OutputFormat format, std::ostream& out) {
+  ScoringClient remote(client.addr, client.timeout);
+  absl::StatusOr<v1::ListSetsReply> sets = remote.ListSets();
+  if (!sets.ok()) return sets.status();
+  return PrintReply(
+      *sets, format, [&] { return SetsText(*sets, verbose); }, out);
 }
 
 absl::Status RunScoreCommand(const ClientOptions& client,

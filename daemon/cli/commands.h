@@ -5,6 +5,8 @@
 //   sets    table of the sets plumbd has loaded (--verbose: feature schemas)
 //   score   one record from --json, or a CSV file through plumbd (--set) or
 //           offline from a set file (--set-file)
+// Text output rounds to six significant digits; --format json (one record)
+// and the CSV output keep full precision.
 // Each returns absl::Status; plumbctl's main prints failures as
 // "plumbctl: CODE: message".
 //
@@ -20,6 +22,7 @@
 #include "absl/status/statusor.h"
 #include "absl/strings/string_view.h"
 #include "absl/time/time.h"
+#include "daemon/cli/output.h"
 #include "daemon/util/text_table.h"
 #include "plumbline/v1/scoring.pb.h"
 
@@ -46,13 +49,17 @@ struct ScoreCommandOptions {
   // Records per ScoreBatch call (CSV).
   int batch = 1000;
   v1::ReasonOptions reasons;
+  // --json only: the reply as text or as JSON (ScoreReply).
+  OutputFormat format = OutputFormat::kText;
 };
 
 // "raises" | "lowers" | "magnitude" → ReasonOrder; INVALID_ARGUMENT otherwise.
 absl::StatusOr<v1::ReasonOrder> ParseReasonOrder(const std::string& text);
 
+// Text: a table of names, versions, feature counts and sources (verbose:
+// each set's features too). JSON: the ListSetsReply, features included.
 absl::Status RunSetsCommand(const ClientOptions& client, bool verbose,
-                            std::ostream& out);
+                            OutputFormat format, std::ostream& out);
 
 // `err` receives the closing "scored N records in M batches" line and notes.
 absl::Status RunScoreCommand(const ClientOptions& client,

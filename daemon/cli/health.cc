@@ -7,12 +7,13 @@
 namespace plumbline::daemon {
 
 absl::Status RunHealthCommand(const ClientOptions& client,
-                              const std::string& set, std::ostream& out) {
+                              const std::string& set, OutputFormat format,
+                              std::ostream& out) {
   MonitorClient monitor(client.addr, client.timeout);
   absl::StatusOr<v1::SetHealth> health = monitor.GetSetHealth(set);
   if (!health.ok()) return health.status();
-  out << FormatSetHealth(*health);
-  return absl::OkStatus();
+  return PrintReply(
+      *health, format, [&] { return FormatSetHealth(*health); }, out);
 }
 
 }  // namespace plumbline::daemon

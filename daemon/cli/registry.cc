@@ -81,14 +81,6 @@ class Call {
 
 }  // namespace
 
-bool IsRegistryCommand(const std::string& name) {
-  static const char* const kNames[] = {"versions", "load",   "activate",
-                                       "approve",  "shadow", "rollback",
-                                       "refit",    "audit"};
-  return std::any_of(std::begin(kNames), std::end(kNames),
-                     [&](const char* n) { return name == n; });
-}
-
 std::string DefaultActor() {
   const char* user = std::getenv("USER");
   char host[256] = {0};
@@ -129,14 +121,18 @@ absl::Status RunRegistryCommand(const ClientOptions& client,
         !s.ok()) {
       return s;
     }
-    std::vector<std::vector<std::string>> rows = {
-        {"set", "version", "state", "created", "created by", "reason"}};
-    for (const v1::VersionInfo& v : reply.versions()) {
-      rows.push_back({v.set(), v.version(), StateName(v.state()),
-                      Time(v.created_at()), v.created_by(), v.reason()});
-    }
-    out << FormatTable(rows);
-    return absl::OkStatus();
+    return PrintReply(
+        reply, command.format,
+        [&] {
+          std::vector<std::vector<std::string>> rows = {
+              {"set", "version", "state", "created", "created by", "reason"}};
+          for (const v1::VersionInfo& v : reply.versions()) {
+            rows.push_back({v.set(), v.version(), StateName(v.state()),
+                            Time(v.created_at()), v.created_by(), v.reason()});
+          }
+          return FormatTable(rows);
+        },
+        out);
   }
   if (name == "audit") {
     Call call(client, client.timeout);
@@ -148,14 +144,18 @@ absl::Status RunRegistryCommand(const ClientOptions& client,
         !s.ok()) {
       return s;
     }
-    std::vector<std::vector<std::string>> rows = {
-        {"time", "version", "action", "actor", "detail"}};
-    for (const v1::AuditEntry& e : reply.entries()) {
-      rows.push_back(
-          {Time(e.at()), e.version(), e.action(), e.actor(), e.detail()});
-    }
-    out << FormatTable(rows);
-    return absl::OkStatus();
+    return PrintReply(
+        reply, command.format,
+        [&] {
+          std::vector<std::vector<std::string>> rows = {
+              {"time", "version", "action", "actor", "detail"}};
+          for (const v1::AuditEntry& e : reply.entries()) {
+            rows.push_back(
+                {Time(e.at()), e.version(), e.action(), e.actor(), e.detail()});
+          }
+          return FormatTable(rows);
+        },
+        out);
   }
   if (name == "refit") {
     Call call(client, std::max(client.timeout, kRefitTimeout));

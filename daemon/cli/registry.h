@@ -19,6 +19,7 @@
 
 #include "absl/status/status.h"
 #include "daemon/cli/commands.h"
+#include "daemon/cli/output.h"
 
 namespace plumbline::daemon {
 
@@ -33,10 +34,9 @@ struct RegistryCommand {
   // Recorded in the audit table.
   std::string actor;
   std::string reason;
+  // versions, audit: a table or the reply as JSON (daemon/cli/output.h).
+  OutputFormat format = OutputFormat::kText;
 };
-
-// True for the command names above.
-bool IsRegistryCommand(const std::string& name);
 
 // The default actor: "$USER@host" ("unknown@host" without USER).
 std::string DefaultActor();

@@ -6,6 +6,7 @@
 //
 //   plumbd [--config FILE] [--sets DIR] [--listen HOST:PORT]
 //          [--ledger FILE] [--metrics_listen HOST:PORT] [--ready_file FILE]
+//   plumbd --version | --help
 //
 // With no flags it loads ./sets, keeps its ledger in ./var/ledger.db,
 // listens on 127.0.0.1:7390 and serves metrics on 127.0.0.1:7391. Startup:
@@ -32,6 +33,7 @@
 #include "daemon/server/signals.h"
 #include "daemon/util/event_log.h"
 #include "daemon/util/flags.h"
+#include "daemon/util/version.h"
 
 ABSL_FLAG(std::string, config, "",
           "JSON config file (plumbline.v1.DaemonConfig); flags override it");
@@ -121,6 +123,7 @@ int main(int argc, char** argv) {
       "usage: plumbd [--config FILE] [--sets DIR] [--listen HOST:PORT]\n"
       "              [--ledger FILE] [--metrics_listen HOST:PORT] "
       "[--ready_file FILE]\n"
+      "       plumbd --version | --help\n"
       "Serves the coefficient sets of a directory over gRPC, records every "
       "score and\noutcome in an SQLite ledger and exports model-health "
       "metrics (defaults: ./sets,\n127.0.0.1:7390, ./var/ledger.db, metrics "
@@ -129,6 +132,14 @@ int main(int argc, char** argv) {
       "SIGHUP reloads the sets; SIGTERM or SIGINT stop gracefully.\n";
   if (plumbline::daemon::WantsHelp(argc, argv)) {
     std::fputs(kUsage, stdout);
+    std::printf(
+        "\nflags:\n%s  --help\n      print this help and exit\n"
+        "  --version\n      print plumbd's version and exit\n",
+        plumbline::daemon::FlagsHelp("plumbd_main.cc").c_str());
+    return 0;
+  }
+  if (plumbline::daemon::WantsVersion(argc, argv)) {
+    std::printf("plumbd %s\n", plumbline::daemon::kPlumblineVersion);
     return 0;
   }
   absl::StatusOr<std::vector<std::string>> args =

@@ -9,9 +9,13 @@
 #include "absl/strings/match.h"
 #include "absl/strings/str_cat.h"
 #include "absl/strings/string_view.h"
+#include "daemon/util/text_table.h"
 
 namespace plumbline::daemon {
 namespace {
+
+// Help texts are filled to this width (an 80-column terminal).
+constexpr size_t kHelpWidth = 79;
 
 std::string NormalizeName(absl::string_view name) {
   std::string out(name);
@@ -31,6 +35,37 @@ bool WantsHelp(int argc, const char* const* argv) {
     }
   }
   return false;
+}
+
+bool WantsVersion(int argc, const char* const* argv) {
+  for (int i = 1; i < argc; ++i) {
+    const absl::string_view arg = argv[i];
+    if (arg == "--") break;
+    if (arg == "--version" || arg == "-version") return true;
+  }
+  return false;
+}
+
+std::string FlagsHelp(absl::string_view file_suffix) {
+  std::vector<const absl::CommandLineFlag*> flags;
+  for (const auto& [name, flag] : absl::GetAllFlags()) {
+    if (absl::EndsWith(flag->Filename(), file_suffix)) flags.push_back(flag);
+  }
+  std::sort(flags.begin(), flags.end(),
+            [](const absl::CommandLineFlag* a, const absl::CommandLineFlag* b) {
+              return a->Name() < b->Name();
+            });
+  std::string out;
+  for (const absl::CommandLineFlag* flag : flags) {
+    std::string help = flag->Help();
+    if (const std::string d = flag->DefaultValue();
+        !d.empty() && d != "false") {
+      absl::StrAppend(&help, " (default ", d, ")");
+    }
+    absl::StrAppend(&out, "  --", flag->Name(), "\n",
+                    WrapText(help, kHelpWidth, "      "));
+  }
+  return out;
 }
 
 absl::StatusOr<std::vector<std::string>> ParseFlags(int argc,

@@ -20,6 +20,7 @@
 #include <vector>
 
 #include "absl/status/statusor.h"
+#include "absl/strings/string_view.h"
 
 namespace plumbline::daemon {
 
@@ -31,6 +32,15 @@ absl::StatusOr<std::vector<std::string>> ParseFlags(int argc,
 
 // True if the command line asks for help (--help, -h, --helpfull).
 bool WantsHelp(int argc, const char* const* argv);
+
+// True if the command line asks for the version (--version).
+bool WantsVersion(int argc, const char* const* argv);
+
+// The flags defined in the source file whose path ends with `file_suffix`
+// (e.g. "plumbd_main.cc"), sorted by name, one per line as "  --name" then
+// the help text and default aligned beside it: the flag list of a --help
+// text, made from the flags themselves so it cannot drift from them.
+std::string FlagsHelp(absl::string_view file_suffix);
 
 }  // namespace plumbline::daemon
 

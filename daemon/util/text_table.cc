@@ -3,6 +3,7 @@
 #include <algorithm>
 
 #include "absl/strings/str_cat.h"
+#include "absl/strings/str_split.h"
 
 namespace plumbline::daemon {
 
@@ -24,6 +25,27 @@ std::string FormatTable(const std::vector<std::vector<std::string>>& rows,
     }
     while (!line.empty() && line.back() == ' ') line.pop_back();
     absl::StrAppend(&out, line, "\n");
+  }
+  return out;
+}
+
+std::string WrapText(absl::string_view text, size_t width,
+                     absl::string_view indent) {
+  std::string out;
+  for (absl::string_view paragraph : absl::StrSplit(text, '\n')) {
+    std::string line(indent);
+    bool empty = true;
+    for (absl::string_view word :
+         absl::StrSplit(paragraph, ' ', absl::SkipEmpty())) {
+      if (!empty && line.size() + 1 + word.size() > width) {
+        absl::StrAppend(&out, line, "\n");
+        line = std::string(indent);
+        empty = true;
+      }
+      absl::StrAppend(&line, empty ? "" : " ", word);
+      empty = false;
+    }
+    absl::StrAppend(&out, empty ? std::string() : line, "\n");
   }
   return out;
 }

@@ -151,10 +151,16 @@ absl::StatusOr<ProcessResult> RunProcess(const std::vector<std::string>& argv,
 
 absl::StatusOr<std::unique_ptr<PlumbdProcess>> PlumbdProcess::Start(
     const std::string& work_dir, const std::vector<std::string>& args) {
+  return StartBinary(PLUMBD_PATH, work_dir, args);
+}
+
+absl::StatusOr<std::unique_ptr<PlumbdProcess>> PlumbdProcess::StartBinary(
+    const std::string& binary, const std::string& work_dir,
+    const std::vector<std::string>& args) {
   const std::string ready_file = absl::StrCat(work_dir, "/plumbd.ready");
   const std::string log_path = absl::StrCat(work_dir, "/plumbd.log");
   std::filesystem::remove(ready_file);
-  std::vector<std::string> argv = {PLUMBD_PATH, "--listen", "127.0.0.1:0",
+  std::vector<std::string> argv = {binary, "--listen", "127.0.0.1:0",
                                    "--ready_file", ready_file};
   argv.insert(argv.end(), args.begin(), args.end());
   absl::StatusOr<pid_t> pid =

@@ -86,6 +86,10 @@ class PlumbdProcess {
   // its log), and waits until it serves.
   static absl::StatusOr<std::unique_ptr<PlumbdProcess>> Start(
       const std::string& work_dir, const std::vector<std::string>& args);
+  // The same with another plumbd binary (an installed one).
+  static absl::StatusOr<std::unique_ptr<PlumbdProcess>> StartBinary(
+      const std::string& binary, const std::string& work_dir,
+      const std::vector<std::string>& args);
 
   // Kills the daemon (SIGKILL) if it is still running.
   ~PlumbdProcess();

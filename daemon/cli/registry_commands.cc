@@ -1,0 +1,157 @@
+// File: daemon/cli/registry_commands.cc
+#include "daemon/cli/registry_commands.h"
+
+#include <memory>
+#include <string>
+
+#include "daemon/cli/registry.h"
+
+namespace plumbline::daemon {
+namespace {
+
+struct RegistryFlags {
+  std::string set, version, set_file, actor, reason;
+  std::string format = "text";
+};
+
+// Which flags a registry command takes beyond --set.
+struct RegistryShape {
+  bool set_required = true;  // versions: --set is optional
+  bool version = false;      // activate, approve, shadow
+  bool set_file = false;     // load (and no --set)
+  bool changes = true;       // --actor and --reason (not versions, audit)
+};
+
+std::function<CommandRun(CLI::App&)> Declare(std::string name,
+                                             RegistryShape shape) {
+  return [name, shape](CLI::App& command) -> CommandRun {
+    auto flags = std::make_shared<RegistryFlags>();
+    if (shape.set_file) {
+      AddValueFlag(command, "set_file", &flags->set_file, "SET.json",
+                   "the set file to store as a candidate")
+          ->required();
+    } else {
+      CLI::Option* set =
+          AddValueFlag(command, "set", &flags->set, "NAME",
+                       shape.set_required ? "the set" : "only this set");
+      if (shape.set_required) set->required();
+    }
+    if (shape.version) {
+      AddValueFlag(command, "version", &flags->version, "VERSION",
+                   "the version to act on")
+          ->required();
+    }
+    if (shape.changes) {
+      AddValueFlag(command, "reason", &flags->reason, "TEXT",
+                   "why, for the audit table");
+      AddValueFlag(command, "actor", &flags->actor, "WHO",
+                   "who acts, for the audit table (default $USER@host)");
+    } else {
+      AddFormatFlag(command, &flags->format);
+    }
+    return [name, flags](const CommandContext& context) -> absl::Status {
+      RegistryCommand registry;
+      registry.name = name;
+      registry.set = flags->set;
+      registry.version = flags->version;
+      registry.set_file = flags->set_file;
+      registry.actor = flags->actor;
+      registry.reason = flags->reason;
+      absl::StatusOr<OutputFormat> format = ParseOutputFormat(flags->format);
+      if (!format.ok()) return UsageError(format.status().message());
+      registry.format = *format;
+      if (absl::Status s = CheckRegistryFlags(registry); !s.ok()) {
+        return UsageError(s.message());
+      }
+      return RunRegistryCommand(context.client, registry, *context.out);
+    };
+  };
+}
+
+constexpr char kAdminNote[] =
+    "\nNeeds the admin role when plumbd's access control is on.";
+
+}  // namespace
+
+void AppendRegistryCommands(std::vector<CommandSpec>* table) {
+  table->push_back(
+      {.path = {"versions"},
+       .summary = "every version plumbd knows, with its state and history",
+       .description =
+           std::string("Every version plumbd knows (of one set with "
+                       "--set), newest first: state (active, candidate, "
+                       "shadow, retired), when and by whom it was "
+                       "created, and why. --format json prints the "
+                       "ListVersionsReply.") +
+           kAdminNote,
+       .declare =
+           Declare("versions", {.set_required = false, .changes = false})});
+  table->push_back(
+      {.path = {"load"},
+       .summary = "store a set file in plumbd as a candidate",
+       .description =
+           std::string("Stores a set file in plumbd as a candidate version: "
+                       "known to the ledger, not served until approved or "
+                       "activated.") +
+           kAdminNote,
+       .declare = Declare("load", {.set_file = true})});
+  table->push_back(
+      {.path = {"approve"},
+       .summary = "approve a candidate: it becomes active",
+       .description =
+           std::string("Approves a candidate: it becomes active at once "
+                       "(an atomic swap), the previously active version "
+                       "is retired.") +
+           kAdminNote,
+       .declare = Declare("approve", {.version = true})});
+  table->push_back(
+      {.path = {"activate"},
+       .summary = "make any known version active",
+       .description =
+           std::string("Makes any known version active, also a retired "
+                       "one.") +
+           kAdminNote,
+       .declare = Declare("activate", {.version = true})});
+  table->push_back(
+      {.path = {"shadow"},
+       .summary = "score a version beside the active one, never returned",
+       .description =
+           std::string("Scores a candidate or retired version alongside "
+                       "the active one: its scores go to the ledger and "
+                       "its health to the metrics, never to callers.") +
+           kAdminNote,
+       .declare = Declare("shadow", {.version = true})});
+  table->push_back(
+      {.path = {"rollback"},
+       .summary = "make the previously active version active again",
+       .description =
+           std::string("Makes the version that was active before the "
+                       "current one active again.") +
+           kAdminNote,
+       .declare = Declare("rollback", {})});
+  table->push_back(
+      {.path = {"refit"},
+       .summary = "re-estimate a set now from the ledger's labelled records",
+       .description =
+           std::string(
+               "Re-estimates the set now from the labelled records of "
+               "plumbd's ledger, compares it with the active version on "
+               "held-out records and, if it wins by the refit policy's "
+               "margin, stores it as a candidate (refit mode propose) or "
+               "promotes it (mode auto). Prints the fit and the comparison. "
+               "Waits up to 10 minutes (or --timeout_ms if longer).") +
+           kAdminNote,
+       .declare = Declare("refit", {})});
+  table->push_back(
+      {.path = {"audit"},
+       .summary = "a set's history: loads, fits, approvals, rollbacks",
+       .description =
+           std::string("The set's history: loads, fits, comparisons, "
+                       "approvals, activations, rollbacks, each with "
+                       "time, version, actor and details. --format json "
+                       "prints the AuditReply.") +
+           kAdminNote,
+       .declare = Declare("audit", {.changes = false})});
+}
+
+}  // namespace plumbline::daemon
