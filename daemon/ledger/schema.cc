@@ -115,6 +115,21 @@ constexpr const char* kMigrations[] = {
     // retention by age deletes the oldest ids up to the first score within
     // the age (scored_at_us grows with id).
     "DROP INDEX scores_by_set_time;",
+    // 4 -> 5: the model-health history (daemon/history/history_store.h):
+    // the figures of each set version's windows as the monitor evaluated
+    // them, one row per window at most every pages.history_interval, kept
+    // for pages.history_retention (the page's "last days" charts).
+    "CREATE TABLE health_history("
+    "  id INTEGER PRIMARY KEY,"
+    "  at_us INTEGER NOT NULL,"
+    "  set_name TEXT NOT NULL,"
+    "  version TEXT NOT NULL,"
+    "  window_name TEXT NOT NULL,"
+    "  state TEXT NOT NULL,"
+    "  labelled INTEGER NOT NULL,"
+    "  scored INTEGER NOT NULL,"
+    "  figures TEXT NOT NULL);"
+    "CREATE INDEX health_history_by_set ON health_history(set_name, at_us);",
 };
 
 }  // namespace
