@@ -35,7 +35,7 @@ section > h2 { font-size: 18px; margin: 0 0 10px 0; padding-bottom: 4px;
 section > h3 { font-size: 15px; margin: 16px 0 6px 0; }
 p.lead { margin: 4px 0 10px 0; color: #333333; max-width: 110ch; }
 .grid { display: grid; gap: 14px;
-  grid-template-columns: repeat(auto-fit, minmax(460px, 1fr)); }
+  grid-template-columns: repeat(auto-fill, minmax(460px, 1fr)); }
 .panel { background: #FFFFFF; border: 1px solid #CCCCCC; padding: 8px; }
 .panel svg { width: 100%; height: auto; display: block; }
 table { border-collapse: collapse; background: #FFFFFF; margin: 4px 0 8px 0; }
@@ -46,6 +46,8 @@ td.num, th.num { text-align: right; font-variant-numeric: tabular-nums;
   white-space: nowrap; }
 td.note { color: #4D4D4D; font-size: 13px; }
 tr.worse td { background: #FDF3EC; }
+table#overview { width: 100%; }
+#overview td.note { min-width: 24em; }
 .badge { display: inline-block; min-width: 6.5em; text-align: center;
   padding: 1px 8px; border: 2px solid; font-weight: 700; color: #1A1A1A; }
 .badge.steady { border-color: #009E73; background: #DDF1EA; }

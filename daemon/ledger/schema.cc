@@ -119,7 +119,7 @@ constexpr const char* kMigrations[] = {
     // the figures of each set version's windows as the monitor evaluated
     // them, one row per window at most every pages.history_interval, kept
     // for pages.history_retention (the page's "last days" charts).
-    "CREATE TABLE health_history("
+    "CREATE TABLE IF NOT EXISTS health_history("
     "  id INTEGER PRIMARY KEY,"
     "  at_us INTEGER NOT NULL,"
     "  set_name TEXT NOT NULL,"
@@ -129,7 +129,8 @@ constexpr const char* kMigrations[] = {
     "  labelled INTEGER NOT NULL,"
     "  scored INTEGER NOT NULL,"
     "  figures TEXT NOT NULL);"
-    "CREATE INDEX health_history_by_set ON health_history(set_name, at_us);",
+    "CREATE INDEX IF NOT EXISTS health_history_by_set"
+    "  ON health_history(set_name, at_us);",
 };
 
 }  // namespace

@@ -65,8 +65,9 @@ TEST_F(RocReferenceTest, CurveIsScikitLearnsPointForPoint) {
 }
 
 TEST_F(RocReferenceTest, HoldoutFiguresAreScikitLearns) {
-  const scorer::ScoringPlan& plan = *testing::CourierPlan();
-  absl::StatusOr<v1::HoldoutFigures> f = HoldoutFiguresOf(plan, z_, y_);
+  const std::shared_ptr<const scorer::ScoringPlan> plan =
+      testing::CourierPlan();
+  absl::StatusOr<v1::HoldoutFigures> f = HoldoutFiguresOf(*plan, z_, y_);
   ASSERT_TRUE(f.ok()) << f.status();
   EXPECT_NEAR(f->auc(), Number("auc"), 1e-12);
   EXPECT_NEAR(f->brier_score(), Number("brier"), 1e-12);
