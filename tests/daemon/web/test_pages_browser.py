@@ -310,6 +310,10 @@ class PageBrowserTest(unittest.TestCase):
             return None
         cls.candidate = poll_until(candidate, "the drift-started refit's candidate",
                                    deadline_s=120)
+        # The job writes its dossier just after it stores the candidate.
+        def dossier_written():
+            return f"event=refit_dossier set={SET} " in cls.plumbd.log()
+        poll_until(dossier_written, "the refit job's dossier")
         run("approve", "--set", SET, "--version", cls.candidate,
             "--actor", "page-test-owner", "--reason", "holdout reviewed")
         cls.dossier = cls.registry.GetDossier(
@@ -463,6 +467,30 @@ class PageBrowserTest(unittest.TestCase):
             self.assertEqual(outside_urls(self.fetch(path)), [], path)
         with open(self.dossier.path) as f:
             self.assertEqual(outside_urls(f.read()), [], self.dossier.path)
+
+    def test_show_and_diff_versions(self):
+        detail = self.registry.ShowVersion(
+            registry_pb2.ShowVersionRequest(set=SET), timeout=30)
+        self.assertEqual(detail.info.version, self.candidate)  # now active
+        lines = {l.label: l for l in detail.coefficients}
+        # Fitted by plumbd: every fitted column has its standard error.
+        self.assertTrue(lines["intercept"].HasField("standard_error"))
+        diff = self.registry.DiffVersions(registry_pb2.DiffVersionsRequest(
+            set=SET, from_version="2026-12-01.1", to_version=self.candidate),
+            timeout=30)
+        features = {f.feature: f for f in diff.features}
+        # The storm's new building type was learned by the refit.
+        added_levels = [c for c in features["building_type"].changes
+                        if c.startswith("levels added: ")]
+        self.assertEqual(len(added_levels), 1, features["building_type"])
+        self.assertIn("locker_bank", added_levels[0])
+        added = [c.label for c in diff.coefficients if c.status == "added"]
+        self.assertIn("building_type=locker_bank", added)
+        self.assertEqual(diff.comparison, self.dossier.dossier.diff.comparison)
+        # The dossier's diff is this one, as of the job.
+        self.assertEqual(
+            [c.label for c in self.dossier.dossier.diff.coefficients],
+            [c.label for c in diff.coefficients])
 
     def test_dossier_from_plumbd_and_from_its_file(self):
         d = self.dossier
