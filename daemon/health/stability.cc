@@ -7,6 +7,7 @@
 #include <utility>
 
 #include "absl/strings/str_cat.h"
+#include "daemon/health/pictures.h"
 #include "daemon/policy/figures.h"
 
 namespace plumbline::daemon {
@@ -206,6 +207,7 @@ void ScoredAccumulator::Fill(v1::WindowHealth* out) const {
     *out->mutable_score_psi() = UndefinedFigure(kNoRecords);
   } else if (auto r = score_->Result(); r.ok() && r->psi) {
     *out->mutable_score_psi() = DefinedFigure(*r->psi);
+    *out->mutable_score_shares() = NumericShares(*layout_->score(), *r);
   } else {
     *out->mutable_score_psi() = UndefinedFigure("no probability to compare");
   }
@@ -231,6 +233,9 @@ void ScoredAccumulator::Fill(v1::WindowHealth* out) const {
     *fh->mutable_psi() =
         r->psi ? DefinedFigure(*r->psi)
                : UndefinedFigure("every record had the value missing");
+    *fh->mutable_shares() = f.mode == Mode::kNumeric
+                                ? NumericShares(*f.bins, *r)
+                                : CategoricalShares(*f.levels, *r);
     if (f.mode == Mode::kNumeric && !f.range) {
       *fh->mutable_out_of_range_rate() =
           UndefinedFigure("the baseline has no min and max");

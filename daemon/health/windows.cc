@@ -8,6 +8,7 @@
 #include "absl/status/status.h"
 #include "absl/strings/str_cat.h"
 #include "absl/strings/str_format.h"
+#include "daemon/health/pictures.h"
 #include "daemon/policy/figures.h"
 #include "scorer/logistic.h"
 
@@ -55,6 +56,7 @@ void FillOutcome(const monitor::OutcomeAccumulator& acc, v1::WindowHealth* w) {
       DefinedFigure(r->loss.calibration_in_the_large);
   *w->mutable_expected_calibration_error() =
       DefinedFigure(r->fixed_bins.expected_calibration_error);
+  FillReliability(r->fixed_bins.table, w);
   if (r->grid.auc.ok()) {
     *w->mutable_auc() = DefinedFigure(r->grid.auc->auc);
     w->set_auc_grid_bound(r->grid.auc->quantisation_bound);

@@ -138,6 +138,22 @@ constexpr const char* kMigrations[] = {
     "               GROUP BY s.record_id, ss.set_name);"
     "DROP INDEX scores_by_record;"
     "CREATE UNIQUE INDEX scores_by_record ON scores(record_id, primary_set);",
+    // 5 -> 6: the model-health history (daemon/history/history_store.h):
+    // the figures of each set version's windows as the monitor evaluated
+    // them, one row per window at most every pages.history_interval, kept
+    // for pages.history_retention (the page's "last days" charts).
+    "CREATE TABLE IF NOT EXISTS health_history("
+    "  id INTEGER PRIMARY KEY,"
+    "  at_us INTEGER NOT NULL,"
+    "  set_name TEXT NOT NULL,"
+    "  version TEXT NOT NULL,"
+    "  window_name TEXT NOT NULL,"
+    "  state TEXT NOT NULL,"
+    "  labelled INTEGER NOT NULL,"
+    "  scored INTEGER NOT NULL,"
+    "  figures TEXT NOT NULL);"
+    "CREATE INDEX IF NOT EXISTS health_history_by_set"
+    "  ON health_history(set_name, at_us);",
 };
 
 }  // namespace

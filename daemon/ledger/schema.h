@@ -6,7 +6,7 @@
 // plumbd opens in a later one. A ledger newer than this build is refused
 // rather than written with a schema it does not know.
 //
-// Tables (version 4):
+// Tables (version 5):
 //   score_sets(id, set_name, set_version, role)   UNIQUE (name, version, role)
 //   scores(id, record_id, set_id -> score_sets.id, scored_at_us, log_odds,
 //          probability, features)              features: JSON as received
@@ -22,6 +22,9 @@
 //     at most one 'active' version per set (partial unique index)
 //   set_activations(seq, set_name, version, at_us)  every activation, in order
 //   audit(id, at_us, set_name, version, action, actor, detail)
+//   health_history(id, at_us, set_name, version, window_name, state,
+//          labelled, scored, figures)     figures: JSON object of the
+//     window's defined figures; index (set_name, at_us); version 5
 // Times are microseconds since the Unix epoch (UTC).
 //
 // Called by Ledger::Open on the writer connection. Not thread-safe.

@@ -14,8 +14,12 @@
 #include "absl/strings/numbers.h"
 #include "absl/strings/str_cat.h"
 #include "absl/strings/str_format.h"
+#include "daemon/review/dossier_data.h"
+#include "daemon/review/dossier_html.h"
+#include "daemon/review/version_view.h"
 #include "daemon/scoring/features_json.h"
 #include "daemon/util/event_log.h"
+#include "daemon/util/time.h"
 #include "monitor/paired_comparison.h"
 #include "scorer/design_matrix.h"
 #include "scorer/design_set.h"
@@ -264,8 +268,52 @@ RefitOutcome RefitRunner::Run(const RefitTrigger& trigger, int64_t job_id) {
       kJobActorPrefix, job_id, " (", RefitTriggerName(trigger.kind),
       trigger.actor.empty() ? "" : ", ", trigger.actor, ")");
   RefitOutcome outcome;
+  outcome.job = job_id;
   PlanPtr active = registry_->Find(trigger.set);
   const std::string active_version = active ? active->version() : "";
+  // The job's evidence, filled as it goes (daemon/review/dossier_html.h).
+  v1::Dossier dossier;
+  dossier.set_set(trigger.set);
+  dossier.set_job(job_id);
+  *dossier.mutable_started_at() = ToTimestamp(now_());
+  dossier.set_trigger(std::string(RefitTriggerName(trigger.kind)));
+  dossier.set_trigger_actor(trigger.actor);
+  dossier.set_trigger_reason(trigger.reason);
+  if (trigger.evidence) *dossier.mutable_evidence() = *trigger.evidence;
+  dossier.set_active_version(active_version);
+  dossier.set_holdout_fraction(settings_.holdout_fraction);
+  dossier.set_margin(settings_.margin);
+  dossier.set_l2(settings_.l2);
+  // Writes the dossier once the outcome is known (the audit rows of the job
+  // are written by then, so its trail holds them).
+  auto write_dossier = [&] {
+    if (dossiers_ == nullptr) return;
+    dossier.set_result(std::string(RefitResultName(outcome.result)));
+    dossier.set_summary(outcome.summary);
+    const absl::Time finished = now_();
+    *dossier.mutable_finished_at() = ToTimestamp(finished);
+    if (absl::StatusOr<std::vector<AuditRecord>> audit =
+            lifecycle_->Audit(trigger.set);
+        audit.ok()) {
+      RefreshTrail(*audit, finished, &dossier);
+    }
+    const DriftPolicy fallback;
+    absl::Status s = dossiers_->Write(
+        dossier,
+        RenderDossier(dossier, policy_ != nullptr ? *policy_ : fallback));
+    if (s.ok()) {
+      outcome.dossier_path = dossiers_->HtmlPath(trigger.set, job_id);
+      LogEvent(LogLevel::kInfo, "refit_dossier",
+               {{"set", trigger.set},
+                {"job", absl::StrCat(job_id)},
+                {"path", outcome.dossier_path}});
+    } else {
+      LogEvent(LogLevel::kError, "refit_dossier_failed",
+               {{"set", trigger.set},
+                {"job", absl::StrCat(job_id)},
+                {"error", s.message()}});
+    }
+  };
   auto fail = [&](std::string why) {
     outcome.result = RefitOutcome::Result::kFailed;
     outcome.summary = std::move(why);
@@ -280,6 +328,7 @@ RefitOutcome RefitRunner::Run(const RefitTrigger& trigger, int64_t job_id) {
              {{"set", trigger.set},
               {"job", absl::StrCat(job_id)},
               {"reason", outcome.summary}});
+    write_dossier();
     return outcome;
   };
   if (active == nullptr) {
@@ -293,6 +342,17 @@ RefitOutcome RefitRunner::Run(const RefitTrigger& trigger, int64_t job_id) {
   }
   const int64_t labelled =
       static_cast<int64_t>(rows.train.size() + rows.holdout.size());
+  dossier.set_training_records(static_cast<int64_t>(rows.train.size()));
+  dossier.set_holdout_records(static_cast<int64_t>(rows.holdout.size()));
+  dossier.set_unreadable_records(rows.unusable);
+  if (labelled > 0) {
+    *dossier.mutable_first_observed() = ToTimestamp(rows.first_observed);
+    *dossier.mutable_last_observed() = ToTimestamp(rows.last_observed);
+    for (v1::FeatureHealth& f :
+         StabilityOf(*active, {rows.train, rows.holdout})) {
+      *dossier.add_stability() = std::move(f);
+    }
+  }
   if (labelled < settings_.min_labelled) {
     return fail(absl::StrCat("too few labelled records: ", labelled,
                              " usable, refit.min_labelled is ",
@@ -380,6 +440,47 @@ RefitOutcome RefitRunner::Run(const RefitTrigger& trigger, int64_t job_id) {
   }
   const bool wins =
       paired->mean_difference <= -settings_.margin && paired->upper_95 < 0;
+  dossier.set_candidate_version(version);
+  {
+    VersionRecord from_record;
+    from_record.set = trigger.set;
+    from_record.version = active_version;
+    from_record.state = VersionState::kActive;
+    v1::VersionInfo from = ToVersionInfo(from_record);
+    if (absl::StatusOr<std::vector<VersionRecord>> known =
+            lifecycle_->List(trigger.set);
+        known.ok()) {
+      for (const VersionRecord& v : *known) {
+        if (v.version == active_version) from = ToVersionInfo(v);
+      }
+    }
+    VersionRecord to_record;
+    to_record.set = trigger.set;
+    to_record.version = version;
+    to_record.state = VersionState::kCandidate;
+    to_record.created_at = now;
+    to_record.created_by = actor;
+    to_record.reason = trigger.reason;
+    *dossier.mutable_diff() =
+        DiffSets(from, active->set(), ToVersionInfo(to_record), *set);
+    if (absl::StatusOr<v1::HoldoutFigures> a =
+            HoldoutFiguresOf(*active, za, labels);
+        a.ok()) {
+      *dossier.mutable_active_holdout() = *std::move(a);
+    }
+    if (absl::StatusOr<v1::HoldoutFigures> c =
+            HoldoutFiguresOf(**candidate, zc, labels);
+        c.ok()) {
+      *dossier.mutable_candidate_holdout() = *std::move(c);
+    }
+    v1::PairedLogLossDifference* p = dossier.mutable_paired();
+    p->set_records(paired->records);
+    p->set_mean_difference(paired->mean_difference);
+    p->set_standard_error(paired->standard_error);
+    p->set_lower_95(paired->lower_95);
+    p->set_upper_95(paired->upper_95);
+    p->set_candidate_wins(wins);
+  }
   const std::string comparison = absl::StrFormat(
       "holdout of %d records%s: log-loss active %s %.6f, candidate %.6f, "
       "difference %.6f (95%% interval %.6f to %.6f); margin %.6f: %s",
@@ -410,6 +511,7 @@ RefitOutcome RefitRunner::Run(const RefitTrigger& trigger, int64_t job_id) {
              {{"set", trigger.set},
               {"job", absl::StrCat(job_id)},
               {"difference", absl::StrCat(paired->mean_difference)}});
+    write_dossier();
     return outcome;
   }
 
@@ -445,6 +547,12 @@ RefitOutcome RefitRunner::Run(const RefitTrigger& trigger, int64_t job_id) {
         absl::StrCat(outcome.summary, "; waiting for plumbctl approve --set ",
                      trigger.set, " --version ", version);
   }
+  if (outcome.candidate) {
+    dossier.mutable_diff()->mutable_to()->set_comparison(
+        outcome.candidate->comparison);
+    dossier.mutable_diff()->set_comparison(outcome.candidate->comparison);
+  }
+  write_dossier();
   LogEvent(LogLevel::kInfo, "refit_done",
            {{"set", trigger.set},
             {"job", absl::StrCat(job_id)},

@@ -38,9 +38,12 @@
 #include "absl/strings/string_view.h"
 #include "absl/time/time.h"
 #include "daemon/ledger/ledger.h"
+#include "daemon/policy/drift_policy.h"
 #include "daemon/registry/lifecycle.h"
+#include "daemon/review/dossier_store.h"
 #include "daemon/scoring/set_registry.h"
 #include "plumbline/v1/config.pb.h"
+#include "plumbline/v1/monitor.pb.h"
 
 namespace plumbline::daemon {
 
@@ -78,6 +81,9 @@ struct RefitTrigger {
   RefitTriggerKind kind = RefitTriggerKind::kManual;
   std::string actor;
   std::string reason;
+  // The set's last evaluation when the job was queued (its dossier's drift
+  // evidence); the worker fills it.
+  std::optional<v1::SetHealth> evidence;
 };
 
 struct RefitOutcome {
@@ -87,6 +93,10 @@ struct RefitOutcome {
   std::optional<VersionRecord> candidate;
   // What happened, for people (also the audit detail).
   std::string summary;
+  // The job's number and its dossier, when one was written
+  // (WriteDossiersTo).
+  int64_t job = 0;
+  std::string dossier_path;
 };
 
 // "promoted", "proposed", "not_better", "failed" (the metric's label).
@@ -110,6 +120,15 @@ class RefitRunner {
 
   const RefitSettings& settings() const { return settings_; }
 
+  // Every later job writes its dossier (daemon/review/dossier_html.h) into
+  // `store`, drawing the policy's thresholds; both must outlive the runner.
+  // A dossier that cannot be written is logged (event=refit_dossier_failed)
+  // and never fails the job. Call before the first Run.
+  void WriteDossiersTo(const DossierStore* store, const DriftPolicy* policy) {
+    dossiers_ = store;
+    policy_ = policy;
+  }
+
   // Whether `set` has a candidate from a refit job waiting for approval:
   // drift- and schedule-triggered jobs wait until it is approved or
   // replaced, rather than piling up candidates nobody has looked at.
@@ -121,6 +140,9 @@ class RefitRunner {
   SetRegistry* const registry_;
   const RefitSettings settings_;
   const std::function<absl::Time()> now_;
+  // Set once before the first job (WriteDossiersTo); null: no dossiers.
+  const DossierStore* dossiers_ = nullptr;
+  const DriftPolicy* policy_ = nullptr;
 };
 
 }  // namespace plumbline::daemon

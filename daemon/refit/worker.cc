@@ -58,6 +58,11 @@ std::shared_ptr<RefitWorker::Job> RefitWorker::Enqueue(RefitTrigger trigger) {
   auto job = std::make_shared<Job>();
   job->id = next_id_++;
   pending_.insert(trigger.set);
+  if (!trigger.evidence) {
+    if (auto it = last_health_.find(trigger.set); it != last_health_.end()) {
+      trigger.evidence = it->second;
+    }
+  }
   job->trigger = std::move(trigger);
   queue_.push_back(job);
   LogEvent(LogLevel::kInfo, "refit_queued",
@@ -70,9 +75,16 @@ std::shared_ptr<RefitWorker::Job> RefitWorker::Enqueue(RefitTrigger trigger) {
 int RefitWorker::OnEvaluated(const std::vector<v1::SetHealth>& health,
                              const std::vector<SetVersion>& active_versions) {
   const RefitSettings& settings = runner_->settings();
-  if (settings.mode == v1::RefitPolicy::OFF) return 0;
   const absl::Time now = now_();
   absl::MutexLock lock(&mu_);
+  for (const v1::SetHealth& h : health) {
+    for (const SetVersion& a : active_versions) {
+      if (a.set == h.set() && a.version == h.version()) {
+        last_health_[h.set()] = h;
+      }
+    }
+  }
+  if (settings.mode == v1::RefitPolicy::OFF) return 0;
   if (stopping_) return 0;
   int queued = 0;
   for (const v1::SetHealth& h : health) {
@@ -105,7 +117,8 @@ int RefitWorker::OnEvaluated(const std::vector<v1::SetHealth>& health,
         it->second = now;
         Enqueue({h.set(), RefitTriggerKind::kSchedule, "",
                  absl::StrCat("scheduled every ",
-                              absl::FormatDuration(settings.schedule))});
+                              absl::FormatDuration(settings.schedule)),
+                 std::nullopt});
         ++queued;
         continue;
       }
@@ -129,7 +142,8 @@ int RefitWorker::OnEvaluated(const std::vector<v1::SetHealth>& health,
           absl::StrCat(fresh, " new outcomes since the drift was seen"));
     }
     Enqueue({h.set(), RefitTriggerKind::kDrift, "",
-             absl::StrCat("drifting: ", absl::StrJoin(reasons, "; "))});
+             absl::StrCat("drifting: ", absl::StrJoin(reasons, "; ")),
+             std::nullopt});
     ++queued;
   }
   return queued;
@@ -139,7 +153,7 @@ RefitOutcome RefitWorker::RunNow(RefitTrigger trigger) {
   absl::MutexLock lock(&mu_);
   if (stopping_) {
     return {RefitOutcome::Result::kFailed, std::nullopt,
-            "plumbd is shutting down"};
+            "plumbd is shutting down", 0, ""};
   }
   std::shared_ptr<Job> job = Enqueue(std::move(trigger));
   mu_.Await(absl::Condition(

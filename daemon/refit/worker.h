@@ -100,6 +100,10 @@ class RefitWorker {
   // A drifting active version -> its labelled_since_start when first seen
   // drifting after the set's last job (min_new_labelled).
   absl::flat_hash_map<SetVersion, int64_t> drift_marks_ ABSL_GUARDED_BY(mu_);
+  // Set -> its active version's last evaluation: the drift evidence a job's
+  // dossier shows.
+  absl::flat_hash_map<std::string, v1::SetHealth> last_health_
+      ABSL_GUARDED_BY(mu_);
   int64_t next_id_ ABSL_GUARDED_BY(mu_);  // after the audit's last job
   int64_t finished_ ABSL_GUARDED_BY(mu_) = 0;
   bool stopping_ ABSL_GUARDED_BY(mu_) = false;

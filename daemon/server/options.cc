@@ -110,6 +110,7 @@ DaemonOptions OptionsFromConfig(const v1::DaemonConfig& config) {
   MergeWindows(config.windows(), options.windows);
   MergeDriftPolicy(config.drift_policy(), options.drift_policy);
   options.refit = config.refit();
+  options.pages = config.pages();
   options.security = config.security();
   options.grpc = config.grpc();
   options.log = LogOptionsFrom(config.log());

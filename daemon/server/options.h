@@ -85,6 +85,9 @@ struct DaemonOptions {
   v1::GrpcServerConfig grpc;
   // The event log (config.proto log): level, format, record values.
   LogOptions log;
+  // The model-health page and its history (config.proto pages) as written;
+  // zeros mean the documented defaults (daemon/server/page_options.h).
+  v1::PagesConfig pages;
 };
 
 // Merges `config` over the defaults: an empty string or a zero keeps the

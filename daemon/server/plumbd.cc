@@ -13,6 +13,7 @@
 #include "daemon/metrics/ledger.h"
 #include "daemon/metrics/shadows.h"
 #include "daemon/server/health_options.h"
+#include "daemon/server/page_options.h"
 #include "daemon/util/address.h"
 #include "daemon/util/event_log.h"
 #include "daemon/util/files.h"
@@ -65,6 +66,10 @@ absl::StatusOr<DaemonOptions> LoadPlumbdOptions(const PlumbdOverrides& flags) {
       !refit.ok()) {
     return refit.status();
   }
+  if (absl::StatusOr<PageSettings> pages = PageSettingsFrom(options);
+      !pages.ok()) {
+    return pages.status();
+  }
   if (absl::StatusOr<std::unique_ptr<AccessControl>> access =
           AccessControl::Create(options.security.access(), nullptr);
       !access.ok()) {
@@ -94,6 +99,8 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
   absl::StatusOr<RefitSettings> refit_settings =
       RefitSettingsFrom(options.refit);
   if (!refit_settings.ok()) return In("config", refit_settings.status());
+  absl::StatusOr<PageSettings> page_settings = PageSettingsFrom(options);
+  if (!page_settings.ok()) return In("config", page_settings.status());
 
   // The sets directory is checked before the ledger is opened, so that a bad
   // directory leaves no ledger file behind.
@@ -168,17 +175,38 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
   LogEvent(LogLevel::kInfo, "metrics_listening",
            {{"addr", d->exporter_->bound_address()}});
 
+  // The history the page draws, and the refit dossiers.
+  if (page_settings->enabled) {
+    HistoryOptions history;
+    history.interval = page_settings->history_interval;
+    history.retention = page_settings->history_retention;
+    absl::StatusOr<std::unique_ptr<HistoryStore>> store =
+        HistoryStore::Open(o.ledger.path, history);
+    if (!store.ok()) return In("history", store.status());
+    d->history_ = *std::move(store);
+    if (absl::StatusOr<int> rows =
+            d->history_->Record(d->monitor_->AllHealth());
+        !rows.ok()) {
+      LogEvent(LogLevel::kWarning, "history_write_failed",
+               {{"error", rows.status().message()}});
+    }
+  }
+  d->dossiers_ = std::make_unique<DossierStore>(page_settings->dossier_dir);
+
   // Refit jobs run on their own thread, off the request path.
   d->refit_runner_ =
       std::make_unique<RefitRunner>(d->ledger_.get(), d->lifecycle_.get(),
                                     d->registry_.get(), *refit_settings);
+  d->refit_runner_->WriteDossiersTo(d->dossiers_.get(),
+                                    &d->monitor_->options().policy);
   d->refits_ = std::make_unique<RefitWorker>(d->refit_runner_.get(),
                                              &d->exporter_->registry());
 
   d->monitor_service_ =
       std::make_unique<MonitorService>(d->registry_.get(), d->monitor_.get());
   d->registry_service_ = std::make_unique<RegistryService>(
-      d->lifecycle_.get(), d->refits_.get(), d->shadow_tracker_.get());
+      d->lifecycle_.get(), d->refits_.get(), d->shadow_tracker_.get(),
+      d->dossiers_.get(), &d->monitor_->options().policy);
   ServerAttachments attachments;
   attachments.health_sink = d->monitor_.get();
   attachments.shadows.tracker = d->shadow_tracker_.get();
@@ -208,6 +236,24 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
   // the monitor's versions follow at once.
   d->version_hook_ = std::make_unique<VersionChangeHook>(
       d->lifecycle_.get(), d->registry_.get(), d.get());
+  if (page_settings->enabled) {
+    PagesParts parts;
+    parts.monitor = d->monitor_.get();
+    parts.lifecycle = d->lifecycle_.get();
+    parts.history = d->history_.get();
+    parts.dossiers = d->dossiers_.get();
+    parts.policy = &d->monitor_->options().policy;
+    PagesOptions pages;
+    pages.refresh_seconds = page_settings->refresh_seconds;
+    pages.chart_span = page_settings->chart_span;
+    pages.tick = tick;
+    d->pages_ = std::make_unique<ModelHealthPages>(parts, pages);
+    d->exporter_->AttachPages(d->pages_.get());
+    LogEvent(
+        LogLevel::kInfo, "pages_serving",
+        {{"url", absl::StrCat("http://", d->exporter_->bound_address(), "/")},
+         {"dossiers", d->dossiers_->root()}});
+  }
   d->ticker_ =
       std::make_unique<HealthTicker>(tick, [p = d.get()] { p->Tick(); });
 
@@ -225,6 +271,8 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
 }
 
 Plumbd::~Plumbd() {
+  // The page requests in flight finish before the parts they read go.
+  if (pages_ != nullptr) exporter_->DetachPages();
   // The one thread the members' order cannot stop: the server's, whose
   // calls may still be running. Shutdown is idempotent.
   if (ticker_ != nullptr) ticker_->Stop();
@@ -242,6 +290,13 @@ void Plumbd::SyncMonitor() {
 void Plumbd::Tick() {
   SyncMonitor();
   monitor_->Evaluate();
+  if (history_ != nullptr) {
+    if (absl::StatusOr<int> rows = history_->Record(monitor_->AllHealth());
+        !rows.ok()) {
+      LogEvent(LogLevel::kWarning, "history_write_failed",
+               {{"error", rows.status().message()}});
+    }
+  }
   std::vector<SetVersion> active;
   for (const PlanPtr& plan : registry_->All()) {
     active.push_back(SetVersion{plan->name(), plan->version()});

@@ -19,13 +19,17 @@
 // registry (first reload), the monitor (windows rebuilt from the ledger and
 // evaluated once, so the first scrape has figures), the metrics endpoint
 // (logged as event=metrics_listening addr=HOST:PORT) and access control, the
-// refit worker, the gRPC server, then the ready file and event=listening.
-// The monitor evaluates every drift_policy.tick_seconds on its own thread.
+// history store and the dossier store, the refit worker, the gRPC server,
+// the model-health page on the metrics listener (event=pages_serving
+// url=http://HOST:PORT/), then the ready file and event=listening. The
+// monitor evaluates every drift_policy.tick_seconds on its own thread; each
+// tick's evaluation also goes to the history (pages.history_interval).
 //
-// Destruction is the reverse: the ticker stops, version changes stop
-// reaching the server, the server goes (calls in flight have finished),
-// the refit worker finishes a running job, the metrics endpoint closes,
-// the ledger commits what is queued and closes the file.
+// Destruction is the reverse: the page is detached from the metrics
+// listener, the ticker stops, version changes stop reaching the server, the
+// server goes (calls in flight have finished), the refit worker finishes a
+// running job, the metrics endpoint closes, the ledger commits what is queued
+// and closes the file.
 //
 // Thread-safe: Reload, Shutdown and the accessors may be called from any
 // thread while another blocks in Wait.
@@ -40,6 +44,7 @@
 #include "absl/time/time.h"
 #include "daemon/health/monitor.h"
 #include "daemon/health/ticker.h"
+#include "daemon/history/history_store.h"
 #include "daemon/ledger/ledger.h"
 #include "daemon/metrics/exporter.h"
 #include "daemon/metrics/requests.h"
@@ -47,12 +52,14 @@
 #include "daemon/refit/worker.h"
 #include "daemon/registry/lifecycle.h"
 #include "daemon/registry/version_store.h"
+#include "daemon/review/dossier_store.h"
 #include "daemon/scoring/set_registry.h"
 #include "daemon/scoring/shadow_tracker.h"
 #include "daemon/server/grpc_server.h"
 #include "daemon/server/options.h"
 #include "daemon/services/monitor.h"
 #include "daemon/services/registry.h"
+#include "daemon/web/pages.h"
 
 namespace plumbline::daemon {
 
@@ -93,6 +100,8 @@ class Plumbd {
   const std::string& metrics_address() const {
     return exporter_->bound_address();
   }
+  // Where refit jobs write their dossiers.
+  const std::string& dossier_dir() const { return dossiers_->root(); }
 
   // Reloads the sets directory (SIGHUP); a new version starts its windows.
   void Reload();
@@ -141,12 +150,16 @@ class Plumbd {
   std::unique_ptr<ShadowTracker> shadow_tracker_;
   std::unique_ptr<MetricsExporter> exporter_;
   std::unique_ptr<RequestMetrics> request_metrics_;
+  std::unique_ptr<HistoryStore> history_;  // null: pages.disabled
+  std::unique_ptr<DossierStore> dossiers_;
   std::unique_ptr<RefitRunner> refit_runner_;
   std::unique_ptr<RefitWorker> refits_;
   std::unique_ptr<MonitorService> monitor_service_;
   std::unique_ptr<RegistryService> registry_service_;
   std::unique_ptr<DaemonServer> server_;
   std::unique_ptr<VersionChangeHook> version_hook_;
+  // Attached to the metrics listener until ~Plumbd detaches it.
+  std::unique_ptr<ModelHealthPages> pages_;
   std::unique_ptr<HealthTicker> ticker_;
 };
 

@@ -7,7 +7,10 @@
 #include "absl/status/status.h"
 #include "absl/strings/str_cat.h"
 #include "daemon/access/access_control.h"
+#include "daemon/review/dossier_data.h"
+#include "daemon/review/dossier_html.h"
 #include "daemon/scoring/core.h"
+#include "daemon/util/event_log.h"
 #include "daemon/util/grpc_status.h"
 #include "daemon/util/time.h"
 
@@ -16,20 +19,6 @@ namespace {
 
 std::string Actor(const std::string& actor) {
   return actor.empty() ? "unnamed caller" : actor;
-}
-
-v1::VersionState ToWire(VersionState state) {
-  switch (state) {
-    case VersionState::kActive:
-      return v1::ACTIVE;
-    case VersionState::kCandidate:
-      return v1::CANDIDATE;
-    case VersionState::kShadow:
-      return v1::SHADOW;
-    case VersionState::kRetired:
-      return v1::RETIRED;
-  }
-  return v1::STATE_UNSPECIFIED;
 }
 
 // INVALID_ARGUMENT unless `set` is a valid name and `version` (when
@@ -67,8 +56,14 @@ v1::VersionInfo ToVersionInfo(const VersionRecord& r) {
 }
 
 RegistryService::RegistryService(Lifecycle* lifecycle, RefitWorker* refits,
-                                 const ShadowTracker* shadows)
-    : lifecycle_(lifecycle), refits_(refits), shadows_(shadows) {}
+                                 const ShadowTracker* shadows,
+                                 const DossierStore* dossiers,
+                                 const DriftPolicy* policy)
+    : lifecycle_(lifecycle),
+      refits_(refits),
+      shadows_(shadows),
+      dossiers_(dossiers),
+      policy_(policy) {}
 
 void RegistryService::AddShadowReport(v1::VersionInfo& info) const {
   if (shadows_ == nullptr) return;
@@ -133,10 +128,37 @@ grpc::Status RegistryService::ChangeVersion(
       !s.ok()) {
     return ToGrpcStatus(s);
   }
-  return Reply((lifecycle_->*change)({request.set(), request.version(),
-                                      Actor(request.actor()), request.reason(),
-                                      request.allow_schema_change()}),
-               reply);
+  absl::StatusOr<VersionRecord> changed =
+      (lifecycle_->*change)({request.set(), request.version(),
+                             Actor(request.actor()), request.reason(),
+                             request.allow_schema_change()});
+  if (changed.ok()) RefreshDossierOf(request.set(), request.version());
+  return Reply(changed, reply);
+}
+
+void RegistryService::RefreshDossierOf(const std::string& set,
+                                       const std::string& version) {
+  if (dossiers_ == nullptr || policy_ == nullptr) return;
+  absl::StatusOr<std::vector<int64_t>> jobs = dossiers_->Jobs(set);
+  if (!jobs.ok()) return;
+  // The newest jobs first; a candidate comes from one of the last few.
+  int looked = 0;
+  for (auto it = jobs->rbegin(); it != jobs->rend() && looked < 20;
+       ++it, ++looked) {
+    absl::StatusOr<v1::Dossier> d = dossiers_->Read(set, *it);
+    if (!d.ok() || d->candidate_version() != version) continue;
+    absl::StatusOr<std::vector<AuditRecord>> audit = lifecycle_->Audit(set);
+    if (!audit.ok()) return;
+    RefreshTrail(*audit, absl::Now(), &*d);
+    if (absl::Status s =
+            dossiers_->WriteHtml(set, *it, RenderDossier(*d, *policy_));
+        !s.ok()) {
+      LogEvent(
+          LogLevel::kWarning, "refit_dossier_failed",
+          {{"set", set}, {"job", absl::StrCat(*it)}, {"error", s.message()}});
+    }
+    return;
+  }
 }
 
 grpc::Status RegistryService::Activate(grpc::ServerContext* context,
@@ -179,13 +201,16 @@ grpc::Status RegistryService::Refit(grpc::ServerContext* context,
   }
   RefitOutcome outcome = refits_->RunNow(
       {request->set(), RefitTriggerKind::kManual, Actor(request->actor()),
-       request->reason().empty() ? "plumbctl refit" : request->reason()});
+       request->reason().empty() ? "plumbctl refit" : request->reason(),
+       std::nullopt});
   reply->set_candidate_created(outcome.candidate.has_value());
   if (outcome.candidate.has_value()) {
     *reply->mutable_candidate() = ToVersionInfo(*outcome.candidate);
   }
   reply->set_promoted(outcome.result == RefitOutcome::Result::kPromoted);
   reply->set_summary(outcome.summary);
+  reply->set_dossier_path(outcome.dossier_path);
+  reply->set_job(outcome.job);
   return grpc::Status::OK;
 }
 
@@ -204,14 +229,103 @@ grpc::Status RegistryService::Audit(grpc::ServerContext* context,
         "no audit history for a set named '", request->set(), "'")));
   }
   for (const AuditRecord& e : *entries) {
-    v1::AuditEntry* out = reply->add_entries();
-    *out->mutable_at() = ToTimestamp(e.at);
-    out->set_set(e.set);
-    out->set_version(e.version);
-    out->set_action(e.action);
-    out->set_actor(e.actor);
-    out->set_detail(e.detail);
+    *reply->add_entries() = ToAuditEntry(e);
   }
+  return grpc::Status::OK;
+}
+
+grpc::Status RegistryService::ShowVersion(grpc::ServerContext* context,
+                                          const v1::ShowVersionRequest* request,
+                                          v1::VersionDetail* reply) {
+  if (grpc::Status s = Admit(context, Role::kAdmin); !s.ok()) return s;
+  if (absl::Status s = CheckTarget(request->set(), "", false); !s.ok()) {
+    return ToGrpcStatus(s);
+  }
+  absl::StatusOr<std::vector<VersionRecord>> versions =
+      lifecycle_->List(request->set());
+  if (!versions.ok()) return ToGrpcStatus(versions.status());
+  for (const VersionRecord& v : *versions) {
+    if (request->version().empty() ? v.state == VersionState::kActive
+                                   : v.version == request->version()) {
+      absl::StatusOr<v1::VersionDetail> detail = DescribeVersion(v);
+      if (!detail.ok()) return ToGrpcStatus(detail.status());
+      *reply = *std::move(detail);
+      return grpc::Status::OK;
+    }
+  }
+  return ToGrpcStatus(absl::NotFoundError(
+      request->version().empty()
+          ? absl::StrCat("set '", request->set(), "' has no active version")
+          : absl::StrCat("set '", request->set(), "' has no version '",
+                         request->version(), "'")));
+}
+
+grpc::Status RegistryService::DiffVersions(
+    grpc::ServerContext* context, const v1::DiffVersionsRequest* request,
+    v1::VersionDiff* reply) {
+  if (grpc::Status s = Admit(context, Role::kAdmin); !s.ok()) return s;
+  if (absl::Status s = CheckTarget(request->set(), "", false); !s.ok()) {
+    return ToGrpcStatus(s);
+  }
+  absl::StatusOr<std::vector<VersionRecord>> versions =
+      lifecycle_->List(request->set());
+  if (!versions.ok()) return ToGrpcStatus(versions.status());
+  auto pair = DiffPair(*versions, request->set(), request->from_version(),
+                       request->to_version());
+  if (!pair.ok()) return ToGrpcStatus(pair.status());
+  absl::StatusOr<v1::VersionDiff> diff =
+      daemon::DiffVersions(pair->first, pair->second);
+  if (!diff.ok()) return ToGrpcStatus(diff.status());
+  *reply = *std::move(diff);
+  return grpc::Status::OK;
+}
+
+grpc::Status RegistryService::GetDossier(grpc::ServerContext* context,
+                                         const v1::GetDossierRequest* request,
+                                         v1::DossierReply* reply) {
+  if (grpc::Status s = Admit(context, Role::kAdmin); !s.ok()) return s;
+  if (absl::Status s = CheckTarget(request->set(), "", false); !s.ok()) {
+    return ToGrpcStatus(s);
+  }
+  if (request->job() < 0) {
+    return ToGrpcStatus(
+        absl::InvalidArgumentError(absl::StrCat("job: ", request->job(),
+                                                " is negative; 0 asks for the "
+                                                "set's latest job")));
+  }
+  if (dossiers_ == nullptr || policy_ == nullptr) {
+    return ToGrpcStatus(
+        absl::NotFoundError("this plumbd keeps no refit dossiers"));
+  }
+  int64_t job = request->job();
+  if (job == 0) {
+    absl::StatusOr<std::vector<int64_t>> jobs = dossiers_->Jobs(request->set());
+    if (!jobs.ok()) return ToGrpcStatus(jobs.status());
+    if (jobs->empty()) {
+      return ToGrpcStatus(absl::NotFoundError(
+          absl::StrCat("no refit dossier of set '", request->set(), "' in ",
+                       dossiers_->root())));
+    }
+    job = jobs->back();
+  }
+  absl::StatusOr<v1::Dossier> dossier = dossiers_->Read(request->set(), job);
+  if (!dossier.ok()) return ToGrpcStatus(dossier.status());
+  if (absl::StatusOr<std::vector<AuditRecord>> audit =
+          lifecycle_->Audit(request->set());
+      audit.ok()) {
+    RefreshTrail(*audit, absl::Now(), &*dossier);
+  }
+  std::string html = RenderDossier(*dossier, *policy_);
+  // The file follows: a validator who opens it sees the trail as it is now.
+  if (absl::Status s = dossiers_->WriteHtml(request->set(), job, html);
+      !s.ok()) {
+    return ToGrpcStatus(s);
+  }
+  reply->set_set(request->set());
+  reply->set_job(job);
+  reply->set_path(dossiers_->HtmlPath(request->set(), job));
+  reply->set_html(std::move(html));
+  *reply->mutable_dossier() = *std::move(dossier);
   return grpc::Status::OK;
 }
 

@@ -4,29 +4,33 @@
 // wire (list, load a candidate, activate, approve, shadow, roll back, refit
 // now, audit), answered by the lifecycle (daemon/lifecycle.h) and the refit
 // worker (daemon/refit_worker.h). Every call needs the admin role
-// (daemon/access_control.h). Actors: the request's actor, or "unnamed
-// caller" when it is empty.
+// (daemon/access_control.h). ShowVersion, DiffVersions and GetDossier
+// answer with daemon/review's messages. Actors: the request's actor, or
+// "unnamed caller" when it is empty.
 //
 // Thread-safe: the lifecycle and the worker are; no state of its own.
 #ifndef PLUMBLINE_DAEMON_SERVICES_REGISTRY_H_
 #define PLUMBLINE_DAEMON_SERVICES_REGISTRY_H_
 
+#include "daemon/policy/drift_policy.h"
 #include "daemon/refit/worker.h"
 #include "daemon/registry/lifecycle.h"
 #include "daemon/scoring/shadow_tracker.h"
+#include "daemon/review/dossier_store.h"
+#include "daemon/review/version_view.h"
 #include "plumbline/v1/registry.grpc.pb.h"
 
 namespace plumbline::daemon {
 
-// The wire form of a stored version.
-v1::VersionInfo ToVersionInfo(const VersionRecord& record);
-
 class RegistryService final : public v1::Registry::Service {
  public:
-  // Both must outlive the service.
-  // `shadows` (may be null) gives `ListVersions` each shadow's report.
+  // All must outlive the service. `shadows` (may be null) gives
+  // `ListVersions` each shadow's report; without `dossiers` (and the
+  // `policy` they are drawn with) GetDossier answers NOT_FOUND.
   RegistryService(Lifecycle* lifecycle, RefitWorker* refits,
-                  const ShadowTracker* shadows = nullptr);
+                  const ShadowTracker* shadows = nullptr,
+                  const DossierStore* dossiers = nullptr,
+                  const DriftPolicy* policy = nullptr);
 
   grpc::Status ListVersions(grpc::ServerContext* context,
                             const v1::ListVersionsRequest* request,
@@ -52,6 +56,15 @@ class RegistryService final : public v1::Registry::Service {
   grpc::Status Audit(grpc::ServerContext* context,
                      const v1::AuditRequest* request,
                      v1::AuditReply* reply) override;
+  grpc::Status ShowVersion(grpc::ServerContext* context,
+                           const v1::ShowVersionRequest* request,
+                           v1::VersionDetail* reply) override;
+  grpc::Status DiffVersions(grpc::ServerContext* context,
+                            const v1::DiffVersionsRequest* request,
+                            v1::VersionDiff* reply) override;
+  grpc::Status GetDossier(grpc::ServerContext* context,
+                          const v1::GetDossierRequest* request,
+                          v1::DossierReply* reply) override;
 
  private:
   // Activate, Approve and Shadow: admission, checks, then `change`.
@@ -63,9 +76,16 @@ class RegistryService final : public v1::Registry::Service {
   // a shadow.
   void AddShadowReport(v1::VersionInfo& info) const;
 
+  // After a version of `set` changed state: the dossier of the job that
+  // proposed `version`, if any, is drawn again with the trail as it stands
+  // (so the file a validator opens shows the approval).
+  void RefreshDossierOf(const std::string& set, const std::string& version);
+
   Lifecycle* const lifecycle_;
   RefitWorker* const refits_;
   const ShadowTracker* const shadows_;
+  const DossierStore* const dossiers_;
+  const DriftPolicy* const policy_;
 };
 
 }  // namespace plumbline::daemon

@@ -8,8 +8,9 @@
   include added, one sideways include, a monitor/ file including SQLite, a
   CMake link that skips the graph and a graph with a cycle: each is
   reported, so the check itself cannot silently pass.
-- plumbctl links neither libsqlite3 nor libprometheus (ldd); plumbd does
-  link both (so the ldd check sees real libraries).
+- plumbctl links neither libsqlite3 nor libprometheus nor libcivetweb (ldd);
+  plumbd links all three (so the ldd check sees real libraries), and not
+  prometheus-cpp's pull library.
 """
 import os
 import re
@@ -121,13 +122,17 @@ class Binaries(unittest.TestCase):
 
     def test_plumbctl_links_no_sqlite_and_no_prometheus(self):
         libs = self.libraries(PLUMBCTL)
-        self.assertFalse([l for l in libs if "sqlite" in l or "prometheus" in l],
-                         libs)
+        self.assertFalse([l for l in libs if "sqlite" in l or "prometheus" in l
+                          or "civetweb" in l], libs)
 
     def test_plumbd_links_both(self):
         libs = " ".join(self.libraries(PLUMBD))
         self.assertIn("libsqlite3", libs)
         self.assertIn("libprometheus", libs)
+        # One HTTP server: civetweb itself, not also the copy prometheus-cpp's
+        # pull library would bring (its Exposer is no longer used).
+        self.assertIn("libcivetweb", libs)
+        self.assertNotIn("libprometheus-cpp-pull", libs)
 
 
 if __name__ == "__main__":

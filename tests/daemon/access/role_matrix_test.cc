@@ -128,6 +128,12 @@ std::vector<Rpc> RoleMatrixTest::AllRpcs() {
   audit.set_set("no-such-set");
   v1::ListVersionsRequest versions;
   versions.set_set("no-such-set");
+  v1::ShowVersionRequest show;
+  show.set_set("no-such-set");
+  v1::DiffVersionsRequest diff;
+  diff.set_set("no-such-set");
+  v1::GetDossierRequest dossier;
+  dossier.set_set("no-such-set");
   // Each reply lives in the lambda; only the status matters here.
   return {
       {"Scoring.Score", Role::kScore,
@@ -200,6 +206,21 @@ std::vector<Rpc> RoleMatrixTest::AllRpcs() {
          v1::AuditReply r;
          return registry_->Audit(c, audit, &r);
        }},
+      {"Registry.ShowVersion", Role::kAdmin,
+       [this, show](grpc::ClientContext* c) {
+         v1::VersionDetail r;
+         return registry_->ShowVersion(c, show, &r);
+       }},
+      {"Registry.DiffVersions", Role::kAdmin,
+       [this, diff](grpc::ClientContext* c) {
+         v1::VersionDiff r;
+         return registry_->DiffVersions(c, diff, &r);
+       }},
+      {"Registry.GetDossier", Role::kAdmin,
+       [this, dossier](grpc::ClientContext* c) {
+         v1::DossierReply r;
+         return registry_->GetDossier(c, dossier, &r);
+       }},
   };
 }
 
@@ -210,7 +231,7 @@ bool IsAuthError(grpc::StatusCode code) {
 
 TEST_F(RoleMatrixTest, EveryRpcAnswersEachCredentialAsItsRoleSays) {
   const std::vector<Rpc> rpcs = AllRpcs();
-  ASSERT_EQ(rpcs.size(), 14u);
+  ASSERT_EQ(rpcs.size(), 17u);
   int admin_rpcs = 0;
   for (const Rpc& rpc : rpcs) {
     SCOPED_TRACE(rpc.name);
@@ -241,7 +262,7 @@ TEST_F(RoleMatrixTest, EveryRpcAnswersEachCredentialAsItsRoleSays) {
   ASSERT_TRUE(scoring_->ListSets(&context, v1::ListSetsRequest(), &sets).ok());
   ASSERT_EQ(sets.sets_size(), 1);
 
-  // Counted: 14 calls without credentials, 14 with the unknown token, the
+  // Counted: 17 calls without credentials, 17 with the unknown token, the
   // admin RPCs with the score token.
   const std::string metrics_addr =
       testing::MetricsAddressFromLog(plumbd_->Log());
@@ -254,15 +275,15 @@ TEST_F(RoleMatrixTest, EveryRpcAnswersEachCredentialAsItsRoleSays) {
     return testing::FindSample(samples, "plumbline_auth_failures_total",
                                {{"reason", reason}});
   };
-  EXPECT_EQ(counted("missing_credentials"), 14);
-  EXPECT_EQ(counted("unknown_token"), 14);
+  EXPECT_EQ(counted("missing_credentials"), 17);
+  EXPECT_EQ(counted("unknown_token"), 17);
   EXPECT_EQ(counted("wrong_role"), admin_rpcs);
   EXPECT_EQ(counted("malformed_credentials"), 0);
 
   // Logged, without any token's secret.
   const std::string log = plumbd_->Log();
   EXPECT_THAT(log, HasSubstr("event=access_control_on tokens=2 subjects=0"));
-  EXPECT_EQ(plumbd_->CountLogLines("event=auth_refused"), 28 + admin_rpcs);
+  EXPECT_EQ(plumbd_->CountLogLines("event=auth_refused"), 34 + admin_rpcs);
   for (const std::string* token : {&score_.token, &admin_.token, &wrong_}) {
     EXPECT_THAT(log, Not(HasSubstr(token->substr(17))));
   }

@@ -1,0 +1,61 @@
+// File: daemon/cli/review.h
+//
+// plumbctl's review commands over plumbd's Registry service (admin role),
+// ready for plumbctl_main.cc to call once its per-command flags land:
+//   show     one version: transforms, coefficients with standard errors,
+//            fit statistics, provenance (Registry.ShowVersion)
+//   diff     two versions feature by feature, default the active version
+//            against the newest candidate (Registry.DiffVersions)
+//   dossier  a refit job's dossier written to --out (Registry.GetDossier;
+//            the set's latest job by default)
+// With `json`, show and diff print the reply message as protobuf JSON
+// (proto field names) for scripts; dossier prints its data so.
+//
+//   ReviewCommand c;
+//   c.name = "diff";
+//   c.set = "courier";
+//   absl::Status s = RunReviewCommand(client, c, std::cout);
+//
+// Thread-safe: no shared state, but it writes to the given stream.
+#ifndef PLUMBLINE_DAEMON_CLI_REVIEW_H_
+#define PLUMBLINE_DAEMON_CLI_REVIEW_H_
+
+#include <cstdint>
+#include <ostream>
+#include <string>
+
+#include "absl/status/status.h"
+#include "daemon/cli/commands.h"
+#include "plumbline/v1/registry.pb.h"
+
+namespace plumbline::daemon {
+
+struct ReviewCommand {
+  std::string name;  // "show", "diff" or "dossier"
+  std::string set;
+  std::string version;  // show; empty: the active version
+  std::string from;     // diff; empty: the active version
+  std::string to;       // diff; empty: the newest candidate
+  int64_t job = 0;      // dossier; 0: the latest job
+  std::string out;      // dossier: the file to write
+  bool json = false;
+};
+
+// True for "show", "diff" and "dossier".
+bool IsReviewCommand(const std::string& name);
+
+// A usage error (INVALID_ARGUMENT "dossier needs --out") before anything is
+// sent; OK otherwise.
+absl::Status CheckReviewFlags(const ReviewCommand& command);
+
+// CheckReviewFlags' error, else plumbd's status.
+absl::Status RunReviewCommand(const ClientOptions& client,
+                              const ReviewCommand& command, std::ostream& out);
+
+// The text forms (tests call these on messages of their own).
+void PrintVersionDetail(const v1::VersionDetail& detail, std::ostream& out);
+void PrintVersionDiff(const v1::VersionDiff& diff, std::ostream& out);
+
+}  // namespace plumbline::daemon
+
+#endif  // PLUMBLINE_DAEMON_CLI_REVIEW_H_
