@@ -43,18 +43,6 @@ grpc::Status Reply(const absl::StatusOr<VersionRecord>& record,
 
 }  // namespace
 
-v1::VersionInfo ToVersionInfo(const VersionRecord& r) {
-  v1::VersionInfo info;
-  info.set_set(r.set);
-  info.set_version(r.version);
-  info.set_state(ToWire(r.state));
-  *info.mutable_created_at() = ToTimestamp(r.created_at);
-  info.set_created_by(r.created_by);
-  info.set_reason(r.reason);
-  info.set_comparison(r.comparison);
-  return info;
-}
-
 RegistryService::RegistryService(Lifecycle* lifecycle, RefitWorker* refits,
                                  const ShadowTracker* shadows,
                                  const DossierStore* dossiers,
@@ -128,10 +116,9 @@ grpc::Status RegistryService::ChangeVersion(
       !s.ok()) {
     return ToGrpcStatus(s);
   }
-  absl::StatusOr<VersionRecord> changed =
-      (lifecycle_->*change)({request.set(), request.version(),
-                             Actor(request.actor()), request.reason(),
-                             request.allow_schema_change()});
+  absl::StatusOr<VersionRecord> changed = (lifecycle_->*change)(
+      {request.set(), request.version(), Actor(request.actor()),
+       request.reason(), request.allow_schema_change()});
   if (changed.ok()) RefreshDossierOf(request.set(), request.version());
   return Reply(changed, reply);
 }

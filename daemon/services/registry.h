@@ -15,9 +15,9 @@
 #include "daemon/policy/drift_policy.h"
 #include "daemon/refit/worker.h"
 #include "daemon/registry/lifecycle.h"
-#include "daemon/scoring/shadow_tracker.h"
 #include "daemon/review/dossier_store.h"
 #include "daemon/review/version_view.h"
+#include "daemon/scoring/shadow_tracker.h"
 #include "plumbline/v1/registry.grpc.pb.h"
 
 namespace plumbline::daemon {
