@@ -14,8 +14,15 @@ Writes into OUT_DIR:
                            partly a level the set has never seen
   reference.json           figures of the steady records, computed here:
       log_loss, brier      sklearn.metrics.log_loss, brier_score_loss
-      auc                  sklearn.metrics.roc_auc_score (exact: plumbd's
-                           AUC is the Mann-Whitney statistic over its records)
+      score_psi_test, psi_test[f]   see below
+
+With --outcome-figures SCORES.json OUT.json it computes, from the log-odds,
+probabilities and labels plumbd itself answered (in the order their outcomes
+were reported), the exact outcome figures; on plumbd's own numbers, since
+those records have many tied and nearly tied scores (a difference in the
+last bit reorders a pair):
+      auc                  sklearn.metrics.roc_auc_score on the log-odds
+                           (plumbd's AUC is the Mann-Whitney statistic)
       hosmer_lemeshow      deciles of risk written out here with numpy
                            (sorted probabilities, group k = ranks
                            floor(k n / 10) .. floor((k + 1) n / 10) - 1, a run
@@ -37,6 +44,7 @@ Writes into OUT_DIR:
                            reported, S = max(0, S + W), W = y (zA - z) -
                            log((1 + e^zA) / (1 + e^z)) by numpy.logaddexp; no
                            reset (the test checks plumbd saw no alarm)
+  and the PSI tests of the fixture's records:
       score_psi, psi[f]    sum of scipy.special.rel_entr(a, e) +
                            rel_entr(e, a) over the bins, both proportions
                            floored at 1e-4 first (the rule documented in
@@ -51,7 +59,9 @@ Writes into OUT_DIR:
 Every float is written with repr (Python's json), so it reads back exactly.
 Seeded: the same files every run.
 
-  /usr/bin/python3 tests/daemon/health_reference.py OUT_DIR
+  /usr/bin/python3 tests/daemon/health/health_reference.py OUT_DIR
+  /usr/bin/python3 tests/daemon/health/health_reference.py \
+      --outcome-figures SCORES.json OUT.json
 """
 import json
 import os
@@ -294,9 +304,38 @@ def records(rows, labels, prefix):
     return out
 
 
+def outcome_figures(scores_path, out_path):
+    with open(scores_path) as f:
+        scores = json.load(f)
+    z = np.asarray(scores["log_odds"], float)
+    p = np.asarray(scores["probability"], float)
+    y = np.asarray(scores["labels"], int)
+    # statsmodels: the offset fit (slope 1) and the joint fit.
+    offset_fit = sm.GLM(y, np.ones((len(z), 1)), family=sm.families.Binomial(),
+                        offset=z).fit(tol=1e-14, maxiter=100)
+    joint_fit = sm.Logit(y, sm.add_constant(z)).fit(
+        method="newton", tol=1e-14, maxiter=100, disp=0)
+    out = {
+        "versions": {"numpy": np.__version__, "scipy": scipy.__version__,
+                     "sklearn": sklearn.__version__,
+                     "statsmodels": statsmodels.__version__},
+        "auc": float(roc_auc_score(y, z)),
+        "hosmer_lemeshow": hosmer_lemeshow(p, y),
+        "calibration_intercept": float(offset_fit.params[0]),
+        "calibration_slope": float(joint_fit.params[1]),
+        "cusum": {name: cusum(z, y, *alt) for name, alt in CUSUM.items()},
+    }
+    with open(out_path, "w") as f:
+        json.dump(out, f, indent=1)
+
+
 def main():
+    if len(sys.argv) == 4 and sys.argv[1] == "--outcome-figures":
+        outcome_figures(sys.argv[2], sys.argv[3])
+        return
     if len(sys.argv) != 2:
-        sys.exit("usage: health_reference.py OUT_DIR")
+        sys.exit("usage: health_reference.py OUT_DIR\n"
+                 "       health_reference.py --outcome-figures SCORES OUT")
     out_dir = sys.argv[1]
     os.makedirs(os.path.join(out_dir, "sets"), exist_ok=True)
     rng = np.random.default_rng(SEED)
@@ -325,12 +364,6 @@ def main():
     score_bins = np.searchsorted(score_base["edges"], p, side="right")
     score_psi = psi(score_base["proportions"],
                     shares(score_bins, len(score_base["proportions"])))
-    # statsmodels: the offset fit (slope 1) and the joint fit.
-    ones = np.ones((len(z), 1))
-    offset_fit = sm.GLM(y, ones, family=sm.families.Binomial(),
-                        offset=z).fit(tol=1e-14, maxiter=100)
-    joint_fit = sm.Logit(y, sm.add_constant(z)).fit(
-        method="newton", tol=1e-14, maxiter=100, disp=0)
     reference = {
         "versions": {"numpy": np.__version__, "scipy": scipy.__version__,
                      "sklearn": sklearn.__version__,
@@ -340,14 +373,9 @@ def main():
         "probability": p.tolist(),
         "log_loss": float(log_loss(y, p)),
         "brier": float(brier_score_loss(y, p)),
-        "auc": float(roc_auc_score(y, p)),
-        "hosmer_lemeshow": hosmer_lemeshow(p, y),
-        "calibration_intercept": float(offset_fit.params[0]),
-        "calibration_slope": float(joint_fit.params[1]),
         "score_psi": score_psi,
         "score_psi_test": psi_test(score_psi, score_base, len(p), TESTS),
         "stability_test_alpha": ALPHA / TESTS,
-        "cusum": {name: cusum(z, y, *alt) for name, alt in CUSUM.items()},
         "features": {f["name"]: feature_figures(f, steady[f["name"]])
                      for f in coefficient_set["features"]},
     }
