@@ -77,7 +77,8 @@ void OutcomeCoverage::Fill(absl::Time now, v1::SetHealth* out) const {
       const Cohort& c = ring_[static_cast<size_t>(slot)];
       // The bucket ends at (b + 1) * bucket_: mature once that is a
       // horizon ago.
-      if (absl::UnixEpoch() + (b + 1) * bucket_ > now - horizon_) {
+      if (horizon_ > absl::ZeroDuration() &&
+          absl::UnixEpoch() + (b + 1) * bucket_ > now - horizon_) {
         mature = false;
       }
       if (c.bucket != b) continue;

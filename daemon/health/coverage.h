@@ -22,8 +22,8 @@
 // band's true ages are its nominal ones moved up by the time since the
 // current bucket began (less than w). A band is mature when every bucket
 // in it ended at least a horizon ago: with a horizon, bands 2 and 3 (ages
-// from the horizon to twice it). Records scored before the oldest bucket
-// (or, for an outcome, whose score is there) are not counted.
+// from the horizon to twice it); without one, every band. Records scored before
+// the oldest bucket (or, for an outcome, whose score is there) are not counted.
 //
 // Not thread-safe; a value type (HealthWindows guards it).
 #ifndef PLUMBLINE_DAEMON_HEALTH_COVERAGE_H_
