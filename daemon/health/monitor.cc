@@ -287,11 +287,16 @@ void HealthMonitor::Evaluate() {
   }
   trackers_ = std::move(kept);
   {
+    // Counts of versions no longer monitored go with them.
     absl::MutexLock lock(&transitions_mu_);
-    absl::erase_if(transitions_, [&](const auto& entry) {
-      return !trackers_.contains(
-          VersionKey(std::get<0>(entry.first), std::get<1>(entry.first)));
-    });
+    for (auto it = transitions_.begin(); it != transitions_.end();) {
+      const auto& [set, version, from, to, trigger] = it->first;
+      if (trackers_.contains(VersionKey(set, version))) {
+        ++it;
+      } else {
+        transitions_.erase(it++);
+      }
+    }
   }
   absl::MutexLock lock(&mu_);
   for (size_t i = 0; i < results.size(); ++i) {
