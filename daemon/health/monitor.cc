@@ -6,6 +6,7 @@
 #include <utility>
 
 #include "absl/strings/str_cat.h"
+#include "absl/strings/str_format.h"
 #include "daemon/health/rebuild.h"
 #include "daemon/util/event_log.h"
 #include "daemon/util/time.h"
@@ -17,24 +18,39 @@ SetVersion VersionKey(absl::string_view set, absl::string_view version) {
   return SetVersion{std::string(set), std::string(version)};
 }
 
-void LogStateChange(const v1::SetHealth& before, const v1::SetHealth& after) {
-  const bool first = !before.has_evaluated_at();
-  if (first ? after.state() == v1::STEADY : before.state() == after.state()) {
-    return;
-  }
-  const std::string reasons = absl::StrCat(after.reasons_size());
-  const std::string from = first ? "none" : DriftStateName(before.state());
-  const std::string to = DriftStateName(after.state());
-  LogEvent(after.state() == v1::STEADY ? LogLevel::kInfo : LogLevel::kWarning,
+void LogTransition(const v1::SetHealth& health, const PolicyTransition& t) {
+  LogEvent(t.to == v1::STEADY ? LogLevel::kInfo : LogLevel::kWarning,
            "drift_state",
-           {{"set", after.set()},
-            {"version", after.version()},
-            {"from", from},
-            {"to", to},
-            {"reasons", reasons},
-            {"first_reason", after.reasons_size() > 0
-                                 ? absl::string_view(after.reasons(0).text())
-                                 : absl::string_view()}});
+           {{"set", health.set()},
+            {"version", health.version()},
+            {"from", DriftStateName(t.from)},
+            {"to", DriftStateName(t.to)},
+            {"trigger", t.trigger},
+            {"reasons", absl::StrCat(health.reasons_size())},
+            {"reason", t.reason}});
+}
+
+void LogLimits(const scorer::ScoringPlan& plan,
+               const std::vector<CusumLimit>& limits) {
+  for (const CusumLimit& l : limits) {
+    if (l.limit.ok()) {
+      LogEvent(LogLevel::kInfo, "cusum_limits",
+               {{"set", plan.name()},
+                {"version", plan.version()},
+                {"chart", l.chart},
+                {"limit", absl::StrFormat("%.6g", l.limit->limit)},
+                {"in_control_arl", absl::StrFormat("%.6g", l.limit->arl.value)},
+                {"arl_error",
+                 absl::StrFormat("%.3g", l.limit->arl.discretisation_error)},
+                {"caveat", l.caveat}});
+    } else {
+      LogEvent(LogLevel::kWarning, "cusum_limits",
+               {{"set", plan.name()},
+                {"version", plan.version()},
+                {"chart", l.chart},
+                {"error", l.limit.status().message()}});
+    }
+  }
 }
 
 }  // namespace
@@ -44,6 +60,9 @@ HealthMonitor::HealthMonitor(HealthMonitorOptions options)
 
 absl::StatusOr<std::unique_ptr<HealthMonitor>> HealthMonitor::Create(
     HealthMonitorOptions options) {
+  // One source for the level of the PSI tests: the policy's.
+  options.windows.alpha = options.policy.alpha();
+  if (absl::Status s = options.windows.cusum.Check(); !s.ok()) return s;
   if (options.windows.buckets < 1 ||
       options.windows.labelled_count % options.windows.buckets != 0 ||
       options.windows.scored_count % options.windows.buckets != 0 ||
@@ -189,8 +208,8 @@ void HealthMonitor::OnLabelled(const LabelledScore& labelled) {
   {
     absl::ReaderMutexLock lock(&mu_);
     if (HealthWindows* w = Find(labelled.set_name, labelled.set_version)) {
-      w->AddLabelled(labelled.log_odds, labelled.label, labelled.observed_at,
-                     now);
+      w->AddLabelled(labelled.log_odds, labelled.label, labelled.scored_at,
+                     labelled.observed_at, now);
       return;
     }
   }
@@ -215,7 +234,7 @@ absl::Status HealthMonitor::Rebuild(Ledger& ledger) {
 }
 
 void HealthMonitor::Evaluate() {
-  const absl::Time now = options_.now();
+  absl::MutexLock evaluating(&evaluate_mu_);
   std::vector<std::shared_ptr<Version>> all;
   {
     absl::ReaderMutexLock lock(&mu_);
@@ -223,23 +242,66 @@ void HealthMonitor::Evaluate() {
       all.insert(all.end(), list.begin(), list.end());
     }
   }
+  // Control limits for versions seen for the first time (a fraction of a
+  // second per chart), before the clock is read for the figures.
+  for (const auto& v : all) {
+    if (!v->windows->NeedsCusumLimits()) continue;
+    const scorer::ScoringPlan& plan = *v->windows->plan();
+    std::vector<CusumLimit> limits =
+        ChooseCusumLimits(plan.set(), options_.windows.cusum);
+    LogLimits(plan, limits);
+    v->windows->SetCusumLimits(std::move(limits));
+  }
+  const absl::Time now = options_.now();
   std::vector<v1::SetHealth> results;
   results.reserve(all.size());
+  absl::flat_hash_map<SetVersion, Tracked> kept;
   for (const auto& v : all) {
     v1::SetHealth health = v->windows->Figures(now);
-    options_.policy.Judge(v->windows->plan()->set().provenance(), &health);
     *health.mutable_evaluated_at() = ToTimestamp(now);
+    const SetVersion key = VersionKey(health.set(), health.version());
+    auto it = trackers_.find(key);
+    if (it == trackers_.end() || it->second.windows != v->windows.get()) {
+      // New windows (a version loaded again starts afresh). The policy was
+      // checked when the monitor was made, so Create cannot fail.
+      absl::StatusOr<DriftTracker> tracker =
+          DriftTracker::Create(options_.policy);
+      if (!tracker.ok()) {
+        results.push_back(std::move(health));
+        continue;
+      }
+      it = trackers_.insert_or_assign(key, Tracked{v->windows.get(), *tracker})
+               .first;
+    }
+    std::optional<PolicyTransition> t = it->second.tracker.Evaluate(
+        options_.policy, v->windows->plan()->set().provenance(), &health);
+    kept.insert_or_assign(key, std::move(it->second));
+    if (t) {
+      LogTransition(health, *t);
+      absl::MutexLock lock(&transitions_mu_);
+      ++transitions_[TransitionKey(health.set(), health.version(),
+                                   DriftStateName(t->from),
+                                   DriftStateName(t->to), t->trigger)];
+    }
     results.push_back(std::move(health));
   }
-  std::vector<v1::SetHealth> before(all.size());
+  trackers_ = std::move(kept);
   {
-    absl::MutexLock lock(&mu_);
-    for (size_t i = 0; i < all.size(); ++i) {
-      before[i] = std::move(all[i]->health);
-      all[i]->health = results[i];
+    // Counts of versions no longer monitored go with them.
+    absl::MutexLock lock(&transitions_mu_);
+    for (auto it = transitions_.begin(); it != transitions_.end();) {
+      const auto& [set, version, from, to, trigger] = it->first;
+      if (trackers_.contains(VersionKey(set, version))) {
+        ++it;
+      } else {
+        transitions_.erase(it++);
+      }
     }
   }
-  for (size_t i = 0; i < all.size(); ++i) LogStateChange(before[i], results[i]);
+  absl::MutexLock lock(&mu_);
+  for (size_t i = 0; i < results.size(); ++i) {
+    all[i]->health = std::move(results[i]);
+  }
 }
 
 absl::StatusOr<v1::SetHealth> HealthMonitor::Health(
@@ -269,6 +331,22 @@ std::vector<v1::SetHealth> HealthMonitor::AllHealth() const {
                    [](const v1::SetHealth& a, const v1::SetHealth& b) {
                      return a.set() < b.set();
                    });
+  return out;
+}
+
+std::vector<TransitionCount> HealthMonitor::Transitions() const {
+  std::vector<TransitionCount> out;
+  {
+    absl::MutexLock lock(&transitions_mu_);
+    for (const auto& [key, n] : transitions_) {
+      const auto& [set, version, from, to, trigger] = key;
+      out.push_back({set, version, from, to, trigger, n});
+    }
+  }
+  std::sort(out.begin(), out.end(), [](const auto& a, const auto& b) {
+    return std::tie(a.set, a.version, a.from, a.to, a.trigger) <
+           std::tie(b.set, b.version, b.from, b.to, b.trigger);
+  });
   return out;
 }
 

@@ -9,6 +9,14 @@
 // Prometheus exposition and the event log all read that one result, so
 // they always show the same numbers.
 //
+// Drift state: one DriftTracker per version (daemon/policy/drift_policy.h:
+// hysteresis and dwell); every change of state is logged (event
+// drift_state, with the test that fired and its p-value or chart value) and
+// counted by (from, to, trigger) in Transitions(). The CUSUM charts' control
+// limits are chosen by Evaluate, on the monitor's own thread, the first
+// time it sees a version (event cusum_limits); records labelled before
+// then wait in the charts' buffer.
+//
 //   auto monitor = HealthMonitor::Create(options);
 //   (*monitor)->SyncPlans(registry.All());
 //   (*monitor)->Rebuild(*ledger);         // at startup
@@ -24,7 +32,8 @@
 //
 // Thread-safe: every method may be called from any thread. OnScored and
 // OnLabelled take a shared lock on the version map and the mutex of one
-// window pair for one record.
+// window pair for one record. One Evaluate runs at a time (evaluate_mu_,
+// taken before mu_).
 #ifndef PLUMBLINE_DAEMON_HEALTH_MONITOR_H_
 #define PLUMBLINE_DAEMON_HEALTH_MONITOR_H_
 
@@ -32,6 +41,7 @@
 #include <functional>
 #include <memory>
 #include <string>
+#include <tuple>
 #include <vector>
 
 #include "absl/base/thread_annotations.h"
@@ -57,6 +67,17 @@ struct HealthMonitorOptions {
   DriftPolicy policy;
   // The clock; tests pass a fake one.
   std::function<absl::Time()> now = [] { return absl::Now(); };
+};
+
+// Changes of drift state of one version by kind, since it was first
+// monitored.
+struct TransitionCount {
+  std::string set;
+  std::string version;
+  std::string from;  // "steady", "watch", "drifting"
+  std::string to;
+  std::string trigger;  // the metric that entered the state, or "released"
+  int64_t transitions = 0;
 };
 
 // Records that reached the monitor for a set version it has no windows for.
@@ -105,6 +126,8 @@ class HealthMonitor final : public HealthSink {
   // The last evaluation of every monitored version, by set name.
   std::vector<v1::SetHealth> AllHealth() const;
   std::vector<UnmonitoredCount> Unmonitored() const;
+  // Drift state transitions of every monitored version.
+  std::vector<TransitionCount> Transitions() const;
 
   const HealthMonitorOptions& options() const { return options_; }
 
@@ -129,8 +152,25 @@ class HealthMonitor final : public HealthSink {
   void CountUnmonitored(absl::string_view set, absl::string_view version,
                         absl::string_view kind);
 
+  // The drift state of one version's windows.
+  struct Tracked {
+    const HealthWindows* windows = nullptr;  // whose version it judges
+    DriftTracker tracker;
+  };
+  using TransitionKey = std::tuple<std::string, std::string, std::string,
+                                   std::string, std::string>;
+
   // Constant after construction.
   const HealthMonitorOptions options_;
+
+  // Held for a whole Evaluate; taken before mu_.
+  absl::Mutex evaluate_mu_ ABSL_ACQUIRED_BEFORE(mu_);
+  absl::flat_hash_map<SetVersion, Tracked> trackers_
+      ABSL_GUARDED_BY(evaluate_mu_);
+
+  mutable absl::Mutex transitions_mu_;
+  absl::flat_hash_map<TransitionKey, int64_t> transitions_
+      ABSL_GUARDED_BY(transitions_mu_);
 
   mutable absl::Mutex mu_;
   // Set name -> its monitored versions, oldest first.

@@ -1,6 +1,7 @@
 // File: daemon/health/rebuild.cc
 #include "daemon/health/rebuild.h"
 
+#include <algorithm>
 #include <cstdint>
 #include <functional>
 #include <string>
@@ -51,6 +52,8 @@ absl::Status RebuildWindows(Ledger& ledger, HealthWindows& windows,
   const std::string& version = plan.version();
   const HealthWindowOptions& o = windows.options();
   const absl::Time since = windows.TimeWindowStart(now);
+  const absl::Time labelled_since = windows.LabelledReadStart(now);
+  const absl::Time coverage_since = windows.CoverageStart(now);
   int64_t labelled = 0, scored = 0, skipped = 0;
   google::protobuf::Struct holder;
   std::vector<scorer::RawValue> row;
@@ -71,8 +74,8 @@ absl::Status RebuildWindows(Ledger& ledger, HealthWindows& windows,
   if (!newest_labelled.ok()) return newest_labelled.status();
   for (auto it = newest_labelled->rbegin(); it != newest_labelled->rend();
        ++it) {
-    windows.AddLabelledTo(WindowKind::kCount, it->log_odds, it->label, now,
-                          now);
+    windows.AddLabelledTo(WindowKind::kCount, it->log_odds, it->label,
+                          it->scored_at, now, now);
   }
   labelled += static_cast<int64_t>(newest_labelled->size());
 
@@ -94,26 +97,43 @@ absl::Status RebuildWindows(Ledger& ledger, HealthWindows& windows,
     ++scored;
   }
 
-  // Time windows: every row inside the span, in any order.
+  // Time windows (and the records waiting for their outcome horizon): every
+  // row inside the span, in any order; the coverage's rows on the way.
+  const bool by_score_time = windows.outcome_horizon() > absl::ZeroDuration();
+  const absl::Time labelled_window_start =
+      windows.TimeWindowStart(now - windows.outcome_horizon());
   absl::Status s = ledger.ForEachLabelled(
-      plan.name(), kRebuildTimeLimit, since, [&](const LabelledScore& l) {
+      plan.name(), kRebuildTimeLimit, std::min(labelled_since, coverage_since),
+      [&](const LabelledScore& l) {
         if (l.set_version != version) return;
+        if (l.scored_at >= coverage_since) {
+          windows.AddCoverage(l.scored_at, /*labelled=*/true, now);
+        }
+        const bool in_window = by_score_time
+                                   ? l.scored_at >= labelled_window_start
+                                   : l.observed_at >= labelled_since;
+        if (!in_window) return;
         windows.AddLabelledTo(WindowKind::kTime, l.log_odds, l.label,
-                              l.observed_at, now);
+                              l.scored_at, l.observed_at, now);
         ++labelled;
       });
   if (!s.ok()) return s;
-  s = ledger.ForEachScore(plan.name(), kRebuildTimeLimit, since,
-                          [&](const ScoreEntry& e) {
-                            if (e.set_version != version) return;
-                            if (!parses(e)) {
-                              ++skipped;
-                              return;
-                            }
-                            windows.AddScoredTo(WindowKind::kTime, e.log_odds,
-                                                row, e.scored_at, now);
-                            ++scored;
-                          });
+  s = ledger.ForEachScore(
+      plan.name(), kRebuildTimeLimit, std::min(since, coverage_since),
+      [&](const ScoreEntry& e) {
+        if (e.set_version != version) return;
+        if (e.scored_at >= coverage_since) {
+          windows.AddCoverage(e.scored_at, /*labelled=*/false, now);
+        }
+        if (e.scored_at < since) return;
+        if (!parses(e)) {
+          ++skipped;
+          return;
+        }
+        windows.AddScoredTo(WindowKind::kTime, e.log_odds, row, e.scored_at,
+                            now);
+        ++scored;
+      });
   if (!s.ok()) return s;
   LogEvent(skipped > 0 ? LogLevel::kWarning : LogLevel::kInfo, "health_rebuilt",
            {{"set", plan.name()},

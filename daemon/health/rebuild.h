@@ -11,6 +11,13 @@
 // in the health_rebuilt log line. HealthMonitor::Rebuild calls it for every
 // monitored version before the server starts.
 //
+// With an outcome horizon, labelled rows whose score is not yet mature are
+// skipped by the count pass and become waiting records in the time pass
+// (they enter the windows and the charts when they mature); the count window
+// then starts with fewer than N records. The CUSUM charts start at 0 and
+// take the count window's records, oldest first. The outcome coverage gets
+// every scored and labelled row of its span (by score time).
+//
 // The ledger selects rows by set name only; rows of the set's other versions
 // are read past, not rebuilt.
 //

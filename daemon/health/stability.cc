@@ -9,6 +9,7 @@
 #include "absl/strings/str_cat.h"
 #include "daemon/health/pictures.h"
 #include "daemon/policy/figures.h"
+#include "monitor/stability_significance.h"
 
 namespace plumbline::daemon {
 namespace {
@@ -21,6 +22,59 @@ constexpr char kNoRecords[] = "no scored records in the window";
 constexpr monitor::ValueRange kWholeLine = {
     -std::numeric_limits<double>::infinity(),
     std::numeric_limits<double>::infinity()};
+
+// n of the PSI test: the baseline's non-missing records, since its
+// proportions are among them.
+int64_t NonMissingCount(const v1::Distribution& d) {
+  if (d.count() <= 0) return 0;
+  const double missing = std::clamp(d.missing_proportion(), 0.0, 1.0);
+  return std::llround(static_cast<double>(d.count()) * (1 - missing));
+}
+
+int NonzeroBins(absl::Span<const double> proportions) {
+  int n = 0;
+  for (double p : proportions) n += p > 0 ? 1 : 0;
+  return n;
+}
+
+// The test of one PSI: `figures` of the window, the baseline's count and
+// non-empty bins.
+v1::PsiTest Test(const monitor::StabilityFigures& figures,
+                 int64_t baseline_count, int bins, double test_alpha) {
+  v1::PsiTest t;
+  t.set_baseline_count(baseline_count);
+  t.set_window_count(figures.count - figures.missing);
+  t.set_test_alpha(test_alpha);
+  if (!figures.psi) {
+    t.set_note("no PSI: every record had the value missing");
+    return t;
+  }
+  if (baseline_count <= 0) {
+    t.set_note(
+        "the baseline records no count (n): no test; the PSI judges on its "
+        "effect size alone");
+    return t;
+  }
+  if (bins < 2) {
+    t.set_note("the baseline has fewer than 2 non-empty bins: no test");
+    return t;
+  }
+  absl::StatusOr<monitor::PsiSignificance> s =
+      monitor::TestPsi({.psi = *figures.psi,
+                        .baseline_count = baseline_count,
+                        .window_count = figures.count - figures.missing,
+                        .bins = bins},
+                       test_alpha);
+  if (!s.ok()) {
+    t.set_note(std::string(s.status().message()));
+    return t;
+  }
+  t.set_defined(true);
+  t.set_p_value(s->p_value);
+  t.set_critical_psi(s->critical_psi);
+  t.set_degrees_of_freedom(s->degrees_of_freedom);
+  return t;
+}
 
 absl::StatusOr<std::shared_ptr<const monitor::BinnedBaseline>> Bins(
     const v1::Distribution& d) {
@@ -54,6 +108,8 @@ StabilityLayout::Feature NumericFeature(const v1::Feature& f) {
   }
   out.mode = Mode::kNumeric;
   out.bins = *std::move(bins);
+  out.baseline_count = NonMissingCount(d);
+  out.nonzero_bins = NonzeroBins(out.bins->proportions());
   if (d.has_min() && d.has_max())
     out.range = monitor::ValueRange{d.min(), d.max()};
   return out;
@@ -88,6 +144,8 @@ StabilityLayout::Feature CategoricalFeature(const v1::Feature& f) {
   out.mode = Mode::kCategorical;
   out.levels =
       std::make_shared<const monitor::CategoricalBaseline>(*std::move(b));
+  out.baseline_count = NonMissingCount(d);
+  out.nonzero_bins = NonzeroBins(out.levels->proportions());
   return out;
 }
 
@@ -108,12 +166,25 @@ std::shared_ptr<const StabilityLayout> StabilityLayout::Create(
         absl::StrCat("score_baseline unusable: ", bins.status().message());
   } else {
     layout->score_ = *std::move(bins);
+    layout->score_count_ = NonMissingCount(set.score_baseline());
+    layout->score_bins_ = NonzeroBins(layout->score_->proportions());
   }
   for (const v1::Feature& f : set.features()) {
     layout->features_.push_back(f.has_categorical() ? CategoricalFeature(f)
                                                     : NumericFeature(f));
   }
   return layout;
+}
+
+int StabilityLayout::Testable() const {
+  int n = score_ && score_count_ > 0 && score_bins_ >= 2 ? 1 : 0;
+  for (const Feature& f : features_) {
+    if (f.mode != Feature::Mode::kNoBaseline && f.baseline_count > 0 &&
+        f.nonzero_bins >= 2) {
+      ++n;
+    }
+  }
+  return n;
 }
 
 ScoredAccumulator::ScoredAccumulator(
@@ -199,17 +270,23 @@ absl::Status ScoredAccumulator::Merge(const ScoredAccumulator& other) {
   return absl::OkStatus();
 }
 
-void ScoredAccumulator::Fill(v1::WindowHealth* out) const {
+void ScoredAccumulator::Fill(v1::WindowHealth* out, double test_alpha) const {
   out->set_scored(count_);
   if (!score_) {
     *out->mutable_score_psi() = UndefinedFigure(layout_->score_note());
+    out->mutable_score_psi_test()->set_note(layout_->score_note());
   } else if (count_ == 0) {
     *out->mutable_score_psi() = UndefinedFigure(kNoRecords);
+    out->mutable_score_psi_test()->set_note(kNoRecords);
   } else if (auto r = score_->Result(); r.ok() && r->psi) {
     *out->mutable_score_psi() = DefinedFigure(*r->psi);
     *out->mutable_score_shares() = NumericShares(*layout_->score(), *r);
+    *out->mutable_score_psi_test() =
+        Test(*r, layout_->score_baseline_count(), layout_->score_nonzero_bins(),
+             test_alpha);
   } else {
     *out->mutable_score_psi() = UndefinedFigure("no probability to compare");
+    out->mutable_score_psi_test()->set_note("no probability to compare");
   }
   const std::vector<StabilityLayout::Feature>& layout = layout_->features();
   for (size_t i = 0; i < features_.size(); ++i) {
@@ -219,6 +296,7 @@ void ScoredAccumulator::Fill(v1::WindowHealth* out) const {
     absl::StatusOr<monitor::StabilityFigures> r =
         std::visit([](const auto& acc) { return acc.Result(); }, features_[i]);
     if (!r.ok()) {  // no records
+      fh->mutable_psi_test()->set_note(kNoRecords);
       *fh->mutable_psi() = UndefinedFigure(kNoRecords);
       *fh->mutable_missing_rate() = UndefinedFigure(kNoRecords);
       *fh->mutable_out_of_range_rate() = UndefinedFigure(kNoRecords);
@@ -226,6 +304,7 @@ void ScoredAccumulator::Fill(v1::WindowHealth* out) const {
     }
     *fh->mutable_missing_rate() = DefinedFigure(r->missing_rate);
     if (f.mode == Mode::kNoBaseline) {
+      fh->mutable_psi_test()->set_note(f.no_baseline);
       *fh->mutable_psi() = UndefinedFigure(f.no_baseline);
       *fh->mutable_out_of_range_rate() = UndefinedFigure(f.no_baseline);
       continue;
@@ -236,6 +315,8 @@ void ScoredAccumulator::Fill(v1::WindowHealth* out) const {
     *fh->mutable_shares() = f.mode == Mode::kNumeric
                                 ? NumericShares(*f.bins, *r)
                                 : CategoricalShares(*f.levels, *r);
+    *fh->mutable_psi_test() =
+        Test(*r, f.baseline_count, f.nonzero_bins, test_alpha);
     if (f.mode == Mode::kNumeric && !f.range) {
       *fh->mutable_out_of_range_rate() =
           UndefinedFigure("the baseline has no min and max");

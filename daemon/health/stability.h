@@ -20,6 +20,14 @@
 // A set or feature without a usable baseline reports its PSI as undefined
 // ("no baseline") while its missing rate is still counted.
 //
+// Each PSI comes with its significance test at the window's counts
+// (monitor/stability_significance.h, Yurdakul & Naranjo 2020): n is the
+// baseline's non-missing records, count x (1 - missing_proportion) rounded
+// (its proportions are among them), m the window's non-missing records, B
+// the baseline bins with a proportion > 0. A baseline without a count (0: files
+// written before the test) gets no test ("the baseline records no count"), and
+// the drift policy then judges its PSI on the effect size alone.
+//
 // StabilityLayout is immutable and shared by every bucket; ScoredAccumulator
 // is a value type and not thread-safe (its window's mutex guards it).
 #ifndef PLUMBLINE_DAEMON_HEALTH_STABILITY_H_
@@ -59,6 +67,10 @@ class StabilityLayout {
     std::string no_baseline;
     // Categorical features of the plan: level value by index (dense codes).
     std::vector<absl::string_view> level_by_index;
+    // The baseline's count n (0: not recorded) and its bins with a
+    // proportion > 0.
+    int64_t baseline_count = 0;
+    int nonzero_bins = 0;
   };
 
   // Never fails: a baseline the monitor cannot use becomes kNoBaseline with
@@ -72,6 +84,12 @@ class StabilityLayout {
     return score_;
   }
   const std::string& score_note() const { return score_note_; }
+  int64_t score_baseline_count() const { return score_count_; }
+  int score_nonzero_bins() const { return score_bins_; }
+
+  // PSI tests one window runs: the score and each feature whose baseline
+  // is usable, records a count and has at least 2 non-empty bins.
+  int Testable() const;
 
   // The one-bin baseline that counts missing values of a feature without a
   // baseline.
@@ -84,6 +102,8 @@ class StabilityLayout {
   std::vector<Feature> features_;
   std::shared_ptr<const monitor::BinnedBaseline> score_;
   std::string score_note_;
+  int64_t score_count_ = 0;
+  int score_bins_ = 0;
   std::shared_ptr<const monitor::BinnedBaseline> counting_;
 };
 
@@ -98,8 +118,9 @@ class ScoredAccumulator {
   absl::Status Merge(const ScoredAccumulator& other);
   int64_t count() const { return count_; }
 
-  // Sets out's scored count, score_psi and features.
-  void Fill(v1::WindowHealth* out) const;
+  // Sets out's scored count, score_psi and features, each PSI with its test
+  // at `test_alpha` (the level of one test, in (0, 1)).
+  void Fill(v1::WindowHealth* out, double test_alpha) const;
 
  private:
   using FeatureAccumulator =

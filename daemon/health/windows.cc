@@ -17,6 +17,12 @@ namespace {
 
 constexpr int kLabelled = 0, kScored = 1;
 
+// Bound of one window's record store or waiting records: half of
+// monitor::LabelledRecordStore::kMaxCapacity, so a merged window (its
+// buckets plus the empty start) always fits.
+constexpr int64_t kMaxStoredRecords = 50'000'000;
+constexpr uint64_t kMaxHorizonSeconds = uint64_t{10} * 366 * 86400;
+
 int Index(WindowKind window) { return window == WindowKind::kCount ? 0 : 1; }
 
 // Times later than `now` count as `now`; so do infinite ones.
@@ -32,62 +38,10 @@ absl::Status CountError(absl::string_view field, int64_t records, int buckets) {
       field, records, buckets));
 }
 
-void FillOutcome(const monitor::OutcomeAccumulator& acc, v1::WindowHealth* w) {
-  w->set_labelled(acc.count());
-  absl::StatusOr<monitor::OutcomeFigures> r = acc.Result();
-  if (!r.ok()) {
-    const v1::Figure none =
-        UndefinedFigure("no labelled records in the window");
-    for (v1::Figure* f :
-         {w->mutable_log_loss(), w->mutable_brier_score(), w->mutable_auc(),
-          w->mutable_expected_calibration_error(),
-          w->mutable_calibration_in_the_large(),
-          w->mutable_calibration_intercept(), w->mutable_calibration_slope(),
-          w->mutable_hosmer_lemeshow_statistic(),
-          w->mutable_hosmer_lemeshow_p_value()}) {
-      *f = none;
-    }
-    return;
-  }
-  w->set_positives(r->loss.positives);
-  *w->mutable_log_loss() = DefinedFigure(r->loss.log_loss);
-  *w->mutable_brier_score() = DefinedFigure(r->loss.brier_score);
-  *w->mutable_calibration_in_the_large() =
-      DefinedFigure(r->loss.calibration_in_the_large);
-  *w->mutable_expected_calibration_error() =
-      DefinedFigure(r->fixed_bins.expected_calibration_error);
-  FillReliability(r->fixed_bins.table, w);
-  if (r->grid.auc.ok()) {
-    *w->mutable_auc() = DefinedFigure(r->grid.auc->auc);
-    w->set_auc_grid_bound(r->grid.auc->quantisation_bound);
-  } else {
-    *w->mutable_auc() = UndefinedFigure(r->grid.auc.status().message());
-  }
-  if (r->grid.calibration.ok()) {
-    *w->mutable_calibration_intercept() =
-        DefinedFigure(r->grid.calibration->intercept);
-    *w->mutable_calibration_slope() = DefinedFigure(r->grid.calibration->slope);
-  } else {
-    const absl::string_view why = r->grid.calibration.status().message();
-    *w->mutable_calibration_intercept() = UndefinedFigure(why);
-    *w->mutable_calibration_slope() = UndefinedFigure(why);
-  }
-  if (r->grid.hosmer_lemeshow.ok()) {
-    *w->mutable_hosmer_lemeshow_statistic() =
-        DefinedFigure(r->grid.hosmer_lemeshow->statistic);
-    *w->mutable_hosmer_lemeshow_p_value() =
-        DefinedFigure(r->grid.hosmer_lemeshow->p_value);
-  } else {
-    const absl::string_view why = r->grid.hosmer_lemeshow.status().message();
-    *w->mutable_hosmer_lemeshow_statistic() = UndefinedFigure(why);
-    *w->mutable_hosmer_lemeshow_p_value() = UndefinedFigure(why);
-  }
-}
-
 }  // namespace
 
 absl::StatusOr<HealthWindowOptions> HealthWindowOptions::FromConfig(
-    const v1::WindowConfig& config) {
+    const v1::WindowConfig& config, const v1::DriftPolicy& policy) {
   HealthWindowOptions o;
   if (config.labelled_count() != 0) o.labelled_count = config.labelled_count();
   if (config.scored_count() != 0) o.scored_count = config.scored_count();
@@ -110,44 +64,131 @@ absl::StatusOr<HealthWindowOptions> HealthWindowOptions::FromConfig(
   if (o.scored_count % o.buckets != 0) {
     return CountError("scored_count", o.scored_count, o.buckets);
   }
+  // The count window's store holds labelled_count records (plus one
+  // bucket's share for the merge's empty start).
+  if (o.labelled_count > kMaxStoredRecords) {
+    return absl::InvalidArgumentError(absl::StrFormat(
+        "windows.labelled_count: %d records is more than the %d the exact "
+        "outcome figures can keep",
+        o.labelled_count, kMaxStoredRecords));
+  }
+  if (policy.record_store_max_records() != 0) {
+    if (policy.record_store_max_records() >
+        static_cast<uint64_t>(kMaxStoredRecords)) {
+      return absl::InvalidArgumentError(absl::StrFormat(
+          "drift_policy.record_store_max_records: %d is more than %d",
+          policy.record_store_max_records(), kMaxStoredRecords));
+    }
+    o.record_store_max_records =
+        static_cast<int64_t>(policy.record_store_max_records());
+  }
+  if (o.record_store_max_records < o.buckets) {
+    return absl::InvalidArgumentError(absl::StrFormat(
+        "drift_policy.record_store_max_records: %d is fewer than one record "
+        "per bucket (windows.buckets = %d)",
+        o.record_store_max_records, o.buckets));
+  }
+  if (policy.outcome_horizon_seconds() != 0) {
+    if (policy.outcome_horizon_seconds() > kMaxHorizonSeconds) {
+      return absl::InvalidArgumentError(absl::StrFormat(
+          "drift_policy.outcome_horizon_seconds: %d is more than ten years",
+          policy.outcome_horizon_seconds()));
+    }
+    o.outcome_horizon =
+        absl::Seconds(static_cast<int64_t>(policy.outcome_horizon_seconds()));
+  }
+  if (policy.max_immature_records() != 0) {
+    if (policy.max_immature_records() >
+        static_cast<uint64_t>(kMaxStoredRecords)) {
+      return absl::InvalidArgumentError(absl::StrFormat(
+          "drift_policy.max_immature_records: %d is more than %d",
+          policy.max_immature_records(), kMaxStoredRecords));
+    }
+    o.max_immature_records =
+        static_cast<int64_t>(policy.max_immature_records());
+  }
+  if (policy.alpha() != 0) {
+    if (!(policy.alpha() > 0 && policy.alpha() < 1)) {
+      return absl::InvalidArgumentError(absl::StrFormat(
+          "drift_policy.alpha: must lie in (0, 1), got %g", policy.alpha()));
+    }
+    o.alpha = policy.alpha();
+  }
+  const v1::CusumPolicy& c = policy.cusum();
+  o.cusum.enabled = !c.disabled();
+  if (c.upper_odds_ratio() != 0)
+    o.cusum.upper_odds_ratio = c.upper_odds_ratio();
+  if (c.lower_odds_ratio() != 0)
+    o.cusum.lower_odds_ratio = c.lower_odds_ratio();
+  if (c.has_slope_alternative()) {
+    o.cusum.slope_alternative = c.slope_alternative();
+  }
+  if (c.in_control_arl_records() != 0) {
+    o.cusum.in_control_arl = c.in_control_arl_records();
+  }
+  if (absl::Status s = o.cusum.Check(); !s.ok()) return s;
   return o;
 }
 
 HealthWindows::HealthWindows(std::shared_ptr<const scorer::ScoringPlan> plan,
                              HealthWindowOptions options,
+                             absl::Duration horizon, int layout_tests,
                              OutcomeCount labelled_count,
                              OutcomeTime labelled_time,
-                             ScoredCount scored_count, ScoredTime scored_time)
+                             ScoredCount scored_count, ScoredTime scored_time,
+                             OutcomeCoverage coverage)
     : plan_(std::move(plan)),
       options_(options),
+      horizon_(horizon),
+      layout_tests_(layout_tests),
       labelled_count_(std::move(labelled_count)),
       labelled_time_(std::move(labelled_time)),
+      charts_(options_.cusum),
       scored_count_(std::move(scored_count)),
-      scored_time_(std::move(scored_time)) {}
+      scored_time_(std::move(scored_time)),
+      coverage_(std::move(coverage)) {}
 
 absl::StatusOr<std::unique_ptr<HealthWindows>> HealthWindows::Create(
     std::shared_ptr<const scorer::ScoringPlan> plan,
     const HealthWindowOptions& options) {
-  absl::StatusOr<monitor::OutcomeAccumulator> outcome =
-      monitor::OutcomeAccumulator::Create({});
-  if (!outcome.ok()) return outcome.status();
-  auto labelled_count =
-      OutcomeCount::Create(options.labelled_count, options.buckets, *outcome);
+  if (options.buckets < 1 || options.labelled_count % options.buckets != 0) {
+    return CountError("labelled_count", options.labelled_count,
+                      options.buckets);
+  }
+  absl::StatusOr<LabelledAccumulator> count_bucket =
+      LabelledAccumulator::Create(options.labelled_count / options.buckets);
+  if (!count_bucket.ok()) return count_bucket.status();
+  absl::StatusOr<LabelledAccumulator> time_bucket = LabelledAccumulator::Create(
+      std::max<int64_t>(1, options.record_store_max_records / options.buckets));
+  if (!time_bucket.ok()) return time_bucket.status();
+  auto labelled_count = OutcomeCount::Create(options.labelled_count,
+                                             options.buckets, *count_bucket);
   if (!labelled_count.ok()) return labelled_count.status();
   auto labelled_time =
-      OutcomeTime::Create(options.time_span, options.buckets, *outcome);
+      OutcomeTime::Create(options.time_span, options.buckets, *time_bucket);
   if (!labelled_time.ok()) return labelled_time.status();
-  const ScoredAccumulator scored(StabilityLayout::Create(*plan));
+  absl::Duration horizon = options.outcome_horizon;
+  if (plan->set().has_outcome_horizon_seconds()) {
+    horizon = absl::Seconds(static_cast<int64_t>(std::min<uint64_t>(
+        plan->set().outcome_horizon_seconds(), kMaxHorizonSeconds)));
+  }
+  absl::StatusOr<OutcomeCoverage> coverage =
+      OutcomeCoverage::Create(horizon, options.time_span);
+  if (!coverage.ok()) return coverage.status();
+  std::shared_ptr<const StabilityLayout> layout =
+      StabilityLayout::Create(*plan);
+  const int tests = layout->Testable();
+  const ScoredAccumulator scored(std::move(layout));
   auto scored_count =
       ScoredCount::Create(options.scored_count, options.buckets, scored);
   if (!scored_count.ok()) return scored_count.status();
   auto scored_time =
       ScoredTime::Create(options.time_span, options.buckets, scored);
   if (!scored_time.ok()) return scored_time.status();
-  return std::unique_ptr<HealthWindows>(
-      new HealthWindows(std::move(plan), options, *std::move(labelled_count),
-                        *std::move(labelled_time), *std::move(scored_count),
-                        *std::move(scored_time)));
+  return std::unique_ptr<HealthWindows>(new HealthWindows(
+      std::move(plan), options, horizon, tests, *std::move(labelled_count),
+      *std::move(labelled_time), *std::move(scored_count),
+      *std::move(scored_time), *std::move(coverage)));
 }
 
 void HealthWindows::AddScored(double log_odds,
@@ -155,24 +196,71 @@ void HealthWindows::AddScored(double log_odds,
                               absl::Time scored_at, absl::Time now) {
   const double probability = Logistic(log_odds);
   const absl::Time at = Clamp(scored_at, now);
-  absl::MutexLock lock(&scored_mu_);
-  scored_count_.Add(probability, values).IgnoreError();  // Add cannot fail
-  if (!scored_time_.Add(at, probability, values).ok()) {
-    refused_[kScored][1].fetch_add(1, std::memory_order_relaxed);
+  {
+    absl::MutexLock lock(&scored_mu_);
+    scored_count_.Add(probability, values).IgnoreError();  // Add cannot fail
+    if (!scored_time_.Add(at, probability, values).ok()) {
+      refused_[kScored][1].fetch_add(1, std::memory_order_relaxed);
+    }
+  }
+  absl::MutexLock lock(&coverage_mu_);
+  coverage_.AddScored(at, now);
+}
+
+void HealthWindows::AddMatureToCount(double log_odds, int label) {
+  if (!labelled_count_.Add(log_odds, label).ok()) {
+    refused_[kLabelled][0].fetch_add(1, std::memory_order_relaxed);
+    return;
+  }
+  charts_.Add(log_odds, label);
+}
+
+void HealthWindows::AddMatureToTime(double log_odds, int label,
+                                    absl::Time scored_at,
+                                    absl::Time observed_at, absl::Time now) {
+  // Without a horizon the window is by outcome time; with one, by score
+  // time (the cohorts).
+  const absl::Time at = horizon_ == absl::ZeroDuration()
+                            ? Clamp(observed_at, now)
+                            : Clamp(scored_at, now);
+  if (!labelled_time_.Add(at, log_odds, label).ok()) {
+    refused_[kLabelled][1].fetch_add(1, std::memory_order_relaxed);
+  }
+}
+
+void HealthWindows::Wait(double log_odds, int label, absl::Time scored_at) {
+  if (static_cast<int64_t>(waiting_.size()) >= options_.max_immature_records) {
+    ++waiting_refused_;
+    return;
+  }
+  waiting_.emplace(scored_at, Waiting{log_odds, label});
+}
+
+void HealthWindows::Mature(absl::Time now) {
+  while (!waiting_.empty() && IsMature(waiting_.begin()->first, now)) {
+    const auto& [scored_at, w] = *waiting_.begin();
+    AddMatureToCount(w.log_odds, w.label);
+    AddMatureToTime(w.log_odds, w.label, scored_at, scored_at, now);
+    waiting_.erase(waiting_.begin());
   }
 }
 
 void HealthWindows::AddLabelled(double log_odds, int label,
-                                absl::Time observed_at, absl::Time now) {
-  const absl::Time at = Clamp(observed_at, now);
-  absl::MutexLock lock(&labelled_mu_);
-  ++labelled_since_start_;
-  if (!labelled_count_.Add(log_odds, label).ok()) {
-    refused_[kLabelled][0].fetch_add(1, std::memory_order_relaxed);
+                                absl::Time scored_at, absl::Time observed_at,
+                                absl::Time now) {
+  const absl::Time scored = Clamp(scored_at, now);
+  {
+    absl::MutexLock lock(&labelled_mu_);
+    ++labelled_since_start_;
+    if (horizon_ == absl::ZeroDuration() || IsMature(scored, now)) {
+      AddMatureToCount(log_odds, label);
+      AddMatureToTime(log_odds, label, scored, observed_at, now);
+    } else {
+      Wait(log_odds, label, scored);
+    }
   }
-  if (!labelled_time_.Add(at, log_odds, label).ok()) {
-    refused_[kLabelled][1].fetch_add(1, std::memory_order_relaxed);
-  }
+  absl::MutexLock lock(&coverage_mu_);
+  coverage_.AddLabelled(scored, now);
 }
 
 void HealthWindows::AddScoredTo(WindowKind window, double log_odds,
@@ -190,15 +278,38 @@ void HealthWindows::AddScoredTo(WindowKind window, double log_odds,
 }
 
 void HealthWindows::AddLabelledTo(WindowKind window, double log_odds, int label,
-                                  absl::Time at, absl::Time now) {
+                                  absl::Time scored_at, absl::Time observed_at,
+                                  absl::Time now) {
+  const absl::Time scored = Clamp(scored_at, now);
+  const bool mature = horizon_ == absl::ZeroDuration() || IsMature(scored, now);
   absl::MutexLock lock(&labelled_mu_);
-  const absl::Status s =
-      window == WindowKind::kCount
-          ? labelled_count_.Add(log_odds, label)
-          : labelled_time_.Add(Clamp(at, now), log_odds, label);
-  if (!s.ok()) {
-    refused_[kLabelled][Index(window)].fetch_add(1, std::memory_order_relaxed);
+  if (window == WindowKind::kCount) {
+    if (mature) AddMatureToCount(log_odds, label);
+  } else if (mature) {
+    AddMatureToTime(log_odds, label, scored, observed_at, now);
+  } else {
+    Wait(log_odds, label, scored);
   }
+}
+
+void HealthWindows::AddCoverage(absl::Time scored_at, bool labelled,
+                                absl::Time now) {
+  absl::MutexLock lock(&coverage_mu_);
+  if (labelled) {
+    coverage_.AddLabelled(Clamp(scored_at, now), now);
+  } else {
+    coverage_.AddScored(Clamp(scored_at, now), now);
+  }
+}
+
+bool HealthWindows::NeedsCusumLimits() const {
+  absl::MutexLock lock(&labelled_mu_);
+  return charts_.needs_limits();
+}
+
+void HealthWindows::SetCusumLimits(std::vector<CusumLimit> limits) {
+  absl::MutexLock lock(&labelled_mu_);
+  charts_.SetLimits(std::move(limits));
 }
 
 absl::Time HealthWindows::TimeWindowStart(absl::Time now) const {
@@ -209,14 +320,31 @@ absl::Time HealthWindows::TimeWindowStart(absl::Time now) const {
   return absl::UnixEpoch() + (last - options_.buckets + 1) * bucket;
 }
 
-v1::SetHealth HealthWindows::Figures(absl::Time now) const {
-  std::optional<monitor::OutcomeAccumulator> outcome[2];
+absl::Time HealthWindows::LabelledReadStart(absl::Time now) const {
+  // With a horizon the window ends at now - H and is by score time; an
+  // outcome is observed after its score, so reading by outcome time from
+  // the window's start finds every record of it and every waiting one.
+  return TimeWindowStart(now - horizon_);
+}
+
+absl::Time HealthWindows::CoverageStart(absl::Time now) const {
+  absl::MutexLock lock(&coverage_mu_);
+  return coverage_.Start(now);
+}
+
+v1::SetHealth HealthWindows::Figures(absl::Time now) {
+  std::optional<LabelledAccumulator> outcome[2];
   int64_t labelled_since_start = 0;
+  v1::SetHealth health;
   {
     absl::MutexLock lock(&labelled_mu_);
+    Mature(now);
     outcome[0].emplace(labelled_count_.Merged());
-    outcome[1].emplace(labelled_time_.Merged(now));
+    outcome[1].emplace(labelled_time_.Merged(now - horizon_));
     labelled_since_start = labelled_since_start_;
+    charts_.Fill(&health);
+    health.set_immature_labelled(static_cast<int64_t>(waiting_.size()));
+    health.set_immature_refused(waiting_refused_);
   }
   std::optional<ScoredAccumulator> scored[2];
   {
@@ -224,10 +352,18 @@ v1::SetHealth HealthWindows::Figures(absl::Time now) const {
     scored[0].emplace(scored_count_.Merged());
     scored[1].emplace(scored_time_.Merged(now));
   }
-  v1::SetHealth health;
+  {
+    absl::MutexLock lock(&coverage_mu_);
+    coverage_.Fill(now, &health);
+  }
+  const int tests = stability_tests();
+  const double test_alpha = tests > 0 ? options_.alpha / tests : options_.alpha;
   health.set_set(plan_->name());
   health.set_version(plan_->version());
   health.set_labelled_since_start(labelled_since_start);
+  health.set_outcome_horizon_seconds(absl::ToInt64Seconds(horizon_));
+  health.set_stability_tests(tests);
+  health.set_stability_test_alpha(test_alpha);
   for (int i = 0; i < 2; ++i) {
     v1::WindowHealth* w = health.add_windows();
     if (i == 0) {
@@ -239,9 +375,15 @@ v1::SetHealth HealthWindows::Figures(absl::Time now) const {
       w->set_window("time");
       w->set_span(absl::StrCat("last ",
                                absl::ToInt64Seconds(options_.time_span), " s"));
+      if (horizon_ > absl::ZeroDuration()) {
+        absl::StrAppend(w->mutable_span(), " (labelled: cohorts scored in the ",
+                        absl::ToInt64Seconds(options_.time_span),
+                        " s before the outcome horizon, ",
+                        absl::ToInt64Seconds(horizon_), " s ago)");
+      }
     }
     FillOutcome(*outcome[i], w);
-    scored[i]->Fill(w);
+    scored[i]->Fill(w, test_alpha);
     w->set_refused_labelled(
         refused_[kLabelled][i].load(std::memory_order_relaxed));
     w->set_refused_scored(refused_[kScored][i].load(std::memory_order_relaxed));

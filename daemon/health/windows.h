@@ -5,12 +5,35 @@
 // figures), and the same pair over scored records (stability figures). Each
 // window is a ring of buckets from monitor/window.h; HealthMonitor keeps one
 // HealthWindows per loaded set version, feeds it from the request path and
-// asks it for figures on every tick.
+// asks it for figures on every tick. Beside the windows: the version's CUSUM
+// charts (daemon/health/cusum_charts.h), fed with every mature labelled
+// record, and its outcome coverage by age (daemon/health/coverage.h).
 //
 //   auto w = HealthWindows::Create(plan, HealthWindowOptions{});
 //   (*w)->AddScored(log_odds, row, scored_at, now);
-//   (*w)->AddLabelled(log_odds, label, observed_at, now);
+//   (*w)->AddLabelled(log_odds, label, scored_at, observed_at, now);
 //   v1::SetHealth figures = (*w)->Figures(now);
+//
+// Exact outcome figures: each labelled bucket keeps its records in a
+// bounded store (daemon/health/labelled.h). A count window's buckets hold
+// exactly labelled_count / buckets records each, so its store is the whole
+// window (labelled_count records, 9 bytes each). A time window's buckets
+// keep at most record_store_max_records / buckets records each (default
+// 1,000,000 per window: about 9 MB, up to twice that with vector growth);
+// past a bucket's share a record still counts in log-loss, Brier score,
+// ECE and mean predicted minus observed, but the exact figures are then
+// over the records kept, with a note, and WindowHealth.unstored_labelled
+// counts the others.
+//
+// Outcome horizon H (the set's outcome_horizon_seconds, else the options'):
+// with H = 0 a labelled record enters the windows and the charts when its
+// outcome arrives, and the labelled time window is by outcome time. With
+// H > 0 a labelled record waits (at most max_immature_records per version;
+// past it the record is counted in immature_refused and left out) until its
+// score is H old; then it enters the count window, the charts and the
+// labelled time window, which is then by score time and spans the cohorts
+// scored in the T before now - H. So every outcome figure is over mature
+// cohorts only.
 //
 // Record times later than `now` are taken as `now` (a caller's clock may run
 // ahead), so a future time cannot push the time window's ring past the
@@ -18,23 +41,28 @@
 // or that no window accepts (a non-finite log-odds) is counted, never
 // silently dropped; the counts are part of the figures.
 //
-// Thread-safe: the labelled and the scored windows each have their own
-// mutex; Add* hold it for one record, Figures() for the merge of the buckets.
+// Thread-safe: the labelled side (windows, waiting records, charts), the
+// scored windows and the coverage each have their own mutex; Add* hold them
+// for one record, Figures() for the merge of the buckets.
 #ifndef PLUMBLINE_DAEMON_HEALTH_WINDOWS_H_
 #define PLUMBLINE_DAEMON_HEALTH_WINDOWS_H_
 
 #include <atomic>
 #include <cstdint>
+#include <map>
 #include <memory>
 #include <string>
+#include <vector>
 
 #include "absl/base/thread_annotations.h"
 #include "absl/status/statusor.h"
 #include "absl/synchronization/mutex.h"
 #include "absl/time/time.h"
 #include "absl/types/span.h"
+#include "daemon/health/coverage.h"
+#include "daemon/health/cusum_charts.h"
+#include "daemon/health/labelled.h"
 #include "daemon/health/stability.h"
-#include "monitor/outcome_accumulators.h"
 #include "monitor/window.h"
 #include "plumbline/v1/config.pb.h"
 #include "plumbline/v1/monitor.pb.h"
@@ -51,11 +79,25 @@ struct HealthWindowOptions {
   absl::Duration time_span = absl::Hours(24);
   // Buckets per window; must divide both counts.
   int buckets = 20;
+  // Labelled records the exact figures keep per time window (spread evenly
+  // over its buckets).
+  int64_t record_store_max_records = 1'000'000;
+  // Outcome horizon of a set whose file names none.
+  absl::Duration outcome_horizon = absl::ZeroDuration();
+  // Labelled records waiting to mature, per version.
+  int64_t max_immature_records = 1'000'000;
+  // Level of one PSI test, given by HealthMonitor from the drift policy's
+  // alpha and the version's number of tests; this is the policy's alpha.
+  double alpha = 0.01;
+  // The CUSUM charts.
+  CusumOptions cusum;
 
-  // From a config file's windows (zeros mean the defaults). INVALID_ARGUMENT
-  // naming the field when buckets does not divide a count.
+  // From a config file's windows and drift policy (zeros mean the
+  // defaults). INVALID_ARGUMENT naming the field when buckets does not
+  // divide a count, or for a store bound, horizon or chart setting out of
+  // range.
   static absl::StatusOr<HealthWindowOptions> FromConfig(
-      const v1::WindowConfig& config);
+      const v1::WindowConfig& config, const v1::DriftPolicy& policy = {});
 };
 
 // Which of a kind's two windows.
@@ -79,51 +121,102 @@ class HealthWindows {
   // plan's feature order.
   void AddScored(double log_odds, absl::Span<const scorer::RawValue> values,
                  absl::Time scored_at, absl::Time now);
-  // One labelled score into both labelled windows, stamped with the time its
-  // outcome was observed.
-  void AddLabelled(double log_odds, int label, absl::Time observed_at,
-                   absl::Time now);
+  // One labelled score: into both labelled windows and the charts (or, with
+  // an outcome horizon, into the waiting records until its score is old
+  // enough), and into the coverage.
+  void AddLabelled(double log_odds, int label, absl::Time scored_at,
+                   absl::Time observed_at, absl::Time now);
 
-  // The same into one window only (rebuilding from the ledger).
+  // The same into one window only (rebuilding from the ledger). A labelled
+  // record for the count window also goes to the charts (the count pass
+  // feeds records oldest first); with an outcome horizon an immature one is
+  // left to the time pass, which puts it among the waiting records.
   void AddScoredTo(WindowKind window, double log_odds,
                    absl::Span<const scorer::RawValue> values, absl::Time at,
                    absl::Time now);
   void AddLabelledTo(WindowKind window, double log_odds, int label,
-                     absl::Time at, absl::Time now);
+                     absl::Time scored_at, absl::Time observed_at,
+                     absl::Time now);
+  // Coverage only (rebuilding from the ledger).
+  void AddCoverage(absl::Time scored_at, bool labelled, absl::Time now);
 
-  // The figures of both windows at `now`: set, version and windows
-  // ("count", then "time"); state, reasons and notes are left to the drift
-  // policy.
-  v1::SetHealth Figures(absl::Time now) const;
+  // The figures at `now`: set, version, windows ("count", then "time"),
+  // charts, coverage and horizon; state, reasons and notes are left to the
+  // drift policy. Moves waiting records whose score is now mature into the
+  // windows first.
+  v1::SetHealth Figures(absl::Time now);
+
+  // True while the charts wait for their control limits.
+  bool NeedsCusumLimits() const;
+  // Installs them (ChooseCusumLimits on plan()->set()).
+  void SetCusumLimits(std::vector<CusumLimit> limits);
 
   // Start of the oldest time-window bucket at `now`: records older than
   // this are refused.
   absl::Time TimeWindowStart(absl::Time now) const;
+  // The oldest outcome time a rebuild must read for the labelled time
+  // window and the waiting records at `now`.
+  absl::Time LabelledReadStart(absl::Time now) const;
+  // Oldest score time the coverage counts at `now`.
+  absl::Time CoverageStart(absl::Time now) const;
 
   const HealthWindowOptions& options() const { return options_; }
+  absl::Duration outcome_horizon() const { return horizon_; }
+  // PSI tests per evaluation of this version (both windows).
+  int stability_tests() const { return 2 * layout_tests_; }
 
  private:
-  using OutcomeCount = monitor::CountWindow<monitor::OutcomeAccumulator>;
-  using OutcomeTime = monitor::TimeWindow<monitor::OutcomeAccumulator>;
+  using OutcomeCount = monitor::CountWindow<LabelledAccumulator>;
+  using OutcomeTime = monitor::TimeWindow<LabelledAccumulator>;
   using ScoredCount = monitor::CountWindow<ScoredAccumulator>;
   using ScoredTime = monitor::TimeWindow<ScoredAccumulator>;
 
+  // A labelled record whose score is not yet mature.
+  struct Waiting {
+    double log_odds;
+    int label;
+  };
+
   HealthWindows(std::shared_ptr<const scorer::ScoringPlan> plan,
-                HealthWindowOptions options, OutcomeCount labelled_count,
+                HealthWindowOptions options, absl::Duration horizon,
+                int layout_tests, OutcomeCount labelled_count,
                 OutcomeTime labelled_time, ScoredCount scored_count,
-                ScoredTime scored_time);
+                ScoredTime scored_time, OutcomeCoverage coverage);
+
+  // A mature record into the count window and the charts / the time window.
+  void AddMatureToCount(double log_odds, int label)
+      ABSL_EXCLUSIVE_LOCKS_REQUIRED(labelled_mu_);
+  void AddMatureToTime(double log_odds, int label, absl::Time scored_at,
+                       absl::Time observed_at, absl::Time now)
+      ABSL_EXCLUSIVE_LOCKS_REQUIRED(labelled_mu_);
+  void Wait(double log_odds, int label, absl::Time scored_at)
+      ABSL_EXCLUSIVE_LOCKS_REQUIRED(labelled_mu_);
+  // Moves the waiting records mature at `now` into the windows and charts.
+  void Mature(absl::Time now) ABSL_EXCLUSIVE_LOCKS_REQUIRED(labelled_mu_);
+  bool IsMature(absl::Time scored_at, absl::Time now) const {
+    return scored_at <= now - horizon_;
+  }
 
   // Constant after construction.
   const std::shared_ptr<const scorer::ScoringPlan> plan_;
   const HealthWindowOptions options_;
+  const absl::Duration horizon_;
+  const int layout_tests_;
 
   mutable absl::Mutex labelled_mu_;
   OutcomeCount labelled_count_ ABSL_GUARDED_BY(labelled_mu_);
   OutcomeTime labelled_time_ ABSL_GUARDED_BY(labelled_mu_);
+  CusumCharts charts_ ABSL_GUARDED_BY(labelled_mu_);
+  // By score time, oldest first.
+  std::multimap<absl::Time, Waiting> waiting_ ABSL_GUARDED_BY(labelled_mu_);
+  int64_t waiting_refused_ ABSL_GUARDED_BY(labelled_mu_) = 0;
 
   mutable absl::Mutex scored_mu_;
   ScoredCount scored_count_ ABSL_GUARDED_BY(scored_mu_);
   ScoredTime scored_time_ ABSL_GUARDED_BY(scored_mu_);
+
+  mutable absl::Mutex coverage_mu_;
+  OutcomeCoverage coverage_ ABSL_GUARDED_BY(coverage_mu_);
 
   // AddLabelled calls so far (SetHealth.labelled_since_start).
   int64_t labelled_since_start_ ABSL_GUARDED_BY(labelled_mu_) = 0;

@@ -35,28 +35,32 @@ inline constexpr WindowFigure kWindowFigures[] = {
     {"brier_score", FigureSource::kOutcome, &v1::WindowHealth::brier_score,
      "Mean squared difference between probability and outcome."},
     {"auc", FigureSource::kOutcome, &v1::WindowHealth::auc,
-     "Area under the ROC curve (Mann-Whitney), on the monitor's log-odds "
-     "grid."},
+     "Area under the ROC curve: exact Mann-Whitney statistic over the "
+     "window's records, tied scores counting 1/2."},
     {"expected_calibration_error", FigureSource::kOutcome,
      &v1::WindowHealth::expected_calibration_error,
      "Expected calibration error over 10 equal-width probability bins."},
-    {"calibration_in_the_large", FigureSource::kOutcome,
-     &v1::WindowHealth::calibration_in_the_large,
-     "Mean predicted probability minus observed rate of the event."},
+    {"mean_predicted_minus_observed", FigureSource::kOutcome,
+     &v1::WindowHealth::mean_predicted_minus_observed,
+     "Mean predicted probability minus observed rate of the event (a "
+     "difference of means; named calibration_in_the_large before)."},
     {"calibration_intercept", FigureSource::kOutcome,
      &v1::WindowHealth::calibration_intercept,
-     "Intercept of the logistic fit of the outcome on the log-odds (0 when "
+     "Calibration-in-the-large: intercept of the logistic fit of the "
+     "outcome with the log-odds as offset, slope fixed at 1 (0 when "
      "calibrated)."},
     {"calibration_slope", FigureSource::kOutcome,
      &v1::WindowHealth::calibration_slope,
-     "Slope of the logistic fit of the outcome on the log-odds (1 when "
-     "calibrated)."},
+     "Calibration slope: slope of the joint logistic fit of the outcome on "
+     "the log-odds (1 when calibrated)."},
     {"hosmer_lemeshow_statistic", FigureSource::kOutcome,
      &v1::WindowHealth::hosmer_lemeshow_statistic,
-     "Hosmer-Lemeshow statistic over deciles of predicted probability."},
+     "Hosmer-Lemeshow statistic over deciles of risk (10 groups of sorted "
+     "predicted probability)."},
     {"hosmer_lemeshow_p_value", FigureSource::kOutcome,
      &v1::WindowHealth::hosmer_lemeshow_p_value,
-     "Chi-square p-value of the Hosmer-Lemeshow statistic."},
+     "Chi-square p-value of the Hosmer-Lemeshow statistic, groups - 2 "
+     "degrees of freedom."},
     {"score_psi", FigureSource::kStability, &v1::WindowHealth::score_psi,
      "Population stability index of the probability against the set's "
      "score baseline."},

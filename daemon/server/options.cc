@@ -65,6 +65,37 @@ void MergeDriftPolicy(const v1::DriftPolicy& config,
   if (config.tick_seconds() != 0) {
     policy.tick = ConfigSeconds(config.tick_seconds());
   }
+  // Out-of-range values are kept as written; health_options checks them and
+  // names the field.
+  if (config.alpha() != 0) policy.alpha = config.alpha();
+  if (config.release_evaluations() != 0) {
+    policy.release_evaluations = config.release_evaluations();
+  }
+  if (config.release_ratio() != 0)
+    policy.release_ratio = config.release_ratio();
+  const v1::CusumPolicy& c = config.cusum();
+  if (c.upper_odds_ratio() != 0) {
+    policy.cusum_upper_odds_ratio = c.upper_odds_ratio();
+  }
+  if (c.lower_odds_ratio() != 0) {
+    policy.cusum_lower_odds_ratio = c.lower_odds_ratio();
+  }
+  if (c.has_slope_alternative()) {
+    policy.cusum_slope_alternative = c.slope_alternative();
+  }
+  if (c.in_control_arl_records() != 0) {
+    policy.cusum_in_control_arl = c.in_control_arl_records();
+  }
+  policy.cusum_disabled = c.disabled();
+  if (config.record_store_max_records() != 0) {
+    policy.record_store_max_records = config.record_store_max_records();
+  }
+  if (config.outcome_horizon_seconds() != 0) {
+    policy.outcome_horizon = ConfigSeconds(config.outcome_horizon_seconds());
+  }
+  if (config.max_immature_records() != 0) {
+    policy.max_immature_records = config.max_immature_records();
+  }
 }
 
 LogOptions LogOptionsFrom(const v1::LogConfig& config) {

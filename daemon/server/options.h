@@ -50,6 +50,26 @@ struct DriftPolicyOptions {
   uint32_t min_scored = 500;
   // Time between evaluations.
   absl::Duration tick = absl::Seconds(15);
+  // Level of the PSI significance tests of one set version at one
+  // evaluation, shared out over its tests (Bonferroni).
+  double alpha = 0.01;
+  // Evaluations in a row a release condition must hold to leave a state.
+  uint32_t release_evaluations = 3;
+  // Default release threshold as a share of the entry threshold.
+  double release_ratio = 0.8;
+  // CUSUM charts: upper and lower odds ratios, slope alternative (0: no
+  // slope chart), in-control ARL in labelled records, off switch.
+  double cusum_upper_odds_ratio = 1.5;
+  double cusum_lower_odds_ratio = 1.0 / 1.5;
+  double cusum_slope_alternative = 0.75;
+  double cusum_in_control_arl = 100000;
+  bool cusum_disabled = false;
+  // Labelled records the exact outcome figures keep per time window.
+  uint64_t record_store_max_records = 1'000'000;
+  // Outcome horizon of sets whose file names none (0: none).
+  absl::Duration outcome_horizon = absl::ZeroDuration();
+  // Labelled records waiting to mature, per set version.
+  uint64_t max_immature_records = 1'000'000;
 };
 
 struct DaemonOptions {

@@ -61,7 +61,11 @@ TEST(ProductionConfigTest, LoadsWithPlumbdsOwnLoader) {
   EXPECT_EQ(options->ledger.ack, daemon::LedgerOptions::Ack::kCommitted);
   EXPECT_TRUE(options->ledger.durable_commits);
   EXPECT_EQ(options->sets_dir, "/etc/plumbline/sets");
-  EXPECT_EQ(options->drift_policy.thresholds.size(), 5u);
+  EXPECT_EQ(options->drift_policy.thresholds.size(), 4u);
+  // 30 days: outcome figures and the CUSUM charts over mature cohorts.
+  EXPECT_EQ(options->drift_policy.outcome_horizon, absl::Hours(24 * 30));
+  EXPECT_EQ(health->windows.outcome_horizon, absl::Hours(24 * 30));
+  EXPECT_EQ(health->policy.alpha(), 0.01);
   EXPECT_EQ(options->refit.mode(), v1::RefitPolicy::PROPOSE);
   // At least one batch fits the ledger queue (else plumbd warns at startup).
   EXPECT_GE(options->ledger.queue_capacity_rows, options->max_batch_records);

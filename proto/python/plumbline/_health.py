@@ -20,7 +20,8 @@ def _window(w) -> WindowHealth:
         log_loss=_figure(w.log_loss), brier_score=_figure(w.brier_score),
         auc=_figure(w.auc), auc_grid_bound=w.auc_grid_bound,
         expected_calibration_error=_figure(w.expected_calibration_error),
-        calibration_in_the_large=_figure(w.calibration_in_the_large),
+        mean_predicted_minus_observed=_figure(
+            w.mean_predicted_minus_observed),
         calibration_intercept=_figure(w.calibration_intercept),
         calibration_slope=_figure(w.calibration_slope),
         hosmer_lemeshow_statistic=_figure(w.hosmer_lemeshow_statistic),

@@ -131,7 +131,9 @@ class WindowHealth:
     auc: Figure
     auc_grid_bound: float
     expected_calibration_error: Figure
-    calibration_in_the_large: Figure
+    # Mean predicted probability minus observed rate (a difference of
+    # means; the calibration-in-the-large intercept is calibration_intercept).
+    mean_predicted_minus_observed: Figure
     calibration_intercept: Figure
     calibration_slope: Figure
     hosmer_lemeshow_statistic: Figure

@@ -5,8 +5,13 @@
 // the test config) evaluates the windows, and the figures are read back
 // three ways (the Monitor RPC, the Prometheus endpoint over HTTP, `plumbctl
 // health`). The values are checked against tests/daemon/health_reference.py,
-// which computed them with scikit-learn 1.2 and SciPy on the same records
-// (ctest fixture health_reference, directory in PLUMBLINE_HEALTH_REF).
+// which computed them with scikit-learn 1.2, SciPy, statsmodels and NumPy on
+// the same records (ctest fixture health_reference, directory in
+// PLUMBLINE_HEALTH_REF): AUC (roc_auc_score), Hosmer-Lemeshow over deciles
+// of risk (NumPy, written out there; p-value scipy.stats.chi2.sf), the
+// calibration intercept (statsmodels GLM with the log-odds as offset) and
+// slope (statsmodels Logit), the PSI tests (scipy.stats.chi2.sf / isf) and
+// the CUSUM charts (the recursion in NumPy).
 // promtool (Debian package prometheus) lints the exposition. A second test
 // scores records from a shifted distribution and watches the state become
 // drifting.
@@ -24,6 +29,7 @@
 
 #include "absl/strings/str_cat.h"
 #include "absl/strings/str_format.h"
+#include "absl/strings/str_join.h"
 #include "absl/strings/str_split.h"
 #include "daemon/ledger/ledger.h"
 #include "daemon/policy/figures.h"
@@ -153,6 +159,11 @@ class HealthEndToEndTest : public ::testing::Test {
       EXPECT_TRUE(s.ok()) << s.error_message();
       for (const v1::Scored& scored : reply.scores()) {
         probabilities.push_back(scored.probability());
+        answered_log_odds_.push_back(scored.log_odds());
+        answered_probability_.push_back(scored.probability());
+      }
+      for (const v1::Outcome& o : outcomes.outcomes()) {
+        answered_labels_.push_back(o.label());
       }
       grpc::ClientContext outcome_context;
       v1::ReportOutcomesReply outcome_reply;
@@ -183,7 +194,40 @@ class HealthEndToEndTest : public ::testing::Test {
     return health;
   }
 
+  // The exact outcome figures from scikit-learn, statsmodels and NumPy on the
+  // log-odds, probabilities and labels plumbd answered, in the order their
+  // outcomes were reported (health_reference.py --outcome-figures).
+  google::protobuf::Struct OutcomeReference() {
+    std::string json = "{\"log_odds\": [";
+    for (size_t i = 0; i < answered_log_odds_.size(); ++i) {
+      absl::StrAppendFormat(&json, "%s%.17g", i ? ", " : "",
+                            answered_log_odds_[i]);
+    }
+    absl::StrAppend(&json, "], \"probability\": [");
+    for (size_t i = 0; i < answered_probability_.size(); ++i) {
+      absl::StrAppendFormat(&json, "%s%.17g", i ? ", " : "",
+                            answered_probability_[i]);
+    }
+    absl::StrAppend(&json, "], \"labels\": [",
+                    absl::StrJoin(answered_labels_, ", "), "]}");
+    const std::string in = dir_.File("answered.json");
+    const std::string out = dir_.File("outcome_reference.json");
+    EXPECT_TRUE(testing::WriteTextFile(in, json).ok());
+    auto run =
+        testing::RunProcess({PLUMBLINE_PYTHON_PATH, HEALTH_REFERENCE_SCRIPT,
+                             "--outcome-figures", in, out},
+                            dir_.path());
+    EXPECT_TRUE(run.ok()) << run.status();
+    if (run.ok()) EXPECT_EQ(run->exit_code, 0) << run->out << run->err;
+    auto reference = plumbline::testing::ReadJsonFile(out);
+    EXPECT_TRUE(reference.ok()) << reference.status();
+    return reference.ok() ? *reference : google::protobuf::Struct();
+  }
+
   TempDir dir_;
+  std::vector<double> answered_log_odds_;
+  std::vector<double> answered_probability_;
+  std::vector<int> answered_labels_;
   std::string ref_dir_;
   google::protobuf::Struct records_;
   google::protobuf::Struct reference_;
@@ -206,6 +250,7 @@ TEST_F(HealthEndToEndTest, FiguresMatchScikitLearnAndSciPyEverywhere) {
         << i;
   }
   const v1::SetHealth health = WaitForEvaluation(3000);
+  const google::protobuf::Struct outcome = OutcomeReference();
   EXPECT_EQ(health.set(), kSet);
   EXPECT_EQ(health.version(), kVersion);
   EXPECT_EQ(health.state(), v1::STEADY) << health.DebugString();
@@ -242,13 +287,44 @@ TEST_F(HealthEndToEndTest, FiguresMatchScikitLearnAndSciPyEverywhere) {
     // PSI: scipy.special.rel_entr with the 1e-4 floor of monitor/stability.h.
     check("score_psi", w.score_psi(),
           Field(reference_, "score_psi").number_value(), 1e-9);
-    // sklearn.metrics.roc_auc_score, within the grid bound plumbd reports.
-    ASSERT_TRUE(w.auc().defined());
-    EXPECT_LE(
-        std::abs(w.auc().value() - Field(reference_, "auc").number_value()),
-        w.auc_grid_bound())
-        << "grid bound " << w.auc_grid_bound();
+    // sklearn.metrics.roc_auc_score: exact (Mann-Whitney over the records).
+    ASSERT_TRUE(w.auc().defined()) << w.auc().note();
+    EXPECT_NEAR(w.auc().value(), Field(outcome, "auc").number_value(), 1e-12);
     ExpectExported(samples, "plumbline_auc", labels, w.auc().value());
+    EXPECT_EQ(w.exact_records(), 3000);
+    EXPECT_EQ(w.unstored_labelled(), 0);
+    // Hosmer-Lemeshow over deciles of risk: the NumPy implementation in
+    // health_reference.py, p-value scipy.stats.chi2.sf on 8 degrees of
+    // freedom.
+    const auto& hl = Field(outcome, "hosmer_lemeshow").struct_value();
+    check("hosmer_lemeshow_statistic", w.hosmer_lemeshow_statistic(),
+          Field(hl, "statistic").number_value(), 1e-9);
+    check("hosmer_lemeshow_p_value", w.hosmer_lemeshow_p_value(),
+          Field(hl, "p_value").number_value(), 1e-9);
+    // statsmodels GLM(Binomial) with the log-odds as offset (slope 1), and
+    // statsmodels Logit on a constant and the log-odds (the slope).
+    check("calibration_intercept", w.calibration_intercept(),
+          Field(outcome, "calibration_intercept").number_value(), 1e-8);
+    check("calibration_slope", w.calibration_slope(),
+          Field(outcome, "calibration_slope").number_value(), 1e-8);
+    // The score PSI's test: scipy.stats.chi2.sf(PSI / (1/n + 1/m), B - 1)
+    // and chi2.isf(0.01 / 10, B - 1) * (1/n + 1/m).
+    const auto& score_test = Field(reference_, "score_psi_test").struct_value();
+    ASSERT_TRUE(w.score_psi_test().defined()) << w.score_psi_test().note();
+    ExpectClose(w.score_psi_test().p_value(),
+                Field(score_test, "p_value").number_value(), 1e-9,
+                "score psi p-value");
+    ExpectClose(w.score_psi_test().critical_psi(),
+                Field(score_test, "critical_psi").number_value(), 1e-9,
+                "score critical psi");
+    EXPECT_EQ(w.score_psi_test().baseline_count(),
+              Field(score_test, "baseline_count").number_value());
+    EXPECT_EQ(w.score_psi_test().degrees_of_freedom(),
+              Field(score_test, "degrees_of_freedom").number_value());
+    ExpectExported(samples, "plumbline_score_psi_p_value", labels,
+                   w.score_psi_test().p_value());
+    ExpectExported(samples, "plumbline_score_psi_critical", labels,
+                   w.score_psi_test().critical_psi());
     // The other figures: the metric equals the RPC.
     for (const WindowFigure& other : kWindowFigures) {
       const v1::Figure& f = (w.*(other.get))();
@@ -281,6 +357,22 @@ TEST_F(HealthEndToEndTest, FiguresMatchScikitLearnAndSciPyEverywhere) {
       }
       ExpectClose(f.psi().value(), Field(ref, "psi").number_value(), 1e-9,
                   "psi");
+      // scipy.stats.chi2.sf / isf at the feature's counts.
+      const auto& test = Field(ref, "psi_test").struct_value();
+      ASSERT_TRUE(f.psi_test().defined()) << f.psi_test().note();
+      ExpectClose(f.psi_test().p_value(), Field(test, "p_value").number_value(),
+                  1e-9, "feature psi p-value");
+      ExpectClose(f.psi_test().critical_psi(),
+                  Field(test, "critical_psi").number_value(), 1e-9,
+                  "feature critical psi");
+      EXPECT_EQ(f.psi_test().baseline_count(),
+                Field(test, "baseline_count").number_value());
+      EXPECT_EQ(f.psi_test().window_count(),
+                Field(test, "window_count").number_value());
+      ExpectExported(samples, "plumbline_feature_psi_p_value", labels,
+                     f.psi_test().p_value());
+      ExpectExported(samples, "plumbline_feature_psi_critical", labels,
+                     f.psi_test().critical_psi());
       ExpectClose(f.out_of_range_rate().value(),
                   Field(ref, "out_of_range").number_value(), 1e-12,
                   "out of range");
@@ -289,6 +381,36 @@ TEST_F(HealthEndToEndTest, FiguresMatchScikitLearnAndSciPyEverywhere) {
                      f.out_of_range_rate().value());
     }
   }
+
+  // alpha 0.01 over 10 tests (score and 4 features with a baseline, two
+  // windows): Bonferroni.
+  EXPECT_DOUBLE_EQ(health.stability_test_alpha(),
+                   Field(reference_, "stability_test_alpha").number_value());
+  ExpectExported(samples, "plumbline_stability_test_alpha", version,
+                 health.stability_test_alpha());
+  // The CUSUM charts against the recursion run in NumPy over the records in
+  // the order their outcomes were reported (no alarm in this stream).
+  const auto& cusum = Field(outcome, "cusum").struct_value();
+  ASSERT_EQ(health.cusum_size(), 3);
+  for (const v1::CusumChart& c : health.cusum()) {
+    SCOPED_TRACE(c.chart());
+    ASSERT_TRUE(c.ready()) << c.note();
+    const auto& ref = Field(cusum, c.chart()).struct_value();
+    EXPECT_EQ(c.alarms(), 0);
+    EXPECT_LT(Field(ref, "max").number_value(), c.limit());
+    EXPECT_NEAR(c.value(), Field(ref, "value").number_value(), 1e-9);
+    EXPECT_EQ(c.records(), 3000);
+    std::map<std::string, std::string> chart = version;
+    chart["chart"] = c.chart();
+    ExpectExported(samples, "plumbline_cusum_value", chart, c.value());
+    ExpectExported(samples, "plumbline_cusum_limit", chart, c.limit());
+    EXPECT_EQ(FindSample(samples, "plumbline_cusum_alarms_total", chart), 0.0);
+  }
+  // Outcome coverage: every record scored in the last few seconds has its
+  // outcome.
+  ASSERT_EQ(health.outcome_coverage_size(), 4);
+  EXPECT_EQ(health.outcome_coverage(0).scored(), 3000);
+  EXPECT_EQ(health.outcome_coverage(0).coverage().value(), 1.0);
 
   // Request and ledger metrics.
   EXPECT_EQ(FindSample(samples, "plumbline_requests_total",
@@ -353,11 +475,35 @@ TEST_F(HealthEndToEndTest, FiguresMatchScikitLearnAndSciPyEverywhere) {
   EXPECT_THAT(Tokens(shown->out, "score_psi"),
               ElementsAre("score_psi", Six(count.score_psi().value()),
                           Six(time.score_psi().value())));
+  for (const char* metric :
+       {"auc", "hosmer_lemeshow_statistic", "hosmer_lemeshow_p_value",
+        "calibration_intercept", "calibration_slope"}) {
+    const WindowFigure* wf = FindWindowFigure(metric);
+    ASSERT_NE(wf, nullptr);
+    EXPECT_THAT(Tokens(shown->out, metric),
+                ElementsAre(metric, Six((count.*(wf->get))().value()),
+                            Six((time.*(wf->get))().value())));
+  }
+  EXPECT_THAT(
+      Tokens(shown->out, "score_psi_p_value"),
+      ElementsAre("score_psi_p_value", Six(count.score_psi_test().p_value()),
+                  Six(time.score_psi_test().p_value())));
+  EXPECT_THAT(Tokens(shown->out, "score_psi_critical"),
+              ElementsAre("score_psi_critical",
+                          Six(count.score_psi_test().critical_psi()),
+                          Six(time.score_psi_test().critical_psi())));
   EXPECT_THAT(
       Tokens(shown->out, "distance_km"),
       ElementsAre("distance_km", "count", Six(count.features(0).psi().value()),
+                  Six(count.features(0).psi_test().p_value()),
+                  Six(count.features(0).psi_test().critical_psi()),
                   Six(count.features(0).missing_rate().value()),
                   Six(count.features(0).out_of_range_rate().value())));
+  const std::vector<std::string> upper = Tokens(shown->out, "upper");
+  // "upper  odds x 1.5  VALUE  LIMIT  ARL ..."
+  ASSERT_GE(upper.size(), 6u) << shown->out;
+  EXPECT_EQ(upper[4], Six(now.cusum(0).value()));
+  EXPECT_EQ(upper[5], Six(now.cusum(0).limit()));
 }
 
 TEST_F(HealthEndToEndTest, ShiftedRecordsDriveTheSetToDrifting) {
@@ -369,11 +515,15 @@ TEST_F(HealthEndToEndTest, ShiftedRecordsDriveTheSetToDrifting) {
   });
   ASSERT_TRUE(drifting) << health.DebugString();
   // PSI 0.25: rule of thumb of credit-scoring practice (common practice, no
-  // source) and Plumbline's default drifting threshold.
+  // source) and Plumbline's default drifting threshold; each reason is
+  // significant too, and says at what p-value.
   bool score_reason = false, distance_reason = false, building_reason = false;
   for (const v1::DriftReason& r : health.reasons()) {
     if (r.state() != v1::DRIFTING) continue;
     EXPECT_GT(r.value(), r.threshold()) << r.text();
+    EXPECT_EQ(r.test(), "psi_test") << r.text();
+    EXPECT_LT(r.p_value(), health.stability_test_alpha()) << r.text();
+    EXPECT_THAT(r.text(), ::testing::HasSubstr("PSI test p-value"));
     if (r.metric() == "score_psi") score_reason = true;
     if (r.metric() == "feature_psi" && r.feature() == "distance_km") {
       distance_reason = true;
@@ -397,6 +547,18 @@ TEST_F(HealthEndToEndTest, ShiftedRecordsDriveTheSetToDrifting) {
                  {{"set", kSet}, {"version", kVersion}}),
       2.0);
   EXPECT_GE(plumbd_->CountLogLines("event=drift_state"), 1) << plumbd_->Log();
+  // Counted with the metric that entered the state (the first evaluation
+  // may see watch before drifting).
+  double into_drifting = 0;
+  for (const Sample& sample : testing::ParseExposition(*scrape)) {
+    if (sample.name == "plumbline_drift_transitions_total" &&
+        sample.labels.at("to") == "drifting") {
+      into_drifting += sample.value;
+      EXPECT_THAT(sample.labels.at("trigger"),
+                  ::testing::AnyOf("score_psi", "feature_psi"));
+    }
+  }
+  EXPECT_EQ(into_drifting, 1.0);
 }
 
 }  // namespace

@@ -14,7 +14,37 @@ Writes into OUT_DIR:
                            partly a level the set has never seen
   reference.json           figures of the steady records, computed here:
       log_loss, brier      sklearn.metrics.log_loss, brier_score_loss
-      auc                  sklearn.metrics.roc_auc_score
+      score_psi_test, psi_test[f]   see below
+
+With --outcome-figures SCORES.json OUT.json it computes, from the log-odds,
+probabilities and labels plumbd itself answered (in the order their outcomes
+were reported), the exact outcome figures; on plumbd's own numbers, since
+those records have many tied and nearly tied scores (a difference in the
+last bit reorders a pair):
+      auc                  sklearn.metrics.roc_auc_score on the log-odds
+                           (plumbd's AUC is the Mann-Whitney statistic)
+      hosmer_lemeshow      deciles of risk written out here with numpy
+                           (sorted probabilities, group k = ranks
+                           floor(k n / 10) .. floor((k + 1) n / 10) - 1, a run
+                           of tied probabilities kept whole in the group of
+                           its first record, empty groups dropped), p-value
+                           scipy.stats.chi2.sf on groups - 2 degrees of freedom
+      calibration_intercept  statsmodels GLM(Binomial) of the outcome on a
+                           constant with the log-odds as offset (slope 1)
+      calibration_slope    statsmodels Logit of the outcome on a constant and
+                           the log-odds (joint fit): the slope
+      score_psi_test, psi_test[f]   scipy.stats.chi2.sf(PSI / (1/n + 1/m),
+                           B - 1) and chi2.isf(alpha / tests, B - 1) *
+                           (1/n + 1/m): n the baseline's non-missing count
+                           (count x (1 - missing_proportion)), m the window's
+                           non-missing records, B the baseline bins with a
+                           proportion > 0 (Yurdakul & Naranjo 2020)
+      cusum[chart]         the risk-adjusted CUSUM (Steiner et al. 2000) run
+                           with numpy over the records in the order they are
+                           reported, S = max(0, S + W), W = y (zA - z) -
+                           log((1 + e^zA) / (1 + e^z)) by numpy.logaddexp; no
+                           reset (the test checks plumbd saw no alarm)
+  and the PSI tests of the fixture's records:
       score_psi, psi[f]    sum of scipy.special.rel_entr(a, e) +
                            rel_entr(e, a) over the bins, both proportions
                            floored at 1e-4 first (the rule documented in
@@ -29,7 +59,9 @@ Writes into OUT_DIR:
 Every float is written with repr (Python's json), so it reads back exactly.
 Seeded: the same files every run.
 
-  /usr/bin/python3 tests/daemon/health_reference.py OUT_DIR
+  /usr/bin/python3 tests/daemon/health/health_reference.py OUT_DIR
+  /usr/bin/python3 tests/daemon/health/health_reference.py \
+      --outcome-figures SCORES.json OUT.json
 """
 import json
 import os
@@ -38,11 +70,19 @@ import sys
 import numpy as np
 import scipy
 import sklearn
+import statsmodels
+import statsmodels.api as sm
 from scipy.special import expit, rel_entr
+from scipy.stats import chi2
 from sklearn.metrics import brier_score_loss, log_loss, roc_auc_score
 
 SEED = 20261202
 PSI_FLOOR = 1e-4
+# plumbd's defaults: drift_policy.alpha over its tests (Bonferroni), and
+# the CUSUM alternatives (odds x 1.5, odds / 1.5, log-odds x 0.75).
+ALPHA = 0.01
+CUSUM = {"upper": (np.log(1.5), 1.0), "lower": (np.log(1 / 1.5), 1.0),
+         "slope": (0.0, 0.75)}
 LEVELS = ["house", "flat", "office", "shop"]
 SHARES = [0.5, 0.3, 0.12, 0.08]
 HOUR_EDGES = [10.0, 13.0, 17.0, 20.0]
@@ -101,6 +141,52 @@ def numeric_baseline(x, edges, lo, hi):
             "count": len(x), "min": lo, "max": hi}
 
 
+def hosmer_lemeshow(p, y, groups=10):
+    """Deciles of risk, written out independently of plumbd's code."""
+    order = np.argsort(p, kind="stable")
+    ps, ys = p[order], y[order]
+    n = len(ps)
+    group = np.array([(k * groups) // n for k in range(n)])
+    # A run of tied probabilities goes whole to the group of its first record.
+    for i in range(1, n):
+        if ps[i] == ps[i - 1]:
+            group[i] = group[i - 1]
+    stat, used = 0.0, 0
+    for g in range(groups):
+        sel = group == g
+        if not sel.any():
+            continue
+        used += 1
+        m, o, e = sel.sum(), ys[sel].sum(), ps[sel].sum()
+        stat += (o - e) ** 2 / (e * (1 - e / m))
+    return {"statistic": float(stat), "groups": used,
+            "p_value": float(chi2.sf(stat, used - 2))}
+
+
+def psi_test(psi_value, baseline, m, tests):
+    """Yurdakul & Naranjo's asymptotic test of a PSI."""
+    proportions = (baseline["proportions"] if "proportions" in baseline
+                   else list(baseline["level_proportions"].values()))
+    bins = int(np.sum(np.asarray(proportions) > 0))
+    n = round(baseline["count"] * (1 - baseline.get("missing_proportion", 0)))
+    scale = 1 / n + 1 / m
+    return {"p_value": float(chi2.sf(psi_value / scale, bins - 1)),
+            "critical_psi": float(chi2.isf(ALPHA / tests, bins - 1) * scale),
+            "baseline_count": n, "window_count": int(m),
+            "degrees_of_freedom": bins - 1}
+
+
+def cusum(z, y, shift, slope):
+    """S after every record, no reset."""
+    za = shift + slope * z
+    w = y * (za - z) - (np.logaddexp(0, za) - np.logaddexp(0, z))
+    s, path = 0.0, []
+    for x in w:
+        s = max(0.0, s + x)
+        path.append(s)
+    return {"value": float(s), "max": float(max(path))}
+
+
 def make_set(train, probability):
     b = train["building_type"]
     present = [v for v in b if v is not None]
@@ -136,7 +222,9 @@ def make_set(train, probability):
                          "indicator_coefficient": COEF["building_missing"]},
              "baseline": {"level_proportions": {
                  level: present.count(level) / len(present)
-                 for level in LEVELS}}},
+                 for level in LEVELS},
+                 "missing_proportion": 1 - len(present) / len(b),
+                 "count": len(b)}},
             {"name": "hour_of_day",
              "binned": {"edges": HOUR_EDGES, "coefficients": COEF["hour"]},
              "baseline": numeric_baseline(train["hour_of_day"], HOUR_EDGES,
@@ -147,8 +235,16 @@ def make_set(train, probability):
         ],
         "score_baseline": {"edges": score_edges,
                            "proportions": (score_counts /
-                                           score_counts.sum()).tolist()},
+                                           score_counts.sum()).tolist(),
+                           "count": len(probability),
+                           "min": float(probability.min()),
+                           "max": float(probability.max())},
     }
+
+
+# PSI tests plumbd runs per evaluation: the score and the 4 features with a
+# baseline (rainfall_mm has none), in both windows.
+TESTS = 2 * 5
 
 
 def psi(expected, actual):
@@ -173,9 +269,10 @@ def feature_figures(feature, values):
                          if v is not None])
         expected = [base["level_proportions"][l] for l in levels] + [0.0]
         out_of_range = int(np.sum(bins == len(levels)))
+        value = psi(expected, shares(bins, len(expected)))
         return {"missing": float(missing.sum() / n),
-                "out_of_range": out_of_range / n,
-                "psi": psi(expected, shares(bins, len(expected)))}
+                "out_of_range": out_of_range / n, "psi": value,
+                "psi_test": psi_test(value, base, len(bins), TESTS)}
     x = np.asarray(values, float)
     missing = np.isnan(x)
     out = {"missing": float(missing.sum() / n)}
@@ -184,6 +281,7 @@ def feature_figures(feature, values):
     present = x[~missing]
     bins = np.searchsorted(base["edges"], present, side="right")
     out["psi"] = psi(base["proportions"], shares(bins, len(base["edges"]) + 1))
+    out["psi_test"] = psi_test(out["psi"], base, len(present), TESTS)
     out["out_of_range"] = float(np.sum((present < base["min"]) |
                                        (present > base["max"])) / n)
     return out
@@ -206,9 +304,38 @@ def records(rows, labels, prefix):
     return out
 
 
+def outcome_figures(scores_path, out_path):
+    with open(scores_path) as f:
+        scores = json.load(f)
+    z = np.asarray(scores["log_odds"], float)
+    p = np.asarray(scores["probability"], float)
+    y = np.asarray(scores["labels"], int)
+    # statsmodels: the offset fit (slope 1) and the joint fit.
+    offset_fit = sm.GLM(y, np.ones((len(z), 1)), family=sm.families.Binomial(),
+                        offset=z).fit(tol=1e-14, maxiter=100)
+    joint_fit = sm.Logit(y, sm.add_constant(z)).fit(
+        method="newton", tol=1e-14, maxiter=100, disp=0)
+    out = {
+        "versions": {"numpy": np.__version__, "scipy": scipy.__version__,
+                     "sklearn": sklearn.__version__,
+                     "statsmodels": statsmodels.__version__},
+        "auc": float(roc_auc_score(y, z)),
+        "hosmer_lemeshow": hosmer_lemeshow(p, y),
+        "calibration_intercept": float(offset_fit.params[0]),
+        "calibration_slope": float(joint_fit.params[1]),
+        "cusum": {name: cusum(z, y, *alt) for name, alt in CUSUM.items()},
+    }
+    with open(out_path, "w") as f:
+        json.dump(out, f, indent=1)
+
+
 def main():
+    if len(sys.argv) == 4 and sys.argv[1] == "--outcome-figures":
+        outcome_figures(sys.argv[2], sys.argv[3])
+        return
     if len(sys.argv) != 2:
-        sys.exit("usage: health_reference.py OUT_DIR")
+        sys.exit("usage: health_reference.py OUT_DIR\n"
+                 "       health_reference.py --outcome-figures SCORES OUT")
     out_dir = sys.argv[1]
     os.makedirs(os.path.join(out_dir, "sets"), exist_ok=True)
     rng = np.random.default_rng(SEED)
@@ -235,17 +362,20 @@ def main():
 
     score_base = coefficient_set["score_baseline"]
     score_bins = np.searchsorted(score_base["edges"], p, side="right")
+    score_psi = psi(score_base["proportions"],
+                    shares(score_bins, len(score_base["proportions"])))
     reference = {
         "versions": {"numpy": np.__version__, "scipy": scipy.__version__,
-                     "sklearn": sklearn.__version__},
+                     "sklearn": sklearn.__version__,
+                     "statsmodels": statsmodels.__version__},
         "count": len(p),
         "positives": int(y.sum()),
         "probability": p.tolist(),
         "log_loss": float(log_loss(y, p)),
         "brier": float(brier_score_loss(y, p)),
-        "auc": float(roc_auc_score(y, p)),
-        "score_psi": psi(score_base["proportions"],
-                         shares(score_bins, len(score_base["proportions"]))),
+        "score_psi": score_psi,
+        "score_psi_test": psi_test(score_psi, score_base, len(p), TESTS),
+        "stability_test_alpha": ALPHA / TESTS,
         "features": {f["name"]: feature_figures(f, steady[f["name"]])
                      for f in coefficient_set["features"]},
     }

@@ -64,6 +64,7 @@ class HealthMonitorTest : public ::testing::Test {
     l.set_version = version;
     l.log_odds = log_odds;
     l.label = label;
+    l.scored_at = at;
     l.observed_at = at;
     monitor_->OnLabelled(l);
   }
@@ -100,11 +101,16 @@ TEST_F(HealthMonitorTest, ScoredAndLabelledRecordsReachBothWindows) {
     EXPECT_EQ(w.labelled(), 4);
     EXPECT_EQ(w.positives(), 2);
     // log-odds 0 is probability 1/2: log-loss ln 2, Brier (1/2)^2,
-    // calibration-in-the-large 1/2 - 2/4 = 0, AUC of all-tied scores 1/2.
+    // mean predicted minus observed 1/2 - 2/4 = 0, AUC of all-tied scores
+    // 1/2 (ties count 1/2), calibration intercept with offset 0: logit of
+    // the observed rate 2/4 minus 0 = 0.
     EXPECT_DOUBLE_EQ(w.log_loss().value(), std::log(2.0));
     EXPECT_DOUBLE_EQ(w.brier_score().value(), 0.25);
-    EXPECT_DOUBLE_EQ(w.calibration_in_the_large().value(), 0.0);
+    EXPECT_DOUBLE_EQ(w.mean_predicted_minus_observed().value(), 0.0);
     EXPECT_DOUBLE_EQ(w.auc().value(), 0.5);
+    EXPECT_NEAR(w.calibration_intercept().value(), 0.0, 1e-12);
+    EXPECT_EQ(w.exact_records(), 4);
+    EXPECT_EQ(w.unstored_labelled(), 0);
     EXPECT_DOUBLE_EQ(w.expected_calibration_error().value(), 0.0);
     // Probabilities 0.119, 0.269, 0.5, 0.119 in bins [0, .2), [.2, .5),
     // [.5, 1]: shares 2/4, 1/4, 1/4 against 0.5, 0.3, 0.2.
@@ -285,6 +291,126 @@ TEST_F(HealthMonitorTest, DriftPolicyJudgesEachEvaluation) {
   const v1::SetHealth h = Evaluate();
   EXPECT_EQ(h.state(), v1::DRIFTING);
   EXPECT_EQ(h.reasons(0).metric(), "score_psi");
+}
+
+TEST_F(HealthMonitorTest, TransitionsAreCountedWithTheirTrigger) {
+  HealthMonitorOptions options;
+  v1::DriftPolicy config;
+  config.set_min_scored(10);
+  config.set_release_evaluations(2);
+  options.policy = *DriftPolicy::FromConfig(config);
+  monitor_ = Make(options);
+  monitor_->SyncPlans({plan_});
+  for (int i = 0; i < 10; ++i) {
+    monitor_->OnScored(*plan_, Row(3, "urban", 9), 0.0, now_);
+  }
+  // Drifting at the first evaluation, held at the second: one transition.
+  EXPECT_EQ(Evaluate().state(), v1::DRIFTING);
+  EXPECT_EQ(Evaluate().state(), v1::DRIFTING);
+  std::vector<TransitionCount> t = monitor_->Transitions();
+  ASSERT_EQ(t.size(), 1u);
+  EXPECT_EQ(t[0].from, "steady");
+  EXPECT_EQ(t[0].to, "drifting");
+  // The set's score baseline records no count: PSI judges on effect size.
+  EXPECT_EQ(t[0].trigger, "score_psi");
+  EXPECT_EQ(t[0].transitions, 1);
+}
+
+TEST_F(HealthMonitorTest, OutcomeHorizonWaitsForMatureCohorts) {
+  HealthMonitorOptions options;
+  options.windows.outcome_horizon = absl::Hours(1);
+  monitor_ = Make(options);
+  monitor_->SyncPlans({plan_});
+  // Scored now, labelled now: waits an hour.
+  monitor_->OnScored(*plan_, Row(3, "urban", 9), 0.0, now_);
+  Labelled("v1", 0.0, 1, now_);
+  v1::SetHealth h = Evaluate();
+  EXPECT_EQ(h.outcome_horizon_seconds(), 3600);
+  EXPECT_EQ(h.immature_labelled(), 1);
+  EXPECT_EQ(h.windows(0).labelled(), 0);
+  EXPECT_EQ(h.windows(1).labelled(), 0);
+  // Coverage by age: bands of 2 h / 4 = 30 min; the record is 0 old, scored
+  // and labelled: coverage 1 in the first band, which is not mature.
+  ASSERT_EQ(h.outcome_coverage_size(), 4);
+  EXPECT_EQ(h.outcome_coverage(0).max_age_seconds(), 1800);
+  EXPECT_EQ(h.outcome_coverage(0).scored(), 1);
+  EXPECT_EQ(h.outcome_coverage(0).labelled(), 1);
+  EXPECT_EQ(h.outcome_coverage(0).coverage().value(), 1.0);
+  EXPECT_FALSE(h.outcome_coverage(0).mature());
+  EXPECT_TRUE(h.outcome_coverage(2).mature());
+  EXPECT_TRUE(h.outcome_coverage(3).mature());
+  // An hour later the cohort is mature: in both windows (the time window by
+  // score time), and in the charts.
+  now_ += absl::Hours(1);
+  h = Evaluate();
+  EXPECT_EQ(h.immature_labelled(), 0);
+  EXPECT_EQ(h.windows(0).labelled(), 1);
+  EXPECT_EQ(h.windows(1).labelled(), 1);
+  ASSERT_GE(h.cusum_size(), 2);
+  EXPECT_EQ(h.cusum(0).records(), 1);
+  // Exactly 1 h old, its cohort bucket is the last of band 1 (bands hold
+  // whole buckets of 2 h / 20 = 6 min before the current one).
+  EXPECT_EQ(h.outcome_coverage(1).scored(), 1);
+  EXPECT_FALSE(h.outcome_coverage(1).mature());
+  // One bucket later it is in band 2, [1 h, 1.5 h) nominal, mature.
+  now_ += absl::Minutes(6);
+  h = Evaluate();
+  EXPECT_EQ(h.outcome_coverage(2).scored(), 1);
+  EXPECT_EQ(h.outcome_coverage(2).coverage().value(), 1.0);
+  EXPECT_TRUE(h.outcome_coverage(2).mature());
+}
+
+TEST_F(HealthMonitorTest, CusumChartsFollowTheHandRecursion) {
+  v1::SetHealth h = Evaluate();  // chooses the limits
+  ASSERT_EQ(h.cusum_size(), 3);
+  EXPECT_EQ(h.cusum(0).chart(), "upper");
+  EXPECT_EQ(h.cusum(1).chart(), "lower");
+  EXPECT_EQ(h.cusum(2).chart(), "slope");
+  for (const v1::CusumChart& c : h.cusum()) {
+    ASSERT_TRUE(c.ready()) << c.chart() << ": " << c.note();
+    EXPECT_GT(c.limit(), 0);
+    // The stated ARL: ChooseControlLimit solves to 1e-6 relative.
+    EXPECT_NEAR(c.arl_records(), 100000, 1);
+    // The baseline has no min or max: said in the note.
+    EXPECT_THAT(c.note(), HasSubstr("no usable min or max"));
+  }
+  // Records at log-odds 0 (p = 1/2), labels 1, 1, 0. Upper chart, R = 1.5:
+  // W(y=1) = log(R / (1 - p + R p)) = log(1.5 / 1.25), W(y=0) =
+  // log(1 / 1.25) (Steiner et al. 2000). S = max(0, S + W).
+  for (int label : {1, 1, 0}) Labelled("v1", 0.0, label, now_);
+  h = Evaluate();
+  const double up = std::log(1.5 / 1.25), down = std::log(1 / 1.25);
+  EXPECT_NEAR(h.cusum(0).value(), std::max(0.0, 2 * up + down), 1e-12);
+  EXPECT_EQ(h.cusum(0).records(), 3);
+  // Lower chart, R = 1/1.5: W(y=1) = log(R / (1 - p + R p)).
+  const double r = 1 / 1.5;
+  double s = 0;
+  for (int label : {1, 1, 0}) {
+    s = std::max(0.0, s + (label == 1 ? std::log(r / (0.5 + r * 0.5))
+                                      : std::log(1 / (0.5 + r * 0.5))));
+  }
+  EXPECT_NEAR(h.cusum(1).value(), s, 1e-12);
+}
+
+TEST_F(HealthMonitorTest, TimeWindowStoreBoundLeavesRecordsOutOfExactFigures) {
+  HealthMonitorOptions options;
+  options.windows.record_store_max_records = 20;  // 1 per bucket of 20
+  monitor_ = Make(options);
+  monitor_->SyncPlans({plan_});
+  Labelled("v1", -1.0, 0, now_);
+  Labelled("v1", 1.0, 1, now_);
+  Labelled("v1", 0.5, 1, now_);
+  const v1::SetHealth h = Evaluate();
+  const v1::WindowHealth& time = h.windows(1);
+  EXPECT_EQ(time.window(), "time");
+  EXPECT_EQ(time.labelled(), 3);
+  EXPECT_EQ(time.exact_records(), 1);
+  EXPECT_EQ(time.unstored_labelled(), 2);
+  // One class among the kept records: no AUC, and the count window (which
+  // keeps its whole 5000) has it: 2 positives above the negative, AUC 1.
+  EXPECT_FALSE(time.auc().defined());
+  EXPECT_EQ(h.windows(0).exact_records(), 3);
+  EXPECT_EQ(h.windows(0).auc().value(), 1.0);
 }
 
 // ---- Rebuild from the ledger ----

@@ -40,9 +40,96 @@ class HealthMetricsTest : public ::testing::Test {
   std::unique_ptr<HealthMonitor> monitor_;
 };
 
-TEST_F(HealthMetricsTest, NothingBeforeTheFirstEvaluation) {
+TEST_F(HealthMetricsTest, SteadyEmptySeriesBeforeTheFirstEvaluation) {
   HealthMetrics metrics(monitor_.get());
-  EXPECT_THAT(Serialize(metrics), Not(HasSubstr("plumbline_drift_state")));
+  const std::vector<testing::Sample> samples =
+      ParseExposition(Serialize(metrics));
+  EXPECT_EQ(FindSample(samples, "plumbline_drift_state",
+                       {{"set", "courier"}, {"version", "v1"}}),
+            0.0);
+  for (const char* window : {"count", "time"}) {
+    for (const char* kind : {"labelled", "scored"}) {
+      EXPECT_EQ(FindSample(samples, "plumbline_window_records",
+                           {{"set", "courier"},
+                            {"version", "v1"},
+                            {"window", window},
+                            {"kind", kind}}),
+                0.0)
+          << window << " " << kind;
+    }
+  }
+  // No evaluation yet: no timestamp, so the staleness alert cannot fire on
+  // a made-up time.
+  EXPECT_EQ(FindSample(samples, "plumbline_health_evaluated_timestamp_seconds",
+                       {{"set", "courier"}, {"version", "v1"}}),
+            std::nullopt);
+}
+
+// Issue 13: after approve / activate the new active version has its series
+// at once (the registry's refresh calls SyncPlans; the tick comes later).
+TEST_F(HealthMetricsTest, ANewActiveVersionHasItsSeriesAtOnce) {
+  monitor_->Evaluate();
+  auto v2 = testing::CompilePlan(testing::BaselineSetJson("courier", "v2"));
+  monitor_->SyncPlans({v2});  // v2 active, v1 retired
+  HealthMetrics metrics(monitor_.get());
+  const std::vector<testing::Sample> samples =
+      ParseExposition(Serialize(metrics));
+  EXPECT_EQ(FindSample(samples, "plumbline_drift_state",
+                       {{"set", "courier"}, {"version", "v2"}}),
+            0.0);
+  EXPECT_EQ(FindSample(samples, "plumbline_window_records",
+                       {{"set", "courier"},
+                        {"version", "v2"},
+                        {"window", "count"},
+                        {"kind", "labelled"}}),
+            0.0);
+  EXPECT_EQ(FindSample(samples, "plumbline_drift_state",
+                       {{"set", "courier"}, {"version", "v1"}}),
+            std::nullopt);
+}
+
+TEST_F(HealthMetricsTest, ChartsTestsAndTransitions) {
+  HealthMonitorOptions options;
+  options.now = [] { return absl::FromUnixSeconds(1'800'000'000); };
+  v1::DriftPolicy config;
+  config.set_min_scored(10);
+  options.policy = *DriftPolicy::FromConfig(config);
+  monitor_ = *HealthMonitor::Create(options);
+  monitor_->SyncPlans({plan_});
+  const std::vector<RawValue> row = {
+      RawValue::Number(3), RawValue::Text("urban"), RawValue::Missing()};
+  for (int i = 0; i < 10; ++i) {
+    monitor_->OnScored(*plan_, row, 0.0, absl::FromUnixSeconds(1'800'000'000));
+  }
+  monitor_->Evaluate();
+  monitor_->Evaluate();
+  HealthMetrics metrics(monitor_.get());
+  const std::string text = Serialize(metrics);
+  const std::vector<testing::Sample> samples = ParseExposition(text);
+  // One transition, counted once over two evaluations.
+  EXPECT_EQ(FindSample(samples, "plumbline_drift_transitions_total",
+                       {{"set", "courier"},
+                        {"version", "v1"},
+                        {"from", "steady"},
+                        {"to", "drifting"},
+                        {"trigger", "score_psi"}}),
+            1.0);
+  EXPECT_THAT(text,
+              HasSubstr("# TYPE plumbline_drift_transitions_total counter"));
+  EXPECT_THAT(text, HasSubstr("# TYPE plumbline_cusum_alarms_total counter"));
+  for (const char* chart : {"upper", "lower", "slope"}) {
+    const std::map<std::string, std::string> l = {
+        {"set", "courier"}, {"version", "v1"}, {"chart", chart}};
+    EXPECT_EQ(FindSample(samples, "plumbline_cusum_value", l), 0.0) << chart;
+    EXPECT_GT(FindSample(samples, "plumbline_cusum_limit", l).value_or(0), 0);
+    EXPECT_EQ(FindSample(samples, "plumbline_cusum_alarms_total", l), 0.0);
+  }
+  // The test set's baselines record no count: no p-values exported.
+  EXPECT_THAT(text, Not(HasSubstr("plumbline_score_psi_p_value{")));
+  EXPECT_EQ(FindSample(samples, "plumbline_outcome_horizon_seconds",
+                       {{"set", "courier"}, {"version", "v1"}}),
+            0.0);
+  EXPECT_THAT(text, Not(HasSubstr("NaN")));
 }
 
 TEST_F(HealthMetricsTest, DefinedFiguresOnlyWithTheirLabels) {

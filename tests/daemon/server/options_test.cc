@@ -1,6 +1,8 @@
 // File: tests/daemon/server/options_test.cc
 #include "daemon/server/options.h"
 
+#include "absl/strings/str_cat.h"
+#include "daemon/server/health_options.h"
 #include "gmock/gmock.h"
 #include "gtest/gtest.h"
 #include "tests/testing/process.h"
@@ -123,6 +125,89 @@ TEST(DaemonOptionsTest, MissingFileIsNotFoundNamingTheFile) {
   ASSERT_FALSE(options.ok());
   EXPECT_EQ(options.status().code(), absl::StatusCode::kNotFound);
   EXPECT_THAT(options.status().message(), HasSubstr(path));
+}
+
+// The drift policy's alarm settings: defaults, the file over them, and the
+// checks health_options applies (INVALID_ARGUMENT naming the field).
+TEST(DaemonOptionsTest, AlarmSettingsHaveDefaultsAndOverride) {
+  const DaemonOptions defaults = OptionsFromConfig({});
+  const DriftPolicyOptions& d = defaults.drift_policy;
+  EXPECT_EQ(d.alpha, 0.01);
+  EXPECT_EQ(d.release_evaluations, 3u);
+  EXPECT_EQ(d.release_ratio, 0.8);
+  EXPECT_EQ(d.cusum_upper_odds_ratio, 1.5);
+  EXPECT_EQ(d.cusum_lower_odds_ratio, 1.0 / 1.5);
+  EXPECT_EQ(d.cusum_slope_alternative, 0.75);
+  EXPECT_EQ(d.cusum_in_control_arl, 100000);
+  EXPECT_FALSE(d.cusum_disabled);
+  EXPECT_EQ(d.record_store_max_records, 1'000'000u);
+  EXPECT_EQ(d.outcome_horizon, absl::ZeroDuration());
+  EXPECT_EQ(d.max_immature_records, 1'000'000u);
+
+  TempDir dir;
+  const std::string path = dir.File("plumbd.json");
+  ASSERT_TRUE(WriteTextFile(path, R"({"drift_policy": {
+      "alpha": 0.05, "release_evaluations": 5, "release_ratio": 0.5,
+      "cusum": {"upper_odds_ratio": 2, "lower_odds_ratio": 0.5,
+                "slope_alternative": 0, "in_control_arl_records": 5000},
+      "record_store_max_records": 2000, "outcome_horizon_seconds": 86400,
+      "max_immature_records": 300}})")
+                  .ok());
+  absl::StatusOr<DaemonOptions> options = LoadDaemonOptions(path);
+  ASSERT_TRUE(options.ok()) << options.status();
+  absl::StatusOr<HealthMonitorOptions> health =
+      HealthMonitorOptionsFrom(options->windows, options->drift_policy);
+  ASSERT_TRUE(health.ok()) << health.status();
+  EXPECT_EQ(health->policy.alpha(), 0.05);
+  EXPECT_EQ(health->policy.release_evaluations(), 5);
+  EXPECT_EQ(health->policy.release_ratio(), 0.5);
+  EXPECT_EQ(health->windows.cusum.upper_odds_ratio, 2);
+  EXPECT_EQ(health->windows.cusum.lower_odds_ratio, 0.5);
+  EXPECT_EQ(health->windows.cusum.slope_alternative, 0);  // no slope chart
+  EXPECT_EQ(health->windows.cusum.in_control_arl, 5000);
+  EXPECT_EQ(health->windows.record_store_max_records, 2000);
+  EXPECT_EQ(health->windows.outcome_horizon, absl::Hours(24));
+  EXPECT_EQ(health->windows.max_immature_records, 300);
+}
+
+TEST(HealthOptionsTest, BadAlarmSettingsNameTheField) {
+  struct Case {
+    const char* json;
+    const char* message;
+  } cases[] = {
+      {R"({"alpha": 1.5})", "drift_policy.alpha: must lie in (0, 1)"},
+      {R"({"release_ratio": 1.5})", "drift_policy.release_ratio"},
+      {R"({"cusum": {"upper_odds_ratio": 0.9}})",
+       "drift_policy.cusum.upper_odds_ratio: must be finite and > 1"},
+      {R"({"cusum": {"lower_odds_ratio": 2}})",
+       "drift_policy.cusum.lower_odds_ratio: must lie in (0, 1)"},
+      {R"({"cusum": {"slope_alternative": 1}})",
+       "drift_policy.cusum.slope_alternative"},
+      {R"({"cusum": {"in_control_arl_records": 1e13}})",
+       "drift_policy.cusum.in_control_arl_records"},
+      {R"({"record_store_max_records": 5})",
+       "drift_policy.record_store_max_records: 5 is fewer than one record "
+       "per bucket"},
+      {R"({"record_store_max_records": 60000000})",
+       "drift_policy.record_store_max_records: 60000000 is more than"},
+      {R"({"thresholds": [{"metric": "calibration_in_the_large",
+                           "watch": 0.05, "drifting": 0.1}]})",
+       "drift_policy.thresholds[0].metric: 'calibration_in_the_large'"},
+  };
+  for (const Case& c : cases) {
+    TempDir dir;
+    const std::string path = dir.File("plumbd.json");
+    ASSERT_TRUE(
+        WriteTextFile(path, absl::StrCat(R"({"drift_policy": )", c.json, "}"))
+            .ok());
+    absl::StatusOr<DaemonOptions> options = LoadDaemonOptions(path);
+    ASSERT_TRUE(options.ok()) << options.status();
+    absl::StatusOr<HealthMonitorOptions> health =
+        HealthMonitorOptionsFrom(options->windows, options->drift_policy);
+    ASSERT_FALSE(health.ok()) << c.json;
+    EXPECT_EQ(health.status().code(), absl::StatusCode::kInvalidArgument);
+    EXPECT_THAT(health.status().message(), HasSubstr(c.message)) << c.json;
+  }
 }
 
 }  // namespace
