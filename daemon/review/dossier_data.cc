@@ -18,6 +18,14 @@
 #include "scorer/logistic.h"
 
 namespace plumbline::daemon {
+namespace {
+
+// The dossier draws shares and PSI from the monitor's accumulator; the PSI
+// test Fill adds beside them is not shown, so its level does not matter
+// (this is the default drift_policy.alpha).
+constexpr double kSharesOnlyAlpha = 0.01;
+
+}  // namespace
 
 absl::StatusOr<std::vector<v1::RocPoint>> RocCurve(
     absl::Span<const double> probabilities, absl::Span<const int> labels) {
@@ -129,7 +137,7 @@ absl::StatusOr<v1::HoldoutFigures> HoldoutFiguresOf(
         scorer::RawValue::Missing());
     for (double prob : p) acc.Add(prob, none);
     v1::WindowHealth w;
-    acc.Fill(&w);
+    acc.Fill(&w, kSharesOnlyAlpha);
     *out.mutable_score_shares() = w.score_shares();
   }
   return out;
@@ -144,7 +152,7 @@ std::vector<v1::FeatureHealth> StabilityOf(
     for (const std::vector<scorer::RawValue>& r : records) acc.Add(0.5, r);
   }
   v1::WindowHealth w;
-  acc.Fill(&w);
+  acc.Fill(&w, kSharesOnlyAlpha);
   return {w.features().begin(), w.features().end()};
 }
 
