@@ -190,6 +190,7 @@ absl::Status RunRegistryCommand(const ClientOptions& client,
     request.set_reason(command.reason.empty()
                            ? absl::StrCat("plumbctl load ", command.set_file)
                            : command.reason);
+    request.set_allow_schema_change(command.allow_schema_change);
     v1::VersionInfo reply;
     if (absl::Status s =
             call.Done(stub->LoadCandidate(call.context(), request, &reply));
@@ -221,6 +222,7 @@ absl::Status RunRegistryCommand(const ClientOptions& client,
   request.set_version(command.version);
   request.set_actor(actor);
   request.set_reason(command.reason);
+  request.set_allow_schema_change(command.allow_schema_change);
   v1::VersionInfo reply;
   grpc::Status status;
   if (name == "activate") {

@@ -36,6 +36,10 @@ struct RegistryCommand {
   std::string reason;
   // versions, audit: a table or the reply as JSON (daemon/cli/output.h).
   OutputFormat format = OutputFormat::kText;
+  // load, activate, approve, shadow: serve a version whose inputs differ
+  // from the active one's in a way today's calls would notice (recorded in
+  // the audit; see registry.proto "Schema changes").
+  bool allow_schema_change = false;
 };
 
 // The default actor: "$USER@host" ("unknown@host" without USER).

@@ -4,7 +4,10 @@
 #include <memory>
 #include <string>
 
+#include "absl/strings/numbers.h"
+#include "absl/strings/str_cat.h"
 #include "daemon/cli/registry.h"
+#include "daemon/cli/review.h"
 
 namespace plumbline::daemon {
 namespace {
@@ -12,6 +15,7 @@ namespace {
 struct RegistryFlags {
   std::string set, version, set_file, actor, reason;
   std::string format = "text";
+  bool allow_schema_change = false;
 };
 
 // Which flags a registry command takes beyond --set.
@@ -20,6 +24,7 @@ struct RegistryShape {
   bool version = false;      // activate, approve, shadow
   bool set_file = false;     // load (and no --set)
   bool changes = true;       // --actor and --reason (not versions, audit)
+  bool schema = false;       // --allow_schema_change (load, activate, ...)
 };
 
 std::function<CommandRun(CLI::App&)> Declare(std::string name,
@@ -49,6 +54,11 @@ std::function<CommandRun(CLI::App&)> Declare(std::string name,
     } else {
       AddFormatFlag(command, &flags->format);
     }
+    if (shape.schema) {
+      AddSwitch(command, "allow_schema_change", &flags->allow_schema_change,
+                "serve it although calls valid for the active version would "
+                "fail or change meaning (each difference goes to the audit)");
+    }
     return [name, flags](const CommandContext& context) -> absl::Status {
       RegistryCommand registry;
       registry.name = name;
@@ -57,6 +67,7 @@ std::function<CommandRun(CLI::App&)> Declare(std::string name,
       registry.set_file = flags->set_file;
       registry.actor = flags->actor;
       registry.reason = flags->reason;
+      registry.allow_schema_change = flags->allow_schema_change;
       absl::StatusOr<OutputFormat> format = ParseOutputFormat(flags->format);
       if (!format.ok()) return UsageError(format.status().message());
       registry.format = *format;
@@ -94,7 +105,7 @@ void AppendRegistryCommands(std::vector<CommandSpec>* table) {
                        "known to the ledger, not served until approved or "
                        "activated.") +
            kAdminNote,
-       .declare = Declare("load", {.set_file = true})});
+       .declare = Declare("load", {.set_file = true, .schema = true})});
   table->push_back(
       {.path = {"approve"},
        .summary = "approve a candidate: it becomes active",
@@ -103,7 +114,7 @@ void AppendRegistryCommands(std::vector<CommandSpec>* table) {
                        "(an atomic swap), the previously active version "
                        "is retired.") +
            kAdminNote,
-       .declare = Declare("approve", {.version = true})});
+       .declare = Declare("approve", {.version = true, .schema = true})});
   table->push_back(
       {.path = {"activate"},
        .summary = "make any known version active",
@@ -111,7 +122,7 @@ void AppendRegistryCommands(std::vector<CommandSpec>* table) {
            std::string("Makes any known version active, also a retired "
                        "one.") +
            kAdminNote,
-       .declare = Declare("activate", {.version = true})});
+       .declare = Declare("activate", {.version = true, .schema = true})});
   table->push_back(
       {.path = {"shadow"},
        .summary = "score a version beside the active one, never returned",
@@ -120,7 +131,7 @@ void AppendRegistryCommands(std::vector<CommandSpec>* table) {
                        "the active one: its scores go to the ledger and "
                        "its health to the metrics, never to callers.") +
            kAdminNote,
-       .declare = Declare("shadow", {.version = true})});
+       .declare = Declare("shadow", {.version = true, .schema = true})});
   table->push_back(
       {.path = {"rollback"},
        .summary = "make the previously active version active again",
@@ -152,6 +163,86 @@ void AppendRegistryCommands(std::vector<CommandSpec>* table) {
                        "prints the AuditReply.") +
            kAdminNote,
        .declare = Declare("audit", {.changes = false})});
+  AppendReviewCommands(table);
+}
+
+void AppendReviewCommands(std::vector<CommandSpec>* table) {
+  // show, diff, dossier: daemon/cli/review.h.
+  auto declare = [](std::string name) {
+    return [name](CLI::App& command) -> CommandRun {
+      auto c = std::make_shared<ReviewCommand>();
+      c->name = name;
+      auto format = std::make_shared<std::string>("text");
+      auto job = std::make_shared<std::string>();
+      AddValueFlag(command, "set", &c->set, "NAME", "the set")->required();
+      if (name == "show") {
+        AddValueFlag(command, "version", &c->version, "VERSION",
+                     "the version to show (default: the active one)");
+      } else if (name == "diff") {
+        AddValueFlag(command, "from", &c->from, "VERSION",
+                     "the version to compare from (default: the active one)");
+        AddValueFlag(command, "to", &c->to, "VERSION",
+                     "the version to compare to (default: the newest "
+                     "candidate)");
+      } else {
+        AddValueFlag(command, "job", job.get(), "N",
+                     "the refit job (default: the set's latest)");
+        AddValueFlag(command, "out", &c->out, "FILE.html",
+                     "where to write the dossier (needed unless --format "
+                     "json prints its data)");
+      }
+      AddFormatFlag(command, format.get());
+      return [c, format, job](const CommandContext& context) -> absl::Status {
+        absl::StatusOr<OutputFormat> f = ParseOutputFormat(*format);
+        if (!f.ok()) return UsageError(f.status().message());
+        c->json = *f == OutputFormat::kJson;
+        if (!job->empty() && !absl::SimpleAtoi(*job, &c->job)) {
+          return UsageError(
+              absl::StrCat("--job: '", *job, "' is not a job number"));
+        }
+        if (absl::Status s = CheckReviewFlags(*c); !s.ok()) {
+          return UsageError(s.message());
+        }
+        return RunReviewCommand(context.client, *c, *context.out);
+      };
+    };
+  };
+  table->push_back(
+      {.path = {"show"},
+       .summary = "one version: transforms, coefficients, fit, provenance",
+       .description =
+           std::string("Shows one version of a set (the active one by "
+                       "default): every feature's transform and "
+                       "coefficients with standard errors when Plumbline "
+                       "fitted it, the fit statistics and where the version "
+                       "came from. --format json prints the VersionDetail.") +
+           kAdminNote,
+       .declare = declare("show")});
+  table->push_back(
+      {.path = {"diff"},
+       .summary = "two versions side by side, feature by feature",
+       .description =
+           std::string("Lines up two versions of a set feature by feature "
+                       "(by default the active version against the newest "
+                       "candidate): coefficient, change, change in standard "
+                       "errors, transforms and levels added or dropped, "
+                       "baseline shifts, and the holdout comparison when "
+                       "the candidate came from a refit. --format json "
+                       "prints the VersionDiff.") +
+           kAdminNote,
+       .declare = declare("diff")});
+  table->push_back(
+      {.path = {"dossier"},
+       .summary = "write a refit job's dossier (one HTML file) to --out",
+       .description =
+           std::string("Writes the dossier of a refit job (the set's latest "
+                       "by default) to --out: one self-contained HTML file, "
+                       "readable offline and printable, with the trigger, "
+                       "the data, the coefficients and their changes, the "
+                       "holdout comparison, pictures and the approval "
+                       "trail.") +
+           kAdminNote,
+       .declare = declare("dossier")});
 }
 
 }  // namespace plumbline::daemon

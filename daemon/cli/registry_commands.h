@@ -2,7 +2,8 @@
 //
 // The table entries (command_table.h) of plumbctl's registry commands:
 // versions, load, approve, activate, shadow, rollback, refit and audit,
-// each with its own flags, run by RunRegistryCommand (registry.h).
+// each with its own flags, run by RunRegistryCommand (registry.h); and of
+// the review commands show, diff and dossier (review.h).
 //
 // Thread-safe: adds immutable entries; called once, by PlumbctlCommands.
 #ifndef PLUMBLINE_DAEMON_CLI_REGISTRY_COMMANDS_H_
@@ -14,8 +15,11 @@
 
 namespace plumbline::daemon {
 
-// Appends the registry commands to `table`, in the order help lists them.
+// Appends the registry commands to `table`, in the order help lists them,
+// then the review commands.
 void AppendRegistryCommands(std::vector<CommandSpec>* table);
+// Appends show, diff and dossier.
+void AppendReviewCommands(std::vector<CommandSpec>* table);
 
 }  // namespace plumbline::daemon
 

@@ -8,9 +8,9 @@
 #include "absl/strings/str_format.h"
 #include "absl/time/time.h"
 #include "daemon/cli/client.h"
+#include "daemon/cli/output.h"
 #include "daemon/util/files.h"
 #include "daemon/util/text_table.h"
-#include "google/protobuf/util/json_util.h"
 #include "plumbline/v1/registry.grpc.pb.h"
 
 namespace plumbline::daemon {
@@ -23,15 +23,11 @@ std::string Maybe(bool has, Opt v) {
   return has ? G(v) : "-";
 }
 
+// The same JSON as every read command's --format json (output.h).
 absl::Status PrintJson(const google::protobuf::Message& m, std::ostream& out) {
-  google::protobuf::util::JsonPrintOptions options;
-  options.preserve_proto_field_names = true;
-  options.add_whitespace = true;
-  std::string json;
-  if (!google::protobuf::util::MessageToJsonString(m, &json, options).ok()) {
-    return absl::InternalError("cannot print the reply as JSON");
-  }
-  out << json;
+  absl::StatusOr<std::string> json = MessageJson(m);
+  if (!json.ok()) return json.status();
+  out << *json;
   return absl::OkStatus();
 }
 

@@ -1,7 +1,7 @@
 // File: daemon/cli/review.h
 //
-// plumbctl's review commands over plumbd's Registry service (admin role),
-// ready for plumbctl_main.cc to call once its per-command flags land:
+// plumbctl's review commands over plumbd's Registry service (admin role);
+// registry_commands.cc declares their flags:
 //   show     one version: transforms, coefficients with standard errors,
 //            fit statistics, provenance (Registry.ShowVersion)
 //   diff     two versions feature by feature, default the active version

@@ -75,10 +75,11 @@ TEST(PlumbctlBinaryTest, MisplacedFlagExitsTwoNamingIt) {
               dir.path());
   EXPECT_EQ(run.exit_code, 2);
   EXPECT_THAT(run.out, IsEmpty());
-  EXPECT_THAT(run.err,
-              StartsWith("plumbctl: health: unknown flag --version (a flag of "
-                         "fit, approve, activate, shadow)\nusage: plumbctl "
-                         "health --set NAME [--format text|json]\n"));
+  EXPECT_THAT(
+      run.err,
+      StartsWith("plumbctl: health: unknown flag --version (a flag of "
+                 "fit, approve, activate, shadow, show)\nusage: plumbctl "
+                 "health --set NAME [--format text|json]\n"));
 }
 
 // A plumbd with the courier set, some scores and their outcomes.
@@ -128,7 +129,7 @@ class FormatJsonTest : public ::testing::Test {
   // Runs `args` with --format json; expects one JSON document that Debian's
   // Python reads, parses it into `message` with unknown fields refused, and
   // expects its top-level keys to be the message's field names (.proto
-  // names): every field but an unset message field.
+  // names): every field but an unset one that has presence.
   void ReadJson(const std::vector<std::string>& args,
                 google::protobuf::Message* message) {
     std::vector<std::string> with_format = args;
@@ -154,9 +155,9 @@ class FormatJsonTest : public ::testing::Test {
     const google::protobuf::Descriptor* type = message->GetDescriptor();
     for (int i = 0; i < type->field_count(); ++i) {
       const google::protobuf::FieldDescriptor* field = type->field(i);
-      if (field->cpp_type() ==
-              google::protobuf::FieldDescriptor::CPPTYPE_MESSAGE &&
-          !field->is_repeated() &&
+      // Unset fields with presence (messages, `optional` scalars) are left
+      // out; every other field is printed, default or not.
+      if (field->has_presence() &&
           !message->GetReflection()->HasField(*message, field)) {
         continue;
       }
@@ -239,6 +240,79 @@ TEST_F(FormatJsonTest, EveryReadCommandPrintsItsReplyMessage) {
   const ProcessResult text = Plumbctl({"health", "--set", "courier"});
   EXPECT_THAT(text.out, HasSubstr(absl::StrFormat(
                             "%.6g", health.windows(0).brier_score().value())));
+}
+
+// load refuses a version whose features differ from the active one's
+// unless --allow_schema_change says so; show and diff print the Registry's
+// replies as the RPCs give them.
+TEST_F(FormatJsonTest, SchemaChangeNeedsTheSwitchAndReviewCommandsPrintJson) {
+  using google::protobuf::util::MessageDifferencer;
+  // v2 of "courier" has one numeric feature "stops" instead of three.
+  ASSERT_TRUE(testing::WriteTextFile(dir_.File("v2.json"),
+                                     testing::DepotSetJson("courier", "v2"))
+                  .ok());
+  const ProcessResult refused =
+      Plumbctl({"load", "--set_file", dir_.File("v2.json")});
+  EXPECT_EQ(refused.exit_code, 1);
+  EXPECT_THAT(refused.err, HasSubstr("FAILED_PRECONDITION"));
+  EXPECT_THAT(refused.err, HasSubstr("--allow_schema_change"));
+  v1::ListVersionsReply versions;
+  ReadJson({"versions", "--set", "courier"}, &versions);
+  EXPECT_EQ(versions.versions_size(), 1);  // nothing was stored
+
+  const ProcessResult allowed = Plumbctl(
+      {"load", "--set_file", dir_.File("v2.json"), "--allow_schema_change"});
+  ASSERT_EQ(allowed.exit_code, 0) << allowed.err;
+  ReadJson({"versions", "--set", "courier"}, &versions);
+  ASSERT_EQ(versions.versions_size(), 2);
+  v1::AuditReply audit;
+  ReadJson({"audit", "--set", "courier"}, &audit);
+  EXPECT_THAT(audit.DebugString(), HasSubstr("schema_change_allowed"));
+
+  // show (default: the active version) and show --version v2.
+  for (const std::string version : {"", "v2"}) {
+    v1::VersionDetail detail;
+    std::vector<std::string> args = {"show", "--set", "courier"};
+    if (!version.empty()) args.insert(args.end(), {"--version", version});
+    ReadJson(args, &detail);
+    grpc::ClientContext context;
+    v1::ShowVersionRequest request;
+    request.set_set("courier");
+    request.set_version(version);
+    v1::VersionDetail rpc;
+    ASSERT_TRUE(v1::Registry::NewStub(Channel())
+                    ->ShowVersion(&context, request, &rpc)
+                    .ok());
+    EXPECT_TRUE(MessageDifferencer::Equals(detail, rpc))
+        << detail.DebugString() << rpc.DebugString();
+  }
+  // diff: active v1 against the newest candidate v2.
+  v1::VersionDiff diff;
+  ReadJson({"diff", "--set", "courier"}, &diff);
+  {
+    grpc::ClientContext context;
+    v1::DiffVersionsRequest request;
+    request.set_set("courier");
+    v1::VersionDiff rpc;
+    ASSERT_TRUE(v1::Registry::NewStub(Channel())
+                    ->DiffVersions(&context, request, &rpc)
+                    .ok());
+    EXPECT_TRUE(MessageDifferencer::Equals(diff, rpc))
+        << diff.DebugString() << rpc.DebugString();
+  }
+  // The text form names both versions and a feature only one of them has.
+  const ProcessResult text = Plumbctl({"diff", "--set", "courier"});
+  ASSERT_EQ(text.exit_code, 0) << text.err;
+  EXPECT_THAT(text.out, HasSubstr("v1"));
+  EXPECT_THAT(text.out, HasSubstr("v2"));
+  EXPECT_THAT(text.out, HasSubstr("stops"));
+  // An unknown version is NOT_FOUND, exit 1.
+  const ProcessResult unknown =
+      Plumbctl({"show", "--set", "courier", "--version", "v9"});
+  EXPECT_EQ(unknown.exit_code, 1);
+  EXPECT_THAT(unknown.err, HasSubstr("NOT_FOUND"));
+  // dossier without --out and without --format json is a usage error.
+  EXPECT_EQ(Plumbctl({"dossier", "--set", "courier"}).exit_code, 2);
 }
 
 TEST(PlumbctlBinaryTest, BashCompletionFromTheCommandTable) {
