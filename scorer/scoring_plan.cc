@@ -185,9 +185,9 @@ absl::Status ScoringPlan::EncodeFeature(int f, const RawValue& v,
       return EncodeNumber(f, v.number, out);
     case RawValue::Kind::kText: {
       if (c.kind != FeatureKind::kCategorical) {
-        return FeatureError(
-            f,
-            absl::StrCat("expected a number, got the string \"", v.text, "\""));
+        return FeatureError(f,
+                            absl::StrCat("expected a number, got the string \"",
+                                         ShownText(v.text), "\""));
       }
       const int level = LevelIndex(f, v.text);
       if (level >= 0) return EncodeLevel(f, level, out);
@@ -198,7 +198,7 @@ absl::Status ScoringPlan::EncodeFeature(int f, const RawValue& v,
           return EncodeMissing(f, out);
         default:
           return FeatureError(
-              f, absl::StrCat("level \"", v.text,
+              f, absl::StrCat("level \"", ShownText(v.text),
                               "\" is not one of the set's levels "
                               "and the unseen rule is UNSEEN_REJECT"));
       }
