@@ -12,6 +12,7 @@
 #include "daemon/metrics/health.h"
 #include "daemon/metrics/ledger.h"
 #include "daemon/server/health_options.h"
+#include "daemon/server/library_logs.h"
 #include "daemon/util/address.h"
 #include "daemon/util/event_log.h"
 #include "daemon/util/files.h"
@@ -87,6 +88,7 @@ Plumbd::VersionChangeHook::~VersionChangeHook() { lifecycle_->Detach(); }
 absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
     DaemonOptions options, const std::string& ready_file) {
   ConfigureEventLog(options.log);
+  RouteLibraryLogsToEventLog();
   absl::StatusOr<HealthMonitorOptions> health_options =
       HealthMonitorOptionsFrom(options.windows, options.drift_policy);
   if (!health_options.ok()) return In("config", health_options.status());
