@@ -131,6 +131,14 @@ class HostileInputTest : public ::testing::Test {
     ASSERT_TRUE(WriteTextFile(dir_->File("sets/courier.json"),
                               testing::CourierSetJson("courier", "v1"))
                     .ok());
+    // A valid set whose tiny scale turns a large finite value into +inf
+    // (and then, times the coefficient 0, into NaN).
+    ASSERT_TRUE(WriteTextFile(dir_->File("sets/extreme.json"),
+                              R"({"name": "extreme", "version": "1",
+                                  "features": [{"name": "tiny", "numeric":
+                                  {"center": 0, "scale": 1e-300,
+                                   "coefficient": 0}}]})")
+                    .ok());
     score_ = new testing::TestToken(testing::MakeTestToken("router", "SCORE"));
     admin_ = new testing::TestToken(testing::MakeTestToken("ops", "ADMIN"));
     ASSERT_TRUE(
@@ -439,6 +447,39 @@ TEST_F(HostileInputTest, VersionsWithControlCharactersAreRefused) {
   ASSERT_EQ(versions.versions_size(), 1);
   EXPECT_EQ(versions.versions(0).version(), "v1");
   EXPECT_THAT(ForeignLogLines(plumbd_->Log()), ::testing::IsEmpty());
+}
+
+// Found by tests/fuzz/fuzz_coefficient_set: finite values could score to a
+// NaN probability. Named and dense requests are refused, naming the
+// feature, and nothing reaches the ledger.
+TEST_F(HostileInputTest, ValuesThatOverflowTheEncodingAreRefused) {
+  auto scoring = v1::Scoring::NewStub(*channel_);
+  v1::ScoreRequest request;
+  request.set_set("extreme");
+  (*request.mutable_record()->mutable_features()->mutable_fields())["tiny"]
+      .set_number_value(1e10);
+  grpc::ClientContext context;
+  WithToken(&context, *score_);
+  v1::ScoreReply reply;
+  const grpc::Status status = scoring->Score(&context, request, &reply);
+  EXPECT_EQ(status.error_code(), grpc::StatusCode::INVALID_ARGUMENT)
+      << "probability " << reply.score().probability();
+  EXPECT_THAT(status.error_message(),
+              HasSubstr("feature 'tiny': value 1e+10 is too far from the "
+                        "centre"));
+
+  v1::ScoreBatchRequest batch;
+  batch.set_set("extreme");
+  batch.mutable_dense()->add_rows()->add_values(1);
+  batch.mutable_dense()->add_rows()->add_values(-1e10);
+  grpc::ClientContext batch_context;
+  WithToken(&batch_context, *score_);
+  v1::ScoreBatchReply batch_reply;
+  const grpc::Status batch_status =
+      scoring->ScoreBatch(&batch_context, batch, &batch_reply);
+  EXPECT_EQ(batch_status.error_code(), grpc::StatusCode::INVALID_ARGUMENT);
+  EXPECT_THAT(batch_status.error_message(),
+              HasSubstr("dense.rows[1]: feature 'tiny'"));
 }
 
 }  // namespace
