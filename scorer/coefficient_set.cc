@@ -106,6 +106,27 @@ void CheckDistribution(Checker& c, const std::string& path,
   if (d.count() < 0) c.Fail(path + ".count", "must not be negative");
 }
 
+// The offset of the first control character (0x00-0x1f, 0x7f) in `text`,
+// or -1.
+int FirstControl(absl::string_view text) {
+  for (size_t i = 0; i < text.size(); ++i) {
+    const auto c = static_cast<unsigned char>(text[i]);
+    if (c < 0x20 || c == 0x7f) return static_cast<int>(i);
+  }
+  return -1;
+}
+
+// Fails `path` if `text` holds a control character: names and versions are
+// printed in logs, metrics labels and the audit.
+void Printable(Checker& c, absl::string_view path, absl::string_view text) {
+  if (const int at = FirstControl(text); at >= 0) {
+    c.Fail(path, absl::StrFormat("\"%s\" holds the control character 0x%02x "
+                                 "at byte %d; it must be printable",
+                                 ShownText(text),
+                                 static_cast<unsigned char>(text[at]), at));
+  }
+}
+
 bool ValidSetName(absl::string_view name) {
   if (name.empty()) return false;
   for (char ch : name) {
@@ -203,27 +224,52 @@ void CheckFeature(Checker& c, const std::string& path, const v1::Feature& f) {
 
 }  // namespace
 
+std::string ShownText(absl::string_view text) {
+  constexpr size_t kShownBytes = 64;
+  std::string out;
+  const absl::string_view shown = text.substr(0, kShownBytes);
+  for (const char ch : shown) {
+    const auto c = static_cast<unsigned char>(ch);
+    if (c < 0x20 || c >= 0x7f || ch == '\\') {
+      absl::StrAppendFormat(&out, "\\x%02x", c);
+    } else {
+      out.push_back(ch);
+    }
+  }
+  if (shown.size() < text.size()) {
+    absl::StrAppend(&out, "...(", text.size(), " bytes)");
+  }
+  return out;
+}
+
 absl::Status ValidateCoefficientSet(const v1::CoefficientSet& set,
                                     absl::string_view source) {
   Checker c(source);
   if (!ValidSetName(set.name())) {
     c.Fail("name", absl::StrCat("must be non-empty letters, digits, '_', '-' "
                                 "or '.', got \"",
-                                set.name(), "\""));
+                                ShownText(set.name()), "\""));
   }
   c.NotEmpty("version", set.version());
+  Printable(c, "version", set.version());
+  if (set.version().size() > kMaxVersionBytes) {
+    c.Fail("version",
+           absl::StrCat("\"", ShownText(set.version()), "\" is longer than ",
+                        kMaxVersionBytes, " bytes"));
+  }
   c.Finite("intercept", set.intercept());
   absl::flat_hash_set<std::string> names;
   for (int i = 0; i < set.features_size() && c.ok(); ++i) {
     const std::string path = absl::StrCat("features[", i, "]");
     const v1::Feature& f = set.features(i);
     c.NotEmpty(path + ".name", f.name());
+    Printable(c, path + ".name", f.name());
     if (f.name() == "record_id") {
       c.Fail(path + ".name", "\"record_id\" is reserved for the record's id");
     }
     if (!names.insert(f.name()).second) {
-      c.Fail(path + ".name",
-             absl::StrCat("feature \"", f.name(), "\" is defined twice"));
+      c.Fail(path + ".name", absl::StrCat("feature \"", ShownText(f.name()),
+                                          "\" is defined twice"));
     }
     CheckFeature(c, path, f);
   }

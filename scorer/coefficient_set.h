@@ -12,6 +12,7 @@
 #ifndef PLUMBLINE_SCORER_COEFFICIENT_SET_H_
 #define PLUMBLINE_SCORER_COEFFICIENT_SET_H_
 
+#include <cstddef>
 #include <string>
 
 #include "absl/status/status.h"
@@ -31,10 +32,21 @@ absl::StatusOr<v1::CoefficientSet> ParseCoefficientSet(
 absl::StatusOr<v1::CoefficientSet> ReadCoefficientSetFile(
     const std::string& path);
 
-// Checks everything the scorer relies on: a name and version, finite
-// numbers, unique feature names, scale > 0, ordered clip bounds, strictly
-// increasing bin edges with one coefficient per bin, non-empty unique levels,
-// missing rules that fit their transform, well-formed baselines.
+// Longest version string accepted (Plumbline's choice, no source: a
+// version is a label such as "2026-12-01.1" or a refit's timestamp).
+inline constexpr size_t kMaxVersionBytes = 128;
+
+// Text from a caller or a file quoted in an error message: at most 64 bytes
+// of it (then "...(N bytes)"), bytes outside printable ASCII as \xNN. The
+// daemon quotes with its own CallerText (daemon/util/caller_text.h), which
+// keeps valid UTF-8 letters; the scorer, below the daemon, uses this.
+std::string ShownText(absl::string_view text);
+
+// Checks everything the scorer relies on: a name and a printable version
+// (no control characters, at most kMaxVersionBytes), finite
+// numbers, unique printable feature names, scale > 0, ordered clip bounds,
+// strictly increasing bin edges with one coefficient per bin, non-empty unique
+// levels, missing rules that fit their transform, well-formed baselines.
 absl::Status ValidateCoefficientSet(const v1::CoefficientSet& set,
                                     absl::string_view source);
 

@@ -130,6 +130,22 @@ absl::Status ScoringPlan::FeatureError(int f, absl::string_view what) const {
       absl::StrCat("feature '", feature_name(f), "': ", what));
 }
 
+absl::Status ScoringPlan::Overflow(int f, double x) const {
+  const CompiledFeature& c = features_[f];
+  return FeatureError(
+      f, absl::StrFormat("value %g is too far from the centre (%g) for the "
+                         "scale (%g): (value - centre) / scale overflows",
+                         x, c.center, c.scale));
+}
+
+absl::Status ScoringPlan::NotFinite(absl::string_view where,
+                                    double log_odds) const {
+  return absl::InvalidArgumentError(absl::StrFormat(
+      "%sset '%s': the log-odds come to %g; the record's values are too "
+      "extreme for the set's coefficients",
+      where, name(), log_odds));
+}
+
 absl::Status ScoringPlan::EncodeMissing(int f, double* out) const {
   const CompiledFeature& c = features_[f];
   switch (c.missing) {
@@ -158,8 +174,10 @@ absl::Status ScoringPlan::EncodeNumber(int f, double x, double* out) const {
                                          : "value is infinite");
   }
   if (c.kind == FeatureKind::kNumeric) {
-    out[c.offset] =
+    const double z =
         (std::clamp(x, c.clip_low, c.clip_high) - c.center) / c.scale;
+    if (!std::isfinite(z)) return Overflow(f, x);
+    out[c.offset] = z;
   } else {
     out[c.offset + BinOf(c.edges, x)] = 1.0;
   }
@@ -185,9 +203,9 @@ absl::Status ScoringPlan::EncodeFeature(int f, const RawValue& v,
       return EncodeNumber(f, v.number, out);
     case RawValue::Kind::kText: {
       if (c.kind != FeatureKind::kCategorical) {
-        return FeatureError(
-            f,
-            absl::StrCat("expected a number, got the string \"", v.text, "\""));
+        return FeatureError(f,
+                            absl::StrCat("expected a number, got the string \"",
+                                         ShownText(v.text), "\""));
       }
       const int level = LevelIndex(f, v.text);
       if (level >= 0) return EncodeLevel(f, level, out);
@@ -198,7 +216,7 @@ absl::Status ScoringPlan::EncodeFeature(int f, const RawValue& v,
           return EncodeMissing(f, out);
         default:
           return FeatureError(
-              f, absl::StrCat("level \"", v.text,
+              f, absl::StrCat("level \"", ShownText(v.text),
                               "\" is not one of the set's levels "
                               "and the unseen rule is UNSEEN_REJECT"));
       }
@@ -229,6 +247,8 @@ absl::StatusOr<ScoreResult> ScoringPlan::Score(
   if (absl::Status st = Encode(values, row); !st.ok()) return st;
   ScoreResult r;
   r.log_odds = intercept() + row.dot(beta_.transpose());
+  // Finite values and coefficients can still sum past the largest double.
+  if (!std::isfinite(r.log_odds)) return NotFinite("", r.log_odds);
   r.probability = Logistic(r.log_odds);
   if (reasons.top > 0) r.reasons = Reasons(row, reasons);
   return r;
@@ -290,9 +310,9 @@ absl::Status ScoringPlan::ScoreDense(
         for (int f = 0; f < num_features(); ++f) {
           const CompiledFeature& c = features_[f];
           const double x = in[column_of_feature[f]];
-          finite &= std::isfinite(x);
           out[f] =
               (std::clamp(x, c.clip_low, c.clip_high) - c.center) / c.scale;
+          finite &= std::isfinite(x) && std::isfinite(out[f]);
         }
         if (!finite) {
           // Re-encode through the general path for the right error or the
@@ -327,6 +347,12 @@ absl::Status ScoringPlan::ScoreDense(
     auto lo = log_odds.segment(start, n);
     lo.noalias() = block.topRows(n) * beta_;
     lo.array() += intercept();
+    for (Eigen::Index r = 0; r < n; ++r) {
+      if (!std::isfinite(lo[r])) {
+        return NotFinite(absl::StrCat(options.rows_path, "[", start + r, "]: "),
+                         lo[r]);
+      }
+    }
     auto p = probability.segment(start, n);
     for (Eigen::Index r = 0; r < n; ++r) p[r] = Logistic(lo[r]);
   }

@@ -126,12 +126,15 @@ class ScoringPlan {
   // Encodes one record. `values` holds num_features() entries in feature
   // order; `out` must have encoded_width() entries. INVALID_ARGUMENT naming
   // the feature for: a missing value under REJECT, a wrong type (text for a
-  // numeric feature or a number for a categorical one), NaN or ±inf, an
+  // numeric feature or a number for a categorical one), NaN or ±inf, a
+  // number so far from the centre that (x - centre) / scale overflows, an
   // unseen level under UNSEEN_REJECT.
   absl::Status Encode(absl::Span<const RawValue> values,
                       Eigen::Ref<Eigen::RowVectorXd> out) const;
 
-  // Encodes and scores one record.
+  // Encodes and scores one record. Also INVALID_ARGUMENT when the log-odds
+  // are not finite (finite values and coefficients whose sum overflows): a
+  // probability is always a number in [0, 1].
   absl::StatusOr<ScoreResult> Score(absl::Span<const RawValue> values,
                                     const ReasonOptions& reasons = {}) const;
 
@@ -140,7 +143,7 @@ class ScoringPlan {
   // or -1 when the caller did not send it (the feature is then missing).
   // Numeric and binned columns hold raw values, categorical columns the
   // zero-based level index. Writes rows() log-odds and probabilities.
-  // Errors name the row ("rows[12]: feature 'x': ...").
+  // Errors name the row ("rows[12]: feature 'x': ..."), as Score's.
   absl::Status ScoreDense(const Eigen::Ref<const RowMatrix>& raw,
                           absl::Span<const int> column_of_feature,
                           const DenseOptions& options,
@@ -187,6 +190,12 @@ class ScoringPlan {
   absl::Status EncodeNumber(int f, double x, double* out) const;
   absl::Status EncodeLevel(int f, int level, double* out) const;
   absl::Status FeatureError(int f, absl::string_view what) const;
+  // INVALID_ARGUMENT: feature `f`'s value `x` standardises past the largest
+  // double.
+  absl::Status Overflow(int f, double x) const;
+  // INVALID_ARGUMENT: a record's log-odds are not finite; `where` prefixes
+  // the message (a dense row's path).
+  absl::Status NotFinite(absl::string_view where, double log_odds) const;
 
   // Constant after construction.
   v1::CoefficientSet set_;

@@ -4,7 +4,9 @@
 #include <grpc/grpc_security_constants.h>
 #include <grpcpp/security/auth_context.h>
 
+#include <algorithm>
 #include <chrono>
+#include <cstdint>
 #include <optional>
 #include <utility>
 
@@ -15,6 +17,7 @@
 #include "absl/strings/str_cat.h"
 #include "absl/strings/strip.h"
 #include "absl/synchronization/mutex.h"
+#include "absl/time/time.h"
 #include "daemon/util/event_log.h"
 #include "daemon/util/grpc_status.h"
 
@@ -148,7 +151,8 @@ absl::StatusOr<std::unique_ptr<AccessControl>> AccessControl::Create(
 absl::Status AccessControl::Refuse(AuthFailure reason,
                                    const PresentedCredentials& presented,
                                    Role role, absl::string_view detail_key,
-                                   absl::string_view detail) const {
+                                   absl::string_view detail,
+                                   absl::Duration retry_after) const {
   failures_.Count(reason);
   const absl::string_view reason_name = AuthFailureName(reason);
   if (detail_key.empty()) {
@@ -175,6 +179,15 @@ absl::Status AccessControl::Refuse(AuthFailure reason,
       return absl::UnauthenticatedError(
           "unknown or revoked token (plumbctl token new makes one; plumbd "
           "must have its entry in security.access.tokens)");
+    case AuthFailure::kThrottled:
+      return absl::ResourceExhaustedError(absl::StrCat(
+          "token ", detail,
+          ": too many wrong secrets for this token id of late, so this one "
+          "was not checked; retry in ",
+          std::max<int64_t>(
+              absl::ToInt64Seconds(absl::Ceil(retry_after, absl::Seconds(1))),
+              1),
+          " s (a token plumbd has already accepted keeps working)"));
     case AuthFailure::kUnknownSubject:
       return absl::UnauthenticatedError(
           "the client certificate's subject is mapped to no role "
@@ -203,9 +216,20 @@ absl::Status AccessControl::Check(const PresentedCredentials& presented,
     }
     const std::optional<std::string> id = TokenId(*token);
     auto it = id.has_value() ? tokens_.find(*id) : tokens_.end();
-    if (it == tokens_.end() || !it->second.check->Matches(*token)) {
+    if (it == tokens_.end()) {
       return Refuse(AuthFailure::kUnknownToken, presented, role, "token_id",
                     id.value_or(""));
+    }
+    bool hashed = false;
+    const SecretVerdict verdict = it->second.check->Check(*token, &hashed);
+    if (hashed) failures_.CountHash();
+    if (verdict == SecretVerdict::kThrottled) {
+      return Refuse(AuthFailure::kThrottled, presented, role, "token_id", *id,
+                    it->second.check->RetryAfter());
+    }
+    if (verdict != SecretVerdict::kMatch) {
+      return Refuse(AuthFailure::kUnknownToken, presented, role, "token_id",
+                    *id);
     }
     held = it->second.role;
     holder = absl::StrCat("token ", it->second.name, " (role ",

@@ -15,6 +15,11 @@
 // wins. A token that is sent must be valid, whatever the certificate.
 // Answers: no credential, an unknown token or an unmapped certificate →
 // UNAUTHENTICATED; a known caller without the role → PERMISSION_DENIED.
+// Wrong secrets for a known (public) token id are throttled per id (see
+// SecretCheck in daemon/security/token_hash.h): after a burst of wrong
+// secrets, a secret plumbd has not checked before is refused unchecked with
+// RESOURCE_EXHAUSTED ("too many wrong secrets ... retry in N s") instead of
+// costing a PBKDF2 run; a token already accepted keeps working.
 // Each refusal is counted (plumbline_auth_failures_total{reason}) and
 // logged (event=auth_refused) with the reason, the caller's address and the
 // token's public id, never its secret. With no tokens and no subjects in
@@ -46,6 +51,7 @@
 #include "absl/status/status.h"
 #include "absl/status/statusor.h"
 #include "absl/strings/string_view.h"
+#include "absl/time/time.h"
 #include "daemon/access/auth_metrics.h"
 #include "daemon/security/token_hash.h"
 #include "plumbline/v1/security.pb.h"
@@ -91,7 +97,8 @@ class AccessControl {
   size_t subject_count() const { return subjects_.size(); }
 
   // OK if `presented` holds a credential with `role` (or admin);
-  // UNAUTHENTICATED or PERMISSION_DENIED otherwise, counted and logged.
+  // UNAUTHENTICATED, PERMISSION_DENIED or (throttled) RESOURCE_EXHAUSTED
+  // otherwise, counted and logged.
   absl::Status Check(const PresentedCredentials& presented, Role role) const;
 
  private:
@@ -109,9 +116,11 @@ class AccessControl {
   explicit AccessControl(std::shared_ptr<prometheus::Registry> registry)
       : failures_(std::move(registry)) {}
 
+  // Counts and logs the refusal; its status. `retry_after`: kThrottled only.
   absl::Status Refuse(AuthFailure reason, const PresentedCredentials& presented,
                       Role role, absl::string_view detail_key,
-                      absl::string_view detail) const;
+                      absl::string_view detail,
+                      absl::Duration retry_after = absl::ZeroDuration()) const;
 
   // Constant after Create.
   absl::flat_hash_map<std::string, TokenEntry> tokens_;  // by public id

@@ -22,6 +22,8 @@ absl::string_view AuthFailureName(AuthFailure failure) {
       return "wrong_role";
     case AuthFailure::kMetricsPassword:
       return "metrics_password";
+    case AuthFailure::kThrottled:
+      return "throttled";
   }
   return "unknown";
 }
@@ -44,6 +46,18 @@ AuthFailureCounters::AuthFailureCounters(
         {{"reason",
           std::string(AuthFailureName(static_cast<AuthFailure>(i)))}});
   }
+  hashes_ = &prometheus::BuildCounter()
+                 .Name("plumbline_auth_secret_hashes_total")
+                 .Help(
+                     "PBKDF2 runs made to check presented tokens and "
+                     "passwords (secrets already checked are cached; wrong "
+                     "ones are throttled per token).")
+                 .Register(*registry_)
+                 .Add({});
+}
+
+void AuthFailureCounters::CountHash() const {
+  if (hashes_ != nullptr) hashes_->Increment();
 }
 
 void AuthFailureCounters::Count(AuthFailure failure) const {

@@ -9,6 +9,9 @@
 namespace plumbline::daemon {
 namespace {
 
+// The UTF-8 byte-order mark.
+constexpr absl::string_view kUtf8Bom = "\xEF\xBB\xBF";
+
 // Splits `text` into records of fields, tracking the line each starts on.
 class CsvReader {
  public:
@@ -101,8 +104,7 @@ class CsvReader {
 
 absl::StatusOr<CsvTable> ParseCsv(absl::string_view text,
                                   absl::string_view source) {
-  constexpr absl::string_view kBom = "\xEF\xBB\xBF";
-  if (absl::StartsWith(text, kBom)) text.remove_prefix(kBom.size());
+  if (absl::StartsWith(text, kUtf8Bom)) text.remove_prefix(kUtf8Bom.size());
   CsvReader reader(text, source);
   CsvTable table;
   std::vector<std::string> fields;
@@ -147,7 +149,11 @@ std::string FormatCsvRow(const std::vector<std::string>& fields) {
   for (size_t i = 0; i < fields.size(); ++i) {
     if (i > 0) out.push_back(',');
     const std::string& field = fields[i];
-    if (field.find_first_of(",\"\r\n") == std::string::npos) {
+    // A field that starts with a byte-order mark is quoted too: unquoted at
+    // the start of a file, ParseCsv would take the mark for the file's own
+    // and drop it (found by tests/fuzz/fuzz_csv).
+    if (field.find_first_of(",\"\r\n") == std::string::npos &&
+        !absl::StartsWith(field, kUtf8Bom)) {
       out += field;
       continue;
     }

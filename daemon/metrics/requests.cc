@@ -5,11 +5,18 @@
 #include <utility>
 
 #include "absl/status/status.h"
+#include "absl/strings/match.h"
+#include "absl/strings/str_cat.h"
+#include "absl/strings/strip.h"
+#include "google/protobuf/descriptor.h"
 
 namespace plumbline::daemon {
 namespace {
 
 using grpc::experimental::InterceptionHookPoints;
+
+// The one label of every method plumbd does not serve.
+constexpr char kUnknownMethod[] = "unknown";
 
 // Request durations in seconds: 100 µs to 10 s.
 const prometheus::Histogram::BucketBoundaries& DurationBuckets() {
@@ -59,7 +66,14 @@ class TimingFactory final
 
 }  // namespace
 
-RequestMetrics::RequestMetrics(prometheus::Registry& registry)
+std::vector<std::string> RequestMetrics::DefaultServices() {
+  return {"plumbline.v1.Scoring", "plumbline.v1.Outcomes",
+          "plumbline.v1.Monitor", "plumbline.v1.Registry",
+          "grpc.reflection.v1alpha.ServerReflection"};
+}
+
+RequestMetrics::RequestMetrics(prometheus::Registry& registry,
+                               const std::vector<std::string>& services)
     : requests_(prometheus::BuildCounter()
                     .Name("plumbline_requests_total")
                     .Help("gRPC calls finished, by method and status code.")
@@ -68,10 +82,35 @@ RequestMetrics::RequestMetrics(prometheus::Registry& registry)
                      .Name("plumbline_request_duration_seconds")
                      .Help("Time from accepting a gRPC call to sending its "
                            "status, by method.")
-                     .Register(registry)) {}
+                     .Register(registry)) {
+  // gRPC's own health service is served from upb messages, which are not in
+  // protobuf's generated pool.
+  known_.insert("grpc.health.v1.Health/Check");
+  known_.insert("grpc.health.v1.Health/Watch");
+  const google::protobuf::DescriptorPool* pool =
+      google::protobuf::DescriptorPool::generated_pool();
+  for (const std::string& name : services) {
+    // Fixed names, looked up once: a miss (a service this binary does not
+    // link) only means its calls count as "unknown".
+    const google::protobuf::ServiceDescriptor* service =
+        pool->FindServiceByName(name);
+    if (service == nullptr) continue;
+    for (int i = 0; i < service->method_count(); ++i) {
+      known_.insert(absl::StrCat(name, "/", service->method(i)->name()));
+    }
+  }
+}
+
+absl::string_view RequestMetrics::MethodLabel(absl::string_view method) const {
+  absl::ConsumePrefix(&method, "/");
+  auto it = known_.find(method);
+  return it == known_.end() ? absl::string_view(kUnknownMethod)
+                            : absl::string_view(*it);
+}
 
 void RequestMetrics::Observe(absl::string_view method, grpc::StatusCode code,
                              absl::Duration elapsed) {
+  method = MethodLabel(method);
   const int c = static_cast<int>(code);
   const int index = c >= 0 && c < kCodes ? c : static_cast<int>(grpc::UNKNOWN);
   prometheus::Counter* counter = nullptr;

@@ -13,6 +13,13 @@
 // "NOT_FOUND"). The duration runs from the moment the server accepted the
 // call to the moment it sends the status.
 //
+// Only the methods of the services plumbd serves get their own series (the
+// RPCs of the services named at construction, looked up once in protobuf's
+// generated descriptor pool, plus gRPC health checking). Any other name a
+// caller sends (gRPC answers UNIMPLEMENTED) is counted under
+// method="unknown": a caller cannot create series, or any other state, by
+// inventing names, and it is never looked up anywhere with the name.
+//
 //   RequestMetrics metrics(exporter->registry());
 //   builder.experimental().SetInterceptorCreators(
 //       MakeInterceptorCreators(&metrics));
@@ -31,6 +38,7 @@
 
 #include "absl/base/thread_annotations.h"
 #include "absl/container/flat_hash_map.h"
+#include "absl/container/flat_hash_set.h"
 #include "absl/strings/string_view.h"
 #include "absl/synchronization/mutex.h"
 #include "absl/time/time.h"
@@ -43,8 +51,20 @@ namespace plumbline::daemon {
 
 class RequestMetrics {
  public:
+  // The services whose methods get their own series by default: plumbd's
+  // four and gRPC's reflection service.
+  static std::vector<std::string> DefaultServices();
+
   // Adds the two families to `registry`, which must outlive this object.
-  explicit RequestMetrics(prometheus::Registry& registry);
+  // `services` are full service names ("plumbline.v1.Scoring"); gRPC health
+  // checking (grpc.health.v1.Health) is always known.
+  explicit RequestMetrics(
+      prometheus::Registry& registry,
+      const std::vector<std::string>& services = DefaultServices());
+
+  // The label a call to `method` (with or without the leading slash) is
+  // counted under: the method itself when known, otherwise "unknown".
+  absl::string_view MethodLabel(absl::string_view method) const;
 
   // Records one finished call.
   void Observe(absl::string_view method, grpc::StatusCode code,
@@ -57,9 +77,13 @@ class RequestMetrics {
     std::array<prometheus::Counter*, kCodes> calls{};
   };
 
+  // Constant after construction.
   prometheus::Family<prometheus::Counter>& requests_;
   prometheus::Family<prometheus::Histogram>& durations_;
+  absl::flat_hash_set<std::string> known_;  // "package.Service/Method"
+
   absl::Mutex mu_;
+  // Keyed by MethodLabel: the known methods and "unknown", nothing else.
   absl::flat_hash_map<std::string, Method> methods_ ABSL_GUARDED_BY(mu_);
 };
 

@@ -154,32 +154,6 @@ const char* DirectionWord(Direction d) {
   return "";
 }
 
-// The level `value` reaches under `t` with absolute thresholds
-// (watch, drifting); STEADY when none.
-v1::DriftState Level(const DriftThreshold& t, double watch, double drifting,
-                     double value, double* crossed) {
-  auto over = [&](double limit) {
-    switch (t.direction) {
-      case Direction::kAbove:
-        return value > limit;
-      case Direction::kBelow:
-        return value < limit;
-      case Direction::kDistance:
-        return std::abs(value - t.target) > limit;
-    }
-    return false;
-  };
-  if (over(drifting)) {
-    *crossed = drifting;
-    return v1::DRIFTING;
-  }
-  if (over(watch)) {
-    *crossed = watch;
-    return v1::WATCH;
-  }
-  return v1::STEADY;
-}
-
 // Adds `note` to health->notes unless it is there already.
 class Notes {
  public:

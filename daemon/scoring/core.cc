@@ -1,12 +1,14 @@
 // File: daemon/scoring/core.cc
 #include "daemon/scoring/core.h"
 
+#include <optional>
 #include <utility>
 
 #include "absl/strings/str_cat.h"
 #include "absl/strings/str_join.h"
 #include "daemon/scoring/dense.h"
 #include "daemon/scoring/record_conversion.h"
+#include "daemon/util/caller_text.h"
 
 namespace plumbline::daemon {
 namespace {
@@ -151,9 +153,9 @@ absl::StatusOr<v1::ScoreBatchReply> ScoreBatchWithPlan(
     absl::StatusOr<v1::Scored> scored =
         ScoreRecord(plan, record, *reasons, inputs);
     if (!scored.ok()) {
-      return Prefixed(
-          absl::StrCat("records[", i, "] (id '", record.record_id(), "'): "),
-          scored.status());
+      return Prefixed(absl::StrCat("records[", i, "] (id '",
+                                   CallerText(record.record_id()), "'): "),
+                      scored.status());
     }
     *reply.add_scores() = *std::move(scored);
   }
@@ -192,17 +194,27 @@ v1::SetSummary SummarizeSet(const scorer::ScoringPlan& plan) {
 }
 
 absl::Status CheckSetName(const std::string& set) {
-  if (!set.empty()) return absl::OkStatus();
-  return absl::InvalidArgumentError(
-      "set: empty; name the coefficient set to score against (ListSets shows "
-      "the loaded ones)");
+  if (set.empty()) {
+    return absl::InvalidArgumentError(
+        "set: empty; name the coefficient set to score against (ListSets "
+        "shows the loaded ones)");
+  }
+  // No set is named so (set names are letters, digits, '_', '-', '.').
+  if (const std::optional<size_t> at = FirstUnprintable(set)) {
+    return absl::InvalidArgumentError(
+        absl::StrCat("set: '", CallerText(set),
+                     "' holds a control character or a byte that is not "
+                     "UTF-8 at byte ",
+                     *at));
+  }
+  return absl::OkStatus();
 }
 
 absl::Status SetNotFound(const std::string& set,
                          const std::vector<std::string>& loaded) {
-  return absl::NotFoundError(
-      absl::StrCat("no coefficient set named '", set, "' is loaded; loaded: ",
-                   loaded.empty() ? "none" : absl::StrJoin(loaded, ", ")));
+  return absl::NotFoundError(absl::StrCat(
+      "no coefficient set named '", CallerText(set), "' is loaded; loaded: ",
+      loaded.empty() ? "none" : absl::StrJoin(loaded, ", ")));
 }
 
 }  // namespace plumbline::daemon

@@ -96,7 +96,8 @@ absl::StatusOr<v1::ScoreBatchReply> ScoreBatchWithPlan(
 // The ListSets entry of `plan`.
 v1::SetSummary SummarizeSet(const scorer::ScoringPlan& plan);
 
-// INVALID_ARGUMENT for an empty set name in a request.
+// INVALID_ARGUMENT for an empty set name in a request, or one holding a
+// control character or invalid UTF-8 (no set is named so).
 absl::Status CheckSetName(const std::string& set);
 
 // NOT_FOUND "no coefficient set named 'x' is loaded; loaded: a, b".

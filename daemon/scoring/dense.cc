@@ -7,6 +7,7 @@
 #include "absl/strings/match.h"
 #include "absl/strings/str_cat.h"
 #include "daemon/scoring/core.h"
+#include "daemon/util/caller_text.h"
 
 namespace plumbline::daemon {
 namespace {
@@ -96,13 +97,13 @@ absl::StatusOr<std::vector<int>> DenseColumnOfFeature(
     const int f = plan.FeatureIndex(name);
     if (f < 0) {
       return absl::InvalidArgumentError(
-          absl::StrCat("dense.columns[", c, "]: '", name,
+          absl::StrCat("dense.columns[", c, "]: '", CallerText(name),
                        "' is not a feature of set '", plan.name(), "'"));
     }
     int& slot = column_of_feature[static_cast<size_t>(f)];
     if (slot >= 0) {
       return absl::InvalidArgumentError(
-          absl::StrCat("dense.columns[", c, "]: '", name,
+          absl::StrCat("dense.columns[", c, "]: '", CallerText(name),
                        "' appears twice (also dense.columns[", slot, "])"));
     }
     slot = c;

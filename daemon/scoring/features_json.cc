@@ -5,6 +5,7 @@
 
 #include "absl/strings/str_cat.h"
 #include "daemon/scoring/record_conversion.h"
+#include "daemon/util/caller_text.h"
 #include "google/protobuf/util/json_util.h"
 
 namespace plumbline::daemon {
@@ -32,9 +33,9 @@ absl::Status ParseFeaturesJson(const scorer::ScoringPlan& plan,
     const bool categorical =
         plan.feature_kind(f) == scorer::FeatureKind::kCategorical;
     if (!categorical && v.kind == scorer::RawValue::Kind::kText) {
-      return absl::InvalidArgumentError(
-          absl::StrCat("feature '", plan.feature_name(f),
-                       "': expected a number, got text '", v.text, "'"));
+      return absl::InvalidArgumentError(absl::StrCat(
+          "feature '", plan.feature_name(f), "': expected a number, got text '",
+          CallerText(v.text), "'"));
     }
     if (categorical && v.kind == scorer::RawValue::Kind::kNumber) {
       const auto& levels = plan.set().features(f).categorical().levels();

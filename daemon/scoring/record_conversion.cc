@@ -7,6 +7,7 @@
 
 #include "absl/strings/str_cat.h"
 #include "absl/strings/str_join.h"
+#include "daemon/util/caller_text.h"
 
 namespace plumbline::daemon {
 namespace {
@@ -37,9 +38,10 @@ absl::StatusOr<scorer::RawValue> ValueToRawValue(
     case google::protobuf::Value::KIND_NOT_SET:
       return scorer::RawValue::Missing();
     default:
-      return absl::InvalidArgumentError(absl::StrCat(
-          "feature '", feature, "': expected a number or a string, got ",
-          KindPhrase(value.kind_case())));
+      return absl::InvalidArgumentError(
+          absl::StrCat("feature '", CallerText(feature),
+                       "': expected a number or a string, got ",
+                       KindPhrase(value.kind_case())));
   }
 }
 
@@ -64,10 +66,10 @@ absl::Status StructToRawValues(const scorer::ScoringPlan& plan,
       for (int f = 0; f < plan.num_features(); ++f) {
         known.push_back(plan.feature_name(f));
       }
-      return absl::InvalidArgumentError(
-          absl::StrCat("feature '", name, "' is not a feature of set '",
-                       plan.name(), "' (version ", plan.version(),
-                       "); its features are: ", absl::StrJoin(known, ", ")));
+      return absl::InvalidArgumentError(absl::StrCat(
+          "feature '", CallerText(name), "' is not a feature of set '",
+          plan.name(), "' (version ", plan.version(),
+          "); its features are: ", absl::StrJoin(known, ", ")));
     }
     absl::StatusOr<scorer::RawValue> raw = ValueToRawValue(*value, name);
     if (!raw.ok()) return raw.status();

@@ -16,24 +16,75 @@
 namespace plumbline::daemon {
 namespace {
 
-// Sorted paths of the *.json regular files in `dir`.
-absl::StatusOr<std::vector<std::string>> ListSetFiles(const std::string& dir) {
+// A *.json entry of the sets directory that cannot be a set file.
+struct SkippedEntry {
+  std::string file;
+  std::string reason;
+};
+
+struct SetFiles {
+  std::vector<std::string> files;  // sorted paths of the *.json files
+  std::vector<SkippedEntry> skipped;
+};
+
+// Why `entry` (named *.json) is not a regular file plumbd can read; empty
+// when it is one.
+std::string WhyNotASetFile(const std::filesystem::directory_entry& entry) {
+  std::error_code ec;
+  const std::filesystem::file_status status = entry.status(ec);
+  if (ec) {
+    std::error_code link_ec;
+    if (entry.is_symlink(link_ec)) {
+      return absl::StrCat("a symbolic link whose target cannot be reached: ",
+                          ec.message());
+    }
+    return absl::StrCat("cannot read its type: ", ec.message());
+  }
+  switch (status.type()) {
+    case std::filesystem::file_type::regular:
+      return "";
+    case std::filesystem::file_type::directory:
+      return "a directory, not a file";
+    case std::filesystem::file_type::not_found:
+      return "a symbolic link to nothing (broken link)";
+    default:
+      return "not a regular file (a socket, pipe or device)";
+  }
+}
+
+// The *.json entries of `dir`: regular files to load, and the others with
+// the reason each is skipped.
+absl::StatusOr<SetFiles> ListSetFiles(const std::string& dir) {
   std::error_code ec;
   std::filesystem::directory_iterator it(dir, ec);
   if (ec) {
     return absl::NotFoundError(
         absl::StrCat("sets directory ", dir, ": cannot list: ", ec.message()));
   }
-  std::vector<std::string> files;
-  for (const std::filesystem::directory_entry& entry : it) {
+  SetFiles out;
+  for (; it != std::filesystem::directory_iterator(); it.increment(ec)) {
+    const std::filesystem::directory_entry& entry = *it;
     const std::filesystem::path& path = entry.path();
     if (path.extension() != ".json") continue;
-    std::error_code type_ec;
-    if (!entry.is_regular_file(type_ec)) continue;
-    files.push_back((std::filesystem::path(dir) / path.filename()).string());
+    const std::string file =
+        (std::filesystem::path(dir) / path.filename()).string();
+    std::string why = WhyNotASetFile(entry);
+    if (why.empty()) {
+      out.files.push_back(file);
+    } else {
+      out.skipped.push_back({file, std::move(why)});
+    }
   }
-  std::sort(files.begin(), files.end());
-  return files;
+  if (ec) {
+    return absl::UnavailableError(absl::StrCat(
+        "sets directory ", dir, ": listing failed part way: ", ec.message()));
+  }
+  std::sort(out.files.begin(), out.files.end());
+  std::sort(out.skipped.begin(), out.skipped.end(),
+            [](const SkippedEntry& a, const SkippedEntry& b) {
+              return a.file < b.file;
+            });
+  return out;
 }
 
 }  // namespace
@@ -49,12 +100,13 @@ SetRegistry::SetRegistry(std::string sets_dir, VersionResolver* resolver)
 
 absl::StatusOr<ReloadReport> SetRegistry::Reload() {
   absl::MutexLock reload_lock(&reload_mu_);
-  absl::StatusOr<std::vector<std::string>> files = ListSetFiles(sets_dir_);
-  if (!files.ok()) {
+  absl::StatusOr<SetFiles> listed = ListSetFiles(sets_dir_);
+  if (!listed.ok()) {
     LogEvent(LogLevel::kError, "reload_failed",
-             {{"dir", sets_dir_}, {"error", files.status().message()}});
-    return files.status();
+             {{"dir", sets_dir_}, {"error", listed.status().message()}});
+    return listed.status();
   }
+  const std::vector<std::string>* files = &listed->files;
   // What the files provided last time: the file that already serves a name
   // keeps it against a duplicate, and a refused file's set keeps its plan.
   const PlanMap& current = last_files_;
@@ -62,6 +114,12 @@ absl::StatusOr<ReloadReport> SetRegistry::Reload() {
   ReloadReport report;
   PlanMap next;
   std::set<std::string> failed_files;
+  for (const SkippedEntry& skipped : listed->skipped) {
+    LogEvent(LogLevel::kError, "set_file_skipped",
+             {{"file", skipped.file}, {"error", skipped.reason}});
+    report.rejected_files.push_back(skipped.file);
+    failed_files.insert(skipped.file);  // a set it served keeps its plan
+  }
   for (const std::string& file : *files) {
     absl::StatusOr<PlanPtr> plan = LoadSetFile(file);
     if (!plan.ok()) {

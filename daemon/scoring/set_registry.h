@@ -9,6 +9,9 @@
 //   - every *.json file of the directory is read and compiled;
 //   - a file that fails to parse or validate is rejected (logged with the
 //     file and the error) and the version it loaded before keeps serving;
+//   - a *.json entry that is not a readable regular file (a directory, a
+//     broken symbolic link) is skipped with a log line naming it
+//     (event=set_file_skipped) and counts as rejected;
 //   - two files with the same set name: the file that already serves the
 //     name keeps it, otherwise the first in file-name order; the other is
 //     rejected and logged;
@@ -67,7 +70,9 @@ struct ReloadReport {
   std::vector<std::string> loaded;
   // Sets that no longer exist.
   std::vector<std::string> unloaded;
-  // Files refused (parse/validation error or duplicate name).
+  // Files refused (parse/validation error or duplicate name) and *.json
+  // entries that are not readable regular files (a directory, a broken
+  // link), each logged (event=set_rejected / event=set_file_skipped).
   std::vector<std::string> rejected_files;
   // Sets that stay on their previous version because their file was refused.
   std::vector<std::string> kept;

@@ -6,6 +6,7 @@
 #include <openssl/hmac.h>
 #include <openssl/rand.h>
 
+#include <algorithm>
 #include <utility>
 #include <vector>
 
@@ -130,7 +131,7 @@ std::optional<std::string> TokenId(absl::string_view token) {
 }
 
 absl::StatusOr<std::unique_ptr<SecretCheck>> SecretCheck::Create(
-    absl::string_view stored) {
+    absl::string_view stored, SecretCheckOptions options) {
   absl::StatusOr<StoredHash> hash = ParseStoredHash(stored);
   if (!hash.ok()) return hash.status();
   if (hash->iterations < kMinHashIterations) {
@@ -140,9 +141,17 @@ absl::StatusOr<std::unique_ptr<SecretCheck>> SecretCheck::Create(
   }
   absl::StatusOr<std::string> cache_key = RandomBytes(kKeyBytes);
   if (!cache_key.ok()) return cache_key.status();
-  return std::unique_ptr<SecretCheck>(
-      new SecretCheck(*std::move(hash), *std::move(cache_key)));
+  return std::unique_ptr<SecretCheck>(new SecretCheck(
+      *std::move(hash), *std::move(cache_key), std::move(options)));
 }
+
+SecretCheck::SecretCheck(StoredHash hash, std::string cache_key,
+                         SecretCheckOptions options)
+    : hash_(std::move(hash)),
+      cache_key_(std::move(cache_key)),
+      options_(std::move(options)),
+      credits_(std::max(options_.burst, 1)),
+      refilled_at_(options_.now()) {}
 
 std::string SecretCheck::CacheDigest(absl::string_view secret) const {
   unsigned char digest[EVP_MAX_MD_SIZE];
@@ -155,27 +164,75 @@ std::string SecretCheck::CacheDigest(absl::string_view secret) const {
   return std::string(reinterpret_cast<const char*>(digest), length);
 }
 
-bool SecretCheck::Matches(absl::string_view secret) const {
+void SecretCheck::RefillLocked(absl::Time now) const {
+  const int burst = std::max(options_.burst, 1);
+  if (credits_ >= burst || options_.refill <= absl::ZeroDuration()) {
+    refilled_at_ = now;
+    if (options_.refill <= absl::ZeroDuration()) credits_ = burst;
+    return;
+  }
+  if (now <= refilled_at_) return;
+  absl::Duration remainder;
+  const int64_t earned =
+      absl::IDivDuration(now - refilled_at_, options_.refill, &remainder);
+  if (earned <= 0) return;
+  if (earned >= burst - credits_) {
+    credits_ = burst;
+    refilled_at_ = now;
+  } else {
+    credits_ += static_cast<int>(earned);
+    refilled_at_ += options_.refill * earned;
+  }
+}
+
+void SecretCheck::RememberRefusedLocked(std::string digest) const {
+  if (options_.max_refused == 0) return;
+  if (!refused_.insert(digest).second) return;
+  refused_order_.push_back(std::move(digest));
+  while (refused_order_.size() > options_.max_refused) {
+    refused_.erase(refused_order_.front());
+    refused_order_.pop_front();
+  }
+}
+
+absl::Duration SecretCheck::RetryAfter() const {
+  absl::MutexLock lock(&mu_);
+  RefillLocked(options_.now());
+  if (credits_ > 0) return absl::ZeroDuration();
+  return std::max(refilled_at_ + options_.refill - options_.now(),
+                  absl::ZeroDuration());
+}
+
+SecretVerdict SecretCheck::Check(absl::string_view secret, bool* hashed) const {
+  if (hashed != nullptr) *hashed = false;
   const std::string digest = CacheDigest(secret);
-  if (!digest.empty()) {
+  {
     absl::MutexLock lock(&mu_);
-    if (accepted_.size() == digest.size() &&
-        CRYPTO_memcmp(accepted_.data(), digest.data(), digest.size()) == 0) {
-      return true;
+    if (!digest.empty()) {
+      if (accepted_.size() == digest.size() &&
+          CRYPTO_memcmp(accepted_.data(), digest.data(), digest.size()) == 0) {
+        return SecretVerdict::kMatch;
+      }
+      // Found by hashing: the lookup's timing reveals only whether this
+      // digest (under a key no caller knows) was refused before.
+      if (refused_.contains(digest)) return SecretVerdict::kMismatch;
     }
-    if (refused_.contains(digest)) return false;
+    RefillLocked(options_.now());
+    if (credits_ <= 0) return SecretVerdict::kThrottled;
+    --credits_;  // taken before the slow hash, so concurrent calls count
   }
+  hashes_.fetch_add(1, std::memory_order_relaxed);
+  if (hashed != nullptr) *hashed = true;
   const bool match = VerifySecret(hash_, secret);
-  if (!digest.empty()) {
-    absl::MutexLock lock(&mu_);
-    if (match) {
-      accepted_ = digest;
-    } else {
-      if (refused_.size() >= kMaxRefused) refused_.clear();
-      refused_.insert(digest);
-    }
+  absl::MutexLock lock(&mu_);
+  if (match) {
+    // The right secret costs nothing from the bucket.
+    credits_ = std::min(credits_ + 1, std::max(options_.burst, 1));
+    if (!digest.empty()) accepted_ = digest;
+    return SecretVerdict::kMatch;
   }
-  return match;
+  if (!digest.empty()) RememberRefusedLocked(digest);
+  return SecretVerdict::kMismatch;
 }
 
 }  // namespace plumbline::daemon

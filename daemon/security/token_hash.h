@@ -17,7 +17,7 @@
 //   absl::StatusOr<NewToken> token = MakeToken();
 //   absl::StatusOr<std::string> stored = HashSecret(token->token);
 //   auto check = SecretCheck::Create(*stored);
-//   bool ok = (*check)->Matches(presented);   // constant-time comparison
+//   SecretVerdict v = (*check)->Check(presented);  // constant-time compare
 //
 // Used by daemon/access_control (tokens), daemon/metrics_exporter (basic
 // auth), and plumbctl token new.
@@ -27,7 +27,11 @@
 #ifndef PLUMBLINE_DAEMON_SECURITY_TOKEN_HASH_H_
 #define PLUMBLINE_DAEMON_SECURITY_TOKEN_HASH_H_
 
+#include <atomic>
 #include <cstddef>
+#include <cstdint>
+#include <deque>
+#include <functional>
 #include <memory>
 #include <optional>
 #include <string>
@@ -37,6 +41,8 @@
 #include "absl/status/statusor.h"
 #include "absl/strings/string_view.h"
 #include "absl/synchronization/mutex.h"
+#include "absl/time/clock.h"
+#include "absl/time/time.h"
 #include "daemon/util/redact.h"
 
 namespace plumbline::daemon {
@@ -88,41 +94,97 @@ absl::StatusOr<NewToken> MakeToken();
 // The public id of a token of the right shape; nullopt otherwise.
 std::optional<std::string> TokenId(absl::string_view token);
 
-// Checks presented secrets against one stored hash. The first check of a
-// given secret runs PBKDF2 (deliberately slow); the answer is then cached
-// under an HMAC-SHA256 of the secret keyed with a random per-object key, so
-// a caller presenting the same token on every request pays the slow hash
-// once, and a repeated wrong guess costs no more than the first. Nothing is
-// cached in plain text.
+// What SecretCheck::Check concluded about one presented secret.
+enum class SecretVerdict {
+  kMatch,     // the secret derives the stored key
+  kMismatch,  // it does not
+  kThrottled  // not checked: too many fresh wrong secrets for this hash of
+              // late (see SecretCheck); the caller may retry later
+};
+
+// How hard SecretCheck works for wrong secrets. The defaults bound an
+// attacker who knows a public token id to about one PBKDF2 run (a quarter
+// of a second of CPU at kDefaultHashIterations) every 5 s per token, after a
+// burst of 5.
+struct SecretCheckOptions {
+  // PBKDF2 runs allowed at once for secrets seen for the first time.
+  int burst = 5;
+  // One more run becomes available every `refill` (up to `burst`).
+  absl::Duration refill = absl::Seconds(5);
+  // Digests of refused secrets remembered (oldest forgotten first).
+  size_t max_refused = 1024;
+  // The clock of the refill; tests pass a fake.
+  std::function<absl::Time()> now = [] { return absl::Now(); };
+};
+
+// Checks presented secrets against one stored hash without letting wrong
+// secrets cost a slow hash each:
+//
+//  - A secret that matched once is remembered as an HMAC-SHA256 digest
+//    under a random per-object key (never the secret) and accepted again
+//    by a constant-time comparison of digests, without PBKDF2; so is a
+//    refused one (a bounded set of recent digests), refused again.
+//  - A secret in neither cache costs one PBKDF2 run, taken from a token
+//    bucket of `burst` runs refilled one per `refill`. With the bucket
+//    empty the secret is not hashed and Check answers kThrottled.
+//
+// So N wrong secrets cost at most burst + elapsed / refill PBKDF2 runs.
+// A caller whose secret was already verified is never throttled; a caller
+// whose right secret is new to this process (after a restart) while
+// someone floods the same token id with wrong ones is throttled until the
+// flood stops (plumbd answers RESOURCE_EXHAUSTED saying so).
+//
+// Thread-safe. At most `burst` PBKDF2 runs are in flight at once per
+// object (each takes its unit from the bucket before it starts).
 class SecretCheck {
  public:
   // INVALID_ARGUMENT if `stored` does not parse, or has fewer than
   // kMinHashIterations iterations.
   static absl::StatusOr<std::unique_ptr<SecretCheck>> Create(
-      absl::string_view stored);
+      absl::string_view stored, SecretCheckOptions options = {});
 
   SecretCheck(const SecretCheck&) = delete;
   SecretCheck& operator=(const SecretCheck&) = delete;
 
-  bool Matches(absl::string_view secret) const;
+  // `hashed` (may be null) says whether this call ran PBKDF2.
+  SecretVerdict Check(absl::string_view secret, bool* hashed = nullptr) const;
+
+  // Check(secret) == kMatch: throttled counts as no match.
+  bool Matches(absl::string_view secret) const {
+    return Check(secret) == SecretVerdict::kMatch;
+  }
+
+  // PBKDF2 runs made so far (the cost the caches and the bucket bound).
+  int64_t hashes() const { return hashes_.load(std::memory_order_relaxed); }
+
+  // How long until a throttled caller may be checked again.
+  absl::Duration RetryAfter() const;
 
  private:
-  SecretCheck(StoredHash hash, std::string cache_key)
-      : hash_(std::move(hash)), cache_key_(std::move(cache_key)) {}
+  SecretCheck(StoredHash hash, std::string cache_key,
+              SecretCheckOptions options);
 
   std::string CacheDigest(absl::string_view secret) const;
-
-  // Refused digests kept at most; the set is emptied when full.
-  static constexpr size_t kMaxRefused = 1024;
+  void RefillLocked(absl::Time now) const ABSL_EXCLUSIVE_LOCKS_REQUIRED(mu_);
+  void RememberRefusedLocked(std::string digest) const
+      ABSL_EXCLUSIVE_LOCKS_REQUIRED(mu_);
 
   // Constant after construction.
   const StoredHash hash_;
   const std::string cache_key_;
+  const SecretCheckOptions options_;
+
+  mutable std::atomic<int64_t> hashes_{0};
 
   // Guarded by mu_.
   mutable absl::Mutex mu_;
   mutable std::string accepted_ ABSL_GUARDED_BY(mu_);
   mutable absl::flat_hash_set<std::string> refused_ ABSL_GUARDED_BY(mu_);
+  // refused_ in the order the digests came, to forget the oldest.
+  mutable std::deque<std::string> refused_order_ ABSL_GUARDED_BY(mu_);
+  // PBKDF2 runs left in the bucket and when it was last refilled.
+  mutable int credits_ ABSL_GUARDED_BY(mu_);
+  mutable absl::Time refilled_at_ ABSL_GUARDED_BY(mu_);
 };
 
 }  // namespace plumbline::daemon

@@ -7,11 +7,14 @@
 #include <grpcpp/server_builder.h>
 
 #include <chrono>
+#include <memory>
 #include <utility>
+#include <vector>
 
 #include "absl/status/status.h"
 #include "absl/strings/str_cat.h"
 #include "daemon/security/transport_security.h"
+#include "daemon/server/request_errors.h"
 #include "daemon/server/settings.h"
 #include "daemon/util/address.h"
 #include "daemon/util/event_log.h"
@@ -51,10 +54,16 @@ absl::StatusOr<std::unique_ptr<DaemonServer>> DaemonServer::Start(
   for (const auto& [service, name] : attachments.services) {
     builder.RegisterService(service);
   }
-  if (!attachments.interceptors.empty()) {
-    builder.experimental().SetInterceptorCreators(
-        std::move(attachments.interceptors));
+  // The parse-error interceptor first: the others (request metrics) then
+  // see the status it rewrites.
+  std::vector<
+      std::unique_ptr<grpc::experimental::ServerInterceptorFactoryInterface>>
+      interceptors;
+  interceptors.push_back(MakeParseErrorInterceptorFactory());
+  for (auto& interceptor : attachments.interceptors) {
+    interceptors.push_back(std::move(interceptor));
   }
+  builder.experimental().SetInterceptorCreators(std::move(interceptors));
   ApplyServerSettings(options.grpc, options.max_message_bytes, &builder);
   daemon->server_ = builder.BuildAndStart();
   if (daemon->server_ == nullptr || port == 0) {

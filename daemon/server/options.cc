@@ -7,6 +7,7 @@
 
 #include "absl/status/status.h"
 #include "absl/strings/str_cat.h"
+#include "daemon/security/transport_security.h"
 #include "daemon/util/files.h"
 #include "google/protobuf/util/json_util.h"
 
@@ -148,19 +149,58 @@ DaemonOptions OptionsFromConfig(const v1::DaemonConfig& config) {
   return options;
 }
 
-absl::StatusOr<v1::DaemonConfig> ReadDaemonConfigFile(const std::string& path) {
-  absl::StatusOr<std::string> text = ReadFileToString(path);
-  if (!text.ok()) return text.status();
+absl::StatusOr<v1::DaemonConfig> ParseDaemonConfig(absl::string_view text,
+                                                   absl::string_view source) {
   v1::DaemonConfig config;
   google::protobuf::util::JsonParseOptions parse_options;
   parse_options.ignore_unknown_fields = false;
   const auto status = google::protobuf::util::JsonStringToMessage(
-      *text, &config, parse_options);
+      google::protobuf::StringPiece(text.data(), text.size()), &config,
+      parse_options);
   if (!status.ok()) {
     return absl::InvalidArgumentError(absl::StrCat(
-        path, ": not a valid plumbd config: ", status.message().as_string()));
+        source, ": not a valid plumbd config: ", status.message().as_string()));
   }
   return config;
+}
+
+absl::StatusOr<v1::DaemonConfig> ReadDaemonConfigFile(const std::string& path) {
+  absl::StatusOr<std::string> text = ReadFileToString(path);
+  if (!text.ok()) return text.status();
+  return ParseDaemonConfig(*text, path);
+}
+
+absl::Status CheckDaemonOptions(const DaemonOptions& options) {
+  if (options.max_message_bytes < kMinMessageBytes) {
+    return absl::InvalidArgumentError(absl::StrCat(
+        "max_message_bytes: ", options.max_message_bytes,
+        " is below the floor of ", kMinMessageBytes,
+        " bytes; requests and replies over the limit are refused, so most "
+        "calls would fail (0 keeps the default of ",
+        DaemonOptions().max_message_bytes, ")"));
+  }
+  const v1::SecurityConfig& security = options.security;
+  if (security.access().subjects_size() > 0 &&
+      security.tls().client_ca_file().empty()) {
+    return absl::InvalidArgumentError(absl::StrCat(
+        "security.access.subjects: ", security.access().subjects_size(),
+        " certificate subject(s) are given a role, but mutual TLS is off "
+        "(security.tls.client_ca_file is empty), so no caller can present a "
+        "certificate and every call relying on one would be refused; set "
+        "security.tls with client_ca_file, or remove the subjects"));
+  }
+  if (!IsLoopbackListen(options.metrics_listen) &&
+      security.metrics_auth().username().empty() &&
+      !security.allow_unauthenticated_metrics_non_loopback()) {
+    return absl::InvalidArgumentError(absl::StrCat(
+        "metrics_listen: refusing to serve metrics without a password on ",
+        options.metrics_listen,
+        ", which is not a loopback address: set security.metrics_auth "
+        "(plumbctl token new --role metrics prints one), or set "
+        "security.allow_unauthenticated_metrics_non_loopback to true if the "
+        "network is protected otherwise"));
+  }
+  return absl::OkStatus();
 }
 
 absl::StatusOr<DaemonOptions> LoadDaemonOptions(const std::string& path) {

@@ -19,7 +19,9 @@
 #include <string>
 #include <vector>
 
+#include "absl/status/status.h"
 #include "absl/status/statusor.h"
+#include "absl/strings/string_view.h"
 #include "absl/time/time.h"
 #include "daemon/ledger/ledger.h"
 #include "daemon/util/event_log.h"
@@ -115,6 +117,11 @@ struct DaemonOptions {
 // keeps everything.
 DaemonOptions OptionsFromConfig(const v1::DaemonConfig& config);
 
+// Parses config JSON text; `source` (a path) starts every message.
+// INVALID_ARGUMENT for malformed JSON or unknown fields.
+absl::StatusOr<v1::DaemonConfig> ParseDaemonConfig(absl::string_view text,
+                                                   absl::string_view source);
+
 // Reads the JSON config file at `path`. NOT_FOUND if it cannot be read;
 // INVALID_ARGUMENT for malformed JSON or unknown fields. Messages start with
 // the path.
@@ -122,6 +129,22 @@ absl::StatusOr<v1::DaemonConfig> ReadDaemonConfigFile(const std::string& path);
 
 // ReadDaemonConfigFile + OptionsFromConfig.
 absl::StatusOr<DaemonOptions> LoadDaemonOptions(const std::string& path);
+
+// The smallest max_message_bytes accepted. Replies are capped by the same
+// limit, and a ListSets or GetSetHealth reply of a set with many features
+// runs to tens of KiB; below this every call risks RESOURCE_EXHAUSTED
+// (Plumbline's choice, no source).
+inline constexpr uint32_t kMinMessageBytes = 64u << 10;
+
+// Settings that would start a daemon which cannot work as configured,
+// refused with INVALID_ARGUMENT naming the field:
+//  - max_message_bytes below kMinMessageBytes;
+//  - security.access.subjects without mutual TLS
+//    (security.tls.client_ca_file): no caller could present a certificate;
+//  - a metrics_listen address other than loopback without
+//    security.metrics_auth, unless
+//    security.allow_unauthenticated_metrics_non_loopback is true.
+absl::Status CheckDaemonOptions(const DaemonOptions& options);
 
 }  // namespace plumbline::daemon
 

@@ -13,6 +13,7 @@
 #include "daemon/metrics/ledger.h"
 #include "daemon/metrics/shadows.h"
 #include "daemon/server/health_options.h"
+#include "daemon/server/library_logs.h"
 #include "daemon/server/page_options.h"
 #include "daemon/util/address.h"
 #include "daemon/util/event_log.h"
@@ -57,6 +58,7 @@ absl::StatusOr<DaemonOptions> LoadPlumbdOptions(const PlumbdOverrides& flags) {
   }
   // Settings checked here are config errors (event=config_failed), not
   // startup failures; Start checks them again, cheaply.
+  if (absl::Status s = CheckDaemonOptions(options); !s.ok()) return s;
   if (absl::StatusOr<HealthMonitorOptions> health =
           HealthMonitorOptionsFrom(options.windows, options.drift_policy);
       !health.ok()) {
@@ -93,6 +95,10 @@ Plumbd::VersionChangeHook::~VersionChangeHook() { lifecycle_->Detach(); }
 absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
     DaemonOptions options, const std::string& ready_file) {
   ConfigureEventLog(options.log);
+  RouteLibraryLogsToEventLog();
+  if (absl::Status s = CheckDaemonOptions(options); !s.ok()) {
+    return In("config", s);
+  }
   absl::StatusOr<HealthMonitorOptions> health_options =
       HealthMonitorOptionsFrom(options.windows, options.drift_policy);
   if (!health_options.ok()) return In("config", health_options.status());

@@ -11,38 +11,13 @@
 #include "absl/strings/str_cat.h"
 #include "absl/time/time.h"
 #include "daemon/access/access_control.h"
+#include "daemon/util/caller_text.h"
 #include "daemon/util/event_log.h"
 #include "daemon/util/grpc_status.h"
 #include "daemon/util/time.h"
 
 namespace plumbline::daemon {
 namespace {
-
-// Checks `outcome` (called `path` in messages) and converts it for the
-// ledger; INVALID_ARGUMENT naming the field and the record otherwise.
-absl::StatusOr<OutcomeEntry> ToOutcomeEntry(const v1::Outcome& outcome,
-                                            absl::string_view path) {
-  if (outcome.record_id().empty()) {
-    return absl::InvalidArgumentError(absl::StrCat(
-        path, ".record_id: empty; give the id the record was scored under"));
-  }
-  if (outcome.label() != 0 && outcome.label() != 1) {
-    return absl::InvalidArgumentError(
-        absl::StrCat(path, ".label: record '", outcome.record_id(),
-                     "': must be 0 or 1, got ", outcome.label()));
-  }
-  OutcomeEntry entry;
-  entry.record_id = outcome.record_id();
-  entry.label = outcome.label();
-  if (outcome.has_observed_at()) {
-    absl::StatusOr<absl::Time> at = FromTimestamp(
-        outcome.observed_at(),
-        absl::StrCat(path, ".observed_at: record '", outcome.record_id(), "'"));
-    if (!at.ok()) return at.status();
-    entry.observed_at = *at;
-  }
-  return entry;
-}
 
 absl::Status LedgerRefused(const absl::Status& status) {
   if (status.code() != absl::StatusCode::kResourceExhausted) {
@@ -53,6 +28,31 @@ absl::Status LedgerRefused(const absl::Status& status) {
 }
 
 }  // namespace
+
+absl::StatusOr<OutcomeEntry> CheckOutcome(const v1::Outcome& outcome,
+                                          absl::string_view path) {
+  if (outcome.record_id().empty()) {
+    return absl::InvalidArgumentError(absl::StrCat(
+        path, ".record_id: empty; give the id the record was scored under"));
+  }
+  if (outcome.label() != 0 && outcome.label() != 1) {
+    return absl::InvalidArgumentError(
+        absl::StrCat(path, ".label: record '", CallerText(outcome.record_id()),
+                     "': must be 0 or 1, got ", outcome.label()));
+  }
+  OutcomeEntry entry;
+  entry.record_id = outcome.record_id();
+  entry.label = outcome.label();
+  if (outcome.has_observed_at()) {
+    absl::StatusOr<absl::Time> at =
+        FromTimestamp(outcome.observed_at(),
+                      absl::StrCat(path, ".observed_at: record '",
+                                   CallerText(outcome.record_id()), "'"));
+    if (!at.ok()) return at.status();
+    entry.observed_at = *at;
+  }
+  return entry;
+}
 
 OutcomesService::OutcomesService(Ledger* ledger, HealthSink* health_sink,
                                  uint32_t max_batch_records)
@@ -72,7 +72,7 @@ grpc::Status OutcomesService::ReportOutcome(
     v1::ReportOutcomeReply* reply) {
   if (grpc::Status s = Admit(context, Role::kScore); !s.ok()) return s;
   absl::StatusOr<OutcomeEntry> entry =
-      ToOutcomeEntry(request->outcome(), "outcome");
+      CheckOutcome(request->outcome(), "outcome");
   if (!entry.ok()) return ToGrpcStatus(entry.status());
   std::vector<OutcomeEntry> entries;
   entries.push_back(*std::move(entry));
@@ -114,7 +114,7 @@ grpc::Status OutcomesService::ReportOutcomes(
     v1::OutcomeResult* result = reply->add_results();
     result->set_record_id(outcome.record_id());
     absl::StatusOr<OutcomeEntry> entry =
-        ToOutcomeEntry(outcome, absl::StrCat("outcomes[", i, "]"));
+        CheckOutcome(outcome, absl::StrCat("outcomes[", i, "]"));
     if (!entry.ok()) {
       result->set_code(static_cast<int32_t>(entry.status().code()));
       result->set_message(std::string(entry.status().message()));

@@ -19,11 +19,20 @@
 
 #include <cstdint>
 
+#include "absl/status/statusor.h"
+#include "absl/strings/string_view.h"
 #include "daemon/health/sink.h"
 #include "daemon/ledger/ledger.h"
 #include "plumbline/v1/outcomes.grpc.pb.h"
 
 namespace plumbline::daemon {
+
+// Checks `outcome` (called `path` in messages, "outcome" or
+// "outcomes[3]") and converts it for the ledger; INVALID_ARGUMENT naming the
+// field and the record for an empty id, a label other than 0/1 or an
+// observed_at a Timestamp cannot hold.
+absl::StatusOr<OutcomeEntry> CheckOutcome(const v1::Outcome& outcome,
+                                          absl::string_view path);
 
 class OutcomesService final : public v1::Outcomes::Service {
  public:

@@ -1,8 +1,10 @@
 // File: daemon/services/registry.cc
 #include "daemon/services/registry.h"
 
+#include <optional>
 #include <string>
 #include <utility>
+#include <vector>
 
 #include "absl/status/status.h"
 #include "absl/strings/str_cat.h"
@@ -10,9 +12,11 @@
 #include "daemon/review/dossier_data.h"
 #include "daemon/review/dossier_html.h"
 #include "daemon/scoring/core.h"
+#include "daemon/util/caller_text.h"
 #include "daemon/util/event_log.h"
 #include "daemon/util/grpc_status.h"
 #include "daemon/util/time.h"
+#include "scorer/coefficient_set.h"
 
 namespace plumbline::daemon {
 namespace {
@@ -22,14 +26,29 @@ std::string Actor(const std::string& actor) {
 }
 
 // INVALID_ARGUMENT unless `set` is a valid name and `version` (when
-// `need_version`) is non-empty.
+// `need_version`) is non-empty, printable and no longer than a set file
+// allows (scorer::ValidateCoefficientSet): no such version can exist, and
+// the lifecycle's messages would repeat it.
 absl::Status CheckTarget(const std::string& set, const std::string& version,
                          bool need_version) {
   if (absl::Status s = CheckSetName(set); !s.ok()) return s;
-  if (need_version && version.empty()) {
+  if (!need_version) return absl::OkStatus();
+  if (version.empty()) {
     return absl::InvalidArgumentError(
         "version: empty; name the version (plumbctl versions --set NAME "
         "lists them)");
+  }
+  if (const std::optional<size_t> at = FirstUnprintable(version)) {
+    return absl::InvalidArgumentError(
+        absl::StrCat("version: '", CallerText(version),
+                     "' holds a control character or "
+                     "a byte that is not UTF-8 at byte ",
+                     *at, "; versions are printable"));
+  }
+  if (version.size() > scorer::kMaxVersionBytes) {
+    return absl::InvalidArgumentError(
+        absl::StrCat("version: '", CallerText(version), "' is longer than ",
+                     scorer::kMaxVersionBytes, " bytes; no version is"));
   }
   return absl::OkStatus();
 }
@@ -79,8 +98,9 @@ grpc::Status RegistryService::ListVersions(
       lifecycle_->List(request->set());
   if (!list.ok()) return ToGrpcStatus(list.status());
   if (list->empty() && !request->set().empty()) {
-    return ToGrpcStatus(absl::NotFoundError(absl::StrCat(
-        "no version of a set named '", request->set(), "' is known")));
+    return ToGrpcStatus(absl::NotFoundError(
+        absl::StrCat("no version of a set named '", CallerText(request->set()),
+                     "' is known")));
   }
   for (const VersionRecord& r : *list) {
     v1::VersionInfo* info = reply->add_versions();
@@ -97,6 +117,12 @@ grpc::Status RegistryService::LoadCandidate(
   if (!request->has_set()) {
     return ToGrpcStatus(absl::InvalidArgumentError(
         "set: missing; send the coefficient set to load"));
+  }
+  // Validated here too, before the lifecycle names the version in its
+  // messages: a version with control characters never gets that far.
+  if (absl::Status s = scorer::ValidateCoefficientSet(request->set(), "set");
+      !s.ok()) {
+    return ToGrpcStatus(s);
   }
   NewVersion version;
   version.set = request->set();
@@ -186,6 +212,16 @@ grpc::Status RegistryService::Refit(grpc::ServerContext* context,
   if (absl::Status s = CheckTarget(request->set(), "", false); !s.ok()) {
     return ToGrpcStatus(s);
   }
+  // A set with no version has nothing to refit: refused before a job is
+  // queued (the worker would only fail it later).
+  absl::StatusOr<std::vector<VersionRecord>> versions =
+      lifecycle_->List(request->set());
+  if (!versions.ok()) return ToGrpcStatus(versions.status());
+  if (versions->empty()) {
+    return ToGrpcStatus(absl::NotFoundError(
+        absl::StrCat("no version of a set named '", CallerText(request->set()),
+                     "' is known; no refit was queued")));
+  }
   RefitOutcome outcome = refits_->RunNow(
       {request->set(), RefitTriggerKind::kManual, Actor(request->actor()),
        request->reason().empty() ? "plumbctl refit" : request->reason(),
@@ -212,8 +248,9 @@ grpc::Status RegistryService::Audit(grpc::ServerContext* context,
       lifecycle_->Audit(request->set());
   if (!entries.ok()) return ToGrpcStatus(entries.status());
   if (entries->empty()) {
-    return ToGrpcStatus(absl::NotFoundError(absl::StrCat(
-        "no audit history for a set named '", request->set(), "'")));
+    return ToGrpcStatus(
+        absl::NotFoundError(absl::StrCat("no audit history for a set named '",
+                                         CallerText(request->set()), "'")));
   }
   for (const AuditRecord& e : *entries) {
     *reply->add_entries() = ToAuditEntry(e);

@@ -4,6 +4,7 @@
 // caller asked for with the port the kernel chose (for "HOST:0").
 //
 //   BoundAddress("127.0.0.1:0", 41234)   // "127.0.0.1:41234"
+//   BoundAddress("unix:/run/plumbd.sock", 1)   // "unix:/run/plumbd.sock"
 //
 // Thread-safe: pure functions.
 #ifndef PLUMBLINE_DAEMON_UTIL_ADDRESS_H_
@@ -13,7 +14,8 @@
 
 namespace plumbline::daemon {
 
-// HOST:PORT from the HOST part of `listen` and `port`.
+// HOST:PORT from the HOST part of `listen` and `port`; a "unix:PATH" or
+// "unix-abstract:NAME" address unchanged (the target a client dials).
 std::string BoundAddress(const std::string& listen, int port);
 
 }  // namespace plumbline::daemon

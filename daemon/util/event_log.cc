@@ -9,6 +9,7 @@
 #include "absl/strings/str_cat.h"
 #include "absl/strings/str_format.h"
 #include "absl/synchronization/mutex.h"
+#include "daemon/util/caller_text.h"
 #include "daemon/util/redact.h"
 
 namespace plumbline::daemon {
@@ -55,37 +56,6 @@ void AppendKeyValue(std::string* line, absl::string_view value) {
   absl::StrAppend(line, "\"", absl::CEscape(value), "\"");
 }
 
-// Length of the well-formed UTF-8 sequence starting at value[i], or 0.
-size_t Utf8SequenceLength(absl::string_view value, size_t i) {
-  const auto byte = [&](size_t k) { return static_cast<uint8_t>(value[k]); };
-  const uint8_t lead = byte(i);
-  size_t length = 0;
-  uint32_t code = 0;
-  if (lead >= 0xC2 && lead <= 0xDF) {
-    length = 2;
-    code = lead & 0x1Fu;
-  } else if (lead >= 0xE0 && lead <= 0xEF) {
-    length = 3;
-    code = lead & 0x0Fu;
-  } else if (lead >= 0xF0 && lead <= 0xF4) {
-    length = 4;
-    code = lead & 0x07u;
-  } else {
-    return 0;
-  }
-  if (i + length > value.size()) return 0;
-  for (size_t k = 1; k < length; ++k) {
-    if ((byte(i + k) & 0xC0u) != 0x80u) return 0;
-    code = (code << 6) | (byte(i + k) & 0x3Fu);
-  }
-  // Overlong forms, surrogates and code points past U+10FFFF.
-  if ((length == 3 && code < 0x800) || (length == 4 && code < 0x10000) ||
-      (code >= 0xD800 && code <= 0xDFFF) || code > 0x10FFFF) {
-    return 0;
-  }
-  return length;
-}
-
 // Appends `value` as a JSON string. Written by hand rather than through
 // protobuf's JSON printer: that printer refuses strings that are not valid
 // UTF-8 (file names, SQLite messages may not be) and a log line must never
@@ -96,7 +66,7 @@ void AppendJsonString(std::string* line, absl::string_view value) {
     const char c = value[i];
     const auto u = static_cast<unsigned char>(c);
     if (u >= 0x80) {
-      const size_t length = Utf8SequenceLength(value, i);
+      const size_t length = Utf8CharLength(value, i);
       if (length == 0) {
         line->append("\xEF\xBF\xBD");  // U+FFFD REPLACEMENT CHARACTER
         ++i;

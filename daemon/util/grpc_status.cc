@@ -2,6 +2,10 @@
 #include "daemon/util/grpc_status.h"
 
 #include <string>
+#include <utility>
+
+#include "absl/strings/str_cat.h"
+#include "absl/strings/string_view.h"
 
 namespace plumbline::daemon {
 
@@ -17,8 +21,22 @@ static_assert(static_cast<int>(absl::StatusCode::kUnauthenticated) ==
 
 grpc::Status ToGrpcStatus(const absl::Status& status) {
   if (status.ok()) return grpc::Status::OK;
+  absl::string_view message = status.message();
+  std::string text;
+  if (message.size() <= kMaxStatusMessageBytes) {
+    text = std::string(message);
+  } else {
+    // Cut on a UTF-8 character boundary: back over continuation bytes.
+    size_t cut = kMaxStatusMessageBytes;
+    while (cut > 0 &&
+           (static_cast<unsigned char>(message[cut]) & 0xc0) == 0x80) {
+      --cut;
+    }
+    text = absl::StrCat(message.substr(0, cut), "... (message cut at ", cut,
+                        " of ", message.size(), " bytes)");
+  }
   return grpc::Status(static_cast<grpc::StatusCode>(status.code()),
-                      std::string(status.message()));
+                      std::move(text));
 }
 
 absl::Status FromGrpcStatus(const grpc::Status& status) {

@@ -76,6 +76,20 @@ TEST(CoefficientSetTest, ReadsAFileAndRoundTripsExactly) {
   EXPECT_EQ(back->SerializeAsString(), set.SerializeAsString());
 }
 
+TEST(ShownTextTest, CutsAndEscapes) {
+  EXPECT_EQ(ShownText("rural"), "rural");
+  EXPECT_EQ(ShownText("a\nb\\"), "a\\x0ab\\x5c");
+  EXPECT_EQ(ShownText(std::string(100, 'z')),
+            std::string(64, 'z') + "...(100 bytes)");
+  EXPECT_EQ(ShownText("\xc3\xa9"), "\\xc3\\xa9");
+}
+
+TEST(CoefficientSetTest, LongestVersionIsAccepted) {
+  v1::CoefficientSet set = ValidSet();
+  set.set_version(std::string(kMaxVersionBytes, 'v'));
+  EXPECT_TRUE(ValidateCoefficientSet(set, "x").ok());
+}
+
 struct ValidationCase {
   const char* what;
   std::function<void(v1::CoefficientSet&)> mutate;
@@ -118,6 +132,21 @@ INSTANTIATE_TEST_SUITE_P(
                        "name: must be"},
         ValidationCase{"no version", [](auto& s) { s.set_version(""); },
                        "version: must not be empty"},
+        ValidationCase{
+            "version with a newline",
+            [](auto& s) { s.set_version("v2\nlevel=error"); },
+            "version: \"v2\\x0alevel=error\" holds the control character "
+            "0x0a at byte 2"},
+        ValidationCase{"version with an escape",
+                       [](auto& s) { s.set_version("\x1b[2J"); },
+                       "version: \"\\x1b[2J\" holds the control character"},
+        ValidationCase{"very long version",
+                       [](auto& s) { s.set_version(std::string(129, 'v')); },
+                       "...(129 bytes)\" is longer than 128 bytes"},
+        ValidationCase{
+            "feature name with a tab",
+            [](auto& s) { s.mutable_features(1)->set_name("parcel\tkg"); },
+            "features[1].name: \"parcel\\x09kg\" holds the control"},
         ValidationCase{"NaN intercept", [](auto& s) { s.set_intercept(kNaN); },
                        "intercept: must be a finite number"},
         ValidationCase{

@@ -268,5 +268,61 @@ TEST(ScoringPlanNumericTest, DenseFastPathMatchesNamedPath) {
   }
 }
 
+// Found by tests/fuzz/fuzz_coefficient_set: a valid set and finite values
+// gave a NaN probability. weight_kg's scale of 1e-300 turns a value of 1e10
+// into +inf, and an infinite standardised value times any coefficient (0 or
+// not) is no score; nor is a sum of finite contributions past the largest
+// double. Each is refused naming the feature or the record.
+TEST(ScoringPlanOverflowTest, ExtremeValuesAreRefusedNotScoredAsNaN) {
+  v1::CoefficientSet set;
+  set.set_name("extreme");
+  set.set_version("1");
+  v1::Feature* tiny = set.add_features();
+  tiny->set_name("tiny_scale");
+  tiny->mutable_numeric()->set_scale(1e-300);
+  tiny->mutable_numeric()->set_coefficient(0);
+  tiny->mutable_missing()->set_kind(v1::MissingRule::IMPUTE);
+  for (const char* name : {"big_up", "big_down"}) {
+    v1::Feature* f = set.add_features();
+    f->set_name(name);
+    f->mutable_numeric()->set_scale(1);
+    f->mutable_numeric()->set_coefficient(name[4] == 'u' ? 1e300 : -1e300);
+  }
+  auto plan = ScoringPlan::Compile(set, "test");
+  ASSERT_TRUE(plan.ok()) << plan.status();
+  const auto score = [&](double a, double b, double c) {
+    return (*plan)->Score(std::vector<RawValue>{
+        RawValue::Number(a), RawValue::Number(b), RawValue::Number(c)});
+  };
+  ASSERT_TRUE(score(1, 1, 1).ok());
+
+  absl::StatusOr<ScoreResult> r = score(1e10, 1, 1);
+  EXPECT_EQ(r.status().code(), absl::StatusCode::kInvalidArgument);
+  EXPECT_THAT(r.status().message(),
+              HasSubstr("feature 'tiny_scale': value 1e+10 is too far from "
+                        "the centre"));
+  // 1e300 * 1e10 overflows: +inf, then -inf from the other feature.
+  r = score(0, 1e10, 1e10);
+  EXPECT_EQ(r.status().code(), absl::StatusCode::kInvalidArgument);
+  EXPECT_THAT(r.status().message(),
+              HasSubstr("set 'extreme': the log-odds come to"));
+  r = score(0, 1e10, 0);  // +inf alone: no probability either
+  EXPECT_EQ(r.status().code(), absl::StatusCode::kInvalidArgument);
+
+  // The dense path, fast (all numeric, all present) and general.
+  RowMatrix raw(2, 3);
+  raw << 1, 1, 1, 1e10, 1, 1;
+  Eigen::VectorXd lo(2), p(2);
+  absl::Status dense = (*plan)->ScoreDense(raw, {0, 1, 2}, {}, lo, p);
+  EXPECT_EQ(dense.code(), absl::StatusCode::kInvalidArgument);
+  EXPECT_THAT(dense.message(), HasSubstr("rows[1]: feature 'tiny_scale'"));
+  raw << 1, 1, 1, 0, 1e10, 1e10;
+  dense = (*plan)->ScoreDense(raw, {0, 1, 2}, {}, lo, p);
+  EXPECT_THAT(dense.message(), HasSubstr("rows[1]: set 'extreme': the "
+                                         "log-odds come to"));
+  dense = (*plan)->ScoreDense(raw, {-1, 1, 2}, {}, lo, p);  // general path
+  EXPECT_THAT(dense.message(), HasSubstr("rows[1]: set 'extreme'"));
+}
+
 }  // namespace
 }  // namespace plumbline::scorer

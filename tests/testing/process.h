@@ -97,6 +97,8 @@ class PlumbdProcess {
   PlumbdProcess& operator=(const PlumbdProcess&) = delete;
 
   const std::string& addr() const { return addr_; }
+  // The daemon's process id (for /proc/PID reads).
+  pid_t pid() const { return pid_; }
   void Signal(int signal_number) const;
   // Waits for the daemon to exit: its exit status, or -N if killed by N.
   absl::StatusOr<int> WaitForExit();

@@ -12,6 +12,8 @@
 #include <vector>
 
 #include "absl/strings/str_cat.h"
+#include "absl/time/clock.h"
+#include "absl/time/time.h"
 #include "daemon/security/token_hash.h"
 #include "gmock/gmock.h"
 #include "google/protobuf/util/json_util.h"
@@ -131,6 +133,79 @@ TEST_F(AccessControlTest, WrongOrMissingCredentialsAreUnauthenticated) {
   EXPECT_EQ(Counted(*registry_, "malformed_credentials"), 6);
   EXPECT_EQ(Counted(*registry_, "wrong_role"), 0);
   EXPECT_EQ(Counted(*registry_, "metrics_password"), 0);
+}
+
+double CounterValue(prometheus::Registry& registry, const std::string& name) {
+  for (const auto& family : registry.Collect()) {
+    if (family.name == name && family.metric.size() == 1) {
+      return family.metric[0].counter.value;
+    }
+  }
+  return -1;
+}
+
+TEST_F(AccessControlTest, FreshWrongSecretsForAKnownIdAreThrottled) {
+  auto access = Make();
+  ASSERT_NE(access, nullptr);
+  const absl::Time start = absl::Now();
+  constexpr int kAttempts = 40;
+  int throttled = 0;
+  std::string throttled_message;
+  for (int i = 0; i < kAttempts; ++i) {
+    absl::StatusOr<NewToken> other = MakeToken();
+    ASSERT_TRUE(other.ok());
+    // The score token's public id with a fresh random secret each time.
+    const std::string forged =
+        absl::StrCat(score_.token.substr(0, 17), other->token.substr(17));
+    const absl::Status s = access->Check(Bearer(forged), Role::kScore);
+    ASSERT_FALSE(s.ok());
+    if (s.code() == absl::StatusCode::kResourceExhausted) {
+      ++throttled;
+      throttled_message = std::string(s.message());
+    } else {
+      EXPECT_EQ(s.code(), absl::StatusCode::kUnauthenticated) << s;
+    }
+  }
+  // SecretCheckOptions defaults: a burst of 5, then one run per 5 s of the
+  // time the loop took (measured, so a slow machine only loosens the bound).
+  const int64_t allowed = 5 + static_cast<int64_t>(absl::FDivDuration(
+                                  absl::Now() - start, absl::Seconds(5)));
+  const double hashes =
+      CounterValue(*registry_, "plumbline_auth_secret_hashes_total");
+  EXPECT_GE(hashes, 5);
+  EXPECT_LE(hashes, static_cast<double>(allowed));
+  EXPECT_EQ(throttled, kAttempts - static_cast<int>(hashes));
+  EXPECT_EQ(Counted(*registry_, "throttled"), throttled);
+  EXPECT_EQ(Counted(*registry_, "unknown_token"), hashes);
+  EXPECT_THAT(throttled_message,
+              HasSubstr(absl::StrCat("token ", score_.token.substr(4, 12),
+                                     ": too many wrong secrets")));
+  EXPECT_THAT(throttled_message, HasSubstr("retry in"));
+  EXPECT_THAT(throttled_message, Not(HasSubstr(score_.token.substr(17))));
+
+  // The other token id is not affected, and the right score token, checked
+  // once before the flood, would not be either; checked for the first time
+  // now it waits like any unverified secret (documented).
+  EXPECT_TRUE(access->Check(Bearer(admin_.token), Role::kAdmin).ok());
+  EXPECT_EQ(access->Check(Bearer(score_.token), Role::kScore).code(),
+            absl::StatusCode::kResourceExhausted);
+}
+
+TEST_F(AccessControlTest, AVerifiedTokenIsNeverThrottled) {
+  auto access = Make();
+  ASSERT_NE(access, nullptr);
+  ASSERT_TRUE(access->Check(Bearer(score_.token), Role::kScore).ok());
+  for (int i = 0; i < 20; ++i) {
+    absl::StatusOr<NewToken> other = MakeToken();
+    ASSERT_TRUE(other.ok());
+    const std::string forged =
+        absl::StrCat(score_.token.substr(0, 17), other->token.substr(17));
+    EXPECT_FALSE(access->Check(Bearer(forged), Role::kScore).ok());
+  }
+  EXPECT_GT(Counted(*registry_, "throttled"), 0);
+  for (int i = 0; i < 5; ++i) {
+    EXPECT_TRUE(access->Check(Bearer(score_.token), Role::kScore).ok());
+  }
 }
 
 TEST_F(AccessControlTest, CertificateSubjectsMapToRoles) {

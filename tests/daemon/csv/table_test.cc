@@ -72,6 +72,22 @@ TEST(FormatCsvRowTest, QuotesOnlyWhenNeededAndRoundTrips) {
   EXPECT_EQ(back->rows[0], fields);
 }
 
+// Found by tests/fuzz/fuzz_csv: a file starting with two byte-order marks
+// has a first column named "\xEF\xBB\xBFx"; written back unquoted, the next
+// read took that mark for the file's own and dropped it.
+TEST(FormatCsvRowTest, AFieldStartingWithAByteOrderMarkRoundTrips) {
+  absl::StatusOr<CsvTable> table =
+      ParseCsv("\xEF\xBB\xBF\xEF\xBB\xBFx,y\n1,2\n", "t.csv");
+  ASSERT_TRUE(table.ok()) << table.status();
+  ASSERT_EQ(table->header[0], "\xEF\xBB\xBFx");
+  const std::string written =
+      FormatCsvRow(table->header) + FormatCsvRow(table->rows[0]);
+  EXPECT_EQ(written, "\"\xEF\xBB\xBFx\",y\n1,2\n");
+  absl::StatusOr<CsvTable> back = ParseCsv(written, "t.csv");
+  ASSERT_TRUE(back.ok()) << back.status();
+  EXPECT_EQ(back->header, table->header);
+}
+
 v1::SetSummary Schema() {
   v1::SetSummary schema;
   schema.set_name("courier");

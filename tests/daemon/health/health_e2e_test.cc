@@ -218,7 +218,9 @@ class HealthEndToEndTest : public ::testing::Test {
                              "--outcome-figures", in, out},
                             dir_.path());
     EXPECT_TRUE(run.ok()) << run.status();
-    if (run.ok()) EXPECT_EQ(run->exit_code, 0) << run->out << run->err;
+    if (run.ok()) {
+      EXPECT_EQ(run->exit_code, 0) << run->out << run->err;
+    }
     auto reference = plumbline::testing::ReadJsonFile(out);
     EXPECT_TRUE(reference.ok()) << reference.status();
     return reference.ok() ? *reference : google::protobuf::Struct();

@@ -81,10 +81,10 @@ TEST(FeaturesJsonTest, NonFiniteNumbersBecomeNull) {
 TEST(FeaturesJsonTest, StringsAreEscapedAndReadBackUnchanged) {
   auto plan = testing::CourierPlan();
   const std::string texts[] = {
-      "plain",
-      "quote \" and backslash \\",
-      "line\nfeed\r\ttab\b\f",
-      std::string("nul \0 and \x1f unit separator", 30),
+      "plain", "quote \" and backslash \\", "line\nfeed\r\ttab\b\f",
+      // 26 bytes: the literal without its terminating NUL (the embedded
+      // one stays). ASan caught the old length, 30, reading past the end.
+      std::string("nul \0 and \x1f unit separator", 26),
       "caf\xc3\xa9 \xe2\x82\xac",  // UTF-8: é and the euro sign
       "slash / stays"};
   for (const std::string& text : texts) {

@@ -171,13 +171,14 @@ TEST_F(RefitWorkerTest, DriftWaitsForNewLabelsWhenAsked) {
 // job in the whole history of the ledger.
 TEST_F(RefitWorkerTest, JobIdsGoOnAcrossRestarts) {
   Start(v1::RefitPolicy::OFF, absl::ZeroDuration());
-  worker_->RunNow({"courier", RefitTriggerKind::kManual, "alice", "first"});
-  worker_->RunNow({"courier", RefitTriggerKind::kManual, "alice", "second"});
+  worker_->RunNow({"courier", RefitTriggerKind::kManual, "alice", "first", {}});
+  worker_->RunNow(
+      {"courier", RefitTriggerKind::kManual, "alice", "second", {}});
   worker_.reset();  // plumbd stops; the ledger keeps the audit
   worker_ = std::make_unique<RefitWorker>(runner_.get(), nullptr,
                                           [] { return absl::Now(); });
   worker_->RunNow(
-      {"courier", RefitTriggerKind::kManual, "alice", "after restart"});
+      {"courier", RefitTriggerKind::kManual, "alice", "after restart", {}});
   EXPECT_EQ(FailedJobActors(),
             (std::vector<std::string>{"refit job 1 (manual, alice)",
                                       "refit job 2 (manual, alice)",
@@ -193,8 +194,8 @@ TEST_F(RefitWorkerTest, ModeOffStartsNothingButManualJobsRun) {
   Start(v1::RefitPolicy::OFF, absl::Minutes(1));
   Advance(absl::Hours(2));
   EXPECT_EQ(Evaluate(v1::DRIFTING), 0);
-  RefitOutcome manual =
-      worker_->RunNow({"courier", RefitTriggerKind::kManual, "alice", "test"});
+  RefitOutcome manual = worker_->RunNow(
+      {"courier", RefitTriggerKind::kManual, "alice", "test", {}});
   EXPECT_EQ(manual.result, RefitOutcome::Result::kFailed);
   EXPECT_TRUE(absl::StrContains(manual.summary, "too few labelled records"))
       << manual.summary;

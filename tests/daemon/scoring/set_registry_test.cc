@@ -57,6 +57,33 @@ TEST_F(SetRegistryTest, LoadsEveryJsonFileAndIgnoresOthers) {
                               dir_.File("courier.json")));
 }
 
+TEST_F(SetRegistryTest, EntriesThatAreNotReadableFilesAreLoggedByName) {
+  Write("courier.json", CourierSetJson("courier", "v1"));
+  std::filesystem::create_directory(dir_.File("folder.json"));
+  std::filesystem::create_symlink(dir_.File("missing-target"),
+                                  dir_.File("dangling.json"));
+  const ReloadReport report = Reload();
+  EXPECT_THAT(registry_.Names(), ElementsAre("courier"));
+  EXPECT_THAT(report.rejected_files, ElementsAre(dir_.File("dangling.json"),
+                                                 dir_.File("folder.json")));
+  EXPECT_THAT(log_, HasSubstr("level=error event=set_file_skipped file=" +
+                              dir_.File("folder.json") +
+                              " error=\"a directory, not a file\""));
+  EXPECT_THAT(log_, HasSubstr("level=error event=set_file_skipped file=" +
+                              dir_.File("dangling.json")));
+}
+
+TEST_F(SetRegistryTest, AFileReplacedByABrokenLinkKeepsItsSet) {
+  Write("courier.json", CourierSetJson("courier", "v1"));
+  Reload();
+  std::filesystem::remove(dir_.File("courier.json"));
+  std::filesystem::create_symlink(dir_.File("missing-target"),
+                                  dir_.File("courier.json"));
+  const ReloadReport report = Reload();
+  EXPECT_EQ(Version("courier"), "v1");
+  EXPECT_THAT(report.kept, ElementsAre("courier"));
+}
+
 TEST_F(SetRegistryTest, FileThatFailsValidationKeepsThePreviousVersion) {
   Write("courier.json", CourierSetJson("courier", "v1"));
   Reload();

@@ -166,14 +166,17 @@ TEST_F(PlumbdSecurityTest, CertificateSubjectsMapToRoles) {
 }
 
 TEST_F(PlumbdSecurityTest, PlainTextOffLoopbackOnlyWhenAllowed) {
-  auto refused = Start("{}", {"--listen", "0.0.0.0:0"});
+  // Metrics stay on loopback: open metrics need their own permission
+  // (security.allow_unauthenticated_metrics_non_loopback).
+  const std::vector<std::string> open = {"--listen", "0.0.0.0:0",
+                                         "--metrics_listen", "127.0.0.1:0"};
+  auto refused = Start("{}", open);
   ASSERT_FALSE(refused.ok());
   EXPECT_THAT(std::string(refused.status().message()),
               HasSubstr("security.allow_plaintext_non_loopback"));
 
   auto allowed =
-      Start(R"({"security": {"allow_plaintext_non_loopback": true}})",
-            {"--listen", "0.0.0.0:0"});
+      Start(R"({"security": {"allow_plaintext_non_loopback": true}})", open);
   ASSERT_TRUE(allowed.ok()) << allowed.status();
   EXPECT_THAT((*allowed)->Log(), HasSubstr("mode=plaintext"));
   EXPECT_THAT((*allowed)->Log(),
@@ -183,7 +186,7 @@ TEST_F(PlumbdSecurityTest, PlainTextOffLoopbackOnlyWhenAllowed) {
   EXPECT_TRUE(ListSets(testing::PlainChannel("127.0.0.1:" + port)).ok());
   allowed->reset();
 
-  auto tls = Start(TlsConfig(/*mutual=*/false), {"--listen", "0.0.0.0:0"});
+  auto tls = Start(TlsConfig(/*mutual=*/false), open);
   ASSERT_TRUE(tls.ok()) << tls.status();
   EXPECT_THAT((*tls)->Log(), HasSubstr("mode=tls"));
 }

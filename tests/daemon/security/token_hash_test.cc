@@ -5,12 +5,16 @@
 // masking of secrets in log text.
 #include "daemon/security/token_hash.h"
 
+#include <functional>
 #include <string>
+#include <thread>
+#include <vector>
 
 #include "absl/strings/ascii.h"
 #include "absl/strings/escaping.h"
 #include "absl/strings/match.h"
 #include "absl/strings/str_cat.h"
+#include "absl/time/time.h"
 #include "gmock/gmock.h"
 #include "gtest/gtest.h"
 
@@ -104,6 +108,118 @@ TEST(SecretCheckTest, RefusesWeakHashesAndCachesAnswers) {
     EXPECT_FALSE((*check)->Matches("pw2"));
     EXPECT_FALSE((*check)->Matches(""));
   }
+}
+
+// A clock the test moves by hand.
+struct FakeClock {
+  absl::Time now = absl::FromUnixSeconds(1764577800);
+  std::function<absl::Time()> Fn() {
+    return [this] { return now; };
+  }
+};
+
+TEST(SecretCheckTest, FreshWrongSecretsCostAtMostTheBurstThenOnePerRefill) {
+  absl::StatusOr<std::string> stored = HashSecret("pw", kMinHashIterations);
+  ASSERT_TRUE(stored.ok());
+  FakeClock clock;
+  SecretCheckOptions options;
+  options.burst = 3;
+  options.refill = absl::Seconds(5);
+  options.now = clock.Fn();
+  absl::StatusOr<std::unique_ptr<SecretCheck>> check =
+      SecretCheck::Create(*stored, options);
+  ASSERT_TRUE(check.ok()) << check.status();
+  const SecretCheck& c = **check;
+
+  // 100 different wrong secrets with the clock standing still: the burst
+  // (3) is hashed and refused, every later one is refused unhashed.
+  int throttled = 0;
+  for (int i = 0; i < 100; ++i) {
+    bool hashed = true;
+    const SecretVerdict v = c.Check(absl::StrCat("guess-", i), &hashed);
+    ASSERT_NE(v, SecretVerdict::kMatch);
+    if (v == SecretVerdict::kThrottled) {
+      ++throttled;
+      EXPECT_FALSE(hashed);
+    }
+  }
+  EXPECT_EQ(c.hashes(), 3);
+  EXPECT_EQ(throttled, 97);
+  EXPECT_EQ(c.RetryAfter(), absl::Seconds(5));
+
+  // A guess already refused is refused again from the cache, unthrottled.
+  EXPECT_EQ(c.Check("guess-0"), SecretVerdict::kMismatch);
+  EXPECT_EQ(c.hashes(), 3);
+
+  // 12 s later: two more runs were earned (one per 5 s), no more.
+  clock.now += absl::Seconds(12);
+  EXPECT_EQ(c.Check("later-1"), SecretVerdict::kMismatch);
+  EXPECT_EQ(c.Check("later-2"), SecretVerdict::kMismatch);
+  EXPECT_EQ(c.Check("later-3"), SecretVerdict::kThrottled);
+  EXPECT_EQ(c.hashes(), 5);
+  EXPECT_EQ(c.RetryAfter(), absl::Seconds(3));  // 15 s after the flood
+
+  // The right secret, new to this object, waits for the bucket like any
+  // other unverified secret; once it has been verified it is never
+  // throttled, and costs no further run.
+  EXPECT_EQ(c.Check("pw"), SecretVerdict::kThrottled);
+  clock.now += absl::Seconds(3);
+  EXPECT_EQ(c.Check("pw"), SecretVerdict::kMatch);
+  EXPECT_EQ(c.hashes(), 6);
+  // The right secret gave its unit back: one more guess is hashed, then
+  // the bucket is empty again.
+  EXPECT_EQ(c.Check("another-guess"), SecretVerdict::kMismatch);
+  EXPECT_EQ(c.Check("yet-another-guess"), SecretVerdict::kThrottled);
+  for (int i = 0; i < 10; ++i) EXPECT_EQ(c.Check("pw"), SecretVerdict::kMatch);
+  EXPECT_EQ(c.hashes(), 7);
+}
+
+TEST(SecretCheckTest, RefusedCacheForgetsTheOldestFirst) {
+  absl::StatusOr<std::string> stored = HashSecret("pw", kMinHashIterations);
+  ASSERT_TRUE(stored.ok());
+  FakeClock clock;
+  SecretCheckOptions options;
+  options.burst = 1;
+  options.refill = absl::Seconds(1);
+  options.max_refused = 2;
+  options.now = clock.Fn();
+  absl::StatusOr<std::unique_ptr<SecretCheck>> check =
+      SecretCheck::Create(*stored, options);
+  ASSERT_TRUE(check.ok());
+  const SecretCheck& c = **check;
+  for (const char* guess : {"a", "b", "c"}) {
+    EXPECT_EQ(c.Check(guess), SecretVerdict::kMismatch);
+    clock.now += absl::Seconds(1);
+  }
+  EXPECT_EQ(c.hashes(), 3);
+  // "b" and "c" are remembered; "a" was forgotten and costs a run again.
+  EXPECT_EQ(c.Check("c"), SecretVerdict::kMismatch);
+  EXPECT_EQ(c.Check("b"), SecretVerdict::kMismatch);
+  EXPECT_EQ(c.hashes(), 3);
+  EXPECT_EQ(c.Check("a"), SecretVerdict::kMismatch);
+  EXPECT_EQ(c.hashes(), 4);
+}
+
+TEST(SecretCheckTest, ConcurrentFreshSecretsNeverExceedTheBurst) {
+  absl::StatusOr<std::string> stored = HashSecret("pw", kMinHashIterations);
+  ASSERT_TRUE(stored.ok());
+  FakeClock clock;  // never moves: no refill during the test
+  SecretCheckOptions options;
+  options.burst = 4;
+  options.now = clock.Fn();
+  absl::StatusOr<std::unique_ptr<SecretCheck>> check =
+      SecretCheck::Create(*stored, options);
+  ASSERT_TRUE(check.ok());
+  std::vector<std::thread> threads;
+  for (int t = 0; t < 8; ++t) {
+    threads.emplace_back([&, t] {
+      for (int i = 0; i < 25; ++i) {
+        (*check)->Check(absl::StrCat("thread-", t, "-guess-", i));
+      }
+    });
+  }
+  for (std::thread& thread : threads) thread.join();
+  EXPECT_EQ((*check)->hashes(), 4);
 }
 
 TEST(TokenTest, FreshTokensHaveTheDocumentedShape) {

@@ -210,5 +210,52 @@ TEST(HealthOptionsTest, BadAlarmSettingsNameTheField) {
   }
 }
 
+TEST(CheckDaemonOptionsTest, TheDefaultsPass) {
+  EXPECT_TRUE(CheckDaemonOptions(DaemonOptions()).ok());
+}
+
+TEST(CheckDaemonOptionsTest, MessageLimitHasAFloor) {
+  DaemonOptions options;
+  options.max_message_bytes = 10;
+  const absl::Status s = CheckDaemonOptions(options);
+  EXPECT_EQ(s.code(), absl::StatusCode::kInvalidArgument);
+  EXPECT_THAT(std::string(s.message()),
+              HasSubstr("max_message_bytes: 10 is below the floor"));
+  options.max_message_bytes = kMinMessageBytes;
+  EXPECT_TRUE(CheckDaemonOptions(options).ok());
+}
+
+TEST(CheckDaemonOptionsTest, SubjectsNeedMutualTls) {
+  DaemonOptions options;
+  options.security.mutable_access()->add_subjects()->set_common_name("r-1");
+  EXPECT_THAT(std::string(CheckDaemonOptions(options).message()),
+              HasSubstr("security.access.subjects: 1 certificate subject"));
+  // TLS without a client CA still cannot see a client certificate.
+  options.security.mutable_tls()->set_cert_file("s.crt");
+  options.security.mutable_tls()->set_key_file("s.key");
+  EXPECT_FALSE(CheckDaemonOptions(options).ok());
+  options.security.mutable_tls()->set_client_ca_file("ca.crt");
+  EXPECT_TRUE(CheckDaemonOptions(options).ok());
+}
+
+TEST(CheckDaemonOptionsTest, OpenMetricsOffLoopbackNeedTheFlag) {
+  DaemonOptions options;
+  for (const char* loopback : {"127.0.0.1:0", "[::1]:9", "localhost:7391"}) {
+    options.metrics_listen = loopback;
+    EXPECT_TRUE(CheckDaemonOptions(options).ok()) << loopback;
+  }
+  for (const char* open : {"0.0.0.0:7391", "[::]:7391", "10.1.2.3:7391"}) {
+    options.metrics_listen = open;
+    const absl::Status s = CheckDaemonOptions(options);
+    EXPECT_EQ(s.code(), absl::StatusCode::kInvalidArgument) << open;
+    EXPECT_THAT(std::string(s.message()), HasSubstr("metrics_listen:"));
+  }
+  options.security.set_allow_unauthenticated_metrics_non_loopback(true);
+  EXPECT_TRUE(CheckDaemonOptions(options).ok());
+  options.security.set_allow_unauthenticated_metrics_non_loopback(false);
+  options.security.mutable_metrics_auth()->set_username("scraper");
+  EXPECT_TRUE(CheckDaemonOptions(options).ok());
+}
+
 }  // namespace
 }  // namespace plumbline::daemon

@@ -1,6 +1,8 @@
 // File: tests/daemon/util/grpc_status_test.cc
 #include "daemon/util/grpc_status.h"
 
+#include <string>
+
 #include "gtest/gtest.h"
 
 namespace plumbline::daemon {
@@ -32,6 +34,25 @@ TEST(GrpcStatusTest, NamedCodesLineUp) {
   EXPECT_EQ(FromGrpcStatus(grpc::Status(grpc::StatusCode::UNAVAILABLE, "down"))
                 .code(),
             absl::StatusCode::kUnavailable);
+}
+
+TEST(GrpcStatusTest, LongMessageIsCutOnACharacterBoundary) {
+  // 'é' is two bytes (0xc3 0xa9); 1500 of them are 3000 bytes, so the cut at
+  // kMaxStatusMessageBytes (2048, even) falls between two characters.
+  std::string long_text = "x";  // shifts the boundary by one byte
+  for (int i = 0; i < 1500; ++i) long_text += "\xc3\xa9";
+  const grpc::Status out = ToGrpcStatus(absl::InvalidArgumentError(long_text));
+  EXPECT_EQ(out.error_code(), grpc::StatusCode::INVALID_ARGUMENT);
+  const std::string& m = out.error_message();
+  ASSERT_LT(m.size(), kMaxStatusMessageBytes + 100);
+  const size_t marker = m.find("... (message cut at 2047 of 3001 bytes)");
+  ASSERT_NE(marker, std::string::npos) << m.substr(m.size() - 60);
+  EXPECT_EQ(m.substr(0, marker), long_text.substr(0, 2047));
+}
+
+TEST(GrpcStatusTest, MessageAtTheLimitIsKept) {
+  const std::string text(kMaxStatusMessageBytes, 'a');
+  EXPECT_EQ(ToGrpcStatus(absl::NotFoundError(text)).error_message(), text);
 }
 
 }  // namespace
