@@ -8,7 +8,7 @@
 #include <vector>
 
 #include "absl/strings/str_cat.h"
-#include "daemon/scoring/features_json.h"
+#include "daemon/scoring/packed_row.h"
 #include "daemon/util/event_log.h"
 #include "google/protobuf/struct.pb.h"
 
@@ -55,10 +55,10 @@ absl::Status RebuildWindows(Ledger& ledger, HealthWindows& windows,
   const absl::Time labelled_since = windows.LabelledReadStart(now);
   const absl::Time coverage_since = windows.CoverageStart(now);
   int64_t labelled = 0, scored = 0, skipped = 0;
-  google::protobuf::Struct holder;
+  StoredFeatureReader reader;
   std::vector<scorer::RawValue> row;
   auto parses = [&](const ScoreEntry& e) {
-    return ParseFeaturesJson(plan, e.features_json, &holder, &row).ok();
+    return reader.Read(plan, e.layout.get(), e.features, &row).ok();
   };
 
   // Count windows: the newest N rows of the version, fed oldest first.

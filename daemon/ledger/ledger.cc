@@ -18,7 +18,9 @@
 #include "daemon/ledger/schema.h"
 #include "daemon/ledger/set_ids.h"
 #include "daemon/ledger/wal_io.h"
+#include "daemon/scoring/packed_row.h"
 #include "daemon/util/event_log.h"
+#include "google/protobuf/util/message_differencer.h"
 
 namespace plumbline::daemon {
 
@@ -100,12 +102,33 @@ void BindScore(SqliteStatement& ins, int first, const ScoreEntry& e,
   ins.BindInt64(first + 3, Micros(e.scored_at));
   ins.BindDouble(first + 4, e.log_odds);
   ins.BindDouble(first + 5, e.probability);
-  ins.BindTextNoCopy(first + 6, e.features_json);
+  if (IsPackedRow(e.features)) {
+    ins.BindBlobNoCopy(first + 6, e.features);
+  } else {
+    ins.BindTextNoCopy(first + 6, e.features);  // JSON (tests, old callers)
+  }
   if (e.role == ScoreRole::kActive) {
     ins.BindInt64(first + 7, ids.name_id);
   } else {
     ins.BindNull(first + 7);
   }
+}
+
+// Whether two scores of one record id hold the same feature values: the
+// same bytes under one layout, else the same JSON object (names in each
+// version's order, so a version that reorders its features reads as other
+// features: the record then needs a new id).
+bool SameFeatures(const ScoreEntry& stored, const ScoreEntry& e) {
+  const bool same_layout = stored.layout == e.layout ||
+                           (stored.layout != nullptr && e.layout != nullptr &&
+                            google::protobuf::util::MessageDifferencer::Equals(
+                                *stored.layout, *e.layout));
+  if (same_layout && stored.features == e.features) return true;
+  absl::StatusOr<std::string> a =
+      StoredFeaturesJson(stored.layout.get(), stored.features);
+  absl::StatusOr<std::string> b =
+      StoredFeaturesJson(e.layout.get(), e.features);
+  return a.ok() && b.ok() && *a == *b;
 }
 
 constexpr char kInsertScoreColumns[] =
@@ -193,7 +216,8 @@ absl::StatusOr<std::unique_ptr<Ledger>> Ledger::Open(LedgerOptions options) {
   } prepared[] = {
       {&s->find_primary,
        "SELECT ss.set_version, s.scored_at_us, s.log_odds, s.probability,"
-       " s.features FROM scores s JOIN score_sets ss ON ss.id = s.set_id"
+       " s.features, ss.id, ss.layout FROM scores s"
+       " JOIN score_sets ss ON ss.id = s.set_id"
        " WHERE s.record_id = ?1 AND s.primary_set = ?2"},
       {&s->scores_savepoint, "SAVEPOINT scores"},
       {&s->scores_rollback_to, "ROLLBACK TO scores"},
@@ -606,7 +630,9 @@ absl::Status Ledger::WriteJobScores(Job& job, const LedgerSetId* ids) {
       stored.scored_at = absl::FromUnixMicros(s.find_primary->ColumnInt64(1));
       stored.log_odds = s.find_primary->ColumnDouble(2);
       stored.probability = s.find_primary->ColumnDouble(3);
-      stored.features_json = s.find_primary->ColumnText(4);
+      stored.features = s.find_primary->ColumnText(4);
+      stored.layout = StoredLayout(s.find_primary->ColumnInt64(5),
+                                   s.find_primary->ColumnText(6));
     }
     s.find_primary->Reset();
     if (!row.ok()) return row.status();
@@ -615,7 +641,7 @@ absl::Status Ledger::WriteJobScores(Job& job, const LedgerSetId* ids) {
           "ledger: record id '", e.record_id, "' of set '", e.set_name,
           "' was refused as a repeat but no stored score was found"));
     }
-    if (stored.features_json == e.features_json) {
+    if (SameFeatures(stored, e)) {
       repeats.insert(e.record_id);
       job.written[i].repeat = true;
       job.written[i].stored = std::move(stored);

@@ -43,6 +43,7 @@
 #include <vector>
 
 #include "absl/base/thread_annotations.h"
+#include "absl/container/flat_hash_map.h"
 #include "absl/status/status.h"
 #include "absl/status/statusor.h"
 #include "absl/synchronization/mutex.h"
@@ -51,6 +52,7 @@
 #include "daemon/ledger/sqlite_db.h"
 #include "daemon/util/set_version.h"
 #include "daemon/util/time.h"
+#include "plumbline/v1/ledger.pb.h"
 
 namespace plumbline::daemon {
 
@@ -104,8 +106,14 @@ struct ScoreEntry {
   absl::Time scored_at;
   double log_odds = 0;
   double probability = 0;
-  // The feature values as received, as a JSON object.
-  std::string features_json;
+  // The feature values as received: packed in the order of the version
+  // that scored them (daemon/scoring/packed_row.h), or, for rows of
+  // schema < 7, a JSON object. Read them with StoredFeatureReader.
+  std::string features;
+  // Writing: the layout of `set_version` (LayoutOf its plan), stored once
+  // per (set, version, role). Reading: the layout the row was written
+  // under (null for a JSON row); owned by the ledger, lives as long as it.
+  std::shared_ptr<const v1::RowLayout> layout;
 };
 
 // What AppendScores did with one score.
@@ -137,7 +145,9 @@ struct LabelledScore {
   int label = 0;
   absl::Time scored_at;
   absl::Time observed_at;
-  std::string features_json;
+  // As ScoreEntry's.
+  std::string features;
+  std::shared_ptr<const v1::RowLayout> layout;
 };
 
 struct OutcomeResult {
@@ -148,7 +158,7 @@ struct OutcomeResult {
   // True when the same label had already been recorded (nothing changed).
   bool repeat = false;
   // For a new outcome: the scores of that record it now labels (without
-  // their features_json, which the monitor does not need; refits read them
+  // their features, which the monitor does not need; refits read them
   // with Ledger::ForEachLabelled).
   std::vector<LabelledScore> labelled;
 };
@@ -242,6 +252,11 @@ class Ledger {
   // One job's scores row by row (some (record id, set) was there before),
   // `ids` its scores' set ids.
   absl::Status WriteJobScores(Job& job, const LedgerSetId* ids);
+  // The layout stored with score_sets row `set_id` (`json`: its layout
+  // column; empty for rows of schema < 7), parsed once and kept for the
+  // ledger's life; null when there is none. Thread-safe.
+  std::shared_ptr<const v1::RowLayout> StoredLayout(int64_t set_id,
+                                                    absl::string_view json);
   // OK, or why the ledger stopped taking writes.
   absl::Status Failure() const;
   // Stops taking writes for good (this process), logging why once.
@@ -287,6 +302,11 @@ class Ledger {
   bool stopping_ ABSL_GUARDED_BY(mu_) = false;
   LedgerStats stats_ ABSL_GUARDED_BY(mu_);
   absl::Status failed_ ABSL_GUARDED_BY(mu_);  // OK while healthy
+
+  // Layouts by score_sets id (StoredLayout); entries are never removed.
+  absl::Mutex layouts_mu_;
+  absl::flat_hash_map<int64_t, std::shared_ptr<const v1::RowLayout>> layouts_
+      ABSL_GUARDED_BY(layouts_mu_);
 
   // Retention passes run so far (written by the writer after each pass).
   std::atomic<int64_t> retention_passes_{0};

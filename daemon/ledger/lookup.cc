@@ -5,6 +5,7 @@
 #include <utility>
 
 #include "daemon/ledger/entries.h"
+#include "daemon/util/json_text.h"
 
 namespace plumbline::daemon {
 

@@ -6,6 +6,7 @@
 
 #include "daemon/ledger/entries.h"
 #include "daemon/ledger/ledger.h"
+#include "google/protobuf/util/json_util.h"
 
 namespace plumbline::daemon {
 namespace {
@@ -37,25 +38,47 @@ absl::Status ReadRows(const std::string& path, LedgerEnv* env,
 
 }  // namespace
 
+std::shared_ptr<const v1::RowLayout> Ledger::StoredLayout(
+    int64_t set_id, absl::string_view json) {
+  if (json.empty()) return nullptr;
+  absl::MutexLock lock(&layouts_mu_);
+  auto it = layouts_.find(set_id);
+  if (it != layouts_.end()) return it->second;
+  auto layout = std::make_shared<v1::RowLayout>();
+  google::protobuf::util::JsonParseOptions strict;
+  strict.ignore_unknown_fields = false;
+  if (!google::protobuf::util::JsonStringToMessage(
+           google::protobuf::StringPiece(json.data(), json.size()),
+           layout.get(), strict)
+           .ok()) {
+    // A layout that does not parse: its rows read as undecodable (readers
+    // count them as unusable) rather than as some other version's.
+    return nullptr;
+  }
+  return layouts_.emplace(set_id, std::move(layout)).first->second;
+}
+
 absl::Status Ledger::ForEachLabelled(
     const std::string& set_name, int64_t limit, absl::Time since,
     const std::function<void(const LabelledScore&)>& fn) {
   return ReadRows(
       options_.path, env_,
       "SELECT s.record_id, ss.set_name, ss.set_version, ss.role, s.log_odds,"
-      " s.probability, o.label, s.scored_at_us, o.observed_at_us, s.features"
+      " s.probability, o.label, s.scored_at_us, o.observed_at_us, s.features,"
+      " ss.id, ss.layout"
       " FROM outcomes o JOIN scores s ON s.record_id = o.record_id"
       " JOIN score_sets ss ON ss.id = s.set_id"
       " WHERE ss.set_name = ?1 AND o.observed_at_us >= ?2"
       // As the outcome lookup: not the repeats schemas before 5 let in.
       " AND (s.primary_set IS NOT NULL OR ss.role = 'shadow')"
       " ORDER BY o.observed_at_us DESC, s.id DESC LIMIT ?3",
-      set_name, limit, since, [&fn](const SqliteStatement& s) {
+      set_name, limit, since, [&](const SqliteStatement& s) {
         fn(LabelledScore{s.ColumnText(0), s.ColumnText(1), s.ColumnText(2),
                          RoleColumn(s.ColumnText(3)), s.ColumnDouble(4),
                          s.ColumnDouble(5), static_cast<int>(s.ColumnInt64(6)),
                          FromMicros(s.ColumnInt64(7)),
-                         FromMicros(s.ColumnInt64(8)), s.ColumnText(9)});
+                         FromMicros(s.ColumnInt64(8)), s.ColumnText(9),
+                         StoredLayout(s.ColumnInt64(10), s.ColumnText(11))});
       });
 }
 
@@ -69,14 +92,15 @@ absl::Status Ledger::ForEachScore(
       // cannot choose a scan of the whole set followed by a sort.
       "SELECT s.record_id, ss.set_name, ss.set_version, ss.role, "
       "s.scored_at_us,"
-      " s.log_odds, s.probability, s.features FROM scores s"
+      " s.log_odds, s.probability, s.features, ss.id, ss.layout FROM scores s"
       " CROSS JOIN score_sets ss ON ss.id = s.set_id"
       " WHERE ss.set_name = ?1 AND s.scored_at_us >= ?2"
       " ORDER BY s.id DESC LIMIT ?3",
-      set_name, limit, since, [&fn](const SqliteStatement& s) {
+      set_name, limit, since, [&](const SqliteStatement& s) {
         fn(ScoreEntry{s.ColumnText(0), s.ColumnText(1), s.ColumnText(2),
                       RoleColumn(s.ColumnText(3)), FromMicros(s.ColumnInt64(4)),
-                      s.ColumnDouble(5), s.ColumnDouble(6), s.ColumnText(7)});
+                      s.ColumnDouble(5), s.ColumnDouble(6), s.ColumnText(7),
+                      StoredLayout(s.ColumnInt64(8), s.ColumnText(9))});
       });
 }
 

@@ -154,6 +154,21 @@ constexpr const char* kMigrations[] = {
     "  figures TEXT NOT NULL);"
     "CREATE INDEX IF NOT EXISTS health_history_by_set"
     "  ON health_history(set_name, at_us);",
+    // 6 -> 7, compact rows: a score's features are packed in the order of
+    // the version that scored it (daemon/scoring/packed_row.h: a BLOB
+    // starting with byte 0x01, one to three bytes for most values) instead
+    // of a JSON object (~24 bytes a value); score_sets.layout holds, once
+    // per (set, version, role), the names and levels that order means
+    // (plumbline.v1.RowLayout as JSON). Rows written before keep their
+    // JSON, and readers take both. `plumbctl record` shows a stored row's
+    // features by name.
+    "ALTER TABLE score_sets ADD COLUMN layout TEXT;"
+    "DROP VIEW ledger_scores;"
+    "CREATE VIEW ledger_scores AS"
+    "  SELECT s.id, s.record_id, ss.set_name, ss.set_version, ss.role,"
+    "         s.scored_at_us, s.log_odds, s.probability, s.features,"
+    "         ss.layout"
+    "  FROM scores s JOIN score_sets ss ON ss.id = s.set_id;",
 };
 
 }  // namespace

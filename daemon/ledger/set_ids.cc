@@ -4,6 +4,8 @@
 #include <utility>
 
 #include "absl/strings/str_cat.h"
+#include "google/protobuf/util/json_util.h"
+#include "google/protobuf/util/message_differencer.h"
 
 namespace plumbline::daemon {
 namespace {
@@ -36,11 +38,15 @@ absl::StatusOr<std::unique_ptr<LedgerSetIds>> LedgerSetIds::Create(
     const char* sql;
   } prepared[] = {
       {&ids->insert_,
-       "INSERT INTO score_sets(set_name, set_version, role) VALUES (?1,?2,?3)"
-       " ON CONFLICT DO NOTHING"},
+       // A row of schema < 7 gets its layout when a packed row first
+       // refers to it.
+       "INSERT INTO score_sets(set_name, set_version, role, layout)"
+       " VALUES (?1,?2,?3,?4) ON CONFLICT (set_name, set_version, role)"
+       " DO UPDATE SET layout = excluded.layout"
+       " WHERE score_sets.layout IS NULL AND excluded.layout IS NOT NULL"},
       {&ids->find_,
-       "SELECT id FROM score_sets WHERE set_name = ?1 AND set_version = ?2"
-       " AND role = ?3"},
+       "SELECT id, layout FROM score_sets WHERE set_name = ?1"
+       " AND set_version = ?2 AND role = ?3"},
       {&ids->insert_name_,
        "INSERT INTO set_names(name) VALUES (?1) ON CONFLICT DO NOTHING"},
       {&ids->find_name_, "SELECT id FROM set_names WHERE name = ?1"},
@@ -84,12 +90,53 @@ absl::StatusOr<LedgerSetId> LedgerSetIds::Id(const ScoreEntry& score) {
       st->BindText(2, score.set_version);
       st->BindText(3, ScoreRoleName(score.role));
     }
-    absl::StatusOr<int64_t> set_id =
-        InsertAndFind(*insert_, *find_,
-                      absl::StrCat("set '", score.set_name, "' version '",
-                                   score.set_version, "' in score_sets"));
-    if (!set_id.ok()) return set_id.status();
-    id.set_id = *set_id;
+    std::string layout;
+    if (score.layout != nullptr) {
+      google::protobuf::util::JsonPrintOptions options;
+      options.preserve_proto_field_names = true;
+      if (!google::protobuf::util::MessageToJsonString(*score.layout, &layout,
+                                                       options)
+               .ok()) {
+        return absl::InternalError("ledger: cannot print a row layout");
+      }
+      insert_->BindText(4, layout);
+    } else {
+      insert_->BindNull(4);
+    }
+    if (absl::Status s = insert_->Run(); !s.ok()) return s;
+    absl::StatusOr<bool> row = find_->Step();
+    const int64_t set_id = row.ok() && *row ? find_->ColumnInt64(0) : -1;
+    const std::string stored = set_id >= 0 ? find_->ColumnText(1) : "";
+    find_->Reset();
+    if (!row.ok()) return row.status();
+    if (set_id < 0) {
+      return absl::InternalError(absl::StrCat("ledger: set '", score.set_name,
+                                              "' version '", score.set_version,
+                                              "' was not found in score_sets "
+                                              "right after its insert"));
+    }
+    // One layout per (set, version): packed rows of a version read by the
+    // layout stored with it. Versions are immutable (the registry serves
+    // the ledger's copy), so a difference is a bug, refused before a row
+    // could be stored under the wrong layout.
+    if (!layout.empty() && stored != layout) {
+      v1::RowLayout previous;
+      google::protobuf::util::JsonParseOptions strict;
+      strict.ignore_unknown_fields = false;
+      const bool same =
+          google::protobuf::util::JsonStringToMessage(stored, &previous, strict)
+              .ok() &&
+          google::protobuf::util::MessageDifferencer::Equals(previous,
+                                                             *score.layout);
+      if (!same) {
+        return absl::InternalError(absl::StrCat(
+            "ledger: version '", score.set_version, "' of set '",
+            score.set_name,
+            "' was recorded with other features than the plan now scoring "
+            "it; a version's features never change"));
+      }
+    }
+    id.set_id = set_id;
     it = ids_.emplace(key, id).first;
   }
   last_name_ = score.set_name;

@@ -17,6 +17,10 @@ void SqliteStatement::BindTextNoCopy(int i, absl::string_view v) {
   sqlite3_bind_text(stmt_, i, v.data(), static_cast<int>(v.size()),
                     SQLITE_STATIC);
 }
+void SqliteStatement::BindBlobNoCopy(int i, absl::string_view v) {
+  sqlite3_bind_blob(stmt_, i, v.data(), static_cast<int>(v.size()),
+                    SQLITE_STATIC);
+}
 void SqliteStatement::BindInt64(int i, int64_t v) {
   sqlite3_bind_int64(stmt_, i, v);
 }

@@ -45,6 +45,8 @@ class SqliteStatement {
   // statement has run and been reset (the ledger's hot path binds rows it
   // holds until their commit).
   void BindTextNoCopy(int i, absl::string_view v);
+  // As BindTextNoCopy, bound as a BLOB (bytes that are not text).
+  void BindBlobNoCopy(int i, absl::string_view v);
   void BindInt64(int i, int64_t v);
   void BindDouble(int i, double v);
   void BindNull(int i);

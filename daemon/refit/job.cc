@@ -17,7 +17,7 @@
 #include "daemon/review/dossier_data.h"
 #include "daemon/review/dossier_html.h"
 #include "daemon/review/version_view.h"
-#include "daemon/scoring/features_json.h"
+#include "daemon/scoring/packed_row.h"
 #include "daemon/util/event_log.h"
 #include "daemon/util/time.h"
 #include "monitor/paired_comparison.h"
@@ -45,7 +45,7 @@ absl::Status LoadRows(Ledger& ledger, const scorer::ScoringPlan& plan,
                       const RefitSettings& settings, RefitRows& rows) {
   absl::flat_hash_set<std::string> seen;
   int64_t taken = 0;
-  google::protobuf::Struct holder;
+  StoredFeatureReader reader;
   std::vector<scorer::RawValue> values;
   // Shadow scores share record ids with active ones: ask for more rows than
   // needed and keep the active role's.
@@ -56,7 +56,7 @@ absl::Status LoadRows(Ledger& ledger, const scorer::ScoringPlan& plan,
             !seen.insert(l.record_id).second) {
           return;
         }
-        if (!ParseFeaturesJson(plan, l.features_json, &holder, &values).ok()) {
+        if (!reader.Read(plan, l.layout.get(), l.features, &values).ok()) {
           ++rows.unusable;
           return;
         }

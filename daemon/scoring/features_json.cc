@@ -6,9 +6,47 @@
 #include "absl/strings/str_cat.h"
 #include "daemon/scoring/record_conversion.h"
 #include "daemon/util/caller_text.h"
+#include "daemon/util/json_text.h"
 #include "google/protobuf/util/json_util.h"
 
 namespace plumbline::daemon {
+
+std::string FeaturesJson(const scorer::ScoringPlan& plan,
+                         absl::Span<const scorer::RawValue> values,
+                         absl::Span<const uint8_t> sent) {
+  std::string json;
+  // Enough for names, quotes and numbers of up to 24 characters: one
+  // allocation for most records.
+  size_t reserve = 2;
+  for (size_t f = 0; f < values.size(); ++f) {
+    reserve += plan.feature_name(static_cast<int>(f)).size() + 28 +
+               values[f].text.size();
+  }
+  json.reserve(reserve);
+  json.push_back('{');
+  bool first = true;
+  for (size_t f = 0; f < values.size(); ++f) {
+    if (sent[f] == 0) continue;
+    if (!first) json.push_back(',');
+    first = false;
+    AppendJsonString(plan.feature_name(static_cast<int>(f)), &json);
+    json.push_back(':');
+    const scorer::RawValue& v = values[f];
+    switch (v.kind) {
+      case scorer::RawValue::Kind::kNumber:
+        AppendJsonNumber(v.number, &json);
+        break;
+      case scorer::RawValue::Kind::kText:
+        AppendJsonString(v.text, &json);
+        break;
+      case scorer::RawValue::Kind::kMissing:
+        json.append("null");
+        break;
+    }
+  }
+  json.push_back('}');
+  return json;
+}
 
 absl::Status ParseFeaturesJson(const scorer::ScoringPlan& plan,
                                absl::string_view json,

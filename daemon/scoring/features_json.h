@@ -15,12 +15,14 @@
 #ifndef PLUMBLINE_DAEMON_SCORING_FEATURES_JSON_H_
 #define PLUMBLINE_DAEMON_SCORING_FEATURES_JSON_H_
 
+#include <cstdint>
 #include <string>
 #include <vector>
 
 #include "absl/status/status.h"
 #include "absl/status/statusor.h"
 #include "absl/strings/string_view.h"
+#include "absl/types/span.h"
 #include "google/protobuf/struct.pb.h"
 #include "scorer/scoring_plan.h"
 
@@ -33,6 +35,17 @@ namespace plumbline::daemon {
 // code). INVALID_ARGUMENT naming the feature for: malformed JSON, a name
 // that is not a feature of the plan, a boolean/list/object, text for a
 // numeric or binned feature, any other number for a categorical one.
+// The JSON object of one record's features in the plan's feature order, the
+// form the ledger stored before schema 7 (packed_row.h now) and the form
+// auditors read (StoredFeaturesJson): features with sent[f] == 0 are left
+// out, missing values are null, numbers (shortest round-trip form) and
+// text as they are. REQUIRES: values.size() == sent.size() ==
+// plan.num_features().
+//   {"distance_km":9,"region":"rural","hour":null}
+std::string FeaturesJson(const scorer::ScoringPlan& plan,
+                         absl::Span<const scorer::RawValue> values,
+                         absl::Span<const uint8_t> sent);
+
 absl::Status ParseFeaturesJson(const scorer::ScoringPlan& plan,
                                absl::string_view json,
                                google::protobuf::Struct* holder,

@@ -9,6 +9,7 @@
 #include "absl/strings/str_cat.h"
 #include "absl/time/clock.h"
 #include "daemon/access/access_control.h"
+#include "daemon/scoring/packed_row.h"
 #include "daemon/util/event_log.h"
 #include "daemon/util/grpc_status.h"
 
@@ -97,6 +98,20 @@ std::vector<ScoringService::ShadowRun> ScoringService::ScoreShadows(
   return runs;
 }
 
+std::shared_ptr<const v1::RowLayout> ScoringService::Layout(
+    const scorer::ScoringPlan& plan) {
+  const SetVersion key(plan.name(), plan.version());
+  absl::MutexLock lock(&layouts_mu_);
+  auto it = layouts_.find(key);
+  if (it == layouts_.end()) {
+    it =
+        layouts_
+            .emplace(key, std::make_shared<const v1::RowLayout>(LayoutOf(plan)))
+            .first;
+  }
+  return it->second;
+}
+
 absl::Status ScoringService::Record(const scorer::ScoringPlan& plan,
                                     const RecordInputs& inputs,
                                     absl::Span<v1::Scored* const> scores,
@@ -115,6 +130,7 @@ absl::Status ScoringService::Record(const scorer::ScoringPlan& plan,
           id, "'; a record id names one record"));
     }
   }
+  const std::shared_ptr<const v1::RowLayout> layout = Layout(plan);
   std::vector<ScoreEntry> entries(scores.size());
   entries.reserve(scores.size() * (1 + shadows.size()));
   for (size_t i = 0; i < scores.size(); ++i) {
@@ -130,10 +146,12 @@ absl::Status ScoringService::Record(const scorer::ScoringPlan& plan,
     entry.log_odds = scored.log_odds();
     entry.probability = scored.probability();
     const int record = static_cast<int>(i);
-    entry.features_json =
-        FeaturesJson(plan, inputs.Values(record), inputs.Sent(record));
+    PackFeatures(plan, inputs.Values(record), inputs.Sent(record),
+                 &entry.features);
+    entry.layout = layout;
   }
   for (const ShadowRun& run : shadows) {
+    std::shared_ptr<const v1::RowLayout> shadow_layout = Layout(*run.plan);
     for (size_t i = 0; i < scores.size(); ++i) {
       ScoreEntry& entry = entries.emplace_back();
       entry.record_id = scores[i]->record_id();
@@ -144,8 +162,9 @@ absl::Status ScoringService::Record(const scorer::ScoringPlan& plan,
       entry.log_odds = run.log_odds[i];
       entry.probability = run.probability[i];
       const int record = static_cast<int>(i);
-      entry.features_json = FeaturesJson(*run.plan, run.inputs.Values(record),
-                                         run.inputs.Sent(record));
+      PackFeatures(*run.plan, run.inputs.Values(record),
+                   run.inputs.Sent(record), &entry.features);
+      entry.layout = shadow_layout;
     }
   }
   absl::StatusOr<std::vector<ScoreWrite>> written =

@@ -27,11 +27,11 @@
 #include <vector>
 
 #include "absl/base/thread_annotations.h"
+#include "absl/container/flat_hash_map.h"
 #include "absl/container/flat_hash_set.h"
 #include "absl/synchronization/mutex.h"
 #include "absl/types/span.h"
 #include "daemon/health/sink.h"
-#include "daemon/ledger/entries.h"
 #include "daemon/ledger/ledger.h"
 #include "daemon/scoring/core.h"
 #include "daemon/scoring/set_registry.h"
@@ -95,6 +95,10 @@ class ScoringService final : public v1::Scoring::Service {
                       absl::Span<v1::Scored* const> scores,
                       const std::vector<ShadowRun>& shadows);
 
+  // The row layout of `plan`'s version (packed_row.h LayoutOf), made once
+  // per version: versions are immutable.
+  std::shared_ptr<const v1::RowLayout> Layout(const scorer::ScoringPlan& plan);
+
   void LogShadowFailure(const scorer::ScoringPlan& plan,
                         const absl::Status& status);
   // Logs that `key` reached the tracker's limit and calls shadows_.stop.
@@ -108,6 +112,10 @@ class ScoringService final : public v1::Scoring::Service {
   const ShadowOptions shadows_;
 
   RecordIdGenerator record_ids_;
+
+  absl::Mutex layouts_mu_;
+  absl::flat_hash_map<SetVersion, std::shared_ptr<const v1::RowLayout>> layouts_
+      ABSL_GUARDED_BY(layouts_mu_);
 
   absl::Mutex shadow_mu_;
   // "set\nversion" of shadows whose failure was logged.

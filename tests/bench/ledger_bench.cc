@@ -41,8 +41,9 @@
 #include "absl/strings/str_format.h"
 #include "absl/time/clock.h"
 #include "benchmark/benchmark.h"
-#include "daemon/ledger/entries.h"
 #include "daemon/ledger/ledger.h"
+#include "daemon/scoring/features_json.h"
+#include "daemon/util/json_text.h"
 #include "google/protobuf/struct.pb.h"
 #include "google/protobuf/util/json_util.h"
 #include "scorer/coefficient_set.h"
@@ -141,7 +142,7 @@ absl::Status MakeData(int64_t rows, BenchData& data) {
     e.scored_at = t0 + absl::Milliseconds(i);
     e.log_odds = scored->log_odds;
     e.probability = scored->probability;
-    e.features_json = FeaturesJson(p, v, sent);
+    e.features = FeaturesJson(p, v, sent);
     data.outcomes[static_cast<size_t>(i)] = OutcomeEntry{
         e.record_id, static_cast<int>(i % 2), e.scored_at + absl::Hours(1)};
   }
@@ -329,7 +330,7 @@ absl::Status WriteRowsTsv(const BenchData& data, const std::string& path) {
     out << absl::StrFormat("%s\t%s\t%s\t%s\t%d\t%.17g\t%.17g\t%s\n",
                            e.record_id, e.set_name, e.set_version, e.role,
                            absl::ToUnixMicros(e.scored_at), e.log_odds,
-                           e.probability, e.features_json);
+                           e.probability, e.features);
   }
   out.close();
   if (!out) return absl::UnavailableError(absl::StrCat(path, ": cannot write"));
@@ -350,7 +351,7 @@ absl::Status Run(BenchData& data) {
     return WriteRowsTsv(data, path);
   }
   size_t json_bytes = 0;
-  for (const ScoreEntry& e : data.scores) json_bytes += e.features_json.size();
+  for (const ScoreEntry& e : data.scores) json_bytes += e.features.size();
   std::cerr << "ledger_bench: " << data.scores.size() << " rows, features JSON "
             << json_bytes / std::max<size_t>(1, data.scores.size())
             << " bytes on average, ledger in " << data.dir << "\n";

@@ -3,8 +3,8 @@
 // libFuzzer target: a Score request as it arrives on the wire (protobuf
 // bytes) through the conversion of its google.protobuf.Struct of named
 // feature values into the scorer's row, scoring with reason codes, the
-// ledger's JSON of the features and that JSON read back (as the health
-// monitor's rebuild reads it).
+// ledger's packed row of the features (and the JSON of schema < 7) read
+// back as the health monitor's rebuild reads them.
 //
 // Checked properties, besides "no crash, no sanitizer report": a scored
 // probability is in [0, 1]; the features the ledger stores read back to the
@@ -14,9 +14,9 @@
 #include <string>
 #include <vector>
 
-#include "daemon/ledger/entries.h"
 #include "daemon/scoring/core.h"
 #include "daemon/scoring/features_json.h"
+#include "daemon/scoring/packed_row.h"
 #include "google/protobuf/stubs/logging.h"
 #include "plumbline/v1/scoring.pb.h"
 #include "tests/fuzz/fuzz_plan.h"
@@ -69,5 +69,20 @@ extern "C" int LLVMFuzzerTestOneInput(const uint8_t* bytes, size_t size) {
   const auto values = inputs.Values(0);
   Check(back.size() == values.size());
   for (size_t f = 0; f < back.size(); ++f) Check(SameValue(back[f], values[f]));
+
+  // The packed row (schema 7) reads back to the same values, and its JSON
+  // view is the JSON above.
+  std::string packed;
+  plumbline::daemon::PackFeatures(plan, values, inputs.Sent(0), &packed);
+  const plumbline::v1::RowLayout layout = plumbline::daemon::LayoutOf(plan);
+  plumbline::daemon::StoredFeatureReader reader;
+  Check(reader.Read(plan, &layout, packed, &back).ok());
+  Check(back.size() == values.size());
+  for (size_t f = 0; f < back.size(); ++f) {
+    if (inputs.Sent(0)[f] != 0) Check(SameValue(back[f], values[f]));
+  }
+  const absl::StatusOr<std::string> view =
+      plumbline::daemon::StoredFeaturesJson(&layout, packed);
+  Check(view.ok() && *view == json);
   return 0;
 }

@@ -129,7 +129,7 @@ TEST_F(LedgerTest, OutcomesJoinToScoresWithTheDocumentedCodes) {
   EXPECT_EQ(r[0].labelled[0].role, ScoreRole::kActive);
   EXPECT_EQ(r[0].labelled[0].scored_at, absl::FromUnixSeconds(1000));
   // Not read for the monitor (ledger.h); ForEachLabelled gives them.
-  EXPECT_EQ(r[0].labelled[0].features_json, "");
+  EXPECT_EQ(r[0].labelled[0].features, "");
   EXPECT_TRUE(r[1].status.ok());
   EXPECT_TRUE(r[1].repeat);
   EXPECT_TRUE(r[1].labelled.empty());
@@ -167,10 +167,9 @@ TEST_F(LedgerTest, SurvivesReopenAndReadsLabelledNewestFirst) {
   EXPECT_EQ(seen, (std::vector<double>{9, 8, 7}));
   std::string features;
   ASSERT_TRUE(ledger
-                  ->ForEachLabelled("courier", 1, absl::InfinitePast(),
-                                    [&](const LabelledScore& s) {
-                                      features = s.features_json;
-                                    })
+                  ->ForEachLabelled(
+                      "courier", 1, absl::InfinitePast(),
+                      [&](const LabelledScore& s) { features = s.features; })
                   .ok());
   EXPECT_EQ(features, R"({"distance_km":3})");
   int scores = 0;
@@ -291,6 +290,11 @@ TEST_F(LedgerTest, MigratesAVersion3LedgerDroppingTheSetTimeIndex) {
                            "DROP INDEX scores_by_record; DROP TABLE set_names;"
                            "ALTER TABLE scores DROP COLUMN primary_set;"
                            "CREATE INDEX scores_by_record ON scores(record_id);"
+                           // Nor what schema 7 adds.
+                           "DROP VIEW ledger_scores;"
+                           "ALTER TABLE score_sets DROP COLUMN layout;"
+                           "CREATE VIEW ledger_scores AS SELECT s.id"
+                           " FROM scores s;"
                            "PRAGMA user_version = 3;")
                     .ok());
   }
@@ -594,7 +598,7 @@ TEST_F(LedgerTest, TheSameIdWithOtherFeaturesIsRefusedAndWritesNothing) {
   ASSERT_NE(ledger, nullptr);
   ASSERT_OK(ledger->AppendScores({Score("r1")}));
   ScoreEntry other = Score("r1");
-  other.features_json = R"({"distance_km":4})";
+  other.features = R"({"distance_km":4})";
   // The whole call is refused: the new record in it is not written either.
   EXPECT_THAT(ledger->AppendScores({Score("r2"), other}),
               plumbline::testing::StatusIs(
@@ -676,6 +680,9 @@ TEST_F(LedgerTest, MigratesAVersion4LedgerKeepingRepeatsButLabellingTheFirst) {
         "INSERT INTO scores(record_id, set_id, scored_at_us, log_odds,"
         " probability, features) SELECT record_id, set_id, scored_at_us + 1,"
         " 0.9, 0.7, features FROM scores WHERE log_odds = 0.1;"
+        "DROP VIEW ledger_scores;"
+        "ALTER TABLE score_sets DROP COLUMN layout;"
+        "CREATE VIEW ledger_scores AS SELECT s.id FROM scores s;"
         "PRAGMA user_version = 4;"));
   }
   auto ledger = OpenLedger();
@@ -688,7 +695,7 @@ TEST_F(LedgerTest, MigratesAVersion4LedgerKeepingRepeatsButLabellingTheFirst) {
   EXPECT_EQ(results[0].labelled[1].set_name, "depot");
   // And from now on the id is taken for courier.
   ScoreEntry other = Score("dup");
-  other.features_json = "{}";
+  other.features = "{}";
   EXPECT_THAT(ledger->AppendScores({other}),
               plumbline::testing::StatusIs(absl::StatusCode::kAlreadyExists));
 }

@@ -32,6 +32,8 @@ from scipy.special import expit, log_expit
 from scipy.stats import norm, sem
 from sklearn.metrics import log_loss
 
+from plumbline.ledger_rows import stored_features
+
 
 def holdout_hash(text: str) -> int:
     """FNV-1a 64 of the id, then MurmurHash3's fmix64 finalizer."""
@@ -80,13 +82,14 @@ def main() -> None:
     fraction = float(fraction)
     db = sqlite3.connect(ledger)
     rows = db.execute(
-        "SELECT s.record_id, s.set_version, s.log_odds, o.label, s.features"
+        "SELECT s.record_id, s.set_version, s.log_odds, o.label, s.features,"
+        " s.layout"
         " FROM ledger_scores s JOIN outcomes o ON o.record_id = s.record_id"
         " WHERE s.set_name = ? AND s.role = 'active'", (set_name,)).fetchall()
     seen = set()
     train = 0
     z, y, ids, features = [], [], [], []
-    for record_id, set_version, log_odds, label, feature_json in rows:
+    for record_id, set_version, log_odds, label, stored, layout in rows:
         if record_id in seen:
             continue
         seen.add(record_id)
@@ -97,7 +100,9 @@ def main() -> None:
             z.append(log_odds)
             y.append(label)
             ids.append(record_id)
-            features.append(json.loads(feature_json))
+            # The package's own reader of packed rows (plumbline.ledger_rows),
+            # a second implementation of daemon/scoring/packed_row.cc.
+            features.append(stored_features(stored, layout))
         else:
             train += 1
     if out_dir is not None:

@@ -298,6 +298,8 @@ TEST_F(LifecycleTest, DriftRefitApproveSteadyRollbackAudit) {
   // scipy.stats.sem and scipy.stats.norm.ppf(0.975).
   const std::string out_dir = dir_.File("check");
   std::filesystem::create_directories(out_dir);
+  // The check reads packed rows with the package's plumbline.ledger_rows.
+  setenv("PYTHONPATH", PLUMBLINE_PYTHON_DIR, 1);
   absl::StatusOr<ProcessResult> check = testing::RunProcess(
       {PLUMBLINE_PYTHON, LIFECYCLE_CHECK_PY, dir_.File("ledger.db"), kSet,
        original, kHoldoutFraction, out_dir},

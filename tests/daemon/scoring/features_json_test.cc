@@ -4,7 +4,6 @@
 // monitor's rebuild) and written from rows.
 #include "daemon/scoring/features_json.h"
 
-#include "daemon/ledger/entries.h"
 #include "gmock/gmock.h"
 #include "gtest/gtest.h"
 #include "tests/testing/health_test_sets.h"

@@ -17,6 +17,7 @@
 
 #include "absl/strings/str_cat.h"
 #include "daemon/ledger/sqlite_db.h"
+#include "daemon/scoring/packed_row.h"
 #include "gmock/gmock.h"
 #include "google/protobuf/util/json_util.h"
 #include "google/protobuf/util/message_differencer.h"
@@ -35,6 +36,17 @@ using testing::WriteTextFile;
 
 // Python 3: datetime(2026, 12, 1, 8, 30, tzinfo=timezone.utc).timestamp()
 constexpr int64_t kDecember1At0830Utc = 1796113800;
+
+// A stored row's features as JSON: packed under the layout stored with its
+// version (daemon/scoring/packed_row.h), read back through the layout.
+std::string StoredJson(const std::string& features, const std::string& layout) {
+  v1::RowLayout parsed;
+  EXPECT_TRUE(google::protobuf::util::JsonStringToMessage(layout, &parsed).ok())
+      << layout;
+  absl::StatusOr<std::string> json = StoredFeaturesJson(&parsed, features);
+  EXPECT_TRUE(json.ok()) << json.status();
+  return json.ok() ? *json : "";
+}
 
 google::protobuf::Struct Features(const std::string& json) {
   google::protobuf::Struct out;
@@ -202,7 +214,7 @@ TEST_F(OutcomesTest, ScoresAndOutcomesLandInTheLedgerAsSent) {
   auto db = OpenLedgerFile();
   auto scores = db->Prepare(
       "SELECT record_id, set_name, set_version, role, scored_at_us, log_odds,"
-      " probability, features FROM ledger_scores ORDER BY id");
+      " probability, features, layout FROM ledger_scores ORDER BY id");
   ASSERT_TRUE(scores.ok()) << scores.status();
   for (int i = 0; i < 4; ++i) {
     SCOPED_TRACE(i);
@@ -219,8 +231,9 @@ TEST_F(OutcomesTest, ScoresAndOutcomesLandInTheLedgerAsSent) {
     EXPECT_EQ(s.ColumnDouble(6), scored.scores(i).probability());
     // The stored JSON, read back by protobuf's parser, is the Struct sent.
     EXPECT_TRUE(google::protobuf::util::MessageDifferencer::Equals(
-        Features(s.ColumnText(7)), request.records(i).features()))
-        << s.ColumnText(7);
+        Features(StoredJson(s.ColumnText(7), s.ColumnText(8))),
+        request.records(i).features()))
+        << StoredJson(s.ColumnText(7), s.ColumnText(8));
   }
   EXPECT_FALSE(*(*scores)->Step());
 
@@ -286,11 +299,13 @@ TEST_F(OutcomesTest, DenseRowsLandWithLevelNamesAndNullForMissing) {
   ASSERT_TRUE(status.ok()) << status.error_message();
 
   auto db = OpenLedgerFile();
-  auto q = db->Prepare("SELECT record_id, features FROM scores ORDER BY id");
+  auto q = db->Prepare(
+      "SELECT record_id, features, layout FROM ledger_scores ORDER BY id");
   ASSERT_TRUE(q.ok());
   std::vector<std::pair<std::string, std::string>> stored;
   while (*(*q)->Step()) {
-    stored.emplace_back((*q)->ColumnText(0), (*q)->ColumnText(1));
+    stored.emplace_back((*q)->ColumnText(0),
+                        StoredJson((*q)->ColumnText(1), (*q)->ColumnText(2)));
   }
   ASSERT_EQ(stored.size(), 3u);
   EXPECT_EQ(stored[0].first, "d-0");

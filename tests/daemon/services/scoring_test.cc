@@ -13,6 +13,7 @@
 
 #include "absl/strings/str_cat.h"
 #include "daemon/ledger/sqlite_db.h"
+#include "daemon/scoring/packed_row.h"
 #include "gmock/gmock.h"
 #include "google/protobuf/util/json_util.h"
 #include "gtest/gtest.h"
@@ -52,12 +53,29 @@ class ScoringServiceTest : public ::testing::Test {
     auto n = (*db)->QueryInt64("SELECT COUNT(*) FROM scores");
     return n.ok() ? *n : -1;
   }
+  // The stored features of `record_id` as JSON (the packed row read
+  // through the layout stored with its version), "<not packed>" unless the
+  // row is a BLOB in the packed form.
   std::string FeaturesOf(const std::string& record_id) {
     auto db = SqliteDb::Open(dir_.File("ledger.db"));
-    auto q = (*db)->Prepare("SELECT features FROM scores WHERE record_id = ?1");
+    auto q = (*db)->Prepare(
+        "SELECT s.features, ss.layout, typeof(s.features) FROM scores s"
+        " JOIN score_sets ss ON ss.id = s.set_id WHERE s.record_id = ?1");
     (*q)->BindText(1, record_id);
     auto row = (*q)->Step();
-    return row.ok() && *row ? (*q)->ColumnText(0) : "<no row>";
+    if (!row.ok() || !*row) return "<no row>";
+    const std::string features = (*q)->ColumnText(0);
+    if ((*q)->ColumnText(2) != "blob" || !IsPackedRow(features)) {
+      return "<not packed>";
+    }
+    v1::RowLayout layout;
+    if (!google::protobuf::util::JsonStringToMessage((*q)->ColumnText(1),
+                                                     &layout)
+             .ok()) {
+      return "<no layout>";
+    }
+    absl::StatusOr<std::string> json = StoredFeaturesJson(&layout, features);
+    return json.ok() ? *json : std::string(json.status().message());
   }
 
   testing::TempDir dir_;

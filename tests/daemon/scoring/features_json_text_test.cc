@@ -1,18 +1,18 @@
-// File: tests/daemon/ledger/entries_test.cc
+// File: tests/daemon/scoring/features_json_text_test.cc
 //
-// The ledger's features JSON and server-side record ids. The JSON is read
+// The stored-features JSON (FeaturesJson, the JSON appenders). The JSON is read
 // back with protobuf's JSON parser (JsonStringToMessage into a
 // google.protobuf.Struct), an implementation outside this project, which
 // must give back exactly the values written: every double bit for bit, every
 // string byte for byte.
-#include "daemon/ledger/entries.h"
-
 #include <cmath>
 #include <limits>
 #include <string>
 #include <vector>
 
 #include "absl/container/flat_hash_set.h"
+#include "daemon/scoring/features_json.h"
+#include "daemon/util/json_text.h"
 #include "gmock/gmock.h"
 #include "google/protobuf/struct.pb.h"
 #include "google/protobuf/util/json_util.h"
@@ -32,7 +32,7 @@ google::protobuf::Struct ParseBack(const std::string& json) {
   return out;
 }
 
-TEST(FeaturesJsonTest, WritesSentFeaturesInPlanOrderWithNullForMissing) {
+TEST(FeaturesJsonTextTest, WritesSentFeaturesInPlanOrderWithNullForMissing) {
   auto plan = testing::CourierPlan();
   // distance_km, parcel_kg, region, service, hour
   const std::vector<RawValue> values = {
@@ -44,7 +44,7 @@ TEST(FeaturesJsonTest, WritesSentFeaturesInPlanOrderWithNullForMissing) {
   EXPECT_EQ(FeaturesJson(*plan, values, std::vector<uint8_t>(5, 0)), "{}");
 }
 
-TEST(FeaturesJsonTest, NumbersReadBackToTheSameDouble) {
+TEST(FeaturesJsonTextTest, NumbersReadBackToTheSameDouble) {
   auto plan = testing::CourierPlan();
   const double cases[] = {0.1,
                           4.2,
@@ -70,7 +70,7 @@ TEST(FeaturesJsonTest, NumbersReadBackToTheSameDouble) {
   EXPECT_EQ(out, "4.2");  // shortest form, no %.17g noise digits
 }
 
-TEST(FeaturesJsonTest, NonFiniteNumbersBecomeNull) {
+TEST(FeaturesJsonTextTest, NonFiniteNumbersBecomeNull) {
   std::string out;
   AppendJsonNumber(std::nan(""), &out);
   out += ",";
@@ -78,7 +78,7 @@ TEST(FeaturesJsonTest, NonFiniteNumbersBecomeNull) {
   EXPECT_EQ(out, "null,null");
 }
 
-TEST(FeaturesJsonTest, StringsAreEscapedAndReadBackUnchanged) {
+TEST(FeaturesJsonTextTest, StringsAreEscapedAndReadBackUnchanged) {
   auto plan = testing::CourierPlan();
   const std::string texts[] = {
       "plain", "quote \" and backslash \\", "line\nfeed\r\ttab\b\f",
