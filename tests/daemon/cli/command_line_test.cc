@@ -69,7 +69,7 @@ TEST(CommandLineTest, AFlagOfAnotherCommandIsAnErrorWithTheShortUsage) {
   EXPECT_THAT(run.out, IsEmpty());
   EXPECT_EQ(run.err,
             "plumbctl: health: unknown flag --version (a flag of fit, "
-            "approve, activate, shadow)\n"
+            "approve, activate, shadow, show)\n"
             "usage: plumbctl health --set NAME [--format text|json]\n"
             "run 'plumbctl help health' for its flags\n");
 }
