@@ -22,6 +22,7 @@
 #include "daemon/cli/outcomes.h"
 #include "daemon/cli/registry_commands.h"
 #include "daemon/cli/token.h"
+#include "daemon/csv/missing.h"
 #include "daemon/csv/outcomes.h"
 #include "daemon/csv/training.h"
 
@@ -64,7 +65,8 @@ CommandRun DeclareSets(CLI::App& command) {
 // ---- score
 
 struct ScoreFlags {
-  std::string set, set_file, json, csv, out, record_id;
+  std::string set, set_file, json, csv, out, record_id, na;
+  bool strict = false;
   std::string batch = "1000";
   std::string reasons = "0";
   std::string reason_order = "raises";
@@ -86,7 +88,15 @@ CommandRun DeclareScore(CLI::App& command) {
   AddValueFlag(command, "out", &flags->out, "FILE",
                "with --csv: the output file (default stdout)");
   AddValueFlag(command, "record_id", &flags->record_id, "ID",
-               "with --json: the record's id (default cli-<unix seconds>)");
+               "with --json: the record's id (default "
+               "cli-<unix microseconds>-<8 random hex digits>-1)");
+  AddValueFlag(command, "na", &flags->na, "TOKEN,...",
+               "with --csv: cells equal to one of these tokens are missing "
+               "values, as blank cells are (default: blank cells only)");
+  AddSwitch(command, "strict", &flags->strict,
+            "with --csv: refuse a file that lacks a column for any feature "
+            "of the set (default: such features are sent as missing, with "
+            "a note)");
   AddValueFlag(command, "batch", &flags->batch, "N",
                "with --csv: records per ScoreBatch call (default 1000)");
   AddValueFlag(command, "reasons", &flags->reasons, "K",
@@ -115,6 +125,13 @@ CommandRun DeclareScore(CLI::App& command) {
     if (!options.json.empty() && !options.out.empty()) {
       return UsageError("--out goes with --csv, not --json");
     }
+    if (!options.json.empty() && (flags->strict || !flags->na.empty())) {
+      return UsageError("--strict and --na go with --csv, not --json");
+    }
+    absl::StatusOr<MissingCells> missing = MissingCells::Parse(flags->na);
+    if (!missing.ok()) return AsUsage(missing.status());
+    options.missing = *std::move(missing);
+    options.strict = flags->strict;
     absl::StatusOr<int> batch = ParseIntFlag("batch", flags->batch, 1);
     if (!batch.ok()) return batch.status();
     options.batch = *batch;
@@ -316,16 +333,31 @@ std::vector<CommandSpec> MakeTable() {
            "the same code path gives the same output).\n"
            "--csv sends the rows in batches of N and writes the input "
            "columns plus record_id, log_odds, probability and "
-           "reason_1..reason_K, in full precision. --json prints the score "
-           "to six significant digits, or with --format json the ScoreReply "
-           "in full precision.",
+           "reason_1..reason_K, in full precision. Rows without a record_id "
+           "get <file stem>-<unix microseconds>-<8 random hex digits>-<n>. "
+           "--json prints the score to six significant digits, or with "
+           "--format json the ScoreReply in full precision.\n"
+           "--csv is resumable, not all-or-nothing. Before the first call "
+           "the whole file is checked against the set's features: the CSV "
+           "itself, the header (no column that is a feature, or with "
+           "--strict any feature without a column, is refused), every "
+           "cell, and record ids repeated within the file; any of these "
+           "fails with nothing sent or written. What only plumbd can decide "
+           "(an id its ledger holds with other features, a level the set "
+           "refuses, a lost connection) fails a batch: then the rows scored "
+           "before it are written to --out and every row from that batch on "
+           "to OUT.refused.csv (or FILE.refused.csv with no --out) with the "
+           "columns row, record_id, error and the input's own, exit status "
+           "1. Fix the refused rows and score that file to resume: the ids "
+           "are kept, and a row plumbd had recorded already comes back as a "
+           "repeat (stored score, counted in a note), never twice.",
        .usage = {"(--set NAME | --set_file SET.json) --json '{\"feature\": "
                  "value, ...}' [--record_id ID] [--reasons K] "
                  "[--reason_order raises|lowers|magnitude] [--format "
                  "text|json]",
                  "(--set NAME | --set_file SET.json) --csv FILE [--out FILE] "
-                 "[--batch N] [--reasons K] [--reason_order "
-                 "raises|lowers|magnitude]"},
+                 "[--batch N] [--na TOKEN,...] [--strict] [--reasons K] "
+                 "[--reason_order raises|lowers|magnitude]"},
        .declare = DeclareScore});
   table.push_back(
       {.path = {"outcomes"},

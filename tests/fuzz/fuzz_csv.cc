@@ -9,6 +9,7 @@
 #include <cstdint>
 #include <string>
 
+#include "absl/strings/str_cat.h"
 #include "daemon/csv/records.h"
 #include "daemon/csv/table.h"
 #include "daemon/scoring/core.h"
@@ -53,7 +54,9 @@ extern "C" int LLVMFuzzerTestOneInput(const uint8_t* bytes, size_t size) {
   const plumbline::daemon::CsvLayout layout =
       plumbline::daemon::LayoutCsv(table->header, schema);
   absl::StatusOr<std::vector<plumbline::v1::Record>> records =
-      plumbline::daemon::CsvToRecords(*table, layout, "fuzz.csv", "fuzz");
+      plumbline::daemon::CsvToRecords(
+          *table, layout, "fuzz.csv",
+          {.new_id = [n = 0]() mutable { return absl::StrCat("fuzz-", ++n); }});
   if (records.ok()) Check(records->size() == table->rows.size());
   return 0;
 }
