@@ -241,6 +241,9 @@ CommandRun DeclareHealth(CLI::App& command) {
 
 struct FitFlags {
   std::string csv, target, out, name, version, features, categorical, weights;
+  std::string na;
+  std::vector<std::string> missing;
+  std::string missing_default = "reject";
   std::string l2 = "0";
 };
 
@@ -268,6 +271,21 @@ CommandRun DeclareFit(CLI::App& command) {
                "scikit-learn (default 0: plain maximum likelihood)");
   AddValueFlag(command, "weights", &flags->weights, "COLUMN",
                "a column of sample weights (finite, >= 0)");
+  AddValueFlag(command, "na", &flags->na, "TOKEN,...",
+               "cells equal to one of these tokens are missing values, as "
+               "blank cells are (default: blank cells only)");
+  command
+      .add_option("--missing", flags->missing,
+                  "the missing-value rule of one feature column, repeatable: "
+                  "impute (mean or most frequent level), indicator (impute "
+                  "plus a 0/1 column for 'was missing') or reject (a missing "
+                  "cell is an error; plumbd refuses records without it)")
+      ->type_name("COLUMN=RULE")
+      ->take_all();
+  AddValueFlag(command, "missing_default", &flags->missing_default,
+               "impute|indicator|reject",
+               "the missing-value rule of the other feature columns "
+               "(default reject)");
   return [flags](const CommandContext& context) -> absl::Status {
     FitCommandOptions options;
     options.csv = flags->csv;
@@ -275,6 +293,18 @@ CommandRun DeclareFit(CLI::App& command) {
     options.columns.weights = flags->weights;
     options.columns.features = SplitColumnList(flags->features);
     options.columns.categorical = SplitColumnList(flags->categorical);
+    absl::StatusOr<MissingCells> na = MissingCells::Parse(flags->na);
+    if (!na.ok()) return AsUsage(na.status());
+    options.columns.missing = *std::move(na);
+    for (const std::string& text : flags->missing) {
+      auto rule = ParseColumnMissingRule(text);
+      if (!rule.ok()) return AsUsage(rule.status());
+      options.columns.missing_rules.push_back(*std::move(rule));
+    }
+    absl::StatusOr<v1::MissingRule::Kind> missing_default =
+        ParseMissingRule("--missing_default", flags->missing_default);
+    if (!missing_default.ok()) return AsUsage(missing_default.status());
+    options.columns.missing_default = *missing_default;
     options.out = flags->out;
     options.name = flags->name;
     options.version = flags->version;
@@ -391,9 +421,18 @@ std::vector<CommandSpec> MakeTable() {
            "Fits a logistic model to a CSV file (header row) by maximum "
            "likelihood (IRLS; with --l2, penalised on the standardised "
            "columns, lambda = 1/C of scikit-learn) and writes it as a set "
-           "file plumbd loads. A column that is not all numbers is "
-           "categorical, as is every --categorical column; an empty cell is "
-           "missing. Prints the transforms, the coefficient table "
+           "file plumbd loads. A blank cell, or one equal to an --na token, "
+           "is missing. A column whose present cells are all numbers is "
+           "numeric; one with under 90% numbers is categorical, as is every "
+           "--categorical column; a column in between is refused, naming "
+           "the cells that are not numbers (pass them to --na, or use "
+           "--categorical). Nothing is guessed about missing values: each "
+           "feature's rule is --missing COLUMN=RULE or --missing_default "
+           "(impute, indicator or reject; default reject, which refuses a "
+           "file with a missing cell in that column, naming its rows), and "
+           "the rule goes into the set. The target holds 1, 1.0 or true and "
+           "0, 0.0 or false. A table of missing cells per column goes to "
+           "stderr. Prints the transforms, the coefficient table "
            "(estimate, standard error, z, p-value) and the fit statistics; "
            "per-iteration progress goes to stderr when it is a terminal or "
            "once the fit runs past 1 s. On any failure nothing is written. "
