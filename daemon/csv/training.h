@@ -29,7 +29,7 @@
 //                ignored; anything else (a missing cell too) is refused.
 //   weights      every cell a finite number >= 0.
 // Cells are read exactly as plumbctl's CSV scoring reads them
-// (daemon/csv_records.h), so a set fitted here scores its own training file
+// (daemon/csv/records.h), so a set fitted here scores its own training file
 // with the probabilities of the fit. Errors are INVALID_ARGUMENT naming the
 // file, the row (counted from 1 after the header), its line and the column.
 //
