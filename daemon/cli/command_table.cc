@@ -22,6 +22,7 @@
 #include "daemon/cli/outcomes.h"
 #include "daemon/cli/registry_commands.h"
 #include "daemon/cli/token.h"
+#include "daemon/csv/missing.h"
 #include "daemon/csv/outcomes.h"
 #include "daemon/csv/training.h"
 
@@ -64,7 +65,8 @@ CommandRun DeclareSets(CLI::App& command) {
 // ---- score
 
 struct ScoreFlags {
-  std::string set, set_file, json, csv, out, record_id;
+  std::string set, set_file, json, csv, out, record_id, na;
+  bool strict = false;
   std::string batch = "1000";
   std::string reasons = "0";
   std::string reason_order = "raises";
@@ -86,7 +88,15 @@ CommandRun DeclareScore(CLI::App& command) {
   AddValueFlag(command, "out", &flags->out, "FILE",
                "with --csv: the output file (default stdout)");
   AddValueFlag(command, "record_id", &flags->record_id, "ID",
-               "with --json: the record's id (default cli-<unix seconds>)");
+               "with --json: the record's id (default "
+               "cli-<unix microseconds>-<8 random hex digits>-1)");
+  AddValueFlag(command, "na", &flags->na, "TOKEN,...",
+               "with --csv: cells equal to one of these tokens are missing "
+               "values, as blank cells are (default: blank cells only)");
+  AddSwitch(command, "strict", &flags->strict,
+            "with --csv: refuse a file that lacks a column for any feature "
+            "of the set (default: such features are sent as missing, with "
+            "a note)");
   AddValueFlag(command, "batch", &flags->batch, "N",
                "with --csv: records per ScoreBatch call (default 1000)");
   AddValueFlag(command, "reasons", &flags->reasons, "K",
@@ -115,6 +125,13 @@ CommandRun DeclareScore(CLI::App& command) {
     if (!options.json.empty() && !options.out.empty()) {
       return UsageError("--out goes with --csv, not --json");
     }
+    if (!options.json.empty() && (flags->strict || !flags->na.empty())) {
+      return UsageError("--strict and --na go with --csv, not --json");
+    }
+    absl::StatusOr<MissingCells> missing = MissingCells::Parse(flags->na);
+    if (!missing.ok()) return AsUsage(missing.status());
+    options.missing = *std::move(missing);
+    options.strict = flags->strict;
     absl::StatusOr<int> batch = ParseIntFlag("batch", flags->batch, 1);
     if (!batch.ok()) return batch.status();
     options.batch = *batch;
@@ -224,6 +241,9 @@ CommandRun DeclareHealth(CLI::App& command) {
 
 struct FitFlags {
   std::string csv, target, out, name, version, features, categorical, weights;
+  std::string na;
+  std::vector<std::string> missing;
+  std::string missing_default = "reject";
   std::string l2 = "0";
 };
 
@@ -251,6 +271,21 @@ CommandRun DeclareFit(CLI::App& command) {
                "scikit-learn (default 0: plain maximum likelihood)");
   AddValueFlag(command, "weights", &flags->weights, "COLUMN",
                "a column of sample weights (finite, >= 0)");
+  AddValueFlag(command, "na", &flags->na, "TOKEN,...",
+               "cells equal to one of these tokens are missing values, as "
+               "blank cells are (default: blank cells only)");
+  command
+      .add_option("--missing", flags->missing,
+                  "the missing-value rule of one feature column, repeatable: "
+                  "impute (mean or most frequent level), indicator (impute "
+                  "plus a 0/1 column for 'was missing') or reject (a missing "
+                  "cell is an error; plumbd refuses records without it)")
+      ->type_name("COLUMN=RULE")
+      ->take_all();
+  AddValueFlag(command, "missing_default", &flags->missing_default,
+               "impute|indicator|reject",
+               "the missing-value rule of the other feature columns "
+               "(default reject)");
   return [flags](const CommandContext& context) -> absl::Status {
     FitCommandOptions options;
     options.csv = flags->csv;
@@ -258,6 +293,18 @@ CommandRun DeclareFit(CLI::App& command) {
     options.columns.weights = flags->weights;
     options.columns.features = SplitColumnList(flags->features);
     options.columns.categorical = SplitColumnList(flags->categorical);
+    absl::StatusOr<MissingCells> na = MissingCells::Parse(flags->na);
+    if (!na.ok()) return AsUsage(na.status());
+    options.columns.missing = *std::move(na);
+    for (const std::string& text : flags->missing) {
+      auto rule = ParseColumnMissingRule(text);
+      if (!rule.ok()) return AsUsage(rule.status());
+      options.columns.missing_rules.push_back(*std::move(rule));
+    }
+    absl::StatusOr<v1::MissingRule::Kind> missing_default =
+        ParseMissingRule("--missing_default", flags->missing_default);
+    if (!missing_default.ok()) return AsUsage(missing_default.status());
+    options.columns.missing_default = *missing_default;
     options.out = flags->out;
     options.name = flags->name;
     options.version = flags->version;
@@ -316,16 +363,31 @@ std::vector<CommandSpec> MakeTable() {
            "the same code path gives the same output).\n"
            "--csv sends the rows in batches of N and writes the input "
            "columns plus record_id, log_odds, probability and "
-           "reason_1..reason_K, in full precision. --json prints the score "
-           "to six significant digits, or with --format json the ScoreReply "
-           "in full precision.",
+           "reason_1..reason_K, in full precision. Rows without a record_id "
+           "get <file stem>-<unix microseconds>-<8 random hex digits>-<n>. "
+           "--json prints the score to six significant digits, or with "
+           "--format json the ScoreReply in full precision.\n"
+           "--csv is resumable, not all-or-nothing. Before the first call "
+           "the whole file is checked against the set's features: the CSV "
+           "itself, the header (no column that is a feature, or with "
+           "--strict any feature without a column, is refused), every "
+           "cell, and record ids repeated within the file; any of these "
+           "fails with nothing sent or written. What only plumbd can decide "
+           "(an id its ledger holds with other features, a level the set "
+           "refuses, a lost connection) fails a batch: then the rows scored "
+           "before it are written to --out and every row from that batch on "
+           "to OUT.refused.csv (or FILE.refused.csv with no --out) with the "
+           "columns row, record_id, error and the input's own, exit status "
+           "1. Fix the refused rows and score that file to resume: the ids "
+           "are kept, and a row plumbd had recorded already comes back as a "
+           "repeat (stored score, counted in a note), never twice.",
        .usage = {"(--set NAME | --set_file SET.json) --json '{\"feature\": "
                  "value, ...}' [--record_id ID] [--reasons K] "
                  "[--reason_order raises|lowers|magnitude] [--format "
                  "text|json]",
                  "(--set NAME | --set_file SET.json) --csv FILE [--out FILE] "
-                 "[--batch N] [--reasons K] [--reason_order "
-                 "raises|lowers|magnitude]"},
+                 "[--batch N] [--na TOKEN,...] [--strict] [--reasons K] "
+                 "[--reason_order raises|lowers|magnitude]"},
        .declare = DeclareScore});
   table.push_back(
       {.path = {"outcomes"},
@@ -359,9 +421,18 @@ std::vector<CommandSpec> MakeTable() {
            "Fits a logistic model to a CSV file (header row) by maximum "
            "likelihood (IRLS; with --l2, penalised on the standardised "
            "columns, lambda = 1/C of scikit-learn) and writes it as a set "
-           "file plumbd loads. A column that is not all numbers is "
-           "categorical, as is every --categorical column; an empty cell is "
-           "missing. Prints the transforms, the coefficient table "
+           "file plumbd loads. A blank cell, or one equal to an --na token, "
+           "is missing. A column whose present cells are all numbers is "
+           "numeric; one with under 90% numbers is categorical, as is every "
+           "--categorical column; a column in between is refused, naming "
+           "the cells that are not numbers (pass them to --na, or use "
+           "--categorical). Nothing is guessed about missing values: each "
+           "feature's rule is --missing COLUMN=RULE or --missing_default "
+           "(impute, indicator or reject; default reject, which refuses a "
+           "file with a missing cell in that column, naming its rows), and "
+           "the rule goes into the set. The target holds 1, 1.0 or true and "
+           "0, 0.0 or false. A table of missing cells per column goes to "
+           "stderr. Prints the transforms, the coefficient table "
            "(estimate, standard error, z, p-value) and the fit statistics; "
            "per-iteration progress goes to stderr when it is a terminal or "
            "once the fit runs past 1 s. On any failure nothing is written. "

@@ -14,6 +14,7 @@
 #include "daemon/csv/scoring.h"
 #include "daemon/scoring/core.h"
 #include "daemon/scoring/set_registry.h"
+#include "daemon/util/record_ids.h"
 #include "google/protobuf/util/json_util.h"
 
 namespace plumbline::daemon {
@@ -68,9 +69,8 @@ absl::Status ScoreJson(const ClientOptions& client,
                      parsed.message().as_string()));
   }
   request.mutable_record()->set_record_id(
-      options.record_id.empty()
-          ? absl::StrCat("cli-", absl::ToUnixSeconds(absl::Now()))
-          : options.record_id);
+      options.record_id.empty() ? RecordIdGenerator().Next("cli", absl::Now())
+                                : options.record_id);
   *request.mutable_reasons() = options.reasons;
   const bool with_reasons = options.reasons.top() > 0;
   if (!options.set_file.empty()) {
@@ -96,6 +96,8 @@ absl::Status ScoreCsv(const ClientOptions& client,
   csv_options.out_path = options.out;
   csv_options.batch_size = options.batch;
   csv_options.reasons = options.reasons;
+  csv_options.missing = options.missing;
+  csv_options.strict = options.strict;
 
   absl::StatusOr<CsvScoringResult> result;
   if (!options.set_file.empty()) {
@@ -122,6 +124,11 @@ absl::Status ScoreCsv(const ClientOptions& client,
     err << "plumbctl: note: no column for feature(s) "
         << absl::StrJoin(result->absent_features, ", ")
         << "; they were sent as missing\n";
+  }
+  if (result->repeats > 0) {
+    err << "plumbctl: note: " << CountOf(result->repeats, "record")
+        << " had been recorded before with the same id and features; "
+           "plumbd returned the stored scores and recorded nothing new\n";
   }
   err << "scored " << CountOf(result->records, "record") << " in "
       << CountOf(result->batches, "batch", "batches") << "\n";

@@ -23,6 +23,7 @@
 #include "absl/strings/string_view.h"
 #include "absl/time/time.h"
 #include "daemon/cli/output.h"
+#include "daemon/csv/missing.h"
 #include "daemon/util/text_table.h"
 #include "plumbline/v1/scoring.pb.h"
 
@@ -44,11 +45,16 @@ struct ScoreCommandOptions {
   std::string csv;
   // CSV output file; empty = stdout.
   std::string out;
-  // Record id for --json; empty generates one.
+  // Record id for --json; empty generates one ("cli-<unix µs>-<8 hex>-1",
+  // daemon/util/record_ids.h).
   std::string record_id;
   // Records per ScoreBatch call (CSV).
   int batch = 1000;
   v1::ReasonOptions reasons;
+  // CSV: which cells are missing values (--na).
+  MissingCells missing;
+  // CSV: refuse a file without a column for every feature (--strict).
+  bool strict = false;
   // --json only: the reply as text or as JSON (ScoreReply).
   OutputFormat format = OutputFormat::kText;
 };

@@ -193,6 +193,13 @@ absl::Status RunFitCommand(const FitCommandOptions& options, std::ostream& out,
   absl::StatusOr<TrainingData> data =
       TrainingDataFromCsv(*table, options.columns, options.csv);
   if (!data.ok()) return data.status();
+  err << "missing values (blank cells"
+      << (options.columns.missing.tokens().empty() ? "" : " and --na tokens")
+      << "):\n"
+      << MissingTable(*data);
+  if (absl::Status st = CheckMissingRules(*data, options.csv); !st.ok()) {
+    return st;
+  }
 
   absl::StatusOr<scorer::DesignLayout> layout =
       scorer::DesignLayout::Learn(data->specs, data->records);

@@ -2,7 +2,7 @@
 //
 // `plumbctl fit`: fits a logistic model to a CSV file by maximum likelihood
 // (optionally L2-penalised) and writes it as a coefficient-set file that
-// plumbd loads. The CSV is typed by daemon/csv_training.h; the transforms
+// plumbd loads. The CSV is typed by daemon/csv/training.h; the transforms
 // (centre and scale of numeric columns, levels of categorical ones), the
 // baselines and the fit come from scorer/design_matrix.h, scorer/fit.h and
 // scorer/design_set.h.
@@ -12,10 +12,13 @@
 // estimates only for penalised fits, whose standard errors are not sampling
 // standard errors), the fit statistics (rows, log-likelihood, null
 // log-likelihood, deviance, AIC, McFadden pseudo-R^2, iterations,
-// convergence) and the path written. Progress lines go to `err` (see
-// FitProgressLines). Any failure (bad file or flags, data that cannot
-// identify the model, no convergence) returns a status naming the column or
-// row and writes nothing; an existing --out file is left as it was.
+// convergence) and the path written. On `err`: the missing-data table
+// (column, missing cells, share, rule) before anything else, then the
+// progress lines (see FitProgressLines). Missing cells of a feature whose
+// rule is reject (the default) fail the command after the table. Any failure
+// (bad file or flags, data that cannot identify the model, no convergence)
+// returns a status naming the column or row and writes nothing; an existing
+// --out file is left as it was.
 //
 //   FitCommandOptions options;
 //   options.csv = "parcels.csv";

@@ -9,6 +9,7 @@
 #include <cstdint>
 #include <string>
 
+#include "absl/strings/str_cat.h"
 #include "daemon/csv/records.h"
 #include "daemon/csv/table.h"
 #include "daemon/scoring/core.h"
@@ -52,8 +53,10 @@ extern "C" int LLVMFuzzerTestOneInput(const uint8_t* bytes, size_t size) {
       plumbline::daemon::SummarizeSet(plumbline::fuzz::FuzzPlan());
   const plumbline::daemon::CsvLayout layout =
       plumbline::daemon::LayoutCsv(table->header, schema);
+  plumbline::daemon::CsvRecordOptions options;
+  options.new_id = [n = 0]() mutable { return absl::StrCat("fuzz-", ++n); };
   absl::StatusOr<std::vector<plumbline::v1::Record>> records =
-      plumbline::daemon::CsvToRecords(*table, layout, "fuzz.csv", "fuzz");
+      plumbline::daemon::CsvToRecords(*table, layout, "fuzz.csv", options);
   if (records.ok()) Check(records->size() == table->rows.size());
   return 0;
 }

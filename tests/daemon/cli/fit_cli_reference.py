@@ -13,6 +13,10 @@ Files in OUT_DIR:
                  distance_km (numeric, a few empty cells), region (text:
                  urban / suburban / rural, a few empty cells), depot_code
                  (numeric-looking codes 11..14), parcel_kg, failed (0/1).
+  courier_na.csv courier.csv with its empty cells written as NA
+                 (distance_km) and n/a (region), for --na.
+  spector_labels.csv  spector.csv with GRADE written as true / TRUE / 1.0
+                 and false / 0 / 0.0 in turn (the same labels).
   reference.json the reference fits below.
 
 Sections of reference.json:
@@ -34,6 +38,11 @@ Sections of reference.json:
                     first:
       numeric_depot      statsmodels Logit, depot_code numeric.
       categorical_depot  statsmodels Logit, depot_code categorical.
+      indicator          statsmodels Logit, depot_code numeric,
+                         distance_km with a missing indicator (the value
+                         imputed by the mean, plus a 0/1 column
+                         "distance_km:missing" right after it), region
+                         imputed.
       l2                 scikit-learn LogisticRegression(penalty="l2",
                          C=1/L2_LAMBDA, solver="newton-cholesky",
                          tol=1e-12), depot_code categorical.
@@ -81,6 +90,14 @@ def spector(out_dir):
         for i in range(len(y)):
             out.writerow([f"student-{i + 1}", repr(x[i, 0]), int(x[i, 1]),
                           int(x[i, 2]), int(y[i]), int(w[i])])
+    words = {1: ["true", "TRUE", "1.0"], 0: ["false", "0", "0.0"]}
+    with open(os.path.join(out_dir, "spector_labels.csv"), "w",
+              newline="") as f:
+        out = csv.writer(f, lineterminator="\n")
+        out.writerow(["GPA", "TUCE", "PSI", "GRADE"])
+        for i in range(len(y)):
+            out.writerow([repr(x[i, 0]), int(x[i, 1]), int(x[i, 2]),
+                          words[int(y[i])][i % 3]])
     raw = logit(y, x)
     xs, centre, scale = standardise(x)
     std = logit(y, xs)
@@ -141,7 +158,7 @@ def categorical_columns(name, cells):
     return names, cols
 
 
-def courier_design(rows, depot_categorical):
+def courier_design(rows, depot_categorical, indicators=()):
     names, cols = [], []
     header = ["distance_km", "region", "depot_code", "parcel_kg"]
     for j, name in enumerate(header, start=1):
@@ -153,6 +170,9 @@ def courier_design(rows, depot_categorical):
         else:
             names.append(name)
             cols.append(numeric_column(cells))
+        if name in indicators:
+            names.append(f"{name}:missing")
+            cols.append(np.array([1.0 if c == "" else 0.0 for c in cells]))
     return names, np.column_stack(cols)
 
 
@@ -163,6 +183,12 @@ def courier(out_dir):
         out.writerow(["record_id", "distance_km", "region", "depot_code",
                       "parcel_kg", "failed"])
         out.writerows(rows)
+    with open(os.path.join(out_dir, "courier_na.csv"), "w", newline="") as f:
+        out = csv.writer(f, lineterminator="\n")
+        out.writerow(["record_id", "distance_km", "region", "depot_code",
+                      "parcel_kg", "failed"])
+        for r in rows:
+            out.writerow([r[0], r[1] or "NA", r[2] or "n/a"] + r[3:])
     y = np.array([float(r[5]) for r in rows])
     result = {"l2_lambda": L2_LAMBDA}
     for key, depot_categorical in (("numeric_depot", False),
@@ -171,6 +197,11 @@ def courier(out_dir):
         fit = logit(y, x)
         result[key] = {"names": ["intercept"] + names,
                        "params": floats(fit.params), "llf": float(fit.llf)}
+    names, x = courier_design(rows, False, indicators=("distance_km",))
+    fit = logit(y, x)
+    result["indicator"] = {"names": ["intercept"] + names,
+                           "params": floats(fit.params),
+                           "llf": float(fit.llf)}
     names, x = courier_design(rows, True)
     model = LogisticRegression(penalty="l2", C=1.0 / L2_LAMBDA, tol=1e-12,
                                max_iter=1000, solver="newton-cholesky")

@@ -105,6 +105,12 @@ std::map<std::string, double> CoefficientsByName(
       out[absl::StrCat(f.name(), "=", level.value())] = level.coefficient();
     }
   }
+  for (const v1::Feature& f : set.features()) {
+    if (f.missing().kind() == v1::MissingRule::INDICATOR) {
+      out[absl::StrCat(f.name(), ":missing")] =
+          f.missing().indicator_coefficient();
+    }
+  }
   return out;
 }
 
@@ -341,7 +347,9 @@ TEST_F(FitCliTest, CategoricalColumnsAndL2MatchStatsmodelsAndScikitLearn) {
   for (const Case& c : cases) {
     SCOPED_TRACE(c.section);
     const std::string out = dir_.File(c.section + ".json");
-    std::vector<std::string> flags = {"--target", "failed"};
+    // The reference imputes (the mean, the most frequent level).
+    std::vector<std::string> flags = {"--target", "failed", "--missing_default",
+                                      "impute"};
     flags.insert(flags.end(), c.flags.begin(), c.flags.end());
     const ProcessResult r = Fit("courier.csv", out, flags);
     ASSERT_EQ(r.exit_code, 0) << r.err;
@@ -385,12 +393,115 @@ TEST_F(FitCliTest, CategoricalColumnsAndL2MatchStatsmodelsAndScikitLearn) {
   }
 }
 
+// The coefficients of `set` against the reference section `section` of
+// courier (names and params, intercept first).
+void ExpectCourierFit(const Struct& ref, const std::string& section,
+                      const v1::CoefficientSet& set) {
+  const Struct& fit_ref = Section(ref, section);
+  std::vector<std::string> names;
+  for (const auto& v : fit_ref.fields().at("names").list_value().values()) {
+    names.push_back(v.string_value());
+  }
+  const Eigen::VectorXd want = Vector(fit_ref, "params");
+  const std::map<std::string, double> got = CoefficientsByName(set);
+  ASSERT_EQ(got.size(), names.size());
+  for (size_t j = 0; j < names.size(); ++j) {
+    ASSERT_TRUE(got.contains(names[j])) << names[j];
+    ExpectRelative(got.at(names[j]), want[static_cast<Eigen::Index>(j)],
+                   kRelative, names[j]);
+  }
+}
+
+TEST_F(FitCliTest, MissingValuesAreRefusedUnlessARuleIsChosen) {
+  // Default: reject. courier.csv has 14 blank distance_km cells and 8
+  // blank region cells (fit_cli_reference.py, seeded).
+  const std::string refused = dir_.File("refused.json");
+  const ProcessResult r = Fit("courier.csv", refused, {"--target", "failed"});
+  EXPECT_EQ(r.exit_code, 1);
+  EXPECT_THAT(r.err,
+              HasSubstr("missing values in feature columns whose rule "
+                        "is reject: column 'distance_km' has 14 (rows "));
+  EXPECT_THAT(r.err, HasSubstr(" \xE2\x80\xA6 and 9 more); column 'region' "
+                               "has 8 (rows "));
+  EXPECT_THAT(r.err, HasSubstr("--missing distance_km=impute|indicator"));
+  // The table comes first: column, missing, share, rule.
+  EXPECT_THAT(r.err, HasSubstr("distance_km  14       3.5%   reject"));
+  EXPECT_THAT(r.err, HasSubstr("parcel_kg    0        0.0%   reject"));
+  EXPECT_FALSE(std::filesystem::exists(refused));
+
+  // --missing per column: distance_km with an indicator, region imputed.
+  // Reference: statsmodels Logit on the design with the indicator column.
+  const Struct& ref = Section(ref_, "courier");
+  const std::string out = dir_.File("indicator.json");
+  const ProcessResult ind =
+      Fit("courier.csv", out,
+          {"--target", "failed", "--missing", "distance_km=indicator",
+           "--missing", "region=impute"});
+  ASSERT_EQ(ind.exit_code, 0) << ind.err;
+  EXPECT_THAT(ind.err, HasSubstr("distance_km  14       3.5%   indicator"));
+  EXPECT_THAT(ind.err, HasSubstr("region       8        2.0%   impute"));
+  const v1::CoefficientSet set = ReadSet(out);
+  ExpectCourierFit(ref, "indicator", set);
+  ExpectRelative(Statistic(ind.out, "log-likelihood"),
+                 Number(Section(ref, "indicator"), "llf"), kRelative, "llf");
+  // The rules go into the set; columns without missing cells keep the
+  // default, reject.
+  ASSERT_EQ(set.features_size(), 4);
+  EXPECT_EQ(set.features(0).missing().kind(), v1::MissingRule::INDICATOR);
+  EXPECT_EQ(set.features(1).missing().kind(), v1::MissingRule::IMPUTE);
+  EXPECT_EQ(set.features(3).missing().kind(), v1::MissingRule::REJECT);
+}
+
+TEST_F(FitCliTest, NaTokensAreMissingValuesAsBlankCellsAre) {
+  // courier_na.csv writes courier.csv's blank cells as NA and n/a: with
+  // --na the fit is statsmodels' imputed fit of courier.csv.
+  const std::string out = dir_.File("na.json");
+  const ProcessResult r = Fit(
+      "courier_na.csv", out,
+      {"--target", "failed", "--na", "NA,n/a", "--missing_default", "impute"});
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  EXPECT_THAT(r.err, HasSubstr("missing values (blank cells and --na "
+                               "tokens):"));
+  ExpectCourierFit(Section(ref_, "courier"), "numeric_depot", ReadSet(out));
+
+  // Without --na, NA makes distance_km a numeric column with stray text.
+  const ProcessResult plain =
+      Fit("courier_na.csv", dir_.File("plain.json"), {"--target", "failed"});
+  EXPECT_EQ(plain.exit_code, 1);
+  EXPECT_THAT(plain.err,
+              HasSubstr("column 'distance_km' looks numeric (386 of 400 "
+                        "present cells are numbers) but 14 cells are not: "
+                        "'NA'. If they mark missing values, pass --na NA"));
+}
+
+TEST_F(FitCliTest, TargetWordsAndDecimalsAreLabels) {
+  // GRADE as true / TRUE / 1.0 and false / 0 / 0.0: the fit of spector.csv
+  // (statsmodels Logit on the standardised columns).
+  const ProcessResult r = Fit("spector_labels.csv", dir_.File("labels.json"),
+                              {"--target", "GRADE"});
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  const Eigen::VectorXd params =
+      Vector(Section(Section(ref_, "spector"), "std"), "params");
+  const std::vector<std::string> rows = {"intercept", "GPA", "TUCE", "PSI"};
+  for (Eigen::Index j = 0; j < 4; ++j) {
+    ExpectRelative(ParseNumber(LineAfter(r.out, rows[j], "column  ")[0]),
+                   params[j], kRelative, rows[j]);
+  }
+}
+
 struct FailureCase {
   std::string name;
   std::string csv;
   std::vector<std::string> flags;
   std::vector<std::string> messages;  // substrings of stderr
 };
+
+// 27 numbers and 3 text cells in column kg: 90% numbers, the threshold.
+std::string StrayTextCsv() {
+  std::string csv = "kg,y\n";
+  for (int r = 1; r <= 27; ++r) absl::StrAppend(&csv, r, ",", r % 2, "\n");
+  return csv + "?,0\nheavy,1\n?,1\n";
+}
 
 TEST_F(FitCliTest, FailuresNameTheProblemAndWriteNothing) {
   const std::vector<FailureCase> cases = {
@@ -403,7 +514,7 @@ TEST_F(FitCliTest, FailuresNameTheProblemAndWriteNothing) {
        "x,y\n1,0\n2,2\n3,1\n",
        {"--target", "y"},
        {"INVALID_ARGUMENT",
-        "row 2 (line 3), column 'y': label '2' is not 0 or 1"}},
+        "row 2 (line 3), column 'y': target '2' is not a label"}},
       {"complete_separation",
        "x,y\n1,0\n2,0\n3,0\n4,1\n5,1\n6,1\n",
        {"--target", "y"},
@@ -433,6 +544,28 @@ TEST_F(FitCliTest, FailuresNameTheProblemAndWriteNothing) {
        "x,y,w\n1,0,1\n2,1,-1\n3,1,1\n",
        {"--target", "y", "--weights", "w"},
        {"INVALID_ARGUMENT", "row 2 (line 3), column 'w': weight '-1'"}},
+      {"target_word",
+       "x,y\n1,0\n2,yes\n3,1\n",
+       {"--target", "y"},
+       {"INVALID_ARGUMENT",
+        "row 2 (line 3), column 'y': target 'yes' is not a label"}},
+      {"target_missing",
+       "x,y\n1,0\n2,\n3,1\n",
+       {"--target", "y"},
+       {"INVALID_ARGUMENT", "row 2 (line 3), column 'y': target '' is not"}},
+      {"stray_text",
+       StrayTextCsv(),
+       {"--target", "y"},
+       {"INVALID_ARGUMENT",
+        "column 'kg' looks numeric (27 of 30 present cells are numbers) but "
+        "3 cells are not: '?', 'heavy'. If they mark missing values, pass "
+        "--na ?,heavy; if the column is a code, --categorical kg"}},
+      {"missing_not_a_feature",
+       "x,z,y\n1,2,0\n2,3,1\n",
+       {"--target", "y", "--features", "x", "--missing", "z=impute"},
+       {"INVALID_ARGUMENT",
+        "--missing names column 'z', which is not a "
+        "feature"}},
       {"unknown_feature",
        "x,y\n1,0\n2,1\n",
        {"--target", "y", "--features", "x,z"},
@@ -454,10 +587,27 @@ TEST_F(FitCliTest, FailuresNameTheProblemAndWriteNothing) {
     EXPECT_EQ(ReadTextFile(out), "earlier set");
     EXPECT_FALSE(std::filesystem::exists(out + ".tmp"));
   }
-  // Missing flags are usage errors.
+  // Missing flags and bad rules are usage errors.
   const ProcessResult usage = Plumbctl({"fit", "--csv", "x.csv"});
   EXPECT_EQ(usage.exit_code, 2);
   EXPECT_THAT(usage.err, HasSubstr("fit needs --target COLUMN"));
+  const std::vector<std::string> base = {"fit",      "--csv",  "x.csv",
+                                         "--target", "y",      "--out",
+                                         "o.json",   "--name", "n"};
+  for (const auto& [flags, message] :
+       std::vector<std::pair<std::vector<std::string>, std::string>>{
+           {{"--missing", "x=guess"},
+            "--missing: 'guess' is not a missing-value rule"},
+           {{"--missing", "x"}, "expected COLUMN=impute|indicator|reject"},
+           {{"--missing_default", "zero"},
+            "--missing_default: 'zero' is not a missing-value rule"},
+           {{"--na", "NA,,-"}, "an empty token"}}) {
+    std::vector<std::string> args = base;
+    args.insert(args.end(), flags.begin(), flags.end());
+    const ProcessResult bad = Plumbctl(args);
+    EXPECT_EQ(bad.exit_code, 2) << message;
+    EXPECT_THAT(bad.err, HasSubstr(message));
+  }
 }
 
 // In-process: the progress lines under a fake clock and the default version.
@@ -482,8 +632,11 @@ TEST_F(FitCliTest, ProgressLinesAndDefaultVersionInProcess) {
     ASSERT_TRUE(RunFitCommand(options, out, err).ok()) << err.str();
     const int iterations = static_cast<int>(Statistic(out.str(), "iterations"));
     ASSERT_GT(iterations, 2);
-    const std::vector<std::string> lines =
-        absl::StrSplit(err.str(), '\n', absl::SkipEmpty());
+    // The progress lines, not the missing-data table before them.
+    std::vector<std::string> lines;
+    for (absl::string_view line : absl::StrSplit(err.str(), '\n')) {
+      if (absl::StartsWith(line, "fit: ")) lines.emplace_back(line);
+    }
     switch (mode) {
       case FitProgressLines::kAlways:
         ASSERT_EQ(lines.size(), static_cast<size_t>(iterations));

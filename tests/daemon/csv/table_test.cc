@@ -3,6 +3,7 @@
 // online and offline scoring. Expected parses follow RFC 4180's rules.
 #include "daemon/csv/table.h"
 
+#include "absl/strings/str_cat.h"
 #include "daemon/csv/records.h"
 #include "gmock/gmock.h"
 #include "gtest/gtest.h"
@@ -103,6 +104,15 @@ v1::SetSummary Schema() {
   return schema;
 }
 
+// Ids "<prefix>-1", "<prefix>-2", ... in the order asked for.
+CsvRecordOptions Ids(const std::string& prefix) {
+  CsvRecordOptions options;
+  options.new_id = [prefix, n = 0]() mutable {
+    return absl::StrCat(prefix, "-", ++n);
+  };
+  return options;
+}
+
 TEST(CsvToRecordsTest, TypesCellsBySchema) {
   const v1::SetSummary schema = Schema();
   absl::StatusOr<CsvTable> table = ParseCsv(
@@ -115,7 +125,7 @@ TEST(CsvToRecordsTest, TypesCellsBySchema) {
   EXPECT_EQ(layout.record_id_column, 3);
   EXPECT_THAT(layout.absent_features, ElementsAre("hour"));
   absl::StatusOr<std::vector<v1::Record>> records =
-      CsvToRecords(*table, layout, "in.csv", "in-100");
+      CsvToRecords(*table, layout, "in.csv", Ids("in-100"));
   ASSERT_TRUE(records.ok()) << records.status();
   ASSERT_EQ(records->size(), 2u);
   const auto& first = (*records)[0];
@@ -124,7 +134,7 @@ TEST(CsvToRecordsTest, TypesCellsBySchema) {
   EXPECT_EQ(first.features().fields().at("distance_km").number_value(), 4.5);
   EXPECT_EQ(first.features().fields().at("region").string_value(), "rural");
   const auto& second = (*records)[1];
-  EXPECT_EQ(second.record_id(), "in-100-2");  // empty id cell: generated
+  EXPECT_EQ(second.record_id(), "in-100-1");  // empty id cell: generated
   EXPECT_TRUE(second.features().fields().at("distance_km").has_null_value());
   EXPECT_TRUE(second.features().fields().at("region").has_null_value());
 }
@@ -134,8 +144,8 @@ TEST(CsvToRecordsTest, UnparseableNumberNamesRowAndColumn) {
   absl::StatusOr<CsvTable> table =
       ParseCsv("distance_km,hour\n1,2\n3,late\n", "in.csv");
   ASSERT_TRUE(table.ok());
-  absl::StatusOr<std::vector<v1::Record>> records =
-      CsvToRecords(*table, LayoutCsv(table->header, schema), "in.csv", "in-1");
+  absl::StatusOr<std::vector<v1::Record>> records = CsvToRecords(
+      *table, LayoutCsv(table->header, schema), "in.csv", Ids("in"));
   ASSERT_FALSE(records.ok());
   EXPECT_EQ(records.status().code(), absl::StatusCode::kInvalidArgument);
   EXPECT_THAT(records.status().message(),
@@ -149,7 +159,7 @@ TEST(FormatScoredCsvTest, AddsIdScoreAndReasonColumns) {
   ASSERT_TRUE(table.ok());
   const CsvLayout layout = LayoutCsv(table->header, schema);
   absl::StatusOr<std::vector<v1::Record>> records =
-      CsvToRecords(*table, layout, "in.csv", "in-7");
+      CsvToRecords(*table, layout, "in.csv", Ids("in-7"));
   ASSERT_TRUE(records.ok());
   v1::Scored scored;
   scored.set_log_odds(0.5);
