@@ -2,14 +2,18 @@
 //
 // The gRPC load generator of tests/bench/run_grpc_bench: drives a running
 // plumbd with one request shape and prints one table row for it and one for
-// its floor, measured just before in the same run.
+// its floor, measured in the same run: the two alternate in --rounds rounds
+// (default 2), so a change in the machine's load falls on both.
 //
 // The floor is the same request shape, the same callers or rate, sent to a
 // set name plumbd does not have: gRPC receives and parses the whole message
 // and plumbd answers NOT_FOUND without encoding, scoring, monitoring or the
 // ledger. Every figure of the scenario is printed with its ratio to the
 // floor's, so what the row shows is plumbd's own work on top of transport,
-// on a machine whose load the bench does not control.
+// on a machine whose load the bench does not control. Each phase starts on
+// an empty ledger queue and ends once the queue is empty again, so plumbd's
+// CPU per record includes writing the phase's rows (also under ACK_QUEUED,
+// where that continues after the replies) and nothing of another phase.
 //
 //   grpc_load --addr 127.0.0.1:PORT --set courier_mixed --rpc batch_dense
 //       --records 1000 --callers 4 --pid PID --metrics_addr HOST:PORT
@@ -27,6 +31,7 @@
 #include <grpcpp/security/credentials.h>
 #include <unistd.h>
 
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <fstream>
@@ -55,7 +60,10 @@ ABSL_FLAG(int, records, 1000, "records per ScoreBatch call");
 ABSL_FLAG(int, callers, 1, "closed loop: calls kept in flight");
 ABSL_FLAG(double, rate, 0,
           "open loop: calls started per second (0: closed loop)");
-ABSL_FLAG(double, seconds, 2, "measured seconds per phase");
+ABSL_FLAG(double, seconds, 2,
+          "measured seconds of each side (floor, scenario), split in rounds");
+ABSL_FLAG(int, rounds, 2,
+          "floor and scenario alternate this many times; figures add up");
 ABSL_FLAG(double, warmup_seconds, 0.3, "unmeasured seconds before each phase");
 ABSL_FLAG(int, pid, 0, "plumbd's pid, for its CPU time (0: not measured)");
 ABSL_FLAG(std::string, metrics_addr, "",
@@ -150,7 +158,9 @@ void PrintPhase(const std::string& label, const std::string& mode,
     return *us * 1000 / x.features;
   };
   std::optional<double> calls_per_commit;
-  if (p.commits && *p.commits > 0) calls_per_commit = p.Calls() / *p.commits;
+  if (!p.floor && p.commits && *p.commits > 0) {
+    calls_per_commit = p.Calls() / *p.commits;
+  }
   const Phase* f = floor;
   absl::PrintF(
       kRowFormat, p.floor ? label + " floor" : label, p.floor ? "none" : mode,
@@ -195,15 +205,34 @@ LoadResult Drive(CallSource* source, absl::Duration duration) {
   return RunClosedLoop(source, absl::GetFlag(FLAGS_callers), duration);
 }
 
-absl::StatusOr<Phase> Measure(v1::Scoring::Stub* stub,
-                              const v1::SetSummary& schema,
-                              const std::string& target, bool floor,
-                              RecordIds* ids) {
-  std::unique_ptr<CallSource> source = MakeSource(stub, schema, target, ids);
-  const double warmup = absl::GetFlag(FLAGS_warmup_seconds);
-  if (warmup > 0) Drive(source.get(), absl::Seconds(warmup));
+// Waits until plumbd's ledger queue is empty (nothing of an earlier phase
+// still being written); without a metrics address there is nothing to wait
+// for. Gives up after 60 s: a safety net, not a speed requirement.
+absl::Status WaitForIdleLedger(const std::string& metrics) {
+  if (metrics.empty()) return absl::OkStatus();
+  const absl::Time give_up = absl::Now() + absl::Seconds(60);
+  for (;;) {
+    absl::StatusOr<LedgerCounters> counters = ScrapeLedgerCounters(metrics);
+    if (!counters.ok()) return counters.status();
+    if (counters->queue_rows == 0) return absl::OkStatus();
+    if (absl::Now() > give_up) {
+      return absl::DeadlineExceededError(
+          absl::StrCat("plumbd's ledger queue still holds ",
+                       counters->queue_rows, " rows after 60 s"));
+    }
+    absl::SleepFor(absl::Milliseconds(20));
+  }
+}
+
+// One measured phase of `source`. It starts on an idle ledger and ends when
+// the ledger has written what the phase queued, so plumbd's CPU and commits
+// include the writing of this phase's rows (under ACK_QUEUED that goes on
+// after the last reply) and nothing of another phase's.
+absl::StatusOr<Phase> Measure(CallSource* source, bool floor, int features,
+                              absl::Duration duration) {
   const pid_t pid = absl::GetFlag(FLAGS_pid);
   const std::string metrics = absl::GetFlag(FLAGS_metrics_addr);
+  if (absl::Status s = WaitForIdleLedger(metrics); !s.ok()) return s;
   std::optional<double> cpu_before;
   std::optional<LedgerCounters> ledger_before;
   if (pid > 0) {
@@ -218,8 +247,9 @@ absl::StatusOr<Phase> Measure(v1::Scoring::Stub* stub,
   }
   Phase phase;
   phase.floor = floor;
-  phase.features = schema.features_size();
-  phase.load = Drive(source.get(), absl::Seconds(absl::GetFlag(FLAGS_seconds)));
+  phase.features = features;
+  phase.load = Drive(source, duration);
+  if (absl::Status s = WaitForIdleLedger(metrics); !s.ok()) return s;
   if (cpu_before) {
     absl::StatusOr<double> cpu = ProcessCpuSeconds(pid);
     if (!cpu.ok()) return cpu.status();
@@ -231,6 +261,71 @@ absl::StatusOr<Phase> Measure(v1::Scoring::Stub* stub,
     phase.commits = counters->commits - ledger_before->commits;
   }
   return phase;
+}
+
+void Add(const std::optional<double>& value, std::optional<double>* sum) {
+  if (value) *sum = sum->value_or(0) + *value;
+}
+
+// Adds a later round of the same side to `into`.
+void Merge(const Phase& round, Phase* into) {
+  LoadResult& a = into->load;
+  const LoadResult& b = round.load;
+  a.elapsed += b.elapsed;
+  a.calls += b.calls;
+  a.ok_calls += b.ok_calls;
+  a.records += b.records;
+  a.ok_records += b.ok_records;
+  a.not_sent += b.not_sent;
+  for (const auto& [code, n] : b.codes) a.codes[code] += n;
+  a.latency_us.insert(a.latency_us.end(), b.latency_us.begin(),
+                      b.latency_us.end());
+  std::sort(a.latency_us.begin(), a.latency_us.end());
+  Add(round.cpu_seconds, &into->cpu_seconds);
+  Add(round.commits, &into->commits);
+}
+
+// The floor (if asked) and the scenario, alternating in `rounds` rounds so a
+// change in the machine's load falls on both sides alike; each side warms
+// up once before its first round.
+absl::Status MeasureBoth(v1::Scoring::Stub* stub, const v1::SetSummary& schema,
+                         const std::string& prefix, std::optional<Phase>* floor,
+                         Phase* real) {
+  RecordIds floor_ids(absl::StrCat(prefix, "-floor"));
+  RecordIds ids(prefix);
+  std::unique_ptr<CallSource> floor_source;
+  if (absl::GetFlag(FLAGS_floor)) {
+    floor_source =
+        MakeSource(stub, schema, absl::GetFlag(FLAGS_floor_set), &floor_ids);
+  }
+  std::unique_ptr<CallSource> source =
+      MakeSource(stub, schema, absl::GetFlag(FLAGS_set), &ids);
+  const int rounds = std::max(1, absl::GetFlag(FLAGS_rounds));
+  const absl::Duration slice =
+      absl::Seconds(absl::GetFlag(FLAGS_seconds)) / rounds;
+  const double warmup = absl::GetFlag(FLAGS_warmup_seconds);
+  for (int r = 0; r < rounds; ++r) {
+    for (CallSource* side : {floor_source.get(), source.get()}) {
+      if (side == nullptr) continue;
+      const bool is_floor = side == floor_source.get();
+      if (r == 0 && warmup > 0) Drive(side, absl::Seconds(warmup));
+      absl::StatusOr<Phase> phase =
+          Measure(side, is_floor, schema.features_size(), slice);
+      if (!phase.ok()) return phase.status();
+      if (is_floor) {
+        if (floor->has_value()) {
+          Merge(*phase, &**floor);
+        } else {
+          *floor = *std::move(phase);
+        }
+      } else if (r == 0) {
+        *real = *std::move(phase);
+      } else {
+        Merge(*phase, real);
+      }
+    }
+  }
+  return absl::OkStatus();
 }
 
 int64_t NotFound(const LoadResult& load) {
@@ -306,26 +401,16 @@ int RunScenario() {
   const std::string mode = absl::GetFlag(FLAGS_ledger_mode);
 
   std::optional<Phase> floor;
-  if (absl::GetFlag(FLAGS_floor)) {
-    RecordIds ids(absl::StrCat(prefix, "-floor"));
-    absl::StatusOr<Phase> phase =
-        Measure(stub.get(), *schema, absl::GetFlag(FLAGS_floor_set),
-                /*floor=*/true, &ids);
-    if (!phase.ok()) {
-      std::fprintf(stderr, "%s\n",
-                   std::string(phase.status().message()).c_str());
-      return 1;
-    }
-    floor = *std::move(phase);
-    PrintPhase(label, mode, callers, *floor, nullptr);
-  }
-  RecordIds ids(prefix);
-  absl::StatusOr<Phase> real =
-      Measure(stub.get(), *schema, absl::GetFlag(FLAGS_set), false, &ids);
-  if (!real.ok()) {
-    std::fprintf(stderr, "%s\n", std::string(real.status().message()).c_str());
+  Phase real_phase;
+  if (absl::Status s =
+          MeasureBoth(stub.get(), *schema, prefix, &floor, &real_phase);
+      !s.ok()) {
+    std::fprintf(stderr, "%s: %s\n", label.c_str(),
+                 std::string(s.message()).c_str());
     return 1;
   }
+  const Phase* real = &real_phase;
+  if (floor) PrintPhase(label, mode, callers, *floor, nullptr);
   PrintPhase(label, mode, callers, *real, floor ? &*floor : nullptr);
   if (!absl::GetFlag(FLAGS_result_file).empty()) {
     if (absl::Status s = WriteResult(absl::GetFlag(FLAGS_result_file), *real,

@@ -31,8 +31,9 @@ std::string LoadAverage();
 
 // plumbd's ledger counters from its Prometheus exposition.
 struct LedgerCounters {
-  double commits = 0;  // plumbline_ledger_commit_duration_seconds_count
-  double rows = 0;     // plumbline_ledger_committed_rows_total
+  double commits = 0;     // plumbline_ledger_commit_duration_seconds_count
+  double rows = 0;        // plumbline_ledger_committed_rows_total
+  double queue_rows = 0;  // plumbline_ledger_queue_rows (waiting now)
 };
 absl::StatusOr<LedgerCounters> ScrapeLedgerCounters(
     const std::string& metrics_addr);
