@@ -15,7 +15,6 @@
 #include "absl/strings/str_cat.h"
 #include "absl/strings/str_split.h"
 #include "absl/strings/string_view.h"
-#include "absl/strings/strip.h"
 #include "absl/time/clock.h"
 #include "tests/testing/http.h"
 #include "tests/testing/process.h"
@@ -51,14 +50,6 @@ absl::StatusOr<double> ProcessCpuSeconds(pid_t pid) {
   }
   return static_cast<double>(utime + stime) /
          static_cast<double>(sysconf(_SC_CLK_TCK));
-}
-
-std::string LoadAverage() {
-  const std::string text = daemon::testing::ReadTextFile("/proc/loadavg");
-  std::vector<absl::string_view> fields =
-      absl::StrSplit(text, ' ', absl::SkipEmpty());
-  if (fields.size() < 3) return "?";
-  return absl::StrCat(fields[0], " ", fields[1], " ", fields[2]);
 }
 
 absl::StatusOr<LedgerCounters> ScrapeLedgerCounters(

@@ -1,9 +1,10 @@
 // File: tests/bench/load/probes.h
 //
 // What the gRPC load generator reads around each phase besides replies:
-// plumbd's CPU time (/proc/PID/stat), its ledger counters on /metrics, the
-// machine's load average, and how long a write + fdatasync takes on the
-// ledger's disk in the same run (the floor under any durable commit).
+// plumbd's CPU time (/proc/PID/stat), its ledger counters on /metrics, and
+// how long a write + fdatasync takes on the ledger's disk in the same run
+// (the floor under any durable commit). run_grpc_bench prints the load
+// average itself.
 //
 //   ASSIGN_OR_RETURN(double before, ProcessCpuSeconds(pid));
 //   ... load ...
@@ -25,9 +26,6 @@ namespace plumbline::bench {
 // /proc/PID/stat, in clock ticks of 10 ms on Linux: read it around a phase
 // of seconds, not milliseconds).
 absl::StatusOr<double> ProcessCpuSeconds(pid_t pid);
-
-// The three load averages of /proc/loadavg ("4.65 2.96 2.01"), or "?".
-std::string LoadAverage();
 
 // plumbd's ledger counters from its Prometheus exposition.
 struct LedgerCounters {
