@@ -184,6 +184,10 @@ void AppendReviewCommands(std::vector<CommandSpec>* table) {
         AddValueFlag(command, "to", &c->to, "VERSION",
                      "the version to compare to (default: the newest "
                      "candidate)");
+      } else if (name == "record") {
+        AddValueFlag(command, "record_id", &c->record_id, "ID",
+                     "the record's id")
+            ->required();
       } else {
         AddValueFlag(command, "job", job.get(), "N",
                      "the refit job (default: the set's latest)");
@@ -243,6 +247,18 @@ void AppendReviewCommands(std::vector<CommandSpec>* table) {
                        "trail.") +
            kAdminNote,
        .declare = declare("dossier")});
+  table->push_back(
+      {.path = {"record"},
+       .summary = "what the ledger keeps of one record",
+       .description =
+           std::string("Shows one record as the ledger holds it: every score "
+                       "the set recorded under the id (the active version's "
+                       "and its shadows', with version, time, log-odds and "
+                       "probability), the features as they were scored, by "
+                       "name, and the outcome when one was reported. "
+                       "--format json prints the RecordDetail.") +
+           kAdminNote,
+       .declare = declare("record")});
 }
 
 }  // namespace plumbline::daemon

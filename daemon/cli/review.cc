@@ -11,6 +11,7 @@
 #include "daemon/cli/output.h"
 #include "daemon/util/files.h"
 #include "daemon/util/text_table.h"
+#include "google/protobuf/util/json_util.h"
 #include "plumbline/v1/registry.grpc.pb.h"
 
 namespace plumbline::daemon {
@@ -29,6 +30,14 @@ absl::Status PrintJson(const google::protobuf::Message& m, std::ostream& out) {
   if (!json.ok()) return json.status();
   out << *json;
   return absl::OkStatus();
+}
+
+// "2026-12-03T08:30:00.123456Z": the ledger's microseconds.
+std::string StampText(const google::protobuf::Timestamp& t) {
+  return absl::FormatTime(
+      "%Y-%m-%dT%H:%M:%E6SZ",
+      absl::FromUnixSeconds(t.seconds()) + absl::Nanoseconds(t.nanos()),
+      absl::UTCTimeZone());
 }
 
 void SetDeadline(grpc::ClientContext* context, absl::Duration timeout) {
@@ -56,7 +65,8 @@ void PrintFit(const v1::FitSummary& f, std::ostream& out) {
 }  // namespace
 
 bool IsReviewCommand(const std::string& name) {
-  return name == "show" || name == "diff" || name == "dossier";
+  return name == "show" || name == "diff" || name == "dossier" ||
+         name == "record";
 }
 
 absl::Status CheckReviewFlags(const ReviewCommand& c) {
@@ -65,6 +75,9 @@ absl::Status CheckReviewFlags(const ReviewCommand& c) {
   }
   if (c.name == "dossier" && c.out.empty() && !c.json) {
     return absl::InvalidArgumentError("dossier needs --out FILE");
+  }
+  if (c.name == "record" && c.record_id.empty()) {
+    return absl::InvalidArgumentError("record needs --record_id");
   }
   if (c.job < 0) {
     return absl::InvalidArgumentError("--job must be 0 (latest) or more");
@@ -124,6 +137,31 @@ void PrintVersionDiff(const v1::VersionDiff& d, std::ostream& out) {
   if (!d.comparison().empty()) out << "holdout: " << d.comparison() << "\n";
 }
 
+void PrintRecordDetail(const v1::RecordDetail& r, std::ostream& out) {
+  out << "record " << r.record_id() << " of set " << r.set() << "\n";
+  std::vector<std::vector<std::string>> rows = {
+      {"version", "role", "scored at", "log-odds", "probability", "features"}};
+  for (const v1::StoredScore& s : r.scores()) {
+    std::string features;
+    google::protobuf::util::JsonPrintOptions compact;
+    if (!google::protobuf::util::MessageToJsonString(s.features(), &features,
+                                                     compact)
+             .ok()) {
+      features = "?";
+    }
+    rows.push_back({s.version(), s.role(), StampText(s.scored_at()),
+                    G(s.log_odds()), G(s.probability()), features});
+  }
+  out << FormatTable(rows, "  ");
+  if (r.has_label()) {
+    out << "outcome " << r.label() << ", observed "
+        << StampText(r.observed_at()) << ", reported "
+        << StampText(r.reported_at()) << "\n";
+  } else {
+    out << "no outcome reported\n";
+  }
+}
+
 absl::Status RunReviewCommand(const ClientOptions& client,
                               const ReviewCommand& c, std::ostream& out) {
   if (absl::Status s = CheckReviewFlags(c); !s.ok()) return s;
@@ -157,6 +195,20 @@ absl::Status RunReviewCommand(const ClientOptions& client,
     }
     if (c.json) return PrintJson(reply, out);
     PrintVersionDiff(reply, out);
+    return absl::OkStatus();
+  }
+  if (c.name == "record") {
+    v1::GetRecordRequest request;
+    request.set_set(c.set);
+    request.set_record_id(c.record_id);
+    v1::RecordDetail reply;
+    if (absl::Status s = FromPlumbdStatus(
+            stub->GetRecord(&context, request, &reply), client.addr);
+        !s.ok()) {
+      return s;
+    }
+    if (c.json) return PrintJson(reply, out);
+    PrintRecordDetail(reply, out);
     return absl::OkStatus();
   }
   v1::GetDossierRequest request;

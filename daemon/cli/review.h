@@ -8,6 +8,9 @@
 //            against the newest candidate (Registry.DiffVersions)
 //   dossier  a refit job's dossier written to --out (Registry.GetDossier;
 //            the set's latest job by default)
+//   record   what the ledger keeps of one record: its scores by version
+//            and role, the features as stored, its outcome
+//            (Registry.GetRecord)
 // With `json`, show and diff print the reply message as protobuf JSON
 // (proto field names) for scripts; dossier prints its data so.
 //
@@ -33,15 +36,16 @@ namespace plumbline::daemon {
 struct ReviewCommand {
   std::string name;  // "show", "diff" or "dossier"
   std::string set;
-  std::string version;  // show; empty: the active version
-  std::string from;     // diff; empty: the active version
-  std::string to;       // diff; empty: the newest candidate
-  int64_t job = 0;      // dossier; 0: the latest job
-  std::string out;      // dossier: the file to write
+  std::string version;    // show; empty: the active version
+  std::string from;       // diff; empty: the active version
+  std::string to;         // diff; empty: the newest candidate
+  int64_t job = 0;        // dossier; 0: the latest job
+  std::string out;        // dossier: the file to write
+  std::string record_id;  // record
   bool json = false;
 };
 
-// True for "show", "diff" and "dossier".
+// True for "show", "diff", "dossier" and "record".
 bool IsReviewCommand(const std::string& name);
 
 // A usage error (INVALID_ARGUMENT "dossier needs --out") before anything is
@@ -55,6 +59,7 @@ absl::Status RunReviewCommand(const ClientOptions& client,
 // The text forms (tests call these on messages of their own).
 void PrintVersionDetail(const v1::VersionDetail& detail, std::ostream& out);
 void PrintVersionDiff(const v1::VersionDiff& diff, std::ostream& out);
+void PrintRecordDetail(const v1::RecordDetail& record, std::ostream& out);
 
 }  // namespace plumbline::daemon
 

@@ -150,6 +150,16 @@ struct LabelledScore {
   std::shared_ptr<const v1::RowLayout> layout;
 };
 
+// Everything the ledger holds of one record of a set (Ledger::FindRecord).
+struct StoredRecord {
+  // Oldest first; features and layout as ForEachScore gives them.
+  std::vector<ScoreEntry> scores;
+  bool has_outcome = false;
+  int label = 0;
+  absl::Time observed_at;
+  absl::Time reported_at;
+};
+
 struct OutcomeResult {
   // OK (new or identical repeat), NOT_FOUND (no score with that id),
   // FAILED_PRECONDITION (a different label was already recorded),
@@ -226,6 +236,12 @@ class Ledger {
   absl::Status ForEachScore(const std::string& set_name, int64_t limit,
                             absl::Time since,
                             const std::function<void(const ScoreEntry&)>& fn);
+
+  // Every score of `record_id` by set `set_name` (any version and role) and
+  // its outcome. NOT_FOUND when there is no such score. Reads on its own
+  // connection; sees committed rows only.
+  absl::StatusOr<StoredRecord> FindRecord(const std::string& set_name,
+                                          const std::string& record_id);
 
   LedgerStats stats() const;
 

@@ -4,8 +4,10 @@
 // writer thread (WAL mode: readers see the last committed state).
 #include <cstdint>
 
+#include "absl/strings/str_cat.h"
 #include "daemon/ledger/entries.h"
 #include "daemon/ledger/ledger.h"
+#include "daemon/util/caller_text.h"
 #include "google/protobuf/util/json_util.h"
 
 namespace plumbline::daemon {
@@ -102,6 +104,53 @@ absl::Status Ledger::ForEachScore(
                       s.ColumnDouble(5), s.ColumnDouble(6), s.ColumnText(7),
                       StoredLayout(s.ColumnInt64(8), s.ColumnText(9))});
       });
+}
+
+absl::StatusOr<StoredRecord> Ledger::FindRecord(const std::string& set_name,
+                                                const std::string& record_id) {
+  auto db = SqliteDb::Open(options_.path, env_);
+  if (!db.ok()) return db.status();
+  StoredRecord record;
+  {
+    // scores_by_record(record_id, primary_set) finds the id's rows.
+    auto q = (*db)->Prepare(
+        "SELECT ss.set_version, ss.role, s.scored_at_us, s.log_odds,"
+        " s.probability, s.features, ss.id, ss.layout FROM scores s"
+        " JOIN score_sets ss ON ss.id = s.set_id"
+        " WHERE s.record_id = ?1 AND ss.set_name = ?2 ORDER BY s.id");
+    if (!q.ok()) return q.status();
+    SqliteStatement& s = **q;
+    s.BindText(1, record_id);
+    s.BindText(2, set_name);
+    for (;;) {
+      auto more = s.Step();
+      if (!more.ok()) return more.status();
+      if (!*more) break;
+      record.scores.push_back(ScoreEntry{
+          record_id, set_name, s.ColumnText(0), RoleColumn(s.ColumnText(1)),
+          FromMicros(s.ColumnInt64(2)), s.ColumnDouble(3), s.ColumnDouble(4),
+          s.ColumnText(5), StoredLayout(s.ColumnInt64(6), s.ColumnText(7))});
+    }
+  }
+  if (record.scores.empty()) {
+    return absl::NotFoundError(
+        absl::StrCat("set '", set_name, "' has no score with record id '",
+                     CallerText(record_id), "' in the ledger"));
+  }
+  auto q = (*db)->Prepare(
+      "SELECT label, observed_at_us, reported_at_us FROM outcomes"
+      " WHERE record_id = ?1");
+  if (!q.ok()) return q.status();
+  (*q)->BindText(1, record_id);
+  auto row = (*q)->Step();
+  if (!row.ok()) return row.status();
+  if (*row) {
+    record.has_outcome = true;
+    record.label = static_cast<int>((*q)->ColumnInt64(0));
+    record.observed_at = FromMicros((*q)->ColumnInt64(1));
+    record.reported_at = FromMicros((*q)->ColumnInt64(2));
+  }
+  return record;
 }
 
 }  // namespace plumbline::daemon

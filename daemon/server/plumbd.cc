@@ -212,7 +212,7 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
       std::make_unique<MonitorService>(d->registry_.get(), d->monitor_.get());
   d->registry_service_ = std::make_unique<RegistryService>(
       d->lifecycle_.get(), d->refits_.get(), d->shadow_tracker_.get(),
-      d->dossiers_.get(), &d->monitor_->options().policy);
+      d->dossiers_.get(), &d->monitor_->options().policy, d->ledger_.get());
   ServerAttachments attachments;
   attachments.health_sink = d->monitor_.get();
   attachments.shadows.tracker = d->shadow_tracker_.get();

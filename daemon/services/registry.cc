@@ -12,10 +12,12 @@
 #include "daemon/review/dossier_data.h"
 #include "daemon/review/dossier_html.h"
 #include "daemon/scoring/core.h"
+#include "daemon/scoring/packed_row.h"
 #include "daemon/util/caller_text.h"
 #include "daemon/util/event_log.h"
 #include "daemon/util/grpc_status.h"
 #include "daemon/util/time.h"
+#include "google/protobuf/util/json_util.h"
 #include "scorer/coefficient_set.h"
 
 namespace plumbline::daemon {
@@ -65,12 +67,13 @@ grpc::Status Reply(const absl::StatusOr<VersionRecord>& record,
 RegistryService::RegistryService(Lifecycle* lifecycle, RefitWorker* refits,
                                  const ShadowTracker* shadows,
                                  const DossierStore* dossiers,
-                                 const DriftPolicy* policy)
+                                 const DriftPolicy* policy, Ledger* ledger)
     : lifecycle_(lifecycle),
       refits_(refits),
       shadows_(shadows),
       dossiers_(dossiers),
-      policy_(policy) {}
+      policy_(policy),
+      ledger_(ledger) {}
 
 void RegistryService::AddShadowReport(v1::VersionInfo& info) const {
   if (shadows_ == nullptr) return;
@@ -350,6 +353,53 @@ grpc::Status RegistryService::GetDossier(grpc::ServerContext* context,
   reply->set_path(dossiers_->HtmlPath(request->set(), job));
   reply->set_html(std::move(html));
   *reply->mutable_dossier() = *std::move(dossier);
+  return grpc::Status::OK;
+}
+
+grpc::Status RegistryService::GetRecord(grpc::ServerContext* context,
+                                        const v1::GetRecordRequest* request,
+                                        v1::RecordDetail* reply) {
+  if (grpc::Status s = Admit(context, Role::kAdmin); !s.ok()) return s;
+  if (absl::Status s = CheckTarget(request->set(), "", false); !s.ok()) {
+    return ToGrpcStatus(s);
+  }
+  if (request->record_id().empty()) {
+    return ToGrpcStatus(absl::InvalidArgumentError("record_id is empty"));
+  }
+  if (ledger_ == nullptr) {
+    return ToGrpcStatus(
+        absl::UnimplementedError("this server keeps no ledger to look in"));
+  }
+  absl::StatusOr<StoredRecord> record =
+      ledger_->FindRecord(request->set(), request->record_id());
+  if (!record.ok()) return ToGrpcStatus(record.status());
+  reply->set_set(request->set());
+  reply->set_record_id(request->record_id());
+  for (const ScoreEntry& e : record->scores) {
+    v1::StoredScore* score = reply->add_scores();
+    score->set_version(e.set_version);
+    score->set_role(std::string(ScoreRoleName(e.role)));
+    *score->mutable_scored_at() = ToTimestamp(e.scored_at);
+    score->set_log_odds(e.log_odds);
+    score->set_probability(e.probability);
+    // The stored row by name (packed rows through the layout stored with
+    // their version), then protobuf's own JSON parser into the Struct.
+    absl::StatusOr<std::string> json =
+        StoredFeaturesJson(e.layout.get(), e.features);
+    if (!json.ok() || !google::protobuf::util::JsonStringToMessage(
+                           *json, score->mutable_features())
+                           .ok()) {
+      return ToGrpcStatus(absl::DataLossError(absl::StrCat(
+          "the stored features of record '", CallerText(request->record_id()),
+          "' (version ", e.set_version, ") do not read back: ",
+          json.ok() ? "not a JSON object" : json.status().message())));
+    }
+  }
+  if (record->has_outcome) {
+    reply->set_label(record->label);
+    *reply->mutable_observed_at() = ToTimestamp(record->observed_at);
+    *reply->mutable_reported_at() = ToTimestamp(record->reported_at);
+  }
   return grpc::Status::OK;
 }
 

@@ -5,13 +5,15 @@
 // now, audit), answered by the lifecycle (daemon/lifecycle.h) and the refit
 // worker (daemon/refit_worker.h). Every call needs the admin role
 // (daemon/access_control.h). ShowVersion, DiffVersions and GetDossier
-// answer with daemon/review's messages. Actors: the request's actor, or
+// answer with daemon/review's messages; GetRecord with what the ledger holds
+// of one record. Actors: the request's actor, or
 // "unnamed caller" when it is empty.
 //
 // Thread-safe: the lifecycle and the worker are; no state of its own.
 #ifndef PLUMBLINE_DAEMON_SERVICES_REGISTRY_H_
 #define PLUMBLINE_DAEMON_SERVICES_REGISTRY_H_
 
+#include "daemon/ledger/ledger.h"
 #include "daemon/policy/drift_policy.h"
 #include "daemon/refit/worker.h"
 #include "daemon/registry/lifecycle.h"
@@ -26,11 +28,13 @@ class RegistryService final : public v1::Registry::Service {
  public:
   // All must outlive the service. `shadows` (may be null) gives
   // `ListVersions` each shadow's report; without `dossiers` (and the
-  // `policy` they are drawn with) GetDossier answers NOT_FOUND.
+  // `policy` they are drawn with) GetDossier answers NOT_FOUND; without
+  // `ledger` GetRecord answers UNIMPLEMENTED.
   RegistryService(Lifecycle* lifecycle, RefitWorker* refits,
                   const ShadowTracker* shadows = nullptr,
                   const DossierStore* dossiers = nullptr,
-                  const DriftPolicy* policy = nullptr);
+                  const DriftPolicy* policy = nullptr,
+                  Ledger* ledger = nullptr);
 
   grpc::Status ListVersions(grpc::ServerContext* context,
                             const v1::ListVersionsRequest* request,
@@ -65,6 +69,9 @@ class RegistryService final : public v1::Registry::Service {
   grpc::Status GetDossier(grpc::ServerContext* context,
                           const v1::GetDossierRequest* request,
                           v1::DossierReply* reply) override;
+  grpc::Status GetRecord(grpc::ServerContext* context,
+                         const v1::GetRecordRequest* request,
+                         v1::RecordDetail* reply) override;
 
  private:
   // Activate, Approve and Shadow: admission, checks, then `change`.
@@ -86,6 +93,7 @@ class RegistryService final : public v1::Registry::Service {
   const ShadowTracker* const shadows_;
   const DossierStore* const dossiers_;
   const DriftPolicy* const policy_;
+  Ledger* const ledger_;
 };
 
 }  // namespace plumbline::daemon

@@ -100,7 +100,7 @@ std::vector<ScoringService::ShadowRun> ScoringService::ScoreShadows(
 
 std::shared_ptr<const v1::RowLayout> ScoringService::Layout(
     const scorer::ScoringPlan& plan) {
-  const SetVersion key(plan.name(), plan.version());
+  const SetVersion key{plan.name(), plan.version()};
   absl::MutexLock lock(&layouts_mu_);
   auto it = layouts_.find(key);
   if (it == layouts_.end()) {

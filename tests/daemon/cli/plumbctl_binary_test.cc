@@ -315,6 +315,54 @@ TEST_F(FormatJsonTest, SchemaChangeNeedsTheSwitchAndReviewCommandsPrintJson) {
   EXPECT_EQ(Plumbctl({"dossier", "--set", "courier"}).exit_code, 2);
 }
 
+// `plumbctl record`: what the ledger keeps of one record, the features read
+// back from the packed row by name as they were sent, the outcome beside.
+TEST_F(FormatJsonTest, RecordShowsTheStoredScoreFeaturesAndOutcome) {
+  v1::RecordDetail record;
+  ReadJson({"record", "--set", "courier", "--record_id", "j-3"}, &record);
+  {
+    grpc::ClientContext context;
+    v1::GetRecordRequest request;
+    request.set_set("courier");
+    request.set_record_id("j-3");
+    v1::RecordDetail rpc;
+    ASSERT_TRUE(v1::Registry::NewStub(Channel())
+                    ->GetRecord(&context, request, &rpc)
+                    .ok());
+    EXPECT_TRUE(
+        google::protobuf::util::MessageDifferencer::Equals(record, rpc));
+  }
+  ASSERT_EQ(record.scores_size(), 1);
+  const v1::StoredScore& score = record.scores(0);
+  EXPECT_EQ(score.version(), "v1");
+  EXPECT_EQ(score.role(), "active");
+  // j-3 was the CSV row "j-3,4,suburban,12": the CSV's cells as plumbctl
+  // sent them (numbers for the numeric features, the level by name).
+  const auto& f = score.features().fields();
+  EXPECT_EQ(f.at("distance_km").number_value(), 4);
+  EXPECT_EQ(f.at("region").string_value(), "suburban");
+  EXPECT_EQ(f.at("hour").number_value(), 12);
+  // The score as scored.csv has it (%.17g, plumbctl's CSV form).
+  const std::string scored = testing::ReadTextFile(dir_.File("scored.csv"));
+  EXPECT_THAT(scored, HasSubstr(absl::StrFormat("%.17g", score.log_odds())))
+      << scored;
+  EXPECT_TRUE(record.has_label());
+  EXPECT_EQ(record.label(), 0);
+  // Text form: one line per score, the outcome below.
+  const ProcessResult text =
+      Plumbctl({"record", "--set", "courier", "--record_id", "j-3"});
+  ASSERT_EQ(text.exit_code, 0) << text.err;
+  EXPECT_THAT(text.out, HasSubstr("record j-3 of set courier"));
+  EXPECT_THAT(text.out, HasSubstr("\"region\":\"suburban\""));
+  EXPECT_THAT(text.out, HasSubstr("outcome 0"));
+  // An id the set never scored is NOT_FOUND naming it.
+  const ProcessResult unknown =
+      Plumbctl({"record", "--set", "courier", "--record_id", "j-99"});
+  EXPECT_EQ(unknown.exit_code, 1);
+  EXPECT_THAT(unknown.err, HasSubstr("NOT_FOUND"));
+  EXPECT_THAT(unknown.err, HasSubstr("j-99"));
+}
+
 TEST(PlumbctlBinaryTest, BashCompletionFromTheCommandTable) {
   TempDir dir;
   const ProcessResult script =
