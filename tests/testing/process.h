@@ -15,6 +15,7 @@
 
 #include <sys/types.h>
 
+#include <cstdint>
 #include <functional>
 #include <memory>
 #include <string>
@@ -120,6 +121,10 @@ class PlumbdProcess {
   std::string log_path_;
   std::string addr_;
 };
+
+// Resident memory of process `pid` in KiB (VmRSS of /proc/PID/status); -1
+// when it cannot be read (the process is gone).
+int64_t RssKib(pid_t pid);
 
 std::unique_ptr<v1::Scoring::Stub> NewScoringStub(const std::string& addr);
 std::unique_ptr<v1::Outcomes::Stub> NewOutcomesStub(const std::string& addr);
