@@ -48,16 +48,7 @@ using testing::TempDir;
 // sanitizer tree runs that tree's plumbd) keeps shadow memory and a
 // quarantine of freed blocks, hence its own bound.
 // PLUMBLINE_SOAK_MAX_RSS_MIB overrides either.
-#if defined(__has_feature)
-#if __has_feature(address_sanitizer)
-#define PLUMBLINE_SOAK_ASAN 1
-#endif
-#endif
-#ifdef PLUMBLINE_SOAK_ASAN
-constexpr int64_t kMaxRssMib = 1024;
-#else
-constexpr int64_t kMaxRssMib = 256;
-#endif
+constexpr int64_t kMaxRssMib = testing::kBuiltWithAddressSanitizer ? 1024 : 256;
 // plumbd lives between these many seconds from one kill to the next.
 constexpr int kMinLifeMs = 4000;
 constexpr int kMaxLifeMs = 14000;
