@@ -3,10 +3,12 @@
 #include <cmath>
 #include <fstream>
 #include <sstream>
+#include <vector>
 
 #include "absl/container/flat_hash_set.h"
 #include "absl/strings/str_cat.h"
 #include "absl/strings/str_format.h"
+#include "google/protobuf/message.h"
 #include "google/protobuf/util/json_util.h"
 
 namespace plumbline::scorer {
@@ -279,6 +281,44 @@ absl::Status ValidateCoefficientSet(const v1::CoefficientSet& set,
   return c.status();
 }
 
+namespace {
+
+// Sets every -0.0 in `message` (nested messages and map entries included) to
+// +0.0. protobuf's JSON printer writes -0.0 as "-0", which its parser reads
+// as +0.0, so a set holding a negative zero did not read back equal to
+// itself: the lifecycle, which compares a file's set with the ledger's copy
+// by meaning, then warned at every start that the file had changed (found by
+// tests/fuzz/fuzz_coefficient_set). Both zeros score the same.
+void PositiveZeros(google::protobuf::Message& message) {
+  using google::protobuf::FieldDescriptor;
+  const google::protobuf::Reflection* r = message.GetReflection();
+  std::vector<const FieldDescriptor*> fields;
+  r->ListFields(message, &fields);
+  for (const FieldDescriptor* f : fields) {
+    if (f->cpp_type() == FieldDescriptor::CPPTYPE_DOUBLE) {
+      if (f->is_repeated()) {
+        for (int i = 0; i < r->FieldSize(message, f); ++i) {
+          if (r->GetRepeatedDouble(message, f, i) == 0.0) {
+            r->SetRepeatedDouble(&message, f, i, 0.0);
+          }
+        }
+      } else if (r->GetDouble(message, f) == 0.0) {
+        r->SetDouble(&message, f, 0.0);
+      }
+    } else if (f->cpp_type() == FieldDescriptor::CPPTYPE_MESSAGE) {
+      if (f->is_repeated()) {
+        for (int i = 0; i < r->FieldSize(message, f); ++i) {
+          PositiveZeros(*r->MutableRepeatedMessage(&message, f, i));
+        }
+      } else {
+        PositiveZeros(*r->MutableMessage(&message, f));
+      }
+    }
+  }
+}
+
+}  // namespace
+
 absl::StatusOr<v1::CoefficientSet> ParseCoefficientSet(
     absl::string_view json, absl::string_view source) {
   v1::CoefficientSet set;
@@ -290,6 +330,7 @@ absl::StatusOr<v1::CoefficientSet> ParseCoefficientSet(
     return absl::InvalidArgumentError(absl::StrCat(
         source, ": not a valid coefficient set: ", st.message().as_string()));
   }
+  PositiveZeros(set);
   if (absl::Status v = ValidateCoefficientSet(set, source); !v.ok()) return v;
   return set;
 }

@@ -79,7 +79,10 @@ absl::StatusOr<std::vector<int64_t>> DossierStore::Jobs(
   const std::string dir = absl::StrCat(root_, "/", set);
   if (!std::filesystem::is_directory(dir, ec)) return jobs;
   for (const auto& entry : std::filesystem::directory_iterator(dir, ec)) {
-    absl::string_view name = entry.path().filename().native();
+    // The file name is kept: filename() returns a temporary path, and a
+    // view of its text would dangle (ASan found it under the soak).
+    const std::string file = entry.path().filename().string();
+    absl::string_view name = file;
     int64_t job = 0;
     if (absl::ConsumePrefix(&name, "job-") &&
         absl::ConsumeSuffix(&name, ".json") && absl::SimpleAtoi(name, &job)) {

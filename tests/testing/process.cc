@@ -18,6 +18,7 @@
 #include <thread>
 
 #include "absl/strings/match.h"
+#include "absl/strings/numbers.h"
 #include "absl/strings/str_cat.h"
 #include "absl/strings/str_split.h"
 #include "absl/strings/strip.h"
@@ -232,6 +233,19 @@ int PlumbdProcess::CountLogLines(absl::string_view needle) const {
     if (absl::StrContains(line, needle)) ++count;
   }
   return count;
+}
+
+int64_t RssKib(pid_t pid) {
+  std::ifstream in(absl::StrCat("/proc/", pid, "/status"));
+  std::string line;
+  while (std::getline(in, line)) {
+    if (!absl::StartsWith(line, "VmRSS:")) continue;
+    std::vector<absl::string_view> parts =
+        absl::StrSplit(line, ' ', absl::SkipEmpty());
+    int64_t kib = 0;
+    if (parts.size() >= 2 && absl::SimpleAtoi(parts[1], &kib)) return kib;
+  }
+  return -1;
 }
 
 std::unique_ptr<v1::Scoring::Stub> NewScoringStub(const std::string& addr) {

@@ -15,6 +15,7 @@
 
 #include <sys/types.h>
 
+#include <cstdint>
 #include <functional>
 #include <memory>
 #include <string>
@@ -120,6 +121,25 @@ class PlumbdProcess {
   std::string log_path_;
   std::string addr_;
 };
+
+// Resident memory of process `pid` in KiB (VmRSS of /proc/PID/status); -1
+// when it cannot be read (the process is gone).
+int64_t RssKib(pid_t pid);
+
+// True when this test (and so the plumbd of its tree, PLUMBD_PATH) is built
+// with AddressSanitizer, whose shadow memory and quarantine of freed blocks
+// (256 MiB by default) make VmRSS grow with every allocation: memory bounds
+// measured on the plain build do not hold there.
+constexpr bool kBuiltWithAddressSanitizer =
+#if defined(__has_feature)
+#if __has_feature(address_sanitizer)
+    true;
+#else
+    false;
+#endif
+#else
+    false;
+#endif
 
 std::unique_ptr<v1::Scoring::Stub> NewScoringStub(const std::string& addr);
 std::unique_ptr<v1::Outcomes::Stub> NewOutcomesStub(const std::string& addr);

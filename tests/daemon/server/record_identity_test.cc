@@ -3,8 +3,9 @@
 // The ledger's word through the real plumbd: a record id names one record
 // of a set (a retry returns the stored score and writes nothing; other
 // features under the same id are ALREADY_EXISTS; two records of a batch may
-// not share an id), made-up ids are unique across daemons, and a second
-// plumbd on the same ledger refuses to start naming the first.
+// not share an id; a ScoreBatch retried after its first attempt ran out of
+// deadline gets the stored scores), made-up ids are unique across daemons,
+// and a second plumbd on the same ledger refuses to start naming the first.
 #include <grpcpp/client_context.h>
 #include <signal.h>
 
@@ -14,6 +15,8 @@
 #include <string>
 
 #include "absl/strings/str_cat.h"
+#include "absl/time/clock.h"
+#include "absl/time/time.h"
 #include "daemon/ledger/sqlite_db.h"
 #include "gmock/gmock.h"
 #include "google/protobuf/util/json_util.h"
@@ -120,6 +123,69 @@ TEST_F(RecordIdentityTest, TwoRecordsOfABatchMayNotShareAnId) {
   EXPECT_THAT(s.error_message(),
               HasSubstr("records 0 and 2 of the batch share record id 'b-1'"));
   EXPECT_EQ(Rows("record_id LIKE 'b-%'"), 0);
+}
+
+// A caller whose ScoreBatch ran out of deadline does not know whether
+// plumbd recorded it; it sends the same batch again. Batches of 2000 records
+// go out with deadlines from 1 ms up, each failed one is left to finish (up
+// to 5 s for its rows to appear in the ledger) and then retried with the
+// same ids and features: the retry is OK, every record has exactly one
+// score in the ledger, and a record the first attempt recorded comes back
+// as a repeat with the stored probability. At least one attempt must have
+// been recorded after its caller's deadline, the case this is about.
+TEST_F(RecordIdentityTest, ABatchRetriedAfterItsDeadlineGetsTheStoredScores) {
+  constexpr int kRecords = 2000;
+  int recorded_after_deadline = 0;
+  for (int attempt = 0; attempt < 40 && recorded_after_deadline < 2;
+       ++attempt) {
+    const std::string prefix = absl::StrCat("late-", attempt, "-");
+    v1::ScoreBatchRequest request;
+    request.set_set("courier");
+    for (int i = 0; i < kRecords; ++i) {
+      v1::Record* r = request.add_records();
+      r->set_record_id(absl::StrCat(prefix, i));
+      *r->mutable_features() = Features(
+          absl::StrCat(R"({"distance_km": )", i % 40,
+                       R"(, "region": "urban", "hour": )", i % 24, "}"));
+    }
+    v1::ScoreBatchReply first;
+    grpc::ClientContext context;
+    context.set_deadline(absl::ToChronoTime(
+        absl::Now() + absl::Milliseconds(1 + attempt * attempt)));
+    grpc::Status s = stub_->ScoreBatch(&context, request, &first);
+    if (s.ok()) break;  // the deadlines have become long enough
+    ASSERT_EQ(s.error_code(), grpc::StatusCode::DEADLINE_EXCEEDED)
+        << s.error_message();
+    const std::string mine = absl::StrCat("record_id LIKE '", prefix, "%'");
+    const absl::Time give_up = absl::Now() + absl::Seconds(5);
+    while (Rows(mine) < kRecords && absl::Now() < give_up) {
+      absl::SleepFor(absl::Milliseconds(20));
+    }
+    const bool recorded = Rows(mine) == kRecords;
+
+    v1::ScoreBatchReply retry;
+    grpc::ClientContext retry_context;
+    s = stub_->ScoreBatch(&retry_context, request, &retry);
+    ASSERT_TRUE(s.ok()) << s.error_message();
+    ASSERT_EQ(retry.scores_size(), kRecords);
+    EXPECT_EQ(Rows(mine), kRecords);
+    auto db = SqliteDb::Open(ledger());
+    ASSERT_TRUE(db.ok()) << db.status();
+    auto stored = (*db)->Prepare(absl::StrCat(
+        "SELECT probability FROM ledger_scores WHERE record_id = ?1"));
+    ASSERT_TRUE(stored.ok()) << stored.status();
+    for (const v1::Scored& scored : retry.scores()) {
+      EXPECT_EQ(scored.repeat(), recorded) << scored.record_id();
+      (*stored)->Reset();
+      (*stored)->BindText(1, scored.record_id());
+      ASSERT_TRUE(*(*stored)->Step()) << scored.record_id();
+      EXPECT_EQ(scored.probability(), (*stored)->ColumnDouble(0))
+          << scored.record_id();
+    }
+    if (recorded) ++recorded_after_deadline;
+  }
+  EXPECT_GE(recorded_after_deadline, 1)
+      << "no batch was recorded after its caller's deadline";
 }
 
 TEST_F(RecordIdentityTest, MadeUpIdsDifferAcrossDaemonsAndCalls) {
