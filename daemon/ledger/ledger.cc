@@ -66,7 +66,7 @@ constexpr int kWriterCheckpointFrames = 4 * kCheckpointFrames;
 constexpr int kScoreColumns = 7;
 // Outcomes, likewise, per INSERT.
 constexpr int kOutcomesPerInsert = 128;
-constexpr int kOutcomeColumns = 4;
+constexpr int kOutcomeColumns = 5;
 
 struct Ledger::Statements {
   std::unique_ptr<SqliteStatement> insert_score;
@@ -85,6 +85,7 @@ struct Ledger::Statements {
   std::unique_ptr<SqliteStatement> begin;
   std::unique_ptr<SqliteStatement> commit;
   std::unique_ptr<SqliteStatement> rollback;
+  std::unique_ptr<SqliteStatement> max_score_id;  // and max outcome seq
 };
 
 namespace {
@@ -228,14 +229,17 @@ absl::StatusOr<std::unique_ptr<Ledger>> Ledger::Open(LedgerOptions options) {
       {&s->find_outcome, "SELECT label FROM outcomes WHERE record_id = ?1"},
       {&s->find_scores, kFindScoresSql},
       {&s->insert_outcome,
-       "INSERT INTO outcomes(record_id, label, observed_at_us, reported_at_us)"
-       " VALUES (?1,?2,?3,?4) ON CONFLICT(record_id) DO NOTHING"},
+       "INSERT INTO outcomes(record_id, label, observed_at_us, reported_at_us,"
+       " seq) VALUES (?1,?2,?3,?4,?5) ON CONFLICT(record_id) DO NOTHING"},
       {&s->savepoint, "SAVEPOINT outcomes"},
       {&s->rollback_to, "ROLLBACK TO outcomes"},
       {&s->release, "RELEASE outcomes"},
       {&s->begin, "BEGIN IMMEDIATE"},
       {&s->commit, "COMMIT"},
       {&s->rollback, "ROLLBACK"},
+      {&s->max_score_id,
+       "SELECT coalesce((SELECT max(id) FROM scores), 0),"
+       " coalesce((SELECT max(seq) FROM outcomes WHERE seq IS NOT NULL), 0)"},
   };
   for (auto& p : prepared) {
     auto stmt = w.Prepare(p.sql);
@@ -258,15 +262,26 @@ absl::StatusOr<std::unique_ptr<Ledger>> Ledger::Open(LedgerOptions options) {
   if (!stmt.ok()) return stmt.status();
   s->insert_scores = *std::move(stmt);
   many =
-      "INSERT INTO outcomes(record_id, label, observed_at_us, reported_at_us)"
-      " VALUES ";
+      "INSERT INTO outcomes(record_id, label, observed_at_us, reported_at_us,"
+      " seq) VALUES ";
   for (int r = 0; r < kOutcomesPerInsert; ++r) {
-    absl::StrAppend(&many, r == 0 ? "" : ",", "(?,?,?,?)");
+    absl::StrAppend(&many, r == 0 ? "" : ",", "(?,?,?,?,?)");
   }
   absl::StrAppend(&many, " ON CONFLICT(record_id) DO NOTHING");
   stmt = w.Prepare(many);
   if (!stmt.ok()) return stmt.status();
   s->insert_outcomes = *std::move(stmt);
+  // Where the committed rows end: new outcomes are numbered on from here.
+  {
+    auto seq = w.QueryInt64(
+        "SELECT coalesce(max(seq), 0) FROM outcomes WHERE seq IS NOT NULL");
+    if (!seq.ok()) return seq.status();
+    auto id = w.QueryInt64("SELECT coalesce(max(id), 0) FROM scores");
+    if (!id.ok()) return id.status();
+    ledger->outcome_seq_ = *seq;
+    absl::MutexLock lock(&ledger->mu_);
+    ledger->marks_ = LedgerMarks{*id, *seq};
+  }
   auto set_ids = LedgerSetIds::Create(w);
   if (!set_ids.ok()) return set_ids.status();
   ledger->set_ids_ = *std::move(set_ids);
@@ -295,6 +310,16 @@ int Ledger::OnWalCommit(void* ledger, sqlite3*, const char*, int frames) {
   l->wal_frames_ = frames;
   if (frames >= kCheckpointFrames) l->checkpointer_->Request();
   return SQLITE_OK;
+}
+
+void Ledger::set_rows_observer(std::function<void(const CommittedRows&)> fn) {
+  absl::MutexLock lock(&mu_);
+  rows_observer_ = std::move(fn);
+}
+
+LedgerMarks Ledger::Marks() const {
+  absl::MutexLock lock(&mu_);
+  return marks_;
 }
 
 void Ledger::set_commit_observer(
@@ -419,8 +444,13 @@ void Ledger::WriterLoop() {
     // the file removed or replaced): it could not be acknowledged.
     absl::Status st = Failure();
     if (st.ok()) st = CheckFile();
-    if (st.ok()) st = RunGroup(group);
-    if (!st.ok()) WriteFailed(st, rows);
+    LedgerMarks marks;
+    if (st.ok()) st = RunGroup(group, &marks);
+    if (st.ok()) {
+      Committed(group, marks);
+    } else {
+      WriteFailed(st, rows);
+    }
     {
       absl::MutexLock lock(&mu_);
       queued_rows_ -= static_cast<int64_t>(rows);
@@ -549,6 +579,34 @@ void Ledger::Finish(const std::vector<std::shared_ptr<Job>>& group,
     job->status = st.ok() ? job->refused : st;
     job->done.Notify();
   }
+}
+
+void Ledger::Committed(const std::vector<std::shared_ptr<Job>>& group,
+                       const LedgerMarks& marks) {
+  std::function<void(const CommittedRows&)> observer;
+  {
+    absl::MutexLock lock(&mu_);
+    marks_ = marks;
+    observer = rows_observer_;
+  }
+  if (!observer) return;
+  CommittedRows rows;
+  rows.marks = marks;
+  for (const auto& job : group) {
+    if (!job->refused.ok()) continue;
+    for (size_t i = 0; i < job->scores.size(); ++i) {
+      if (i < job->written.size() && job->written[i].repeat) continue;
+      rows.scores.push_back(&job->scores[i]);
+    }
+  }
+  // In the order WriteOutcomes numbered them.
+  for (const auto& job : group) {
+    for (const OutcomeResult& r : job->results) {
+      if (!r.status.ok() || r.repeat) continue;
+      for (const LabelledScore& l : r.labelled) rows.labelled.push_back(&l);
+    }
+  }
+  observer(rows);
 }
 
 absl::Status Ledger::WriteScores(std::vector<std::shared_ptr<Job>>& group) {
@@ -682,13 +740,29 @@ absl::Status Ledger::WriteJobScores(Job& job, const LedgerSetId* ids) {
   return s.job_release->Run();
 }
 
-absl::Status Ledger::RunGroup(std::vector<std::shared_ptr<Job>>& group) {
+absl::Status Ledger::RunGroup(std::vector<std::shared_ptr<Job>>& group,
+                              LedgerMarks* marks) {
   Statements& s = *stmts_;
   if (absl::Status st = s.begin->Run(); !st.ok()) return st;
   absl::Status st = WriteScores(group);
   if (st.ok()) st = WriteOutcomes(group);
+  if (st.ok()) {
+    // Inside the transaction: the writer is the only one, so these are the
+    // highest once it commits (a seq given to a repeat is not stored).
+    absl::StatusOr<bool> row = s.max_score_id->Step();
+    if (row.ok() && *row) {
+      *marks = LedgerMarks{s.max_score_id->ColumnInt64(0),
+                           s.max_score_id->ColumnInt64(1)};
+    }
+    s.max_score_id->Reset();
+    if (!row.ok()) st = row.status();
+  }
   if (st.ok()) st = s.commit->Run();
   if (!st.ok()) {
+    {
+      absl::MutexLock lock(&mu_);
+      outcome_seq_ = marks_.outcome_seq;  // the undone seqs are free again
+    }
     s.rollback->Run().IgnoreError();  // the original error is what matters
     set_ids_->Forget();  // the rollback may have undone new score_sets rows
     for (auto& job : group) {
@@ -721,6 +795,7 @@ absl::Status Ledger::WriteOutcomes(std::vector<std::shared_ptr<Job>>& group) {
     const OutcomeEntry* o;
     OutcomeResult* result;
     int64_t observed_us;
+    int64_t seq;  // commit order
   };
   std::vector<Pending> pending;
   for (auto& job : group) {
@@ -746,7 +821,7 @@ absl::Status Ledger::WriteOutcomes(std::vector<std::shared_ptr<Job>>& group) {
       }
       const absl::Time observed = OrNow(o.observed_at, now);
       for (LabelledScore& l : result.labelled) l.observed_at = observed;
-      pending.push_back(Pending{&o, &result, Micros(observed)});
+      pending.push_back(Pending{&o, &result, Micros(observed), ++outcome_seq_});
     }
   }
   const int64_t now_us = Micros(now);
@@ -755,6 +830,7 @@ absl::Status Ledger::WriteOutcomes(std::vector<std::shared_ptr<Job>>& group) {
     ins.BindInt64(first + 2, p.o->label);
     ins.BindInt64(first + 3, p.observed_us);
     ins.BindInt64(first + 4, now_us);
+    ins.BindInt64(first + 5, p.seq);
   };
   // Usually every outcome is new and kOutcomesPerInsert go in one
   // statement. When fewer rows went in than were sent (a repeat, a label

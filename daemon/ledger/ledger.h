@@ -173,6 +173,36 @@ struct OutcomeResult {
   std::vector<LabelledScore> labelled;
 };
 
+// How far the ledger's committed rows go: the highest score id and the
+// highest outcome seq committed (0: none yet). Scores' ids and outcomes'
+// seqs grow in the order the writer commits them, so a reader that has
+// seen every row up to a pair of marks needs only the rows after them.
+struct LedgerMarks {
+  int64_t score_id = 0;
+  int64_t outcome_seq = 0;
+  friend bool operator==(const LedgerMarks& a, const LedgerMarks& b) {
+    return a.score_id == b.score_id && a.outcome_seq == b.outcome_seq;
+  }
+};
+
+// What one group commit added, for Ledger::set_rows_observer: the scores
+// written (not repeats, not those of a refused job) in id order, and the
+// scores that the group's new outcomes label, in seq order. The pointers
+// are valid during the call only.
+struct CommittedRows {
+  std::vector<const ScoreEntry*> scores;
+  std::vector<const LabelledScore*> labelled;
+  // The ledger's marks with this group in.
+  LedgerMarks marks;
+};
+
+// The record ids stored at a pair of marks (Ledger::RecordsAt); empty when
+// no such row is stored (deleted by retention, or never written).
+struct MarkRecords {
+  std::string score_record;
+  std::string outcome_record;
+};
+
 struct LedgerStats {
   int64_t queued_rows = 0;
   int64_t committed_transactions = 0;
@@ -252,6 +282,34 @@ class Ledger {
   // (for metrics). Set before the first write; must be thread-safe.
   void set_commit_observer(std::function<void(absl::Duration, size_t)> fn);
 
+  // Called on the writer thread with the rows of every group, in commit
+  // order, right after its COMMIT and before any of its callers is answered
+  // (with durable_commits, before its fsync: a reader may see a commit that
+  // much earlier, see daemon/ledger/wal_io.h). The model-health monitor is
+  // fed this way, so what it holds is always exactly the ledger up to
+  // Marks(). It runs on the writer's critical path: keep it to
+  // per-record arithmetic. Set before the first write.
+  void set_rows_observer(std::function<void(const CommittedRows&)> fn);
+
+  // The marks of everything committed so far.
+  LedgerMarks Marks() const;
+
+  // Calls `fn` with every score of id > `after_id` (any set, version and
+  // role), in id order; and with every labelled score whose outcome has
+  // seq > `after_seq`, in seq order (outcomes written before schema 8 have
+  // no seq and are never after a mark). Each reads on its own connection
+  // and sees committed rows only.
+  absl::Status ForEachScoreAfter(
+      int64_t after_id, const std::function<void(const ScoreEntry&)>& fn);
+  absl::Status ForEachLabelledAfter(
+      int64_t after_seq, const std::function<void(const LabelledScore&)>& fn);
+
+  // The record ids of the score with id marks.score_id and of the outcome
+  // with seq marks.outcome_seq, to check that a pair of marks still means
+  // the rows it meant (an id is reused only when every row above it was
+  // deleted).
+  absl::StatusOr<MarkRecords> RecordsAt(const LedgerMarks& marks);
+
   // The schema version this build writes.
   static int SchemaVersion();
 
@@ -262,7 +320,9 @@ class Ledger {
   explicit Ledger(LedgerOptions options);
   absl::Status Enqueue(const std::shared_ptr<Job>& job);
   void WriterLoop();
-  absl::Status RunGroup(std::vector<std::shared_ptr<Job>>& group);
+  // Writes and commits `group`; `marks` gets the ledger's marks with it in.
+  absl::Status RunGroup(std::vector<std::shared_ptr<Job>>& group,
+                        LedgerMarks* marks);
   // Inserts the group's scores; the jobs' `written` and `refused` say how.
   absl::Status WriteScores(std::vector<std::shared_ptr<Job>>& group);
   // One job's scores row by row (some (record id, set) was there before),
@@ -285,6 +345,10 @@ class Ledger {
   // Counts a group's commit (when `st` is OK) and acknowledges its jobs.
   void Finish(const std::vector<std::shared_ptr<Job>>& group, absl::Status st,
               absl::Time start, size_t rows);
+  // After a group's COMMIT: moves marks_ to `marks` and tells the rows
+  // observer what the group wrote. Writer thread.
+  void Committed(const std::vector<std::shared_ptr<Job>>& group,
+                 const LedgerMarks& marks);
   // INVALID_ARGUMENT when `o` can never be stored (empty id, label not 0/1).
   static absl::Status CheckOutcome(const OutcomeEntry& o);
   // Stores the group's outcomes (after its scores), looking up the scores
@@ -311,6 +375,7 @@ class Ledger {
   std::unique_ptr<WalCheckpointer> checkpointer_;
   std::unique_ptr<WalSyncer> syncer_;
   std::function<void(absl::Duration, size_t)> commit_observer_;
+  std::function<void(const CommittedRows&)> rows_observer_;
 
   mutable absl::Mutex mu_;
   std::deque<std::shared_ptr<Job>> queue_ ABSL_GUARDED_BY(mu_);
@@ -318,6 +383,7 @@ class Ledger {
   bool stopping_ ABSL_GUARDED_BY(mu_) = false;
   LedgerStats stats_ ABSL_GUARDED_BY(mu_);
   absl::Status failed_ ABSL_GUARDED_BY(mu_);  // OK while healthy
+  LedgerMarks marks_ ABSL_GUARDED_BY(mu_);
 
   // Layouts by score_sets id (StoredLayout); entries are never removed.
   absl::Mutex layouts_mu_;
@@ -330,6 +396,8 @@ class Ledger {
   // Writer thread only.
   absl::Time last_retention_ = absl::InfinitePast();
   int wal_frames_ = 0;  // the WAL's size after the last commit
+  // The seq of the last outcome written (committed or in the open group).
+  int64_t outcome_seq_ = 0;
   // Device and inode of the ledger file at Open (constant after Open).
   uint64_t file_dev_ = 0, file_ino_ = 0;
 

@@ -106,6 +106,94 @@ absl::Status Ledger::ForEachScore(
       });
 }
 
+namespace {
+
+// Opens a read connection, binds `after` to ?1 of `sql` and calls `row` for
+// each result row.
+absl::Status ReadRowsAfter(
+    const std::string& path, LedgerEnv* env, absl::string_view sql,
+    int64_t after, const std::function<void(const SqliteStatement&)>& row) {
+  auto db = SqliteDb::Open(path, env);
+  if (!db.ok()) return db.status();
+  auto q = (*db)->Prepare(sql);
+  if (!q.ok()) return q.status();
+  SqliteStatement& s = **q;
+  s.BindInt64(1, after);
+  for (;;) {
+    auto more = s.Step();
+    if (!more.ok()) return more.status();
+    if (!*more) return absl::OkStatus();
+    row(s);
+  }
+}
+
+}  // namespace
+
+absl::Status Ledger::ForEachScoreAfter(
+    int64_t after_id, const std::function<void(const ScoreEntry&)>& fn) {
+  return ReadRowsAfter(
+      options_.path, env_,
+      "SELECT s.record_id, ss.set_name, ss.set_version, ss.role,"
+      " s.scored_at_us, s.log_odds, s.probability, s.features, ss.id,"
+      " ss.layout FROM scores s CROSS JOIN score_sets ss ON ss.id = s.set_id"
+      " WHERE s.id > ?1 ORDER BY s.id",
+      after_id, [&](const SqliteStatement& s) {
+        fn(ScoreEntry{s.ColumnText(0), s.ColumnText(1), s.ColumnText(2),
+                      RoleColumn(s.ColumnText(3)), FromMicros(s.ColumnInt64(4)),
+                      s.ColumnDouble(5), s.ColumnDouble(6), s.ColumnText(7),
+                      StoredLayout(s.ColumnInt64(8), s.ColumnText(9))});
+      });
+}
+
+absl::Status Ledger::ForEachLabelledAfter(
+    int64_t after_seq, const std::function<void(const LabelledScore&)>& fn) {
+  return ReadRowsAfter(
+      options_.path, env_,
+      // As the writer's lookup found them when the outcome came: the
+      // record's stored scores, not the repeats schemas before 5 let in.
+      "SELECT s.record_id, ss.set_name, ss.set_version, ss.role, s.log_odds,"
+      " s.probability, o.label, s.scored_at_us, o.observed_at_us, s.features,"
+      " ss.id, ss.layout"
+      " FROM outcomes o CROSS JOIN scores s ON s.record_id = o.record_id"
+      " JOIN score_sets ss ON ss.id = s.set_id"
+      " WHERE o.seq > ?1"
+      " AND (s.primary_set IS NOT NULL OR ss.role = 'shadow')"
+      " ORDER BY o.seq, s.id",
+      after_seq, [&](const SqliteStatement& s) {
+        fn(LabelledScore{s.ColumnText(0), s.ColumnText(1), s.ColumnText(2),
+                         RoleColumn(s.ColumnText(3)), s.ColumnDouble(4),
+                         s.ColumnDouble(5), static_cast<int>(s.ColumnInt64(6)),
+                         FromMicros(s.ColumnInt64(7)),
+                         FromMicros(s.ColumnInt64(8)), s.ColumnText(9),
+                         StoredLayout(s.ColumnInt64(10), s.ColumnText(11))});
+      });
+}
+
+absl::StatusOr<MarkRecords> Ledger::RecordsAt(const LedgerMarks& marks) {
+  auto db = SqliteDb::Open(options_.path, env_);
+  if (!db.ok()) return db.status();
+  MarkRecords records;
+  struct {
+    const char* sql;
+    int64_t mark;
+    std::string* out;
+  } reads[] = {
+      {"SELECT record_id FROM scores WHERE id = ?1", marks.score_id,
+       &records.score_record},
+      {"SELECT record_id FROM outcomes WHERE seq = ?1", marks.outcome_seq,
+       &records.outcome_record},
+  };
+  for (const auto& r : reads) {
+    auto q = (*db)->Prepare(r.sql);
+    if (!q.ok()) return q.status();
+    (*q)->BindInt64(1, r.mark);
+    auto row = (*q)->Step();
+    if (!row.ok()) return row.status();
+    if (*row) *r.out = (*q)->ColumnText(0);
+  }
+  return records;
+}
+
 absl::StatusOr<StoredRecord> Ledger::FindRecord(const std::string& set_name,
                                                 const std::string& record_id) {
   auto db = SqliteDb::Open(options_.path, env_);

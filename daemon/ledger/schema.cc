@@ -169,6 +169,26 @@ constexpr const char* kMigrations[] = {
     "         s.scored_at_us, s.log_odds, s.probability, s.features,"
     "         ss.layout"
     "  FROM scores s JOIN score_sets ss ON ss.id = s.set_id;",
+    // 7 -> 8, restarts from snapshots (daemon/health/snapshot_store.h):
+    // outcomes.seq numbers new outcomes in the order the writer committed
+    // them (rows written before keep NULL and are never in a snapshot's
+    // tail), so a snapshot of the monitor's windows can say "every outcome
+    // up to seq N"; scores already have their increasing id. One snapshot
+    // of each monitored version's window state, replaced at each tick.
+    "ALTER TABLE outcomes ADD COLUMN seq INTEGER;"
+    "CREATE INDEX outcomes_by_seq ON outcomes(seq) WHERE seq IS NOT NULL;"
+    "CREATE TABLE health_snapshots("
+    "  id INTEGER PRIMARY KEY,"
+    "  set_name TEXT NOT NULL,"
+    "  version TEXT NOT NULL,"
+    "  taken_at_us INTEGER NOT NULL,"
+    "  score_mark INTEGER NOT NULL,"
+    "  score_mark_record TEXT NOT NULL,"
+    "  outcome_mark INTEGER NOT NULL,"
+    "  outcome_mark_record TEXT NOT NULL,"
+    "  fingerprint TEXT NOT NULL,"
+    "  state BLOB NOT NULL,"
+    "  UNIQUE (set_name, version));",
 };
 
 }  // namespace

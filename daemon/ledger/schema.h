@@ -13,8 +13,10 @@
 //     index scores_by_record(record_id); ids grow with scored_at_us, so
 //     reads by time walk the id order (version 4 dropped the index
 //     scores_by_set_time that versions 1-3 kept, for ingest speed)
-//   outcomes(record_id PRIMARY KEY, label 0/1, observed_at_us, reported_at_us)
-//     WITHOUT ROWID; index outcomes_by_time(observed_at_us)
+//   outcomes(record_id PRIMARY KEY, label 0/1, observed_at_us, reported_at_us,
+//          seq)  WITHOUT ROWID; index outcomes_by_time(observed_at_us);
+//     seq (version 8): commit order of outcomes written since, NULL before;
+//     partial index outcomes_by_seq
 //   view ledger_scores: scores joined to their set name, version and role
 //     (the columns of version 1's scores table), for people reading the file
 //   set_versions(set_name, version, state, created_at_us, created_by,
@@ -25,6 +27,11 @@
 //   health_history(id, at_us, set_name, version, window_name, state,
 //          labelled, scored, figures)     figures: JSON object of the
 //     window's defined figures; index (set_name, at_us); version 5
+//   health_snapshots(id, set_name, version, taken_at_us, score_mark,
+//          score_mark_record, outcome_mark, outcome_mark_record,
+//          fingerprint, state)  UNIQUE (set_name, version); version 8: the
+//     monitor's window state of each version and the last score id and
+//     outcome seq it holds (daemon/health/snapshot_store.h)
 // Times are microseconds since the Unix epoch (UTC).
 //
 // Called by Ledger::Open on the writer connection. Not thread-safe.

@@ -295,6 +295,10 @@ TEST_F(LedgerTest, MigratesAVersion3LedgerDroppingTheSetTimeIndex) {
                            "ALTER TABLE score_sets DROP COLUMN layout;"
                            "CREATE VIEW ledger_scores AS SELECT s.id"
                            " FROM scores s;"
+                           // Nor what schema 8 adds.
+                           "DROP INDEX outcomes_by_seq;"
+                           "ALTER TABLE outcomes DROP COLUMN seq;"
+                           "DROP TABLE health_snapshots;"
                            "PRAGMA user_version = 3;")
                     .ok());
   }
@@ -683,6 +687,8 @@ TEST_F(LedgerTest, MigratesAVersion4LedgerKeepingRepeatsButLabellingTheFirst) {
         "DROP VIEW ledger_scores;"
         "ALTER TABLE score_sets DROP COLUMN layout;"
         "CREATE VIEW ledger_scores AS SELECT s.id FROM scores s;"
+        "DROP INDEX outcomes_by_seq; ALTER TABLE outcomes DROP COLUMN seq;"
+        "DROP TABLE health_snapshots;"
         "PRAGMA user_version = 4;"));
   }
   auto ledger = OpenLedger();
