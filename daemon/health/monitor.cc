@@ -2,14 +2,17 @@
 #include "daemon/health/monitor.h"
 
 #include <algorithm>
+#include <optional>
 #include <tuple>
 #include <utility>
 
 #include "absl/strings/str_cat.h"
 #include "absl/strings/str_format.h"
 #include "daemon/health/rebuild.h"
+#include "daemon/scoring/packed_row.h"
 #include "daemon/util/event_log.h"
 #include "daemon/util/time.h"
+#include "plumbline/v1/health_state.pb.h"
 
 namespace plumbline::daemon {
 namespace {
@@ -56,7 +59,7 @@ void LogLimits(const scorer::ScoringPlan& plan,
 }  // namespace
 
 HealthMonitor::HealthMonitor(HealthMonitorOptions options)
-    : options_(std::move(options)) {}
+    : options_(std::move(options)), feed_(this, options_.find_plan) {}
 
 absl::StatusOr<std::unique_ptr<HealthMonitor>> HealthMonitor::Create(
     HealthMonitorOptions options) {
@@ -231,6 +234,190 @@ absl::Status HealthMonitor::Rebuild(Ledger& ledger) {
     }
   }
   return absl::OkStatus();
+}
+
+void HealthMonitor::OnUnknownVersion(const std::string& set,
+                                     const std::string& version) {
+  CountUnmonitored(set, version, "scored");
+}
+
+void HealthMonitor::OnCommitted(const CommittedRows& rows) {
+  absl::MutexLock lock(&feed_mu_);
+  feed_.Feed(rows);
+  fed_marks_ = rows.marks;
+}
+
+std::vector<WindowSnapshot> HealthMonitor::Snapshots() {
+  std::vector<std::shared_ptr<Version>> all;
+  std::vector<v1::HealthWindowsState> states;
+  LedgerMarks marks;
+  {
+    // No commit is fed meanwhile: every version's state is at `marks`.
+    absl::MutexLock feed(&feed_mu_);
+    if (!marks_known_) return {};
+    marks = fed_marks_;
+    {
+      absl::ReaderMutexLock lock(&mu_);
+      for (const auto& [name, list] : versions_) {
+        all.insert(all.end(), list.begin(), list.end());
+      }
+    }
+    states.reserve(all.size());
+    for (const auto& v : all) states.push_back(v->windows->Capture());
+  }
+  const absl::Time now = options_.now();
+  std::vector<WindowSnapshot> out;
+  out.reserve(all.size());
+  for (size_t i = 0; i < all.size(); ++i) {
+    const scorer::ScoringPlan& plan = *all[i]->windows->plan();
+    WindowSnapshot& s = out.emplace_back();
+    s.set_name = plan.name();
+    s.version = plan.version();
+    s.taken_at = now;
+    s.marks = marks;
+    s.fingerprint = all[i]->windows->fingerprint();
+    s.state = states[i].SerializeAsString();
+  }
+  return out;
+}
+
+absl::StatusOr<RestoreReport> HealthMonitor::Restore(Ledger& ledger,
+                                                     SnapshotStore* store) {
+  absl::MutexLock feed(&feed_mu_);
+  const LedgerMarks ledger_marks = ledger.Marks();
+  std::vector<WindowSnapshot> snapshots;
+  if (store != nullptr) {
+    absl::StatusOr<std::vector<WindowSnapshot>> loaded = store->Load();
+    if (loaded.ok()) {
+      snapshots = *std::move(loaded);
+    } else {
+      LogEvent(LogLevel::kWarning, "health_snapshot_unused",
+               {{"error", loaded.status().message()},
+                {"effect", "every version is rebuilt from the ledger"}});
+    }
+  }
+  std::vector<std::shared_ptr<Version>> all;
+  {
+    absl::ReaderMutexLock lock(&mu_);
+    for (const auto& [name, list] : versions_) {
+      all.insert(all.end(), list.begin(), list.end());
+    }
+  }
+  RestoreReport report;
+  // The marks of the restored versions: one Snapshots() call wrote them
+  // all, so they share one pair; a snapshot at other marks is not used.
+  std::optional<LedgerMarks> marks;
+  std::optional<MarkRecords> records;  // what the ledger holds at `marks`
+  absl::flat_hash_map<SetVersion, HealthWindows*> restored;
+  std::vector<std::shared_ptr<Version>> rebuild;
+  for (const auto& v : all) {
+    const scorer::ScoringPlan& plan = *v->windows->plan();
+    const WindowSnapshot* snapshot = nullptr;
+    for (const WindowSnapshot& s : snapshots) {
+      if (s.set_name == plan.name() && s.version == plan.version()) {
+        snapshot = &s;
+      }
+    }
+    std::string why;
+    if (snapshot == nullptr) {
+      why = "no snapshot of this version";
+    } else if (snapshot->fingerprint != v->windows->fingerprint()) {
+      why = "taken with other window options or another plan";
+    } else if (marks.has_value() && !(snapshot->marks == *marks)) {
+      why = "taken at other marks than the other versions' snapshots";
+    } else if (snapshot->marks.score_id > ledger_marks.score_id ||
+               snapshot->marks.outcome_seq > ledger_marks.outcome_seq) {
+      why = "ahead of the ledger (a ledger restored from an older copy?)";
+    } else {
+      if (!records.has_value()) {
+        absl::StatusOr<MarkRecords> at = ledger.RecordsAt(snapshot->marks);
+        if (!at.ok()) return at.status();
+        records = *std::move(at);
+      }
+      // A mark's row must be there with the record id it had (ids are
+      // reused only after every row above them was deleted).
+      const bool scores_hold =
+          snapshot->marks.score_id == 0 ||
+          (!snapshot->mark_records.score_record.empty() &&
+           records->score_record == snapshot->mark_records.score_record);
+      const bool outcomes_hold =
+          snapshot->marks.outcome_seq == 0 ||
+          (!snapshot->mark_records.outcome_record.empty() &&
+           records->outcome_record == snapshot->mark_records.outcome_record);
+      v1::HealthWindowsState state;
+      if (!scores_hold || !outcomes_hold) {
+        why =
+            "the ledger no longer holds the rows at its marks (deleted by "
+            "retention, or another ledger)";
+      } else if (!state.ParseFromString(snapshot->state)) {
+        why = "its state does not parse";
+      } else if (absl::Status s = v->windows->Restore(state); !s.ok()) {
+        why = std::string(s.message());
+      } else {
+        marks = snapshot->marks;
+        restored[VersionKey(plan.name(), plan.version())] = v->windows.get();
+        ++report.restored;
+        continue;
+      }
+      if (!marks.has_value()) records.reset();  // they were this one's
+    }
+    if (snapshot != nullptr || store != nullptr) {
+      LogEvent(snapshot != nullptr ? LogLevel::kWarning : LogLevel::kInfo,
+               "health_snapshot_unused",
+               {{"set", plan.name()},
+                {"version", plan.version()},
+                {"why", why},
+                {"effect", "its windows are rebuilt from the ledger"}});
+    }
+    rebuild.push_back(v);
+  }
+  if (marks.has_value()) {
+    // The rows after the marks, as the ledger's commits fed them.
+    const absl::Time now = options_.now();
+    StoredFeatureReader reader;
+    std::vector<scorer::RawValue> values;
+    int64_t undecodable = 0;
+    absl::Status s =
+        ledger.ForEachScoreAfter(marks->score_id, [&](const ScoreEntry& e) {
+          auto it = restored.find(VersionKey(e.set_name, e.set_version));
+          if (it == restored.end()) return;
+          if (!reader
+                   .Read(*it->second->plan(), e.layout.get(), e.features,
+                         &values)
+                   .ok()) {
+            ++undecodable;
+            return;
+          }
+          it->second->AddScored(e.log_odds, values, e.scored_at, now);
+          ++report.tail_scores;
+        });
+    if (!s.ok()) return s;
+    s = ledger.ForEachLabelledAfter(
+        marks->outcome_seq, [&](const LabelledScore& l) {
+          auto it = restored.find(VersionKey(l.set_name, l.set_version));
+          if (it == restored.end()) return;
+          it->second->AddLabelled(l.log_odds, l.label, l.scored_at,
+                                  l.observed_at, now);
+          ++report.tail_labelled;
+        });
+    if (!s.ok()) return s;
+    LogEvent(undecodable > 0 ? LogLevel::kWarning : LogLevel::kInfo,
+             "health_restored",
+             {{"versions", absl::StrCat(report.restored)},
+              {"tail_scores", absl::StrCat(report.tail_scores)},
+              {"tail_labelled", absl::StrCat(report.tail_labelled)},
+              {"skipped_unparseable", absl::StrCat(undecodable)}});
+  }
+  for (const auto& v : rebuild) {
+    if (absl::Status s = RebuildWindows(ledger, *v->windows, options_.now());
+        !s.ok()) {
+      return s;
+    }
+    ++report.rebuilt;
+  }
+  fed_marks_ = ledger_marks;
+  marks_known_ = true;
+  return report;
 }
 
 void HealthMonitor::Evaluate() {

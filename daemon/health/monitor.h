@@ -1,13 +1,17 @@
 // File: daemon/health/monitor.h
 //
-// plumbd's model-health monitor. It is the server's HealthSink: the scoring
-// and outcomes services hand it every scored record and every newly
-// labelled score, which go into the windows of their set version
-// (daemon/health_windows.h). On each tick the daemon calls SyncPlans (the
-// loaded versions) and Evaluate, which computes every version's figures,
-// applies the drift policy and keeps the result; the Monitor RPC, the
-// Prometheus exposition and the event log all read that one result, so
-// they always show the same numbers.
+// plumbd's model-health monitor. The ledger hands it the rows of every
+// commit, in commit order (OnCommitted, through daemon/health/
+// committed_feed.h): every scored record and every newly labelled score,
+// which go into the windows of their set version (daemon/health/windows.h).
+// So the windows hold exactly the ledger's rows up to a pair of marks, and
+// Snapshots() can save them with those marks (daemon/health/
+// snapshot_store.h): a restart restores them and reads only the rows after
+// the marks (Restore), instead of every row of the windows' span. On each tick
+// the daemon calls SyncPlans (the loaded versions) and Evaluate, which computes
+// every version's figures, applies the drift policy and keeps the result; the
+// Monitor RPC, the Prometheus exposition and the event log all read that one
+// result, so they always show the same numbers.
 //
 // Drift state: one DriftTracker per version (daemon/policy/drift_policy.h:
 // hysteresis and dwell); every change of state is logged (event
@@ -19,9 +23,12 @@
 //
 //   auto monitor = HealthMonitor::Create(options);
 //   (*monitor)->SyncPlans(registry.All());
-//   (*monitor)->Rebuild(*ledger);         // at startup
-//   ... server runs, calling OnScored / OnLabelled ...
+//   (*monitor)->Restore(*ledger, store);  // at startup, before serving
+//   ledger->set_rows_observer(
+//       [&](const CommittedRows& r) { (*monitor)->OnCommitted(r); });
+//   ... server runs ...
 //   (*monitor)->Evaluate();              // every tick
+//   store->Save((*monitor)->Snapshots());  // every tick, and at the end
 //   absl::StatusOr<v1::SetHealth> h = (*monitor)->Health("courier");
 //
 // Versions: windows belong to a set *version*. A version that appears on the
@@ -32,8 +39,10 @@
 //
 // Thread-safe: every method may be called from any thread. OnScored and
 // OnLabelled take a shared lock on the version map and the mutex of one
-// window pair for one record. One Evaluate runs at a time (evaluate_mu_,
-// taken before mu_).
+// window pair for one record; OnCommitted holds feed_mu_ for one commit's
+// rows, and Snapshots holds it while it copies the windows, so a snapshot
+// is one consistent whole at one pair of marks. One Evaluate runs at a
+// time (evaluate_mu_, taken before mu_).
 #ifndef PLUMBLINE_DAEMON_HEALTH_MONITOR_H_
 #define PLUMBLINE_DAEMON_HEALTH_MONITOR_H_
 
@@ -52,7 +61,9 @@
 #include "absl/strings/string_view.h"
 #include "absl/synchronization/mutex.h"
 #include "absl/time/time.h"
+#include "daemon/health/committed_feed.h"
 #include "daemon/health/sink.h"
+#include "daemon/health/snapshot_store.h"
 #include "daemon/health/windows.h"
 #include "daemon/ledger/ledger.h"
 #include "daemon/policy/drift_policy.h"
@@ -67,6 +78,20 @@ struct HealthMonitorOptions {
   DriftPolicy policy;
   // The clock; tests pass a fake one.
   std::function<absl::Time()> now = [] { return absl::Now(); };
+  // The loaded plan of a (set, version), for ledger rows of a version the
+  // monitor has no windows for yet (right after a reload); null, or a null
+  // answer: such rows are counted as unmonitored.
+  CommittedFeed::FindPlan find_plan;
+};
+
+// What HealthMonitor::Restore did.
+struct RestoreReport {
+  // Versions restored from their snapshot, and rebuilt from the ledger.
+  int restored = 0;
+  int rebuilt = 0;
+  // Rows after the snapshots' marks fed to the restored versions.
+  int64_t tail_scores = 0;
+  int64_t tail_labelled = 0;
 };
 
 // Changes of drift state of one version by kind, since it was first
@@ -106,14 +131,34 @@ class HealthMonitor final : public HealthSink {
       const std::vector<std::shared_ptr<const scorer::ScoringPlan>>& plans);
 
   // Refills the windows of every monitored version from the ledger
-  // (daemon/health_rebuild.h). Call before serving.
+  // (daemon/health/rebuild.h). Call before serving.
   absl::Status Rebuild(Ledger& ledger);
 
-  // HealthSink.
+  // At startup, before the ledger takes writes: each monitored version
+  // whose snapshot in `store` fits (same fingerprint, the ledger still
+  // holding the rows at its marks, daemon/health/snapshot_store.h) is
+  // restored and fed the ledger's rows after its marks; every other
+  // version is rebuilt from the ledger (Rebuild). Each snapshot not used
+  // is logged (event health_snapshot_unused) with why. From then on the
+  // monitor's marks are the ledger's. `store` may be null (rebuild all).
+  // The ledger's read errors are returned.
+  absl::StatusOr<RestoreReport> Restore(Ledger& ledger, SnapshotStore* store);
+
+  // The ledger's rows observer (Ledger::set_rows_observer): one commit's
+  // rows into the windows, and its marks noted.
+  void OnCommitted(const CommittedRows& rows);
+
+  // Every monitored version's window state with the marks it is whole up
+  // to; empty until Restore has given the monitor its marks.
+  std::vector<WindowSnapshot> Snapshots();
+
+  // HealthSink (OnCommitted's feed; tests call these directly).
   void OnScored(const scorer::ScoringPlan& plan,
                 absl::Span<const scorer::RawValue> values, double log_odds,
                 absl::Time scored_at) override;
   void OnLabelled(const LabelledScore& labelled) override;
+  void OnUnknownVersion(const std::string& set,
+                        const std::string& version) override;
 
   // Computes and judges the figures of every monitored version at now(),
   // keeps them for Health/AllHealth and logs each change of drift state.
@@ -162,6 +207,14 @@ class HealthMonitor final : public HealthSink {
 
   // Constant after construction.
   const HealthMonitorOptions options_;
+
+  // Held while one commit's rows are fed, and while Snapshots copies the
+  // windows; taken before mu_.
+  absl::Mutex feed_mu_ ABSL_ACQUIRED_BEFORE(mu_);
+  CommittedFeed feed_ ABSL_GUARDED_BY(feed_mu_);
+  // The ledger's marks of the last commit fed; known once Restore ran.
+  LedgerMarks fed_marks_ ABSL_GUARDED_BY(feed_mu_);
+  bool marks_known_ ABSL_GUARDED_BY(feed_mu_) = false;
 
   // Held for a whole Evaluate; taken before mu_.
   absl::Mutex evaluate_mu_ ABSL_ACQUIRED_BEFORE(mu_);

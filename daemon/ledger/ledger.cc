@@ -317,6 +317,13 @@ void Ledger::set_rows_observer(std::function<void(const CommittedRows&)> fn) {
   rows_observer_ = std::move(fn);
 }
 
+absl::Status Ledger::Flush() {
+  auto job = std::make_shared<Job>();
+  if (absl::Status s = Enqueue(job); !s.ok()) return s;
+  job->done.WaitForNotification();
+  return job->status;
+}
+
 LedgerMarks Ledger::Marks() const {
   absl::MutexLock lock(&mu_);
   return marks_;

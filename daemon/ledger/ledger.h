@@ -294,6 +294,11 @@ class Ledger {
   // The marks of everything committed so far.
   LedgerMarks Marks() const;
 
+  // Returns once every row queued before the call is committed (and its
+  // group told to the rows observer), with the error of that commit if it
+  // failed.
+  absl::Status Flush();
+
   // Calls `fn` with every score of id > `after_id` (any set, version and
   // role), in id order; and with every labelled score whose outcome has
   // seq > `after_seq`, in seq order (outcomes written before schema 8 have

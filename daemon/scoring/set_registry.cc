@@ -263,6 +263,18 @@ ServingSet SetRegistry::FindServing(absl::string_view name) const {
   return serving;
 }
 
+PlanPtr SetRegistry::FindVersion(absl::string_view name,
+                                 absl::string_view version) const {
+  ServingSet serving = FindServing(name);
+  if (serving.active != nullptr && serving.active->version() == version) {
+    return serving.active;
+  }
+  for (PlanPtr& shadow : serving.shadows) {
+    if (shadow->version() == version) return std::move(shadow);
+  }
+  return nullptr;
+}
+
 std::vector<PlanPtr> SetRegistry::AllMonitored() const {
   absl::MutexLock lock(&mu_);
   std::vector<PlanPtr> all;

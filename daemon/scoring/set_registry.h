@@ -107,6 +107,10 @@ class SetRegistry {
   // is nullptr when the set is not loaded). The request path's one lookup.
   ServingSet FindServing(absl::string_view name) const;
 
+  // Version `version` of `name` if it serves (active or shadow), else
+  // nullptr.
+  PlanPtr FindVersion(absl::string_view name, absl::string_view version) const;
+
   // All active versions, sorted by name.
   std::vector<PlanPtr> All() const;
 

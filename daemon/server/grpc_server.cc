@@ -22,11 +22,10 @@
 namespace plumbline::daemon {
 
 DaemonServer::DaemonServer(SetRegistry* registry, ScoringLimits limits,
-                           Ledger* ledger, HealthSink* health_sink,
-                           ShadowOptions shadows)
+                           Ledger* ledger, ShadowOptions shadows)
     : registry_(registry),
-      service_(registry, limits, ledger, health_sink, std::move(shadows)),
-      outcomes_(ledger, health_sink, limits.max_batch_records) {}
+      service_(registry, limits, ledger, std::move(shadows)),
+      outcomes_(ledger, limits.max_batch_records) {}
 
 absl::StatusOr<std::unique_ptr<DaemonServer>> DaemonServer::Start(
     const DaemonOptions& options, SetRegistry* registry, Ledger* ledger,
@@ -38,9 +37,8 @@ absl::StatusOr<std::unique_ptr<DaemonServer>> DaemonServer::Start(
   ScoringLimits limits;
   limits.max_batch_records = options.max_batch_records;
   limits.max_reasons = options.max_reasons;
-  std::unique_ptr<DaemonServer> daemon(
-      new DaemonServer(registry, limits, ledger, attachments.health_sink,
-                       std::move(attachments.shadows)));
+  std::unique_ptr<DaemonServer> daemon(new DaemonServer(
+      registry, limits, ledger, std::move(attachments.shadows)));
 
   grpc::EnableDefaultHealthCheckService(true);
   grpc::ServerBuilder builder;

@@ -37,7 +37,6 @@
 #include "absl/status/statusor.h"
 #include "absl/synchronization/mutex.h"
 #include "absl/time/time.h"
-#include "daemon/health/sink.h"
 #include "daemon/ledger/ledger.h"
 #include "daemon/scoring/set_registry.h"
 #include "daemon/server/options.h"
@@ -52,9 +51,6 @@ inline constexpr char kOutcomesServiceName[] = "plumbline.v1.Outcomes";
 
 // What plumbd attaches to the server besides its own two services.
 struct ServerAttachments {
-  // Told about every record scored and every score labelled; may be null.
-  // Must outlive the server.
-  HealthSink* health_sink = nullptr;
   // How the scoring service accounts for shadows (daemon/services/scoring.h).
   ShadowOptions shadows;
   // More services to register, each with the health name that is SERVING
@@ -99,7 +95,7 @@ class DaemonServer {
 
  private:
   DaemonServer(SetRegistry* registry, ScoringLimits limits, Ledger* ledger,
-               HealthSink* health_sink, ShadowOptions shadows);
+               ShadowOptions shadows);
 
   // Constant after Start.
   SetRegistry* const registry_;

@@ -152,15 +152,34 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
     return report.status();
   }
 
-  // The monitor: one version's windows per loaded set, refilled from the
-  // ledger, evaluated once before serving so the first scrape has figures.
+  // The monitor: one version's windows per loaded set, restored from its
+  // last snapshot and the ledger rows after it (or rebuilt from the
+  // ledger), fed by the ledger's commits from then on, evaluated once
+  // before serving so the first scrape has figures.
   const absl::Duration tick = health_options->policy.tick();
+  health_options->find_plan = [r = d->registry_.get()](
+                                  const std::string& set,
+                                  const std::string& version) {
+    return r->FindVersion(set, version);
+  };
   absl::StatusOr<std::unique_ptr<HealthMonitor>> monitor =
       HealthMonitor::Create(*std::move(health_options));
   if (!monitor.ok()) return monitor.status();
   d->monitor_ = *std::move(monitor);
   d->monitor_->SyncPlans(d->registry_->AllMonitored());
-  if (absl::Status s = d->monitor_->Rebuild(*d->ledger_); !s.ok()) return s;
+  absl::StatusOr<std::unique_ptr<SnapshotStore>> snapshots =
+      SnapshotStore::Open(o.ledger.path, o.ledger.env);
+  if (!snapshots.ok()) return snapshots.status();
+  d->snapshots_ = *std::move(snapshots);
+  if (absl::StatusOr<RestoreReport> restored =
+          d->monitor_->Restore(*d->ledger_, d->snapshots_.get());
+      !restored.ok()) {
+    return restored.status();
+  }
+  d->ledger_->set_rows_observer(
+      [m = d->monitor_.get()](const CommittedRows& rows) {
+        m->OnCommitted(rows);
+      });
   d->monitor_->Evaluate();
 
   absl::StatusOr<std::unique_ptr<MetricsExporter>> exporter =
@@ -286,6 +305,37 @@ Plumbd::~Plumbd() {
     server_->Shutdown(absl::ZeroDuration());
     server_->Wait();
   }
+  if (ledger_ != nullptr) {
+    // What is still queued reaches the windows, and the last snapshot holds
+    // it: the next start reads no rows after it.
+    if (absl::Status s = ledger_->Flush(); !s.ok()) {
+      LogEvent(LogLevel::kWarning, "health_snapshot_failed",
+               {{"error", s.message()}});
+    } else if (snapshots_ != nullptr) {
+      SaveSnapshots(/*log_saved=*/true);
+    }
+    ledger_->set_rows_observer(nullptr);
+  }
+}
+
+void Plumbd::SaveSnapshots(bool log_saved) {
+  const absl::Time start = absl::Now();
+  std::vector<WindowSnapshot> snapshots = monitor_->Snapshots();
+  if (snapshots.empty()) return;
+  absl::StatusOr<int64_t> bytes = snapshots_->Save(snapshots);
+  if (!bytes.ok()) {
+    // The previous snapshots stay; the next start reads more rows after
+    // them, or rebuilds.
+    LogEvent(LogLevel::kWarning, "health_snapshot_failed",
+             {{"error", bytes.status().message()}});
+    return;
+  }
+  if (!log_saved) return;
+  LogEvent(
+      LogLevel::kInfo, "health_snapshot_saved",
+      {{"versions", absl::StrCat(snapshots.size())},
+       {"bytes", absl::StrCat(*bytes)},
+       {"ms", absl::StrCat(absl::ToDoubleMilliseconds(absl::Now() - start))}});
 }
 
 void Plumbd::SyncMonitor() {
@@ -296,6 +346,7 @@ void Plumbd::SyncMonitor() {
 void Plumbd::Tick() {
   SyncMonitor();
   monitor_->Evaluate();
+  SaveSnapshots(/*log_saved=*/false);
   if (history_ != nullptr) {
     if (absl::StatusOr<int> rows = history_->Record(monitor_->AllHealth());
         !rows.ok()) {

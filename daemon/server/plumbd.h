@@ -135,8 +135,13 @@ class Plumbd {
   // Makes the monitor's versions those the registry serves. From the
   // signal thread (reloads), the ticker and lifecycle changes; one at a time.
   void SyncMonitor();
-  // One tick: sync, evaluate, let the refit worker see the figures.
+  // One tick: sync, evaluate, save the monitor's snapshots, let the refit
+  // worker see the figures.
   void Tick();
+  // Saves the monitor's snapshots (daemon/health/snapshot_store.h); a
+  // failure is logged and the previous ones stay. `log_saved`: log what
+  // was saved too (at shutdown; a tick saves silently).
+  void SaveSnapshots(bool log_saved);
 
   // Members in dependency order: each may use those above it. Constant
   // after Start.
@@ -147,6 +152,7 @@ class Plumbd {
   std::unique_ptr<Lifecycle> lifecycle_;
   std::unique_ptr<SetRegistry> registry_;
   std::unique_ptr<HealthMonitor> monitor_;
+  std::unique_ptr<SnapshotStore> snapshots_;  // the monitor's, in the ledger
   std::unique_ptr<ShadowTracker> shadow_tracker_;
   std::unique_ptr<MetricsExporter> exporter_;
   std::unique_ptr<RequestMetrics> request_metrics_;

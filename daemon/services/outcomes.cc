@@ -54,18 +54,8 @@ absl::StatusOr<OutcomeEntry> CheckOutcome(const v1::Outcome& outcome,
   return entry;
 }
 
-OutcomesService::OutcomesService(Ledger* ledger, HealthSink* health_sink,
-                                 uint32_t max_batch_records)
-    : ledger_(ledger),
-      health_sink_(health_sink),
-      max_batch_records_(max_batch_records) {}
-
-void OutcomesService::Notify(const OutcomeResult& result) const {
-  if (health_sink_ == nullptr || !result.status.ok() || result.repeat) return;
-  for (const LabelledScore& labelled : result.labelled) {
-    health_sink_->OnLabelled(labelled);
-  }
-}
+OutcomesService::OutcomesService(Ledger* ledger, uint32_t max_batch_records)
+    : ledger_(ledger), max_batch_records_(max_batch_records) {}
 
 grpc::Status OutcomesService::ReportOutcome(
     grpc::ServerContext* context, const v1::ReportOutcomeRequest* request,
@@ -81,7 +71,6 @@ grpc::Status OutcomesService::ReportOutcome(
   if (!results.ok()) return ToGrpcStatus(LedgerRefused(results.status()));
   const OutcomeResult& result = results->front();
   if (!result.status.ok()) return ToGrpcStatus(result.status);
-  Notify(result);
   v1::OutcomeResult* out = reply->mutable_result();
   out->set_record_id(request->outcome().record_id());
   out->set_repeat(result.repeat);
@@ -136,7 +125,6 @@ grpc::Status OutcomesService::ReportOutcomes(
       result->set_code(static_cast<int32_t>(r.status.code()));
       result->set_message(std::string(r.status.message()));
       result->set_repeat(r.repeat);
-      Notify(r);
     }
   }
   int accepted = 0;

@@ -3,8 +3,9 @@
 // The gRPC service plumbline.v1.Outcomes: callers report, by record id, what
 // happened to records scored earlier. Each outcome is checked here (record
 // id, label 0/1, a valid observed_at), then the ledger joins it to its
-// score(s) and commits it; a newly accepted outcome goes to the health sink
-// once per score it labels. Per-outcome refusals (see outcomes.proto):
+// score(s) and commits it (the model-health monitor hears of a new outcome
+// from the ledger's commit, daemon/health/committed_feed.h). Per-outcome
+// refusals (see outcomes.proto):
 //   INVALID_ARGUMENT     empty record id, label not 0/1, bad observed_at
 //   NOT_FOUND            no score with that record id in the ledger
 //   FAILED_PRECONDITION  a different label was recorded before
@@ -21,7 +22,6 @@
 
 #include "absl/status/statusor.h"
 #include "absl/strings/string_view.h"
-#include "daemon/health/sink.h"
 #include "daemon/ledger/ledger.h"
 #include "plumbline/v1/outcomes.grpc.pb.h"
 
@@ -36,10 +36,9 @@ absl::StatusOr<OutcomeEntry> CheckOutcome(const v1::Outcome& outcome,
 
 class OutcomesService final : public v1::Outcomes::Service {
  public:
-  // `ledger` must outlive the service; `health_sink` may be null and must
-  // otherwise outlive it. `max_batch_records` caps ReportOutcomes.
-  OutcomesService(Ledger* ledger, HealthSink* health_sink,
-                  uint32_t max_batch_records);
+  // `ledger` must outlive the service. `max_batch_records` caps
+  // ReportOutcomes.
+  OutcomesService(Ledger* ledger, uint32_t max_batch_records);
 
   grpc::Status ReportOutcome(grpc::ServerContext* context,
                              const v1::ReportOutcomeRequest* request,
@@ -49,12 +48,8 @@ class OutcomesService final : public v1::Outcomes::Service {
                               v1::ReportOutcomesReply* reply) override;
 
  private:
-  // Tells the health sink about every score a new outcome labels.
-  void Notify(const OutcomeResult& result) const;
-
   // Constant after construction.
   Ledger* const ledger_;
-  HealthSink* const health_sink_;
   const uint32_t max_batch_records_;
 };
 

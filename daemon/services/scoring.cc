@@ -17,11 +17,10 @@ namespace plumbline::daemon {
 
 ScoringService::ScoringService(const SetRegistry* registry,
                                ScoringLimits limits, Ledger* ledger,
-                               HealthSink* health_sink, ShadowOptions shadows)
+                               ShadowOptions shadows)
     : registry_(registry),
       limits_(limits),
       ledger_(ledger),
-      health_sink_(health_sink),
       shadows_(std::move(shadows)) {}
 
 absl::StatusOr<ServingSet> ScoringService::Lookup(
@@ -182,13 +181,11 @@ absl::Status ScoringService::Record(const scorer::ScoringPlan& plan,
     }
     return s;
   }
-  // Repeats (retries): the stored score goes back, and the monitor, which
-  // saw the record the first time, does not see it again.
-  std::vector<bool> repeat(scores.size(), false);
+  // Repeats (retries): the stored score goes back (the ledger wrote
+  // nothing, so the monitor does not see the record again).
   for (size_t i = 0; i < scores.size() && i < written->size(); ++i) {
     const ScoreWrite& w = (*written)[i];
     if (!w.repeat) continue;
-    repeat[i] = true;
     v1::Scored& scored = *scores[i];
     scored.set_repeat(true);
     scored.set_log_odds(w.stored.log_odds);
@@ -197,21 +194,6 @@ absl::Status ScoringService::Record(const scorer::ScoringPlan& plan,
       // Reasons come from the version that scored: this one did not.
       scored.set_repeat_version(w.stored.set_version);
       scored.clear_reasons();
-    }
-  }
-  if (health_sink_ != nullptr) {
-    for (size_t i = 0; i < scores.size(); ++i) {
-      if (repeat[i]) continue;
-      health_sink_->OnScored(plan, inputs.Values(static_cast<int>(i)),
-                             scores[i]->log_odds(), now);
-    }
-    for (const ShadowRun& run : shadows) {
-      for (size_t i = 0; i < scores.size(); ++i) {
-        if (repeat[i]) continue;
-        health_sink_->OnScored(*run.plan,
-                               run.inputs.Values(static_cast<int>(i)),
-                               run.log_odds[i], now);
-      }
     }
   }
   return absl::OkStatus();

@@ -3,16 +3,17 @@
 // The gRPC service plumbline.v1.Scoring (synchronous API). Each call takes a
 // snapshot of its set from the registry and answers through scoring_core.h;
 // before it replies, every scored record goes to the ledger (one ScoreEntry
-// per record, features as JSON) and, once the ledger has accepted them, to
-// the health sink. A call whose rows the ledger refuses (queue full, failed
+// per record, features packed in the set's order); the model-health monitor
+// hears of them from the ledger's commit (daemon/health/committed_feed.h),
+// not from here. A call whose rows the ledger refuses (queue full, failed
 // commit) fails with the ledger's status and returns no score. A record
 // without an id gets one here ("<set>-<unix micros>-<n>"), returned in
 // Scored.record_id. Created and registered by DaemonServer.
 //
 // Shadow versions of the set (daemon/lifecycle.h) score the same request
 // after the active version; their scores go to the ledger under the same
-// record ids with role "shadow", in the same transaction, and to the health
-// sink, and are never returned. A shadow that cannot score the request
+// record ids with role "shadow", in the same transaction, and are never
+// returned. A shadow that cannot score the request
 // (e.g. it needs a feature the caller did not send) never fails the call:
 // the first failure per version is logged and its rows are left out.
 //
@@ -31,7 +32,6 @@
 #include "absl/container/flat_hash_set.h"
 #include "absl/synchronization/mutex.h"
 #include "absl/types/span.h"
-#include "daemon/health/sink.h"
 #include "daemon/ledger/ledger.h"
 #include "daemon/scoring/core.h"
 #include "daemon/scoring/set_registry.h"
@@ -53,11 +53,9 @@ struct ShadowOptions {
 
 class ScoringService final : public v1::Scoring::Service {
  public:
-  // `registry` and `ledger` must outlive the service; `health_sink` may be
-  // null (nothing is told) and must otherwise outlive it too.
+  // `registry` and `ledger` must outlive the service.
   ScoringService(const SetRegistry* registry, ScoringLimits limits,
-                 Ledger* ledger, HealthSink* health_sink,
-                 ShadowOptions shadows = {});
+                 Ledger* ledger, ShadowOptions shadows = {});
 
   grpc::Status Score(grpc::ServerContext* context,
                      const v1::ScoreRequest* request,
@@ -88,7 +86,7 @@ class ScoringService final : public v1::Scoring::Service {
                                       ScoreFn score);
 
   // Gives records without an id one, appends every record (and every shadow
-  // score) to the ledger and, if that succeeded, tells the health sink.
+  // score) to the ledger.
   // `scores[i]` belongs to inputs' record i.
   absl::Status Record(const scorer::ScoringPlan& plan,
                       const RecordInputs& inputs,
@@ -108,7 +106,6 @@ class ScoringService final : public v1::Scoring::Service {
   const SetRegistry* const registry_;
   const ScoringLimits limits_;
   Ledger* const ledger_;
-  HealthSink* const health_sink_;
   const ShadowOptions shadows_;
 
   RecordIdGenerator record_ids_;

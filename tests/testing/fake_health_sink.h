@@ -1,8 +1,8 @@
 // File: tests/testing/fake_health_sink.h
 //
 // A HealthSink for tests that keeps a copy of everything it is told, so a
-// test can check which records the scoring and outcomes services reported
-// and with which values.
+// test can check which records reached the monitor's side of the ledger
+// (daemon/health/committed_feed.h) and with which values.
 //
 // Thread-safe: calls are recorded under a mutex.
 #ifndef PLUMBLINE_TESTS_TESTING_FAKE_HEALTH_SINK_H_
@@ -54,6 +54,16 @@ class FakeHealthSink : public HealthSink {
     labelled_.push_back(labelled);
   }
 
+  void OnUnknownVersion(const std::string& set,
+                        const std::string& version) override {
+    absl::MutexLock lock(&mu_);
+    unknown_.push_back(absl::StrCat(set, "/", version));
+  }
+
+  std::vector<std::string> unknown() const {
+    absl::MutexLock lock(&mu_);
+    return unknown_;
+  }
   std::vector<Scored> scored() const {
     absl::MutexLock lock(&mu_);
     return scored_;
@@ -67,6 +77,7 @@ class FakeHealthSink : public HealthSink {
   mutable absl::Mutex mu_;
   std::vector<Scored> scored_ ABSL_GUARDED_BY(mu_);
   std::vector<LabelledScore> labelled_ ABSL_GUARDED_BY(mu_);
+  std::vector<std::string> unknown_ ABSL_GUARDED_BY(mu_);
 };
 
 }  // namespace plumbline::daemon::testing

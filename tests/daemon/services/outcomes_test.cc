@@ -11,6 +11,7 @@
 #include <string>
 
 #include "absl/strings/str_cat.h"
+#include "daemon/health/committed_feed.h"
 #include "gmock/gmock.h"
 #include "gtest/gtest.h"
 #include "tests/testing/fake_health_sink.h"
@@ -29,7 +30,11 @@ class OutcomesServiceTest : public ::testing::Test {
     auto ledger = Ledger::Open(options);
     ASSERT_TRUE(ledger.ok()) << ledger.status();
     ledger_ = *std::move(ledger);
-    service_ = std::make_unique<OutcomesService>(ledger_.get(), &sink_, 4);
+    // As plumbd feeds its monitor; no plans: scores count as unknown.
+    feed_ = std::make_unique<CommittedFeed>(&sink_, nullptr);
+    ledger_->set_rows_observer(
+        [this](const CommittedRows& rows) { feed_->Feed(rows); });
+    service_ = std::make_unique<OutcomesService>(ledger_.get(), 4);
     std::vector<ScoreEntry> scores;
     for (const char* id : {"a", "b", "c"}) {
       scores.push_back(ScoreEntry{id, "courier", "v1", ScoreRole::kActive,
@@ -54,6 +59,7 @@ class OutcomesServiceTest : public ::testing::Test {
 
   testing::TempDir dir_;
   testing::FakeHealthSink sink_;
+  std::unique_ptr<CommittedFeed> feed_;
   std::unique_ptr<Ledger> ledger_;
   std::unique_ptr<OutcomesService> service_;
 };

@@ -1,9 +1,11 @@
 // File: tests/daemon/services/scoring_test.cc
 //
 // ScoringService called in-process (no network) with a real set registry
-// and ledger in a temporary directory and a fake health sink: every scored
-// record lands in the ledger before the reply, records without an id get
-// one, and the sink hears of a record only after the ledger accepted it.
+// and ledger in a temporary directory, the ledger's commits fed to a fake
+// health sink as plumbd feeds its monitor (daemon/health/committed_feed.h):
+// every scored record lands in the ledger before the reply, records without
+// an id get one, and the sink hears of a record, with the values the scorer
+// saw, only once the ledger committed it.
 #include "daemon/services/scoring.h"
 
 #include <cmath>
@@ -12,6 +14,7 @@
 #include <string>
 
 #include "absl/strings/str_cat.h"
+#include "daemon/health/committed_feed.h"
 #include "daemon/ledger/sqlite_db.h"
 #include "daemon/scoring/packed_row.h"
 #include "gmock/gmock.h"
@@ -45,8 +48,14 @@ class ScoringServiceTest : public ::testing::Test {
     auto ledger = Ledger::Open(options);
     ASSERT_TRUE(ledger.ok()) << ledger.status();
     ledger_ = *std::move(ledger);
-    service_ = std::make_unique<ScoringService>(
-        registry_.get(), ScoringLimits{}, ledger_.get(), &sink_);
+    feed_ = std::make_unique<CommittedFeed>(
+        &sink_, [this](const std::string& set, const std::string& version) {
+          return registry_->FindVersion(set, version);
+        });
+    ledger_->set_rows_observer(
+        [this](const CommittedRows& rows) { feed_->Feed(rows); });
+    service_ = std::make_unique<ScoringService>(registry_.get(),
+                                                ScoringLimits{}, ledger_.get());
   }
   int64_t LedgerRows() {
     auto db = SqliteDb::Open(dir_.File("ledger.db"));
@@ -80,6 +89,7 @@ class ScoringServiceTest : public ::testing::Test {
 
   testing::TempDir dir_;
   testing::FakeHealthSink sink_;
+  std::unique_ptr<CommittedFeed> feed_;
   std::unique_ptr<SetRegistry> registry_;
   std::unique_ptr<Ledger> ledger_;
   std::unique_ptr<ScoringService> service_;
