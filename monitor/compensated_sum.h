@@ -43,6 +43,17 @@ class CompensatedSum {
 
   double Value() const { return sum_ + compensation_; }
 
+  // The two parts, for saving a sum exactly (daemon/health/window_state.h)
+  // and making it again with FromParts.
+  double sum() const { return sum_; }
+  double compensation() const { return compensation_; }
+  static CompensatedSum FromParts(double sum, double compensation) {
+    CompensatedSum s;
+    s.sum_ = sum;
+    s.compensation_ = compensation;
+    return s;
+  }
+
  private:
   double sum_ = 0;
   double compensation_ = 0;

@@ -94,4 +94,23 @@ absl::Status CheckBinCount(absl::string_view figure, absl::string_view what,
   return absl::OkStatus();
 }
 
+absl::Status CheckStateCount(absl::string_view what, absl::string_view field,
+                             int64_t n) {
+  if (n < 0 || n > kMaxStateCount) {
+    return absl::InvalidArgumentError(absl::StrFormat(
+        "%s: %s is %d; a saved count must lie in [0, 2^40]", what, field, n));
+  }
+  return absl::OkStatus();
+}
+
+absl::Status CheckStateSum(absl::string_view what, absl::string_view field,
+                           double sum, double compensation) {
+  if (!std::isfinite(sum) || !std::isfinite(compensation)) {
+    return absl::InvalidArgumentError(
+        absl::StrFormat("%s: %s is %g + %g; a saved sum must be finite", what,
+                        field, sum, compensation));
+  }
+  return absl::OkStatus();
+}
+
 }  // namespace plumbline::monitor::internal

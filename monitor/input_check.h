@@ -12,6 +12,7 @@
 #define PLUMBLINE_MONITOR_INPUT_CHECK_H_
 
 #include <cstddef>
+#include <cstdint>
 
 #include "absl/status/status.h"
 #include "absl/strings/string_view.h"
@@ -39,6 +40,20 @@ absl::Status CheckRecord(absl::string_view figure, double log_odds, int label);
 // Checks a bin count option (`what` names it: "reliability bins").
 absl::Status CheckBinCount(absl::string_view figure, absl::string_view what,
                            int bins, int minimum);
+
+// Restoring saved state (the Restore methods of the accumulators): the most
+// records one saved count may hold, 2^40 (about 1.1e12), so that the sum
+// over a window's buckets (at most 100,000) cannot overflow int64.
+inline constexpr int64_t kMaxStateCount = int64_t{1} << 40;
+
+// INVALID_ARGUMENT "<what>: <field> is N; a saved count must lie in
+// [0, 2^40]" unless 0 <= n <= kMaxStateCount.
+absl::Status CheckStateCount(absl::string_view what, absl::string_view field,
+                             int64_t n);
+// INVALID_ARGUMENT naming the field unless both parts of a saved sum are
+// finite.
+absl::Status CheckStateSum(absl::string_view what, absl::string_view field,
+                           double sum, double compensation);
 
 }  // namespace plumbline::monitor::internal
 

@@ -1,5 +1,6 @@
 #include "monitor/labelled_record_store.h"
 
+#include <utility>
 #include <vector>
 
 #include "absl/strings/str_format.h"
@@ -49,6 +50,37 @@ absl::Status LabelledRecordStore::Merge(const LabelledRecordStore& other) {
   log_odds_.insert(log_odds_.end(), other.log_odds_.begin(),
                    other.log_odds_.end());
   labels_.insert(labels_.end(), other.labels_.begin(), other.labels_.end());
+  return absl::OkStatus();
+}
+
+absl::Status LabelledRecordStore::Restore(State state) {
+  constexpr absl::string_view kWhat = "labelled record store state";
+  if (state.log_odds.size() != state.labels.size()) {
+    return absl::InvalidArgumentError(
+        absl::StrFormat("%s: %d log-odds but %d labels", kWhat,
+                        state.log_odds.size(), state.labels.size()));
+  }
+  if (static_cast<int64_t>(state.labels.size()) > capacity_) {
+    return absl::InvalidArgumentError(
+        absl::StrFormat("%s: %d records; the store's capacity is %d", kWhat,
+                        state.labels.size(), capacity_));
+  }
+  if (absl::Status s =
+          internal::CheckStateCount(kWhat, "refused", state.refused);
+      !s.ok()) {
+    return s;
+  }
+  for (size_t i = 0; i < state.labels.size(); ++i) {
+    if (absl::Status s =
+            internal::CheckRecord(absl::StrFormat("%s: record %d", kWhat, i),
+                                  state.log_odds[i], state.labels[i]);
+        !s.ok()) {
+      return s;
+    }
+  }
+  refused_ = state.refused;
+  log_odds_ = std::move(state.log_odds);
+  labels_ = std::move(state.labels);
   return absl::OkStatus();
 }
 

@@ -95,6 +95,22 @@ class LabelledRecordStore {
   int64_t capacity() const { return capacity_; }
   int64_t refused() const { return refused_; }
 
+  // The records kept, in the order they came (for saving the store).
+  const std::vector<double>& log_odds() const { return log_odds_; }
+  const std::vector<int8_t>& labels() const { return labels_; }
+
+  // What Restore takes: the refused count and the records.
+  struct State {
+    int64_t refused = 0;
+    std::vector<double> log_odds;
+    std::vector<int8_t> labels;
+  };
+  // Replaces the records and the refused count; the capacity stays.
+  // INVALID_ARGUMENT naming the field (store unchanged) unless the arrays
+  // have one entry per record, no more than the capacity, every log-odds
+  // finite, every label 0 or 1 and refused in [0, 2^40].
+  absl::Status Restore(State state);
+
   // The figures over the kept records. FAILED_PRECONDITION when the store
   // is empty; INVALID_ARGUMENT if hosmer_lemeshow_groups < 3.
   absl::StatusOr<ExactOutcomeFigures> Result(

@@ -1,6 +1,7 @@
 #include "monitor/outcome_accumulators.h"
 
 #include <cmath>
+#include <string>
 #include <utility>
 
 #include "absl/status/status.h"
@@ -77,6 +78,40 @@ absl::StatusOr<LossFigures> LossAccumulator::Result() const {
   return f;
 }
 
+LossAccumulator::State LossAccumulator::state() const {
+  return State{count_, positives_, loss_, squared_error_, predicted_};
+}
+
+absl::Status LossAccumulator::Restore(const State& state) {
+  constexpr absl::string_view kWhat = "log-loss state";
+  if (absl::Status s = internal::CheckStateCount(kWhat, "count", state.count);
+      !s.ok()) {
+    return s;
+  }
+  if (state.positives < 0 || state.positives > state.count) {
+    return absl::InvalidArgumentError(
+        absl::StrCat(kWhat, ": positives is ", state.positives,
+                     "; it must lie in [0, count = ", state.count, "]"));
+  }
+  for (const auto& [field, sum] :
+       {std::pair<absl::string_view, const CompensatedSum*>{"loss",
+                                                            &state.loss},
+        {"squared_error", &state.squared_error},
+        {"predicted", &state.predicted}}) {
+    if (absl::Status s = internal::CheckStateSum(kWhat, field, sum->sum(),
+                                                 sum->compensation());
+        !s.ok()) {
+      return s;
+    }
+  }
+  count_ = state.count;
+  positives_ = state.positives;
+  loss_ = state.loss;
+  squared_error_ = state.squared_error;
+  predicted_ = state.predicted;
+  return absl::OkStatus();
+}
+
 // ---- ReliabilityAccumulator ----
 
 ReliabilityAccumulator::ReliabilityAccumulator(int bins)
@@ -123,6 +158,39 @@ absl::StatusOr<ReliabilityFigures> ReliabilityAccumulator::Result() const {
   return f;
 }
 
+absl::Status ReliabilityAccumulator::Restore(std::vector<BinSums> bins) {
+  constexpr absl::string_view kWhat = "reliability table state";
+  if (bins.size() != sums_.size()) {
+    return absl::InvalidArgumentError(absl::StrCat(
+        kWhat, ": ", bins.size(), " bins; this table has ", sums_.size()));
+  }
+  int64_t count = 0;
+  for (size_t i = 0; i < bins.size(); ++i) {
+    const BinSums& b = bins[i];
+    const std::string field = absl::StrCat("bins[", i, "]");
+    if (absl::Status s =
+            internal::CheckStateCount(kWhat, field + ".count", b.count);
+        !s.ok()) {
+      return s;
+    }
+    if (b.positives < 0 || b.positives > b.count) {
+      return absl::InvalidArgumentError(
+          absl::StrCat(kWhat, ": ", field, ".positives is ", b.positives,
+                       "; it must lie in [0, count = ", b.count, "]"));
+    }
+    if (absl::Status s = internal::CheckStateSum(kWhat, field + ".predicted",
+                                                 b.predicted.sum(),
+                                                 b.predicted.compensation());
+        !s.ok()) {
+      return s;
+    }
+    count += b.count;  // at most bins x 2^40: no overflow
+  }
+  sums_ = std::move(bins);
+  count_ = count;
+  return absl::OkStatus();
+}
+
 // ---- OutcomeAccumulator ----
 
 absl::StatusOr<OutcomeAccumulator> OutcomeAccumulator::Create(
@@ -167,6 +235,38 @@ absl::StatusOr<OutcomeFigures> OutcomeAccumulator::Result() const {
   f.fixed_bins = *std::move(fixed_bins);
   f.grid = grid_.Result();
   return f;
+}
+
+OutcomeAccumulator::State OutcomeAccumulator::state() const {
+  return State{loss_.state(), fixed_bins_.bins(), grid_.state()};
+}
+
+absl::Status OutcomeAccumulator::Restore(State state) {
+  LossAccumulator loss = loss_;
+  ReliabilityAccumulator fixed_bins = fixed_bins_;
+  ScoreGridAccumulator grid = grid_;
+  if (absl::Status s = loss.Restore(state.loss); !s.ok()) return s;
+  if (absl::Status s = fixed_bins.Restore(std::move(state.fixed_bins));
+      !s.ok()) {
+    return s;
+  }
+  if (absl::Status s = grid.Restore(std::move(state.grid)); !s.ok()) return s;
+  int64_t bin_positives = 0;
+  for (const BinSums& b : fixed_bins.bins()) bin_positives += b.positives;
+  if (fixed_bins.count() != loss.count() || grid.count() != loss.count() ||
+      bin_positives != loss.state().positives ||
+      grid.positives() != loss.state().positives) {
+    return absl::InvalidArgumentError(
+        absl::StrCat("outcome state: the parts disagree: log-loss holds ",
+                     loss.count(), " records (", loss.state().positives,
+                     " positive), the reliability table ", fixed_bins.count(),
+                     " (", bin_positives, "), the score grid ", grid.count(),
+                     " (", grid.positives(), ")"));
+  }
+  loss_ = std::move(loss);
+  fixed_bins_ = std::move(fixed_bins);
+  grid_ = std::move(grid);
+  return absl::OkStatus();
 }
 
 }  // namespace plumbline::monitor

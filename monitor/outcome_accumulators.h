@@ -29,6 +29,13 @@
 // record was added; figures that can be undefined for a non-empty window
 // (AUC with one class, ...) are StatusOr members. Not thread-safe; value
 // types that copy.
+//
+// Saving and restoring (daemon/health/window_state.h): each accumulator's
+// state() is everything it holds, the compensated sums' error terms
+// included; Restore(state) on an accumulator created with the same options
+// makes it equal, bit for bit, to the one saved. Restore checks the state
+// (INVALID_ARGUMENT naming the field) and leaves the accumulator unchanged
+// when it refuses.
 #ifndef PLUMBLINE_MONITOR_OUTCOME_ACCUMULATORS_H_
 #define PLUMBLINE_MONITOR_OUTCOME_ACCUMULATORS_H_
 
@@ -57,10 +64,23 @@ struct LossFigures {
 
 class LossAccumulator {
  public:
+  struct State {
+    int64_t count = 0;
+    int64_t positives = 0;
+    CompensatedSum loss;
+    CompensatedSum squared_error;
+    CompensatedSum predicted;
+  };
+
   absl::Status Add(double log_odds, int label);
   absl::Status Merge(const LossAccumulator& other);  // always OK
   int64_t count() const { return count_; }
   absl::StatusOr<LossFigures> Result() const;
+
+  State state() const;
+  // INVALID_ARGUMENT for a count outside [0, 2^40], positives outside
+  // [0, count] or a sum that is not finite.
+  absl::Status Restore(const State& state);
 
  private:
   friend class OutcomeAccumulator;
@@ -92,6 +112,12 @@ class ReliabilityAccumulator {
   absl::Status Merge(const ReliabilityAccumulator& other);
   int64_t count() const { return count_; }
   absl::StatusOr<ReliabilityFigures> Result() const;
+
+  // The per-bin sums; the count is their total.
+  const std::vector<BinSums>& bins() const { return sums_; }
+  // INVALID_ARGUMENT unless there is one entry per bin, each with a count
+  // in [0, 2^40], positives in [0, count] and a finite sum.
+  absl::Status Restore(std::vector<BinSums> bins);
 
  private:
   friend class OutcomeAccumulator;
@@ -140,6 +166,16 @@ class OutcomeAccumulator {
   const LossAccumulator& loss() const { return loss_; }
   const ReliabilityAccumulator& fixed_bins() const { return fixed_bins_; }
   const ScoreGridAccumulator& grid() const { return grid_; }
+
+  struct State {
+    LossAccumulator::State loss;
+    std::vector<BinSums> fixed_bins;
+    ScoreGridAccumulator::State grid;
+  };
+  State state() const;
+  // Each part's Restore, and INVALID_ARGUMENT unless the three parts hold
+  // the same number of records and of positives.
+  absl::Status Restore(State state);
 
  private:
   OutcomeAccumulator(ReliabilityAccumulator fixed_bins,

@@ -80,4 +80,36 @@ absl::StatusOr<CusumStep> RiskAdjustedCusum::Add(double log_odds, int label) {
   return step;
 }
 
+absl::Status RiskAdjustedCusum::Restore(const State& state) {
+  if (!(state.value >= 0 && state.value < limit_)) {
+    return absl::InvalidArgumentError(absl::StrFormat(
+        "CUSUM state: value is %g; it must lie in [0, limit = %g)", state.value,
+        limit_));
+  }
+  // A chart counts every record it is fed: bounded like any saved count,
+  // with room to go on counting.
+  constexpr int64_t kMaxRecords = int64_t{1} << 62;
+  if (state.records < 0 || state.records > kMaxRecords) {
+    return absl::InvalidArgumentError(absl::StrFormat(
+        "CUSUM state: records is %d; it must lie in [0, 2^62]", state.records));
+  }
+  if (state.alarms < 0 || state.alarms > state.records) {
+    return absl::InvalidArgumentError(absl::StrFormat(
+        "CUSUM state: alarms is %d; it must lie in [0, records = %d]",
+        state.alarms, state.records));
+  }
+  if (state.records_since_alarm < 0 ||
+      state.records_since_alarm > state.records) {
+    return absl::InvalidArgumentError(absl::StrFormat(
+        "CUSUM state: records_since_alarm is %d; it must lie in [0, records "
+        "= %d]",
+        state.records_since_alarm, state.records));
+  }
+  value_ = state.value;
+  records_ = state.records;
+  alarms_ = state.alarms;
+  records_since_alarm_ = state.records_since_alarm;
+  return absl::OkStatus();
+}
+
 }  // namespace plumbline::monitor

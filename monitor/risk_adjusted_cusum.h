@@ -98,6 +98,21 @@ class RiskAdjustedCusum {
   // Records since the last alarm (or since creation).
   int64_t records_since_alarm() const { return records_since_alarm_; }
 
+  // What the chart has accumulated, for saving it; Restore puts it back on a
+  // chart created with the same alternative and limit. INVALID_ARGUMENT
+  // naming the field (chart unchanged) unless 0 <= value < limit, the
+  // counts are >= 0, alarms <= records and records_since_alarm <= records.
+  struct State {
+    double value = 0;
+    int64_t records = 0;
+    int64_t alarms = 0;
+    int64_t records_since_alarm = 0;
+  };
+  State state() const {
+    return State{value_, records_, alarms_, records_since_alarm_};
+  }
+  absl::Status Restore(const State& state);
+
  private:
   RiskAdjustedCusum(LogOddsChange alternative, double limit)
       : alternative_(alternative), limit_(limit) {}

@@ -3,6 +3,8 @@
 #include <algorithm>
 #include <cmath>
 #include <cstddef>
+#include <utility>
+#include <vector>
 
 #include "absl/status/status.h"
 #include "absl/strings/str_format.h"
@@ -68,6 +70,68 @@ absl::Status ScoreGridAccumulator::Merge(const ScoreGridAccumulator& other) {
     cells_[c].predicted.Merge(other.cells_[c].predicted);
   }
   count_ += other.count_;
+  return absl::OkStatus();
+}
+
+ScoreGridAccumulator::State ScoreGridAccumulator::state() const {
+  State state;
+  for (size_t c = 0; c < cells_.size(); ++c) {
+    const Cell& cell = cells_[c];
+    if (cell.positives == 0 && cell.negatives == 0) continue;
+    state.cells.push_back(CellState{static_cast<int>(c), cell.positives,
+                                    cell.negatives, cell.predicted});
+  }
+  return state;
+}
+
+int64_t ScoreGridAccumulator::positives() const {
+  int64_t n = 0;
+  for (const Cell& cell : cells_) n += cell.positives;
+  return n;
+}
+
+absl::Status ScoreGridAccumulator::Restore(State state) {
+  constexpr absl::string_view kWhat = "score grid state";
+  std::vector<Cell> cells(cells_.size());
+  int64_t count = 0;
+  int previous = -1;
+  for (size_t i = 0; i < state.cells.size(); ++i) {
+    const CellState& c = state.cells[i];
+    if (c.cell <= previous || c.cell >= grid_.num_cells()) {
+      return absl::InvalidArgumentError(absl::StrFormat(
+          "%s: cells[%d] is cell %d; cells must be ascending, distinct and "
+          "below %d",
+          kWhat, i, c.cell, grid_.num_cells()));
+    }
+    previous = c.cell;
+    if (absl::Status s = internal::CheckStateCount(
+            kWhat, absl::StrFormat("cells[%d].positives", i), c.positives);
+        !s.ok()) {
+      return s;
+    }
+    if (absl::Status s = internal::CheckStateCount(
+            kWhat, absl::StrFormat("cells[%d].negatives", i), c.negatives);
+        !s.ok()) {
+      return s;
+    }
+    if (c.positives == 0 && c.negatives == 0) {
+      return absl::InvalidArgumentError(absl::StrFormat(
+          "%s: cells[%d] (cell %d) holds no record; only non-empty cells are "
+          "saved",
+          kWhat, i, c.cell));
+    }
+    if (absl::Status s = internal::CheckStateSum(
+            kWhat, absl::StrFormat("cells[%d].predicted", i), c.predicted.sum(),
+            c.predicted.compensation());
+        !s.ok()) {
+      return s;
+    }
+    cells[static_cast<size_t>(c.cell)] =
+        Cell{c.positives, c.negatives, c.predicted};
+    count += c.positives + c.negatives;  // at most 2 x cells x 2^40
+  }
+  cells_ = std::move(cells);
+  count_ = count;
   return absl::OkStatus();
 }
 

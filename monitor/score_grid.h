@@ -142,6 +142,24 @@ class ScoreGridAccumulator {
   int64_t count() const { return count_; }
   const ScoreGrid& grid() const { return grid_; }
 
+  // What the accumulator holds, for saving it: its non-empty cells in
+  // ascending order (cells with no record hold nothing).
+  struct CellState {
+    int cell = 0;  // in [0, grid().num_cells())
+    int64_t positives = 0;
+    int64_t negatives = 0;
+    CompensatedSum predicted;
+  };
+  struct State {
+    std::vector<CellState> cells;
+  };
+  State state() const;
+  int64_t positives() const;
+  // INVALID_ARGUMENT naming the entry unless the cells are ascending,
+  // distinct, on this grid, each with positives and negatives in [0, 2^40],
+  // not both 0, and a finite sum. Unchanged when refused.
+  absl::Status Restore(State state);
+
   // Each figure: FAILED_PRECONDITION when it is undefined for the records
   // held (none, one class only, separated outcomes, too few groups).
   absl::StatusOr<AucEstimate> Auc() const;

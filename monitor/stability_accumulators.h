@@ -58,6 +58,13 @@ class NumericStabilityAccumulator {
   // FAILED_PRECONDITION when no record was added.
   absl::StatusOr<StabilityFigures> Result() const;
 
+  // The counts, for saving; Restore replaces them. INVALID_ARGUMENT naming
+  // the field (accumulator unchanged) unless there is one bin count per
+  // baseline bin, every count lies in [0, 2^40] and out_of_range is at most
+  // the non-missing records.
+  const StabilityCounts& counts() const { return counts_; }
+  absl::Status Restore(StabilityCounts counts);
+
  private:
   NumericStabilityAccumulator(std::shared_ptr<const BinnedBaseline> baseline,
                               std::optional<ValueRange> range);
@@ -89,6 +96,13 @@ class CategoricalStabilityAccumulator {
   int64_t count() const;
   // FAILED_PRECONDITION when no record was added.
   absl::StatusOr<StabilityFigures> Result() const;
+
+  // The counts, for saving; Restore replaces them. INVALID_ARGUMENT naming
+  // the field (accumulator unchanged) unless there is one bin count per
+  // baseline bin (the unseen bin last), every count lies in [0, 2^40] and
+  // out_of_range equals the unseen bin's count.
+  const StabilityCounts& counts() const { return counts_; }
+  absl::Status Restore(StabilityCounts counts);
 
  private:
   explicit CategoricalStabilityAccumulator(

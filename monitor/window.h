@@ -26,8 +26,15 @@
 //
 // Accumulator requirements: copyable; `Add(args...)` returning void or
 // absl::Status (a non-OK record is not counted); `absl::Status
-// Merge(const Accumulator&)`. Memory: K + 1 accumulators. Merged() costs K
-// merges. Not thread-safe: the daemon guards each window with its own mutex.
+// Merge(const Accumulator&)`; `int64_t count()`. Memory: K + 1
+// accumulators. Merged() costs K merges. Not thread-safe: the daemon guards
+// each window with its own mutex.
+//
+// Saving and restoring (daemon/health/window_state.h): bucket(i), fill(i),
+// current() and bucket_number(i) read the ring slot by slot; Restore() puts
+// a saved ring into a window created with the same shape, after checking
+// that the ring is one the window could have reached (INVALID_ARGUMENT
+// naming the slot, window unchanged, otherwise).
 #ifndef PLUMBLINE_MONITOR_WINDOW_H_
 #define PLUMBLINE_MONITOR_WINDOW_H_
 
@@ -41,6 +48,7 @@
 #include "absl/status/status.h"
 #include "absl/status/statusor.h"
 #include "absl/strings/str_format.h"
+#include "absl/strings/string_view.h"
 #include "absl/time/time.h"
 
 namespace plumbline::monitor {
@@ -77,6 +85,22 @@ absl::Status StartBucket(const Accumulator& empty, Accumulator& slot,
   } else {
     slot = empty;
     slot.Add(std::forward<Args>(args)...);
+  }
+  return absl::OkStatus();
+}
+
+// Checks a saved ring's slot: its accumulator holds `fill` records.
+template <typename Accumulator>
+absl::Status CheckSlot(absl::string_view window, size_t slot,
+                       const Accumulator& acc, int64_t fill) {
+  if (fill < 0) {
+    return absl::InvalidArgumentError(absl::StrFormat(
+        "%s state: slot %d holds %d records", window, slot, fill));
+  }
+  if (acc.count() != fill) {
+    return absl::InvalidArgumentError(absl::StrFormat(
+        "%s state: slot %d's bucket holds %d records but its fill is %d",
+        window, slot, acc.count(), fill));
   }
   return absl::OkStatus();
 }
@@ -134,6 +158,63 @@ class CountWindow {
     return n;
   }
   int64_t bucket_records() const { return bucket_records_; }
+
+  // The ring, slot by slot (0 <= slot < buckets()): each bucket, the records
+  // in it and the slot receiving records now.
+  int buckets() const { return static_cast<int>(buckets_.size()); }
+  const Accumulator& bucket(int slot) const { return buckets_[slot]; }
+  int64_t fill(int slot) const { return fill_[slot]; }
+  int current() const { return static_cast<int>(current_); }
+  const Accumulator& empty() const { return empty_; }
+
+  // Replaces the ring with a saved one: `buckets` and `fill` one entry per
+  // slot (a slot with fill 0 is reset to the empty accumulator, whatever
+  // its entry). INVALID_ARGUMENT, window unchanged, unless the sizes match,
+  // 0 <= current < buckets(), every bucket holds its fill, and the fills
+  // are those of a ring filled in order: slots before `current` full,
+  // `current` partly filled (empty only when the window is), slots after it
+  // all empty (first lap) or all full.
+  absl::Status Restore(std::vector<Accumulator> buckets,
+                       std::vector<int64_t> fill, int current) {
+    const size_t k = buckets_.size();
+    if (buckets.size() != k || fill.size() != k) {
+      return absl::InvalidArgumentError(absl::StrFormat(
+          "count window state: %d buckets and %d fills; the window has %d",
+          buckets.size(), fill.size(), k));
+    }
+    if (current < 0 || static_cast<size_t>(current) >= k) {
+      return absl::InvalidArgumentError(absl::StrFormat(
+          "count window state: current slot %d is outside [0, %d)", current,
+          k));
+    }
+    const size_t now = static_cast<size_t>(current);
+    const bool wrapped = now + 1 < k && fill[now + 1] != 0;
+    for (size_t b = 0; b < k; ++b) {
+      int64_t lo = bucket_records_, hi = bucket_records_;
+      if (b == now) {
+        lo = (now == 0 && !wrapped) ? 0 : 1;
+      } else if (b > now && !wrapped) {
+        lo = hi = 0;
+      }
+      if (fill[b] < lo || fill[b] > hi) {
+        return absl::InvalidArgumentError(absl::StrFormat(
+            "count window state: slot %d holds %d records; with current "
+            "slot %d it must hold between %d and %d",
+            b, fill[b], current, lo, hi));
+      }
+      if (fill[b] == 0) {
+        buckets[b] = empty_;
+      } else if (absl::Status s = internal::CheckSlot("count window", b,
+                                                      buckets[b], fill[b]);
+                 !s.ok()) {
+        return s;
+      }
+    }
+    buckets_ = std::move(buckets);
+    fill_ = std::move(fill);
+    current_ = now;
+    return absl::OkStatus();
+  }
 
  private:
   CountWindow(int64_t bucket_records, int buckets, Accumulator empty)
@@ -217,6 +298,72 @@ class TimeWindow {
     return n;
   }
   absl::Duration bucket_span() const { return bucket_span_; }
+
+  // The ring, slot by slot (0 <= slot < buckets()): each bucket, the
+  // records in it and the number of the bucket it holds,
+  // floor((t - epoch) / bucket_span()); nullopt for a slot never used.
+  int buckets() const { return static_cast<int>(buckets_.size()); }
+  const Accumulator& bucket(int slot) const { return buckets_[slot]; }
+  int64_t fill(int slot) const { return fill_[slot]; }
+  std::optional<int64_t> bucket_number(int slot) const {
+    if (index_[slot] == kNoBucket) return std::nullopt;
+    return index_[slot];
+  }
+  const Accumulator& empty() const { return empty_; }
+
+  // Replaces the ring with a saved one, one entry per slot. A slot without
+  // a bucket number is reset to the empty accumulator. INVALID_ARGUMENT,
+  // window unchanged, unless the sizes match, a slot has a bucket number
+  // exactly when its fill is > 0, each bucket number n sits in slot
+  // n mod buckets() and lies in [-2^53, 2^53], and every bucket holds its
+  // fill.
+  absl::Status Restore(std::vector<Accumulator> buckets,
+                       std::vector<int64_t> fill,
+                       std::vector<std::optional<int64_t>> numbers) {
+    const size_t k = buckets_.size();
+    if (buckets.size() != k || fill.size() != k || numbers.size() != k) {
+      return absl::InvalidArgumentError(absl::StrFormat(
+          "time window state: %d buckets, %d fills and %d bucket numbers; "
+          "the window has %d",
+          buckets.size(), fill.size(), numbers.size(), k));
+    }
+    constexpr int64_t kMaxNumber = int64_t{1} << 53;
+    const int64_t kk = static_cast<int64_t>(k);
+    std::vector<int64_t> index(k, kNoBucket);
+    std::optional<int64_t> newest;
+    for (size_t s = 0; s < k; ++s) {
+      if (numbers[s].has_value() != (fill[s] > 0)) {
+        return absl::InvalidArgumentError(absl::StrFormat(
+            "time window state: slot %d holds %d records and %s bucket "
+            "number; a slot has one exactly when it holds records",
+            s, fill[s], numbers[s] ? "a" : "no"));
+      }
+      if (!numbers[s]) {
+        buckets[s] = empty_;
+        continue;
+      }
+      const int64_t n = *numbers[s];
+      if (n < -kMaxNumber || n > kMaxNumber ||
+          static_cast<size_t>(((n % kk) + kk) % kk) != s) {
+        return absl::InvalidArgumentError(absl::StrFormat(
+            "time window state: slot %d holds bucket number %d, which "
+            "belongs in slot %d (or is out of range)",
+            s, n, ((n % kk) + kk) % kk));
+      }
+      if (absl::Status st =
+              internal::CheckSlot("time window", s, buckets[s], fill[s]);
+          !st.ok()) {
+        return st;
+      }
+      index[s] = n;
+      if (!newest || n > *newest) newest = n;
+    }
+    buckets_ = std::move(buckets);
+    fill_ = std::move(fill);
+    index_ = std::move(index);
+    newest_ = newest;
+    return absl::OkStatus();
+  }
 
  private:
   TimeWindow(absl::Duration bucket_span, int buckets, Accumulator empty)

@@ -99,4 +99,36 @@ void OutcomeCoverage::Fill(absl::Time now, v1::SetHealth* out) const {
   }
 }
 
+absl::Status OutcomeCoverage::Restore(const std::array<Cohort, kSlots>& ring) {
+  constexpr int64_t kMaxNumber = int64_t{1} << 53;
+  constexpr int64_t kMaxCount = int64_t{1} << 40;
+  for (int s = 0; s < kSlots; ++s) {
+    const Cohort& c = ring[static_cast<size_t>(s)];
+    const bool used = c.bucket != INT64_MIN;
+    if (!used) {
+      if (c.scored != 0 || c.labelled != 0) {
+        return absl::InvalidArgumentError(absl::StrCat(
+            "coverage state: slot ", s, " has no bucket but counts ", c.scored,
+            " scored and ", c.labelled, " labelled records"));
+      }
+      continue;
+    }
+    if (c.bucket < -kMaxNumber || c.bucket > kMaxNumber ||
+        ((c.bucket % kSlots) + kSlots) % kSlots != s) {
+      return absl::InvalidArgumentError(
+          absl::StrCat("coverage state: slot ", s, " holds bucket number ",
+                       c.bucket, ", which does not belong there"));
+    }
+    if (c.scored < 0 || c.scored > kMaxCount || c.labelled < 0 ||
+        c.labelled > kMaxCount || (c.scored == 0 && c.labelled == 0)) {
+      return absl::InvalidArgumentError(absl::StrCat(
+          "coverage state: slot ", s, " counts ", c.scored, " scored and ",
+          c.labelled,
+          " labelled records; each must lie in [0, 2^40], not both 0"));
+    }
+  }
+  ring_ = ring;
+  return absl::OkStatus();
+}
+
 }  // namespace plumbline::daemon

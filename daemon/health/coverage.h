@@ -60,6 +60,22 @@ class OutcomeCoverage {
   // Oldest score time still counted at `now`.
   absl::Time Start(absl::Time now) const;
 
+  // One cohort: the bucket number of its score times (floor((t - epoch) /
+  // span * kBuckets)) and its counts.
+  struct Cohort {
+    int64_t bucket = INT64_MIN;  // bucket number held, INT64_MIN: none
+    int64_t scored = 0;
+    int64_t labelled = 0;
+  };
+  // The ring, for saving (daemon/health/window_state.h): slot s holds the
+  // cohort whose bucket number is s mod kSlots.
+  const std::array<Cohort, kSlots>& cohorts() const { return ring_; }
+  // Replaces the ring. INVALID_ARGUMENT naming the slot, coverage
+  // unchanged, unless each used slot holds a bucket number of its own slot
+  // in [-2^53, 2^53] and counts in [0, 2^40], not both 0, and each unused
+  // slot counts nothing.
+  absl::Status Restore(const std::array<Cohort, kSlots>& ring);
+
  private:
   OutcomeCoverage(absl::Duration horizon, absl::Duration bucket)
       : horizon_(horizon), bucket_(bucket) {}
@@ -67,11 +83,6 @@ class OutcomeCoverage {
   // The slot of `t`'s bucket at `now`, or -1 when it is outside the ring.
   int Slot(absl::Time t, absl::Time now);
 
-  struct Cohort {
-    int64_t bucket = INT64_MIN;  // bucket number held, INT64_MIN: none
-    int64_t scored = 0;
-    int64_t labelled = 0;
-  };
   absl::Duration horizon_;
   absl::Duration bucket_;
   std::array<Cohort, kSlots> ring_{};

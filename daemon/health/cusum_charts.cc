@@ -7,6 +7,7 @@
 #include "absl/strings/str_cat.h"
 #include "absl/strings/str_format.h"
 #include "absl/strings/str_join.h"
+#include "daemon/util/caller_text.h"
 #include "scorer/logistic.h"
 
 namespace plumbline::daemon {
@@ -221,6 +222,103 @@ void CusumCharts::Fill(v1::SetHealth* out) const {
     chart->set_records_since_alarm(c.cusum->records_since_alarm());
     chart->set_last_alarm_value(c.last_alarm_value);
   }
+}
+
+CusumCharts::State CusumCharts::state() const {
+  State state;
+  state.limits_set = limits_set_;
+  for (const Chart& c : charts_) {
+    ChartState cs;
+    cs.name = c.name;
+    cs.note = c.note;
+    if (c.cusum && c.limit) {
+      cs.limit = c.limit;
+      cs.cusum = c.cusum->state();
+    }
+    cs.last_alarm_value = c.last_alarm_value;
+    state.charts.push_back(std::move(cs));
+  }
+  state.buffered = buffered_;
+  state.skipped = skipped_;
+  return state;
+}
+
+absl::Status CusumCharts::Restore(State state) {
+  auto bad = [](absl::string_view what) {
+    return absl::InvalidArgumentError(absl::StrCat("CUSUM state: ", what));
+  };
+  if (state.charts.size() != charts_.size()) {
+    return bad(absl::StrCat(state.charts.size(),
+                            " charts; the options ask for ", charts_.size()));
+  }
+  std::vector<Chart> charts = charts_;
+  for (size_t i = 0; i < charts.size(); ++i) {
+    Chart& c = charts[i];
+    ChartState& cs = state.charts[i];
+    if (cs.name != c.name) {
+      return bad(absl::StrCat("chart ", i, " is '", CallerText(cs.name),
+                              "'; the options' chart ", i, " is ", c.name));
+    }
+    const std::string chart = absl::StrCat("chart ", c.name, ": ");
+    if (cs.note.size() > kMaxNoteBytes) {
+      return bad(absl::StrCat(chart, "note of ", cs.note.size(),
+                              " bytes is longer than ", kMaxNoteBytes));
+    }
+    if (!(cs.last_alarm_value >= 0) || std::isinf(cs.last_alarm_value)) {
+      return bad(absl::StrCat(chart, "last_alarm_value is ",
+                              cs.last_alarm_value,
+                              "; it must be finite and >= 0"));
+    }
+    c.note = std::move(cs.note);
+    c.last_alarm_value = cs.last_alarm_value;
+    if (!cs.limit) {
+      const monitor::RiskAdjustedCusum::State& z = cs.cusum;
+      if (z.value != 0 || z.records != 0 || z.alarms != 0 ||
+          z.records_since_alarm != 0 || cs.last_alarm_value != 0) {
+        return bad(absl::StrCat(chart, "counts records but has no limit"));
+      }
+      continue;
+    }
+    if (!state.limits_set) {
+      return bad(absl::StrCat(chart, "has a limit before limits were set"));
+    }
+    const monitor::ControlLimit& l = *cs.limit;
+    if (!std::isfinite(l.target_arl) || !std::isfinite(l.arl.value) ||
+        !std::isfinite(l.arl.discretisation_error)) {
+      return bad(absl::StrCat(chart, "target or estimated ARL not finite"));
+    }
+    absl::StatusOr<monitor::RiskAdjustedCusum> cusum =
+        monitor::RiskAdjustedCusum::Create(c.alternative, l.limit);
+    if (!cusum.ok()) return bad(absl::StrCat(chart, cusum.status().message()));
+    if (absl::Status s = cusum->Restore(cs.cusum); !s.ok()) {
+      return bad(absl::StrCat(chart, s.message()));
+    }
+    c.cusum = *std::move(cusum);
+    c.limit = l;
+  }
+  if (state.buffered.size() > static_cast<size_t>(kMaxBuffered)) {
+    return bad(absl::StrCat(state.buffered.size(),
+                            " buffered records; the buffer holds at most ",
+                            kMaxBuffered));
+  }
+  if ((state.limits_set || !enabled_) && !state.buffered.empty()) {
+    return bad("buffered records, but nothing waits for limits");
+  }
+  for (size_t i = 0; i < state.buffered.size(); ++i) {
+    const auto& [log_odds, label] = state.buffered[i];
+    if (!std::isfinite(log_odds) || (label != 0 && label != 1)) {
+      return bad(absl::StrCat("buffered record ", i, " is (", log_odds, ", ",
+                              label, "); log-odds must be finite, labels 0/1"));
+    }
+  }
+  if (state.skipped < 0 || state.skipped > (int64_t{1} << 62)) {
+    return bad(absl::StrCat("skipped is ", state.skipped));
+  }
+  charts_ = std::move(charts);
+  limits_set_ = state.limits_set;
+  buffered_ = std::move(state.buffered);
+  skipped_ = state.skipped;
+  return absl::OkStatus();
 }
 
 }  // namespace plumbline::daemon

@@ -102,6 +102,33 @@ class CusumCharts {
   // Appends one CusumChart per chart to out->cusum.
   void Fill(v1::SetHealth* out) const;
 
+  // What the charts hold, for saving (daemon/health/window_state.h).
+  struct ChartState {
+    std::string name;  // "upper", "lower", "slope"
+    std::string note;
+    // Set exactly when the chart runs (its limit was chosen).
+    std::optional<monitor::ControlLimit> limit;
+    monitor::RiskAdjustedCusum::State cusum;
+    double last_alarm_value = 0;
+  };
+  struct State {
+    bool limits_set = false;
+    std::vector<ChartState> charts;
+    // Records waiting for the limits, and those past the buffer.
+    std::vector<std::pair<double, int8_t>> buffered;
+    int64_t skipped = 0;
+  };
+  static constexpr size_t kMaxNoteBytes = 4096;
+  State state() const;
+  // Replaces the state of charts made with the same options.
+  // INVALID_ARGUMENT naming the chart and field, charts unchanged, unless
+  // the charts are the ones the options ask for, in order; a limit is given
+  // only once limits are set, and is finite and > 0; the chart's state fits
+  // its limit (monitor/risk_adjusted_cusum.h); a chart without a limit has
+  // counted nothing; notes are at most kMaxNoteBytes; the buffer holds at
+  // most kMaxBuffered valid records and is empty once limits are set.
+  absl::Status Restore(State state);
+
  private:
   struct Chart {
     std::string name;

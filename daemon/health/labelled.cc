@@ -34,6 +34,26 @@ absl::Status LabelledAccumulator::Merge(const LabelledAccumulator& other) {
   return store_.Merge(other.store_);
 }
 
+absl::Status LabelledAccumulator::Restore(
+    monitor::OutcomeAccumulator::State streaming,
+    monitor::LabelledRecordStore::State store) {
+  monitor::OutcomeAccumulator new_streaming = streaming_;
+  monitor::LabelledRecordStore new_store = store_;
+  if (absl::Status s = new_streaming.Restore(std::move(streaming)); !s.ok()) {
+    return s;
+  }
+  if (absl::Status s = new_store.Restore(std::move(store)); !s.ok()) return s;
+  if (new_store.size() + new_store.refused() != new_streaming.count()) {
+    return absl::InvalidArgumentError(absl::StrCat(
+        "labelled bucket state: the store keeps ", new_store.size(),
+        " records and refused ", new_store.refused(),
+        ", but the streaming figures count ", new_streaming.count()));
+  }
+  streaming_ = std::move(new_streaming);
+  store_ = std::move(new_store);
+  return absl::OkStatus();
+}
+
 void FillOutcome(const LabelledAccumulator& acc, v1::WindowHealth* w) {
   w->set_labelled(acc.count());
   absl::StatusOr<monitor::OutcomeFigures> r = acc.streaming().Result();

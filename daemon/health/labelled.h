@@ -51,6 +51,14 @@ class LabelledAccumulator {
   const monitor::OutcomeAccumulator& streaming() const { return streaming_; }
   const monitor::LabelledRecordStore& store() const { return store_; }
 
+  // Puts saved state back (daemon/health/window_state.h) into an
+  // accumulator created with the same store capacity. INVALID_ARGUMENT
+  // naming the field, accumulator unchanged, when a part refuses or the
+  // store's records plus its refused count differ from the streaming count
+  // (every valid record goes to both).
+  absl::Status Restore(monitor::OutcomeAccumulator::State streaming,
+                       monitor::LabelledRecordStore::State store);
+
  private:
   LabelledAccumulator(monitor::OutcomeAccumulator streaming,
                       monitor::LabelledRecordStore store)

@@ -326,4 +326,74 @@ void ScoredAccumulator::Fill(v1::WindowHealth* out, double test_alpha) const {
   }
 }
 
+const monitor::StabilityCounts* ScoredAccumulator::score_counts() const {
+  return score_ ? &score_->counts() : nullptr;
+}
+
+const monitor::StabilityCounts& ScoredAccumulator::feature_counts(
+    size_t i) const {
+  return std::visit(
+      [](const auto& acc) -> const monitor::StabilityCounts& {
+        return acc.counts();
+      },
+      features_[i]);
+}
+
+absl::Status ScoredAccumulator::Restore(
+    int64_t count, std::optional<monitor::StabilityCounts> score,
+    std::vector<monitor::StabilityCounts> features) {
+  if (count < 0) {
+    return absl::InvalidArgumentError(
+        absl::StrCat("scored bucket state: count is ", count));
+  }
+  if (score.has_value() != score_.has_value()) {
+    return absl::InvalidArgumentError(
+        score_ ? "scored bucket state: no score counts, but the set has a "
+                 "score baseline"
+               : "scored bucket state: score counts, but the set has no "
+                 "usable score baseline");
+  }
+  if (features.size() != features_.size()) {
+    return absl::InvalidArgumentError(
+        absl::StrCat("scored bucket state: ", features.size(),
+                     " features; the set has ", features_.size()));
+  }
+  std::optional<monitor::NumericStabilityAccumulator> new_score = score_;
+  if (new_score) {
+    if (absl::Status s = new_score->Restore(*std::move(score)); !s.ok()) {
+      return absl::InvalidArgumentError(absl::StrCat("score: ", s.message()));
+    }
+    if (new_score->count() != count) {
+      return absl::InvalidArgumentError(
+          absl::StrCat("scored bucket state: the score counts ",
+                       new_score->count(), " records, the bucket ", count));
+    }
+  }
+  std::vector<FeatureAccumulator> new_features = features_;
+  const std::vector<StabilityLayout::Feature>& layout = layout_->features();
+  for (size_t i = 0; i < new_features.size(); ++i) {
+    absl::Status s = std::visit(
+        [&](auto& acc) {
+          if (absl::Status r = acc.Restore(std::move(features[i])); !r.ok()) {
+            return r;
+          }
+          if (acc.count() != count) {
+            return absl::InvalidArgumentError(absl::StrCat(
+                "counts ", acc.count(), " records, the bucket ", count));
+          }
+          return absl::OkStatus();
+        },
+        new_features[i]);
+    if (!s.ok()) {
+      return absl::InvalidArgumentError(
+          absl::StrCat("scored bucket state: feature '", layout[i].name,
+                       "': ", s.message()));
+    }
+  }
+  score_ = std::move(new_score);
+  features_ = std::move(new_features);
+  count_ = count;
+  return absl::OkStatus();
+}
+
 }  // namespace plumbline::daemon

@@ -122,6 +122,21 @@ class ScoredAccumulator {
   // at `test_alpha` (the level of one test, in (0, 1)).
   void Fill(v1::WindowHealth* out, double test_alpha) const;
 
+  // The counts, for saving (daemon/health/window_state.h): the score's (null
+  // when the set has no usable score baseline) and feature i's, in the
+  // plan's order.
+  const monitor::StabilityCounts* score_counts() const;
+  size_t num_features() const { return features_.size(); }
+  const monitor::StabilityCounts& feature_counts(size_t i) const;
+  // Replaces the counts of an accumulator of the same layout.
+  // INVALID_ARGUMENT naming the part, accumulator unchanged, when a part
+  // refuses (monitor/stability_accumulators.h), the score's counts are
+  // given without a score baseline or missing with one, the number of
+  // features differs, or a part's records differ from `count`.
+  absl::Status Restore(int64_t count,
+                       std::optional<monitor::StabilityCounts> score,
+                       std::vector<monitor::StabilityCounts> features);
+
  private:
   using FeatureAccumulator =
       std::variant<monitor::NumericStabilityAccumulator,

@@ -2,13 +2,16 @@
 #include "daemon/health/windows.h"
 
 #include <algorithm>
+#include <cmath>
 #include <optional>
 #include <utility>
 
 #include "absl/status/status.h"
+#include "absl/strings/escaping.h"
 #include "absl/strings/str_cat.h"
 #include "absl/strings/str_format.h"
 #include "daemon/health/pictures.h"
+#include "daemon/health/window_state.h"
 #include "daemon/policy/figures.h"
 #include "scorer/logistic.h"
 
@@ -36,6 +39,14 @@ absl::Status CountError(absl::string_view field, int64_t records, int buckets) {
       "windows.%s: %d records cannot be split into windows.buckets = %d "
       "equal buckets; choose a count that is a multiple of buckets",
       field, records, buckets));
+}
+
+// The horizon in effect: the set's, else the options'.
+absl::Duration HorizonOf(const scorer::ScoringPlan& plan,
+                         const HealthWindowOptions& options) {
+  if (!plan.set().has_outcome_horizon_seconds()) return options.outcome_horizon;
+  return absl::Seconds(static_cast<int64_t>(std::min<uint64_t>(
+      plan.set().outcome_horizon_seconds(), kMaxHorizonSeconds)));
 }
 
 }  // namespace
@@ -141,6 +152,7 @@ HealthWindows::HealthWindows(std::shared_ptr<const scorer::ScoringPlan> plan,
       options_(options),
       horizon_(horizon),
       layout_tests_(layout_tests),
+      fingerprint_(Fingerprint(*plan_, options_)),
       labelled_count_(std::move(labelled_count)),
       labelled_time_(std::move(labelled_time)),
       charts_(options_.cusum),
@@ -167,11 +179,7 @@ absl::StatusOr<std::unique_ptr<HealthWindows>> HealthWindows::Create(
   auto labelled_time =
       OutcomeTime::Create(options.time_span, options.buckets, *time_bucket);
   if (!labelled_time.ok()) return labelled_time.status();
-  absl::Duration horizon = options.outcome_horizon;
-  if (plan->set().has_outcome_horizon_seconds()) {
-    horizon = absl::Seconds(static_cast<int64_t>(std::min<uint64_t>(
-        plan->set().outcome_horizon_seconds(), kMaxHorizonSeconds)));
-  }
+  const absl::Duration horizon = HorizonOf(*plan, options);
   absl::StatusOr<OutcomeCoverage> coverage =
       OutcomeCoverage::Create(horizon, options.time_span);
   if (!coverage.ok()) return coverage.status();
@@ -229,6 +237,13 @@ void HealthWindows::AddMatureToTime(double log_odds, int label,
 }
 
 void HealthWindows::Wait(double log_odds, int label, absl::Time scored_at) {
+  // A record no window would take is refused by both now, as it would be
+  // when it matured: the waiting records then hold only valid ones.
+  if ((label != 0 && label != 1) || !std::isfinite(log_odds)) {
+    refused_[kLabelled][0].fetch_add(1, std::memory_order_relaxed);
+    refused_[kLabelled][1].fetch_add(1, std::memory_order_relaxed);
+    return;
+  }
   if (static_cast<int64_t>(waiting_.size()) >= options_.max_immature_records) {
     ++waiting_refused_;
     return;
@@ -300,6 +315,27 @@ void HealthWindows::AddCoverage(absl::Time scored_at, bool labelled,
   } else {
     coverage_.AddScored(Clamp(scored_at, now), now);
   }
+}
+
+std::string HealthWindows::Fingerprint(const scorer::ScoringPlan& plan,
+                                       const HealthWindowOptions& options) {
+  const HealthWindowOptions& o = options;
+  const CusumOptions& c = o.cusum;
+  // Doubles in %a: exact, so any change shows.
+  return absl::StrFormat(
+      "state=1\nset=%s\nversion=%s\nhorizon_ns=%d\nlabelled_count=%d\n"
+      "scored_count=%d\ntime_span_ns=%d\nbuckets=%d\n"
+      "record_store_max_records=%d\ndefault_horizon_ns=%d\n"
+      "max_immature_records=%d\nalpha=%a\ncusum=%d %a %a %a %a %d\n"
+      "features=%d\nlayout=%s",
+      absl::CEscape(plan.name()), absl::CEscape(plan.version()),
+      absl::ToInt64Nanoseconds(HorizonOf(plan, o)), o.labelled_count,
+      o.scored_count, absl::ToInt64Nanoseconds(o.time_span), o.buckets,
+      o.record_store_max_records, absl::ToInt64Nanoseconds(o.outcome_horizon),
+      o.max_immature_records, o.alpha, c.enabled ? 1 : 0, c.upper_odds_ratio,
+      c.lower_odds_ratio, c.slope_alternative, c.in_control_arl,
+      c.lattice_states, plan.set().features_size(),
+      LayoutHash(*StabilityLayout::Create(plan)));
 }
 
 bool HealthWindows::NeedsCusumLimits() const {

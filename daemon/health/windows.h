@@ -41,9 +41,23 @@
 // or that no window accepts (a non-finite log-odds) is counted, never
 // silently dropped; the counts are part of the figures.
 //
+// Saved state (issue 15: restart in a second): Capture() returns everything
+// the windows hold as a v1::HealthWindowsState (proto/plumbline/v1/
+// health_state.proto; the mapping is daemon/health/window_state.h), and
+// Restore() puts it into a freshly created HealthWindows, which then gives
+// the same Figures, bit for bit, and goes on exactly as the captured one
+// would. The state's fingerprint (Fingerprint()) names what shaped it: the
+// state format, set name, version, outcome horizon, every
+// HealthWindowOptions field and a hash of the stability layout; a state is
+// only restored into windows with the same fingerprint.
+//
 // Thread-safe: the labelled side (windows, waiting records, charts), the
 // scored windows and the coverage each have their own mutex; Add* hold them
-// for one record, Figures() for the merge of the buckets.
+// for one record, Figures() for the merge of the buckets. Capture() takes
+// each mutex in turn, so its state is consistent within each part (labelled
+// side, scored windows, coverage; the refused counts are read last); a
+// caller that needs one consistent whole stops feeding the windows during
+// Capture().
 #ifndef PLUMBLINE_DAEMON_HEALTH_WINDOWS_H_
 #define PLUMBLINE_DAEMON_HEALTH_WINDOWS_H_
 
@@ -65,6 +79,7 @@
 #include "daemon/health/stability.h"
 #include "monitor/window.h"
 #include "plumbline/v1/config.pb.h"
+#include "plumbline/v1/health_state.pb.h"
 #include "plumbline/v1/monitor.pb.h"
 #include "scorer/scoring_plan.h"
 
@@ -160,6 +175,31 @@ class HealthWindows {
   // Oldest score time the coverage counts at `now`.
   absl::Time CoverageStart(absl::Time now) const;
 
+  // Everything the windows hold. Buckets are copied out under their
+  // mutex; see the class comment for what is consistent with what.
+  // Capture and Restore are defined in window_state.cc.
+  v1::HealthWindowsState Capture() const;
+  // Puts a captured state into these windows. REQUIRES: nothing was fed
+  // since Create (Restore replaces the windows; it does not merge).
+  // FAILED_PRECONDITION naming the fingerprint keys that differ when the
+  // state was captured from windows of another shape; INVALID_ARGUMENT
+  // naming the field for a malformed state (wrong bucket counts, sizes that
+  // do not match, negative counts, a store larger than its bound, a
+  // non-finite value where none can be). The state is checked whole before
+  // anything is replaced: on any error the windows are unchanged.
+  absl::Status Restore(const v1::HealthWindowsState& state);
+  // This instance's fingerprint: Fingerprint(*plan(), options()).
+  const std::string& fingerprint() const { return fingerprint_; }
+  // What shapes the state of windows made by Create(plan, options): one
+  // `key=value` per line — state (the format, 1), set, version (C-escaped),
+  // horizon_ns, labelled_count, scored_count, time_span_ns, buckets,
+  // record_store_max_records, default_horizon_ns, max_immature_records,
+  // alpha (%a, exact), cusum (enabled, odds ratios, slope, ARL, lattice),
+  // features (count) and layout (LayoutHash of the stability layout).
+  // Change it (bump `state`) whenever the state's meaning changes.
+  static std::string Fingerprint(const scorer::ScoringPlan& plan,
+                                 const HealthWindowOptions& options);
+
   const HealthWindowOptions& options() const { return options_; }
   absl::Duration outcome_horizon() const { return horizon_; }
   // PSI tests per evaluation of this version (both windows).
@@ -202,6 +242,7 @@ class HealthWindows {
   const HealthWindowOptions options_;
   const absl::Duration horizon_;
   const int layout_tests_;
+  const std::string fingerprint_;
 
   mutable absl::Mutex labelled_mu_;
   OutcomeCount labelled_count_ ABSL_GUARDED_BY(labelled_mu_);
@@ -222,6 +263,7 @@ class HealthWindows {
   int64_t labelled_since_start_ ABSL_GUARDED_BY(labelled_mu_) = 0;
 
   // Refused records, per [labelled 0 / scored 1][count 0 / time 1].
+  static constexpr int kLabelledSide = 0, kScoredSide = 1;
   std::atomic<int64_t> refused_[2][2] = {{0, 0}, {0, 0}};
 };
 
