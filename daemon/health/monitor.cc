@@ -59,7 +59,19 @@ void LogLimits(const scorer::ScoringPlan& plan,
 }  // namespace
 
 HealthMonitor::HealthMonitor(HealthMonitorOptions options)
-    : options_(std::move(options)), feed_(this, options_.find_plan) {}
+    : options_(std::move(options)),
+      feed_(this, [this](const std::string& set, const std::string& version) {
+        return PlanFor(set, version);
+      }) {}
+
+HealthMonitor::PlanPtr HealthMonitor::PlanFor(const std::string& set,
+                                              const std::string& version) {
+  {
+    absl::ReaderMutexLock lock(&mu_);
+    if (HealthWindows* w = Find(set, version); w != nullptr) return w->plan();
+  }
+  return options_.find_plan ? options_.find_plan(set, version) : nullptr;
+}
 
 absl::StatusOr<std::unique_ptr<HealthMonitor>> HealthMonitor::Create(
     HealthMonitorOptions options) {

@@ -186,6 +186,8 @@ class HealthMonitor final : public HealthSink {
 
   explicit HealthMonitor(HealthMonitorOptions options);
 
+  // The plan of a monitored version, else options_.find_plan's answer.
+  PlanPtr PlanFor(const std::string& set, const std::string& version);
   // Creates windows for `plan`'s version unless it has them. False for a
   // retired version (one SyncPlans dropped) or if they cannot be created.
   bool EnsureWindows(const scorer::ScoringPlan& plan);

@@ -233,7 +233,6 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
       d->lifecycle_.get(), d->refits_.get(), d->shadow_tracker_.get(),
       d->dossiers_.get(), &d->monitor_->options().policy, d->ledger_.get());
   ServerAttachments attachments;
-  attachments.health_sink = d->monitor_.get();
   attachments.shadows.tracker = d->shadow_tracker_.get();
   attachments.shadows.stop = [lifecycle = d->lifecycle_.get()](
                                  const SetVersion& shadow,

@@ -155,7 +155,9 @@ TEST_F(HealthRestoreTest, RestoredWindowsEqualLiveOnes) {
   const v1::SetHealth want = Figures(*live);
   const v1::SetHealth got = Figures(*restored);
   ASSERT_EQ(want.windows_size(), 2);
-  EXPECT_EQ(want.windows(0).labelled(), 40);  // the count window wrapped
+  // The count window wrapped: it holds 31 to 40 of the ~120 labelled.
+  EXPECT_GT(want.windows(0).labelled(), 30);
+  EXPECT_GT(want.windows(0).scored(), 30);
   std::string diff;
   google::protobuf::util::MessageDifferencer d;
   d.ReportDifferencesToString(&diff);
