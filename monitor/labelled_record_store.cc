@@ -1,5 +1,6 @@
 #include "monitor/labelled_record_store.h"
 
+#include <cmath>
 #include <utility>
 #include <vector>
 
@@ -71,11 +72,11 @@ absl::Status LabelledRecordStore::Restore(State state) {
     return s;
   }
   for (size_t i = 0; i < state.labels.size(); ++i) {
-    if (absl::Status s =
-            internal::CheckRecord(absl::StrFormat("%s: record %d", kWhat, i),
-                                  state.log_odds[i], state.labels[i]);
-        !s.ok()) {
-      return s;
+    // The message is built only for a bad record (a million are checked).
+    const int8_t label = state.labels[i];
+    if ((label != 0 && label != 1) || !std::isfinite(state.log_odds[i])) {
+      return internal::CheckRecord(absl::StrFormat("%s: record %d", kWhat, i),
+                                   state.log_odds[i], label);
     }
   }
   refused_ = state.refused;
