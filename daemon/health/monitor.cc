@@ -180,6 +180,9 @@ void HealthMonitor::OnScored(const scorer::ScoringPlan& plan,
     {
       absl::ReaderMutexLock lock(&mu_);
       if (HealthWindows* w = Find(plan); w != nullptr) {
+        // A version rebuilt in the background takes its rows from the
+        // ledger until it is whole (RebuildInBackground).
+        if (!rebuilding_.empty() && rebuilding_.contains(w)) return;
         w->AddScored(log_odds, values, scored_at, now);
         return;
       }
@@ -223,6 +226,7 @@ void HealthMonitor::OnLabelled(const LabelledScore& labelled) {
   {
     absl::ReaderMutexLock lock(&mu_);
     if (HealthWindows* w = Find(labelled.set_name, labelled.set_version)) {
+      if (!rebuilding_.empty() && rebuilding_.contains(w)) return;
       w->AddLabelled(labelled.log_odds, labelled.label, labelled.scored_at,
                      labelled.observed_at, now);
       return;
@@ -271,7 +275,10 @@ std::vector<WindowSnapshot> HealthMonitor::Snapshots() {
     {
       absl::ReaderMutexLock lock(&mu_);
       for (const auto& [name, list] : versions_) {
-        all.insert(all.end(), list.begin(), list.end());
+        for (const auto& v : list) {
+          // Not whole yet: the next start rebuilds it again.
+          if (!rebuilding_.contains(v->windows.get())) all.push_back(v);
+        }
       }
     }
     states.reserve(all.size());
@@ -385,61 +392,169 @@ absl::StatusOr<RestoreReport> HealthMonitor::Restore(Ledger& ledger,
   }
   if (marks.has_value()) {
     // The rows after the marks, as the ledger's commits fed them.
-    const absl::Time now = options_.now();
-    StoredFeatureReader reader;
-    std::vector<scorer::RawValue> values;
-    int64_t undecodable = 0;
-    absl::Status s =
-        ledger.ForEachScoreAfter(marks->score_id, [&](const ScoreEntry& e) {
-          auto it = restored.find(VersionKey(e.set_name, e.set_version));
-          if (it == restored.end()) return;
-          if (!reader
-                   .Read(*it->second->plan(), e.layout.get(), e.features,
-                         &values)
-                   .ok()) {
-            ++undecodable;
-            return;
-          }
-          it->second->AddScored(e.log_odds, values, e.scored_at, now);
-          ++report.tail_scores;
-        });
-    if (!s.ok()) return s;
-    s = ledger.ForEachLabelledAfter(
-        marks->outcome_seq, [&](const LabelledScore& l) {
-          auto it = restored.find(VersionKey(l.set_name, l.set_version));
-          if (it == restored.end()) return;
-          it->second->AddLabelled(l.log_odds, l.label, l.scored_at,
-                                  l.observed_at, now);
-          ++report.tail_labelled;
-        });
-    if (!s.ok()) return s;
-    LogEvent(undecodable > 0 ? LogLevel::kWarning : LogLevel::kInfo,
+    absl::StatusOr<FedRows> fed =
+        FeedRows(ledger, *marks, ledger_marks, restored);
+    if (!fed.ok()) return fed.status();
+    report.tail_scores = fed->scores;
+    report.tail_labelled = fed->labelled;
+    LogEvent(fed->undecodable > 0 ? LogLevel::kWarning : LogLevel::kInfo,
              "health_restored",
              {{"versions", absl::StrCat(report.restored)},
               {"tail_scores", absl::StrCat(report.tail_scores)},
               {"tail_labelled", absl::StrCat(report.tail_labelled)},
-              {"skipped_unparseable", absl::StrCat(undecodable)}});
-  }
-  for (const auto& v : rebuild) {
-    if (absl::Status s = RebuildWindows(ledger, *v->windows, options_.now());
-        !s.ok()) {
-      return s;
-    }
-    ++report.rebuilt;
+              {"skipped_unparseable", absl::StrCat(fed->undecodable)}});
   }
   fed_marks_ = ledger_marks;
   marks_known_ = true;
+  if (rebuild.empty()) return report;
+  if (!options_.rebuild_in_background) {
+    for (const auto& v : rebuild) {
+      if (absl::Status s = RebuildWindows(ledger, *v->windows, options_.now());
+          !s.ok()) {
+        return s;
+      }
+      ++report.rebuilt;
+    }
+    return report;
+  }
+  // Serving starts meanwhile: the live feed leaves these versions alone
+  // until the rebuild (rows up to ledger_marks) and its catch-up are done.
+  {
+    absl::MutexLock lock(&mu_);
+    for (const auto& v : rebuild) rebuilding_.insert(v->windows.get());
+  }
+  report.background = static_cast<int>(rebuild.size());
+  absl::MutexLock lock(&rebuild_mu_);
+  rebuild_thread_ = std::thread(
+      [this, l = &ledger, rebuild = std::move(rebuild), ledger_marks] {
+        RebuildInBackground(*l, rebuild, ledger_marks);
+      });
   return report;
+}
+
+absl::StatusOr<HealthMonitor::FedRows> HealthMonitor::FeedRows(
+    Ledger& ledger, const LedgerMarks& after, const LedgerMarks& upto,
+    const absl::flat_hash_map<SetVersion, HealthWindows*>& targets) {
+  const absl::Time now = options_.now();
+  StoredFeatureReader reader;
+  std::vector<scorer::RawValue> values;
+  FedRows fed;
+  absl::Status s = ledger.ForEachScoreAfter(
+      after.score_id,
+      [&](const ScoreEntry& e) {
+        auto it = targets.find(VersionKey(e.set_name, e.set_version));
+        if (it == targets.end()) return;
+        if (!reader
+                 .Read(*it->second->plan(), e.layout.get(), e.features, &values)
+                 .ok()) {
+          ++fed.undecodable;
+          return;
+        }
+        it->second->AddScored(e.log_odds, values, e.scored_at, now);
+        ++fed.scores;
+      },
+      upto.score_id);
+  if (!s.ok()) return s;
+  s = ledger.ForEachLabelledAfter(
+      after.outcome_seq,
+      [&](const LabelledScore& l) {
+        auto it = targets.find(VersionKey(l.set_name, l.set_version));
+        if (it == targets.end()) return;
+        it->second->AddLabelled(l.log_odds, l.label, l.scored_at, l.observed_at,
+                                now);
+        ++fed.labelled;
+      },
+      upto.outcome_seq);
+  if (!s.ok()) return s;
+  return fed;
+}
+
+void HealthMonitor::RebuildInBackground(
+    Ledger& ledger, const std::vector<std::shared_ptr<Version>>& versions,
+    const LedgerMarks& upto) {
+  const absl::Time start = absl::Now();
+  absl::flat_hash_map<SetVersion, HealthWindows*> targets;
+  absl::Status failed;
+  for (const auto& v : versions) {
+    const scorer::ScoringPlan& plan = *v->windows->plan();
+    targets[VersionKey(plan.name(), plan.version())] = v->windows.get();
+    if (stop_rebuild_.load()) return;
+    if (absl::Status s =
+            RebuildWindows(ledger, *v->windows, options_.now(), &upto);
+        !s.ok() && failed.ok()) {
+      failed = s;
+    }
+  }
+  // The rows committed since `upto`, in passes while the writer goes on;
+  // the last pass holds feed_mu_, so no commit falls between it and the
+  // live feed. Each pass reads what the ledger wrote during the one before.
+  LedgerMarks done = upto;
+  int64_t caught_up = 0;
+  for (int pass = 0;; ++pass) {
+    if (stop_rebuild_.load()) return;
+    LedgerMarks target;
+    {
+      absl::MutexLock lock(&feed_mu_);
+      target = fed_marks_;
+    }
+    const int64_t behind = (target.score_id - done.score_id) +
+                           (target.outcome_seq - done.outcome_seq);
+    if (behind <= kCatchUpUnderLock || pass >= kCatchUpPasses) {
+      absl::MutexLock feed(&feed_mu_);
+      absl::StatusOr<FedRows> fed = FeedRows(ledger, done, fed_marks_, targets);
+      if (!fed.ok() && failed.ok()) failed = fed.status();
+      if (fed.ok()) caught_up += fed->scores + fed->labelled;
+      absl::MutexLock lock(&mu_);
+      for (const auto& v : versions) rebuilding_.erase(v->windows.get());
+      break;
+    }
+    absl::StatusOr<FedRows> fed = FeedRows(ledger, done, target, targets);
+    if (!fed.ok() && failed.ok()) failed = fed.status();
+    if (fed.ok()) caught_up += fed->scores + fed->labelled;
+    done = target;
+  }
+  if (!failed.ok()) {
+    LogEvent(LogLevel::kError, "health_rebuild_failed",
+             {{"versions", absl::StrCat(versions.size())},
+              {"error", failed.message()},
+              {"effect",
+               "the windows hold only part of their span; they fill as "
+               "records arrive"}});
+    return;
+  }
+  LogEvent(
+      LogLevel::kInfo, "health_rebuild_done",
+      {{"versions", absl::StrCat(versions.size())},
+       {"caught_up_rows", absl::StrCat(caught_up)},
+       {"seconds",
+        absl::StrFormat("%.3f", absl::ToDoubleSeconds(absl::Now() - start))}});
+}
+
+bool HealthMonitor::Rebuilding() const {
+  absl::ReaderMutexLock lock(&mu_);
+  return !rebuilding_.empty();
+}
+
+void HealthMonitor::WaitForRebuild() {
+  absl::MutexLock lock(&rebuild_mu_);
+  if (rebuild_thread_.joinable()) rebuild_thread_.join();
+}
+
+HealthMonitor::~HealthMonitor() {
+  stop_rebuild_.store(true);
+  WaitForRebuild();
 }
 
 void HealthMonitor::Evaluate() {
   absl::MutexLock evaluating(&evaluate_mu_);
   std::vector<std::shared_ptr<Version>> all;
+  absl::flat_hash_set<const HealthWindows*> rebuilding;
   {
     absl::ReaderMutexLock lock(&mu_);
     for (const auto& [name, list] : versions_) {
       all.insert(all.end(), list.begin(), list.end());
     }
+    rebuilding = rebuilding_;
   }
   // Control limits for versions seen for the first time (a fraction of a
   // second per chart), before the clock is read for the figures.
@@ -458,6 +573,15 @@ void HealthMonitor::Evaluate() {
   for (const auto& v : all) {
     v1::SetHealth health = v->windows->Figures(now);
     *health.mutable_evaluated_at() = ToTimestamp(now);
+    if (rebuilding.contains(v->windows.get())) {
+      // Figures of part of the span: shown, not judged.
+      health.add_notes(
+          "windows incomplete: being rebuilt from the ledger in the "
+          "background (no snapshot of this version fitted); drift is not "
+          "judged until the rebuild ends");
+      results.push_back(std::move(health));
+      continue;
+    }
     const SetVersion key = VersionKey(health.set(), health.version());
     auto it = trackers_.find(key);
     if (it == trackers_.end() || it->second.windows != v->windows.get()) {

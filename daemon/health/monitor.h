@@ -46,10 +46,12 @@
 #ifndef PLUMBLINE_DAEMON_HEALTH_MONITOR_H_
 #define PLUMBLINE_DAEMON_HEALTH_MONITOR_H_
 
+#include <atomic>
 #include <cstdint>
 #include <functional>
 #include <memory>
 #include <string>
+#include <thread>
 #include <tuple>
 #include <vector>
 
@@ -82,13 +84,19 @@ struct HealthMonitorOptions {
   // monitor has no windows for yet (right after a reload); null, or a null
   // answer: such rows are counted as unmonitored.
   CommittedFeed::FindPlan find_plan;
+  // Restore rebuilds the versions without a usable snapshot on a thread of
+  // its own while plumbd serves (their windows marked incomplete, their
+  // drift not judged until it ends); false: before it returns.
+  bool rebuild_in_background = true;
 };
 
 // What HealthMonitor::Restore did.
 struct RestoreReport {
-  // Versions restored from their snapshot, and rebuilt from the ledger.
+  // Versions restored from their snapshot, rebuilt from the ledger before
+  // Restore returned, and being rebuilt in the background.
   int restored = 0;
   int rebuilt = 0;
+  int background = 0;
   // Rows after the snapshots' marks fed to the restored versions.
   int64_t tail_scores = 0;
   int64_t tail_labelled = 0;
@@ -138,11 +146,22 @@ class HealthMonitor final : public HealthSink {
   // whose snapshot in `store` fits (same fingerprint, the ledger still
   // holding the rows at its marks, daemon/health/snapshot_store.h) is
   // restored and fed the ledger's rows after its marks; every other
-  // version is rebuilt from the ledger (Rebuild). Each snapshot not used
-  // is logged (event health_snapshot_unused) with why. From then on the
-  // monitor's marks are the ledger's. `store` may be null (rebuild all).
-  // The ledger's read errors are returned.
+  // version is rebuilt from the ledger (daemon/health/rebuild.h), in the
+  // background unless options say otherwise: the rows up to the ledger's
+  // marks at this call, then the rows committed since in passes, the last
+  // one holding the feed, after which the live feed takes it over; until
+  // then its figures carry a note and its drift is not judged. Each
+  // snapshot not used is logged (event health_snapshot_unused) with why.
+  // From then on the monitor's marks are the ledger's. `store` may be null
+  // (rebuild all). `ledger` must outlive the monitor. The ledger's read
+  // errors are returned.
   absl::StatusOr<RestoreReport> Restore(Ledger& ledger, SnapshotStore* store);
+  // Whether a background rebuild is still going; WaitForRebuild waits for
+  // it to end.
+  bool Rebuilding() const;
+  void WaitForRebuild();
+
+  ~HealthMonitor() override;
 
   // The ledger's rows observer (Ledger::set_rows_observer): one commit's
   // rows into the windows, and its marks noted.
@@ -185,6 +204,22 @@ class HealthMonitor final : public HealthSink {
   };
 
   explicit HealthMonitor(HealthMonitorOptions options);
+
+  // A catch-up pass of a background rebuild holds the feed when at most
+  // this many rows are left, or after kCatchUpPasses passes.
+  static constexpr int64_t kCatchUpUnderLock = 20'000;
+  static constexpr int kCatchUpPasses = 5;
+  struct FedRows {
+    int64_t scores = 0, labelled = 0, undecodable = 0;
+  };
+  // The ledger's rows in (after, upto] of the versions in `targets`, into
+  // their windows.
+  absl::StatusOr<FedRows> FeedRows(
+      Ledger& ledger, const LedgerMarks& after, const LedgerMarks& upto,
+      const absl::flat_hash_map<SetVersion, HealthWindows*>& targets);
+  void RebuildInBackground(
+      Ledger& ledger, const std::vector<std::shared_ptr<Version>>& versions,
+      const LedgerMarks& upto);
 
   // The plan of a monitored version, else options_.find_plan's answer.
   PlanPtr PlanFor(const std::string& set, const std::string& version);
@@ -233,6 +268,12 @@ class HealthMonitor final : public HealthSink {
       versions_ ABSL_GUARDED_BY(mu_);
   // Versions SyncPlans dropped: not revived by a late record.
   absl::flat_hash_set<SetVersion> retired_ ABSL_GUARDED_BY(mu_);
+  // Windows a background rebuild fills: the live feed passes them by.
+  absl::flat_hash_set<const HealthWindows*> rebuilding_ ABSL_GUARDED_BY(mu_);
+
+  absl::Mutex rebuild_mu_;
+  std::thread rebuild_thread_ ABSL_GUARDED_BY(rebuild_mu_);
+  std::atomic<bool> stop_rebuild_{false};
 
   mutable absl::Mutex unmonitored_mu_;
   // By version and kind.

@@ -47,7 +47,7 @@ absl::StatusOr<std::vector<Entry>> NewestRows(
 }  // namespace
 
 absl::Status RebuildWindows(Ledger& ledger, HealthWindows& windows,
-                            absl::Time now) {
+                            absl::Time now, const LedgerMarks* upto) {
   const scorer::ScoringPlan& plan = *windows.plan();
   const std::string& version = plan.version();
   const HealthWindowOptions& o = windows.options();
@@ -68,7 +68,7 @@ absl::Status RebuildWindows(Ledger& ledger, HealthWindows& windows,
           [&](int64_t limit,
               const std::function<void(const LabelledScore&)>& fn) {
             return ledger.ForEachLabelled(plan.name(), limit,
-                                          absl::InfinitePast(), fn);
+                                          absl::InfinitePast(), fn, upto);
           },
           [&](const LabelledScore& l) { return l.set_version == version; });
   if (!newest_labelled.ok()) return newest_labelled.status();
@@ -84,7 +84,7 @@ absl::Status RebuildWindows(Ledger& ledger, HealthWindows& windows,
           o.scored_count,
           [&](int64_t limit, const std::function<void(const ScoreEntry&)>& fn) {
             return ledger.ForEachScore(plan.name(), limit, absl::InfinitePast(),
-                                       fn);
+                                       fn, upto);
           },
           [&](const ScoreEntry& e) { return e.set_version == version; });
   if (!newest_scored.ok()) return newest_scored.status();
@@ -116,7 +116,8 @@ absl::Status RebuildWindows(Ledger& ledger, HealthWindows& windows,
         windows.AddLabelledTo(WindowKind::kTime, l.log_odds, l.label,
                               l.scored_at, l.observed_at, now);
         ++labelled;
-      });
+      },
+      upto);
   if (!s.ok()) return s;
   s = ledger.ForEachScore(
       plan.name(), kRebuildTimeLimit, std::min(since, coverage_since),
@@ -133,7 +134,8 @@ absl::Status RebuildWindows(Ledger& ledger, HealthWindows& windows,
         windows.AddScoredTo(WindowKind::kTime, e.log_odds, row, e.scored_at,
                             now);
         ++scored;
-      });
+      },
+      upto);
   if (!s.ok()) return s;
   LogEvent(skipped > 0 ? LogLevel::kWarning : LogLevel::kInfo, "health_rebuilt",
            {{"set", plan.name()},

@@ -34,9 +34,11 @@
 namespace plumbline::daemon {
 
 // Adds the ledger's rows of windows.plan()'s version to `windows`, with
-// `now` as the monitor's present. The ledger's read errors are returned.
+// `now` as the monitor's present; with `upto`, only the rows up to those
+// marks (a rebuild while the ledger takes writes). The ledger's read errors
+// are returned.
 absl::Status RebuildWindows(Ledger& ledger, HealthWindows& windows,
-                            absl::Time now);
+                            absl::Time now, const LedgerMarks* upto = nullptr);
 
 }  // namespace plumbline::daemon
 

@@ -257,15 +257,19 @@ class Ledger {
 
   // Calls `fn` with the most recent labelled scores of `set_name` (newest
   // first, by outcome time), at most `limit` of them, observed at or after
-  // `since`. Reads on its own connection; sees committed rows only.
+  // `since`. Reads on its own connection; sees committed rows only. With
+  // `upto`, only rows up to those marks (scores of id <= upto->score_id,
+  // outcomes of seq <= upto->outcome_seq or written before schema 8).
   absl::Status ForEachLabelled(
       const std::string& set_name, int64_t limit, absl::Time since,
-      const std::function<void(const LabelledScore&)>& fn);
+      const std::function<void(const LabelledScore&)>& fn,
+      const LedgerMarks* upto = nullptr);
 
   // Calls `fn` with the most recent scores of `set_name`, newest first.
   absl::Status ForEachScore(const std::string& set_name, int64_t limit,
                             absl::Time since,
-                            const std::function<void(const ScoreEntry&)>& fn);
+                            const std::function<void(const ScoreEntry&)>& fn,
+                            const LedgerMarks* upto = nullptr);
 
   // Every score of `record_id` by set `set_name` (any version and role) and
   // its outcome. NOT_FOUND when there is no such score. Reads on its own
@@ -299,15 +303,17 @@ class Ledger {
   // failed.
   absl::Status Flush();
 
-  // Calls `fn` with every score of id > `after_id` (any set, version and
-  // role), in id order; and with every labelled score whose outcome has
-  // seq > `after_seq`, in seq order (outcomes written before schema 8 have
-  // no seq and are never after a mark). Each reads on its own connection
-  // and sees committed rows only.
+  // Calls `fn` with every score of id in (after_id, upto_id] (any set,
+  // version and role), in id order; and with every labelled score whose
+  // outcome has a seq in (after_seq, upto_seq], in seq order (outcomes
+  // written before schema 8 have no seq and are never after a mark). Each
+  // reads on its own connection and sees committed rows only.
   absl::Status ForEachScoreAfter(
-      int64_t after_id, const std::function<void(const ScoreEntry&)>& fn);
+      int64_t after_id, const std::function<void(const ScoreEntry&)>& fn,
+      int64_t upto_id = INT64_MAX);
   absl::Status ForEachLabelledAfter(
-      int64_t after_seq, const std::function<void(const LabelledScore&)>& fn);
+      int64_t after_seq, const std::function<void(const LabelledScore&)>& fn,
+      int64_t upto_seq = INT64_MAX);
 
   // The record ids of the score with id marks.score_id and of the outcome
   // with seq marks.outcome_seq, to check that a pair of marks still means

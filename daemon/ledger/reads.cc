@@ -16,11 +16,11 @@ namespace {
 int64_t Micros(absl::Time t) { return absl::ToUnixMicros(t); }
 absl::Time FromMicros(int64_t us) { return absl::FromUnixMicros(us); }
 
-// Opens a read connection, binds (set name, since, limit) to ?1..?3 of `sql`
-// and calls `row` for each result row.
+// Opens a read connection, binds (set name, since, limit, upto) to ?1..?4
+// of `sql` and calls `row` for each result row.
 absl::Status ReadRows(const std::string& path, LedgerEnv* env,
                       absl::string_view sql, const std::string& set_name,
-                      int64_t limit, absl::Time since,
+                      int64_t limit, absl::Time since, int64_t upto,
                       const std::function<void(const SqliteStatement&)>& row) {
   auto db = SqliteDb::Open(path, env);
   if (!db.ok()) return db.status();
@@ -30,6 +30,7 @@ absl::Status ReadRows(const std::string& path, LedgerEnv* env,
   s.BindText(1, set_name);
   s.BindInt64(2, since == absl::InfinitePast() ? INT64_MIN : Micros(since));
   s.BindInt64(3, limit);
+  s.BindInt64(4, upto);
   for (;;) {
     auto more = s.Step();
     if (!more.ok()) return more.status();
@@ -62,7 +63,8 @@ std::shared_ptr<const v1::RowLayout> Ledger::StoredLayout(
 
 absl::Status Ledger::ForEachLabelled(
     const std::string& set_name, int64_t limit, absl::Time since,
-    const std::function<void(const LabelledScore&)>& fn) {
+    const std::function<void(const LabelledScore&)>& fn,
+    const LedgerMarks* upto) {
   return ReadRows(
       options_.path, env_,
       "SELECT s.record_id, ss.set_name, ss.set_version, ss.role, s.log_odds,"
@@ -73,8 +75,10 @@ absl::Status Ledger::ForEachLabelled(
       " WHERE ss.set_name = ?1 AND o.observed_at_us >= ?2"
       // As the outcome lookup: not the repeats schemas before 5 let in.
       " AND (s.primary_set IS NOT NULL OR ss.role = 'shadow')"
+      " AND (o.seq IS NULL OR o.seq <= ?4)"
       " ORDER BY o.observed_at_us DESC, s.id DESC LIMIT ?3",
-      set_name, limit, since, [&](const SqliteStatement& s) {
+      set_name, limit, since, upto != nullptr ? upto->outcome_seq : INT64_MAX,
+      [&](const SqliteStatement& s) {
         fn(LabelledScore{s.ColumnText(0), s.ColumnText(1), s.ColumnText(2),
                          RoleColumn(s.ColumnText(3)), s.ColumnDouble(4),
                          s.ColumnDouble(5), static_cast<int>(s.ColumnInt64(6)),
@@ -86,7 +90,7 @@ absl::Status Ledger::ForEachLabelled(
 
 absl::Status Ledger::ForEachScore(
     const std::string& set_name, int64_t limit, absl::Time since,
-    const std::function<void(const ScoreEntry&)>& fn) {
+    const std::function<void(const ScoreEntry&)>& fn, const LedgerMarks* upto) {
   return ReadRows(
       options_.path, env_,
       // Newest id first, stopping at the limit (schema 4 has no index by set
@@ -96,9 +100,10 @@ absl::Status Ledger::ForEachScore(
       "s.scored_at_us,"
       " s.log_odds, s.probability, s.features, ss.id, ss.layout FROM scores s"
       " CROSS JOIN score_sets ss ON ss.id = s.set_id"
-      " WHERE ss.set_name = ?1 AND s.scored_at_us >= ?2"
+      " WHERE ss.set_name = ?1 AND s.scored_at_us >= ?2 AND s.id <= ?4"
       " ORDER BY s.id DESC LIMIT ?3",
-      set_name, limit, since, [&](const SqliteStatement& s) {
+      set_name, limit, since, upto != nullptr ? upto->score_id : INT64_MAX,
+      [&](const SqliteStatement& s) {
         fn(ScoreEntry{s.ColumnText(0), s.ColumnText(1), s.ColumnText(2),
                       RoleColumn(s.ColumnText(3)), FromMicros(s.ColumnInt64(4)),
                       s.ColumnDouble(5), s.ColumnDouble(6), s.ColumnText(7),
@@ -108,17 +113,19 @@ absl::Status Ledger::ForEachScore(
 
 namespace {
 
-// Opens a read connection, binds `after` to ?1 of `sql` and calls `row` for
-// each result row.
+// Opens a read connection, binds (after, upto) to ?1, ?2 of `sql` and calls
+// `row` for each result row.
 absl::Status ReadRowsAfter(
     const std::string& path, LedgerEnv* env, absl::string_view sql,
-    int64_t after, const std::function<void(const SqliteStatement&)>& row) {
+    int64_t after, int64_t upto,
+    const std::function<void(const SqliteStatement&)>& row) {
   auto db = SqliteDb::Open(path, env);
   if (!db.ok()) return db.status();
   auto q = (*db)->Prepare(sql);
   if (!q.ok()) return q.status();
   SqliteStatement& s = **q;
   s.BindInt64(1, after);
+  s.BindInt64(2, upto);
   for (;;) {
     auto more = s.Step();
     if (!more.ok()) return more.status();
@@ -130,14 +137,15 @@ absl::Status ReadRowsAfter(
 }  // namespace
 
 absl::Status Ledger::ForEachScoreAfter(
-    int64_t after_id, const std::function<void(const ScoreEntry&)>& fn) {
+    int64_t after_id, const std::function<void(const ScoreEntry&)>& fn,
+    int64_t upto_id) {
   return ReadRowsAfter(
       options_.path, env_,
       "SELECT s.record_id, ss.set_name, ss.set_version, ss.role,"
       " s.scored_at_us, s.log_odds, s.probability, s.features, ss.id,"
       " ss.layout FROM scores s CROSS JOIN score_sets ss ON ss.id = s.set_id"
-      " WHERE s.id > ?1 ORDER BY s.id",
-      after_id, [&](const SqliteStatement& s) {
+      " WHERE s.id > ?1 AND s.id <= ?2 ORDER BY s.id",
+      after_id, upto_id, [&](const SqliteStatement& s) {
         fn(ScoreEntry{s.ColumnText(0), s.ColumnText(1), s.ColumnText(2),
                       RoleColumn(s.ColumnText(3)), FromMicros(s.ColumnInt64(4)),
                       s.ColumnDouble(5), s.ColumnDouble(6), s.ColumnText(7),
@@ -146,7 +154,8 @@ absl::Status Ledger::ForEachScoreAfter(
 }
 
 absl::Status Ledger::ForEachLabelledAfter(
-    int64_t after_seq, const std::function<void(const LabelledScore&)>& fn) {
+    int64_t after_seq, const std::function<void(const LabelledScore&)>& fn,
+    int64_t upto_seq) {
   return ReadRowsAfter(
       options_.path, env_,
       // As the writer's lookup found them when the outcome came: the
@@ -156,10 +165,10 @@ absl::Status Ledger::ForEachLabelledAfter(
       " ss.id, ss.layout"
       " FROM outcomes o CROSS JOIN scores s ON s.record_id = o.record_id"
       " JOIN score_sets ss ON ss.id = s.set_id"
-      " WHERE o.seq > ?1"
+      " WHERE o.seq > ?1 AND o.seq <= ?2"
       " AND (s.primary_set IS NOT NULL OR ss.role = 'shadow')"
       " ORDER BY o.seq, s.id",
-      after_seq, [&](const SqliteStatement& s) {
+      after_seq, upto_seq, [&](const SqliteStatement& s) {
         fn(LabelledScore{s.ColumnText(0), s.ColumnText(1), s.ColumnText(2),
                          RoleColumn(s.ColumnText(3)), s.ColumnDouble(4),
                          s.ColumnDouble(5), static_cast<int>(s.ColumnInt64(6)),

@@ -17,8 +17,10 @@
 #include "absl/strings/str_cat.h"
 #include "daemon/health/monitor.h"
 #include "daemon/health/snapshot_store.h"
+#include "daemon/ledger/env.h"
 #include "daemon/ledger/ledger.h"
 #include "daemon/scoring/packed_row.h"
+#include "gmock/gmock.h"
 #include "google/protobuf/util/message_differencer.h"
 #include "gtest/gtest.h"
 #include "tests/testing/health_test_sets.h"
@@ -51,6 +53,7 @@ class HealthRestoreTest : public ::testing::Test {
     options_.windows.scored_count = 40;
     options_.windows.buckets = 4;
     options_.windows.time_span = absl::Hours(1);
+    options_.rebuild_in_background = false;  // but see the last test
   }
 
   std::unique_ptr<HealthMonitor> Make(HealthMonitorOptions options) {
@@ -202,6 +205,99 @@ TEST_F(HealthRestoreTest, ASnapshotThatDoesNotFitIsNotUsed) {
   // Rebuilt from the ledger: the one deleted score is missing.
   EXPECT_EQ(Figures(*after_delete).windows(1).scored(),
             want.windows(1).scored() - 1);
+}
+
+TEST_F(HealthRestoreTest, ABackgroundRebuildMissesNoRowAndCountsNoneTwice) {
+  Traffic(0, 150, now_ - absl::Minutes(55));  // before the start, no snapshot
+  HealthMonitorOptions background = options_;
+  background.rebuild_in_background = true;
+  std::unique_ptr<HealthMonitor> m = Make(background);
+  absl::StatusOr<RestoreReport> report = m->Restore(*ledger_, store_.get());
+  ASSERT_TRUE(report.ok()) << report.status();
+  EXPECT_EQ(report->background, 1);
+  EXPECT_EQ(report->rebuilt, 0);
+  ledger_->set_rows_observer(
+      [m = m.get()](const CommittedRows& rows) { m->OnCommitted(rows); });
+  // Rows while the rebuild may still run (the catch-up passes or the live
+  // feed take them, never both), and after it.
+  Traffic(150, 60, now_ - absl::Minutes(30));
+  m->WaitForRebuild();
+  EXPECT_FALSE(m->Rebuilding());
+  Traffic(210, 40, now_ - absl::Minutes(10));
+  ledger_->set_rows_observer(nullptr);
+  // A version rebuilt whole before serving reads every row of the span:
+  // the time window's counts and figures are the same.
+  std::unique_ptr<HealthMonitor> whole = Make(options_);
+  ASSERT_TRUE(whole->Restore(*ledger_, nullptr).ok());
+  const v1::SetHealth got = Figures(*m);
+  const v1::SetHealth want = Figures(*whole);
+  // Nothing was counted as unmonitored (the live feed passed the version
+  // by while it was rebuilt, it did not drop rows).
+  EXPECT_TRUE(m->Unmonitored().empty());
+  EXPECT_GT(got.windows(1).scored(), 150);
+  EXPECT_EQ(got.windows(1).scored(), want.windows(1).scored());
+  EXPECT_EQ(got.windows(1).labelled(), want.windows(1).labelled());
+  // Sums in another order: equal to rounding (compensated sums).
+  EXPECT_NEAR(got.windows(1).log_loss().value(),
+              want.windows(1).log_loss().value(), 1e-12);
+  for (const std::string& note : got.notes()) {
+    EXPECT_EQ(note.find("incomplete"), std::string::npos) << note;
+  }
+}
+
+// Holds every read of the ledger file while `hold` is set (a slow disk).
+class HeldReads : public LedgerEnv {
+ public:
+  int Before(Op op, absl::string_view, int64_t, int64_t) override {
+    if (op != Op::kRead) return 0;
+    absl::MutexLock lock(&mu_);
+    mu_.Await(absl::Condition(
+        +[](bool* held) { return !*held; }, &hold_));
+    return 0;
+  }
+  void Hold(bool hold) {
+    absl::MutexLock lock(&mu_);
+    hold_ = hold;
+  }
+
+ private:
+  absl::Mutex mu_;
+  bool hold_ ABSL_GUARDED_BY(mu_) = false;
+};
+
+TEST_F(HealthRestoreTest,
+       WhileRebuildingTheFiguresSayIncompleteAndAreNotSaved) {
+  Traffic(0, 50, now_ - absl::Minutes(30));
+  ledger_.reset();
+  HeldReads env;
+  LedgerOptions options;
+  options.path = path_;
+  options.env = &env;
+  auto ledger = Ledger::Open(options);
+  ASSERT_TRUE(ledger.ok()) << ledger.status();
+  ledger_ = *std::move(ledger);
+  HealthMonitorOptions background = options_;
+  background.rebuild_in_background = true;
+  std::unique_ptr<HealthMonitor> m = Make(background);
+  env.Hold(true);  // the rebuild's first read waits
+  absl::StatusOr<RestoreReport> report = m->Restore(*ledger_, nullptr);
+  ASSERT_TRUE(report.ok()) << report.status();
+  EXPECT_EQ(report->background, 1);
+  EXPECT_TRUE(m->Rebuilding());
+  const v1::SetHealth during = Figures(*m);
+  EXPECT_THAT(during.notes(),
+              ::testing::Contains(::testing::HasSubstr("windows incomplete")));
+  EXPECT_EQ(during.state(), v1::STEADY);  // not judged
+  EXPECT_TRUE(m->Snapshots().empty());    // not whole: not saved
+  env.Hold(false);
+  m->WaitForRebuild();
+  EXPECT_FALSE(m->Rebuilding());
+  const v1::SetHealth after = Figures(*m);
+  EXPECT_THAT(after.notes(), ::testing::Not(::testing::Contains(
+                                 ::testing::HasSubstr("windows incomplete"))));
+  EXPECT_EQ(after.windows(1).scored(), 50);
+  EXPECT_EQ(m->Snapshots().size(), 1u);
+  ledger_.reset();  // before `env`
 }
 
 TEST_F(HealthRestoreTest, NoSnapshotsBeforeTheMarksAreKnown) {
