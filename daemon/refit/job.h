@@ -105,9 +105,9 @@ struct RefitTrigger {
   // The set's last evaluation when the job was queued (its dossier's drift
   // evidence); the worker fills it.
   std::optional<v1::SetHealth> evidence;
-  // Drift jobs: when the change began (the first evaluation that saw the
-  // active version leave `steady`); the worker fills it. Unset: the job
-  // takes the most recent window.
+  // Drift jobs: when the change began (the last evaluation that found the
+  // active version `steady` before one did not); the worker fills it.
+  // Unset: the job takes the most recent window.
   std::optional<absl::Time> drift_onset = std::nullopt;
 };
 
