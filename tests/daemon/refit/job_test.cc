@@ -22,6 +22,7 @@
 #include "daemon/ledger/ledger.h"
 #include "daemon/registry/lifecycle.h"
 #include "daemon/registry/version_store.h"
+#include "daemon/review/dossier_html.h"
 #include "daemon/scoring/packed_row.h"
 #include "daemon/scoring/set_registry.h"
 #include "google/protobuf/util/message_differencer.h"
@@ -165,6 +166,15 @@ TEST_F(RefitJobTest, BaseRateShiftEndsAtRungOneChangingOnlyTheIntercept) {
                                 absl::StrContains(r.detail, "chose rung 1"));
   }
   EXPECT_TRUE(ladder_row);
+  // The dossier draws the ladder and says the holdout was out of time.
+  v1::Dossier dossier;
+  *dossier.mutable_ladder() = *outcome.ladder;
+  dossier.set_holdout_split("out_of_time");
+  const std::string html = RenderDossier(dossier, DriftPolicy());
+  EXPECT_TRUE(absl::StrContains(html, "id=\"ladder\"")) << html;
+  EXPECT_TRUE(absl::StrContains(html, "data-rung=\"3\"")) << html;
+  EXPECT_TRUE(absl::StrContains(html, "Chose rung 1:")) << html;
+  EXPECT_TRUE(absl::StrContains(html, "The holdout is out of time")) << html;
 }
 
 TEST_F(RefitJobTest, DriftJobsTrainOnTheRecordsSinceTheOnset) {

@@ -301,6 +301,16 @@ TEST_F(LifecycleTest, DriftRefitApproveSteadyRollbackAudit) {
   ProcessResult refit = Plumbctl({"refit", "--set", kSet, "--reason", "test"});
   ASSERT_EQ(refit.exit_code, 0) << refit.err;
   ASSERT_TRUE(absl::StrContains(refit.out, "refit proposed")) << refit.out;
+  // plumbctl refit prints the ladder: a row per rung, the closed test, the
+  // rung chosen; the comparison used the out-of-time holdout.
+  for (const char* part :
+       {"updating ladder on 2800 training records", "intercept recalibration",
+        "logistic recalibration", "ridge toward the active coefficients",
+        "full re-estimation", "rung 4 vs active", "chose rung ",
+        "out of time: the latest 1200 by score time"}) {
+    EXPECT_TRUE(absl::StrContains(refit.out, part)) << part << "\n"
+                                                    << refit.out;
+  }
   std::string candidate;
   std::string comparison;
   for (const v1::VersionInfo& v : Versions()) {
