@@ -152,9 +152,9 @@ TEST(LadderReferenceTest, CrossValidatedPenaltyMatchesScipyFolds) {
     for (size_t k = 0; k < grid.size(); ++k) {
       // Grid n * 10^(k/2) as numpy computes it: 1e-12 relative.
       EXPECT_NEAR(choice->grid[k], grid[k], 1e-12 * grid[k]);
-      // Held-out ll summed over 5 folds, each fit to its optimum: 1e-9
-      // relative.
-      ExpectRelNear(choice->cv_log_likelihood[k], cv[k], 1e-9, "cv ll");
+      // Held-out ll summed over 5 folds, each fit to its optimum by a
+      // different optimiser (observed 4e-10 relative): 1e-8 relative.
+      ExpectRelNear(choice->cv_log_likelihood[k], cv[k], 1e-8, "cv ll");
     }
     EXPECT_EQ(choice->lambda, Number(c.ref, "cv_lambda"));
   }
