@@ -13,6 +13,7 @@
 #include "absl/strings/str_cat.h"
 #include "absl/time/time.h"
 #include "daemon/cli/client.h"
+#include "daemon/cli/output.h"
 #include "daemon/util/text_table.h"
 #include "google/protobuf/util/time_util.h"
 #include "plumbline/v1/registry.grpc.pb.h"
@@ -20,6 +21,46 @@
 
 namespace plumbline::daemon {
 namespace {
+
+// The updating ladder of a refit job: one row per rung (its fit on the
+// training part and its likelihood-ratio test against the active version),
+// the closed test's steps and the rung chosen.
+void PrintLadder(const v1::RefitLadder& ladder, std::ostream& out) {
+  out << "updating ladder on " << ladder.training_records()
+      << " training records (closed testing, alpha "
+      << FormatNumber(ladder.alpha()) << ")\n";
+  std::vector<std::vector<std::string>> rows = {
+      {"rung", "update", "log-likelihood", "df", "LR vs active", "p-value",
+       "note"},
+      {"0", "the active version", FormatNumber(ladder.active_log_likelihood()),
+       "0", "", "", ""}};
+  for (const v1::RefitLadder::Rung& r : ladder.rungs()) {
+    if (!r.fitted()) {
+      rows.push_back({absl::StrCat(r.rung()), r.name(), "not fitted", "", "",
+                      "", r.note()});
+      continue;
+    }
+    rows.push_back({absl::StrCat(r.rung()), r.name(),
+                    FormatNumber(r.log_likelihood()), FormatNumber(r.df()),
+                    FormatNumber(r.lr_statistic()), FormatNumber(r.p_value()),
+                    r.note()});
+  }
+  out << FormatTable(rows, "  ");
+  std::vector<std::vector<std::string>> steps = {
+      {"closed test", "LR", "df", "p-value", "at alpha"}};
+  for (const v1::RefitLadder::Step& s : ladder.steps()) {
+    steps.push_back(
+        {absl::StrCat("rung ", s.rung(), " vs ",
+                      s.against() == 0 ? std::string("active")
+                                       : absl::StrCat("rung ", s.against())),
+         FormatNumber(s.lr_statistic()), FormatNumber(s.df()),
+         FormatNumber(s.p_value()),
+         s.significant() ? "significant" : "not significant"});
+  }
+  out << FormatTable(steps, "  ");
+  out << "chose rung " << ladder.chosen() << ": " << ladder.reason() << "\n";
+  if (!ladder.window().empty()) out << "data: " << ladder.window() << "\n";
+}
 
 using google::protobuf::util::TimeUtil;
 
@@ -177,6 +218,7 @@ absl::Status RunRegistryCommand(const ClientOptions& client,
       out << "refit: no candidate\n";
     }
     out << "  " << reply.summary() << "\n";
+    if (reply.has_ladder()) PrintLadder(reply.ladder(), out);
     return absl::OkStatus();
   }
   if (name == "load") {

@@ -145,11 +145,18 @@ void AppendRegistryCommands(std::vector<CommandSpec>* table) {
        .summary = "re-estimate a set now from the ledger's labelled records",
        .description =
            std::string(
-               "Re-estimates the set now from the labelled records of "
-               "plumbd's ledger, compares it with the active version on "
-               "held-out records and, if it wins by the refit policy's "
-               "margin, stores it as a candidate (refit mode propose) or "
-               "promotes it (mode auto). Prints the fit and the comparison. "
+               "Re-estimates the set now from the most recent labelled "
+               "records of plumbd's ledger along the updating ladder "
+               "(intercept recalibration, logistic recalibration, ridge "
+               "toward the active coefficients, full re-estimation; "
+               "likelihood-ratio tests choose the rung), compares the "
+               "chosen candidate with the active version on the latest "
+               "records (the out-of-time holdout) and, if it wins by the "
+               "refit policy's margin, stores it as a candidate (refit mode "
+               "propose) or promotes it (mode auto). Prints the fit, the "
+               "comparison and the ladder: every rung's log-likelihood, "
+               "df, likelihood-ratio statistic and p-value, the closed "
+               "test and the rung chosen. "
                "Waits up to 10 minutes (or --timeout_ms if longer).") +
            kAdminNote,
        .declare = Declare("refit", {})});

@@ -14,6 +14,8 @@
 #include "absl/strings/numbers.h"
 #include "absl/strings/str_cat.h"
 #include "absl/strings/str_format.h"
+#include "absl/strings/str_join.h"
+#include "daemon/registry/compatibility.h"
 #include "daemon/review/dossier_data.h"
 #include "daemon/review/dossier_html.h"
 #include "daemon/review/version_view.h"
@@ -21,9 +23,12 @@
 #include "daemon/util/event_log.h"
 #include "daemon/util/time.h"
 #include "monitor/paired_comparison.h"
+#include "monitor/updating_ladder.h"
+#include "scorer/coefficient_set.h"
 #include "scorer/design_matrix.h"
 #include "scorer/design_set.h"
 #include "scorer/fit.h"
+#include "scorer/logistic.h"
 
 namespace plumbline::daemon {
 namespace {
@@ -31,29 +36,54 @@ namespace {
 // Audit actor and created_by of a job: "refit job N (kind[, actor])".
 constexpr char kJobActorPrefix[] = "refit job ";
 
-// The labelled records a job works on. Text values view into `arena`.
+// One labelled record as the job reads it. Text values view into the
+// arena of RefitRows.
+struct LabelledRecord {
+  std::string record_id;
+  std::vector<scorer::RawValue> values;
+  int label = 0;
+  absl::Time scored_at;
+  absl::Time observed_at;
+};
+
+// The labelled records a job works on, and how they were chosen.
 struct RefitRows {
   std::deque<std::string> arena;
   std::vector<std::vector<scorer::RawValue>> train, holdout;
   std::vector<int> train_labels, holdout_labels;
   int64_t unusable = 0;  // rows whose stored features the set cannot read
+  int64_t read = 0;      // usable labelled records read from the ledger
   absl::Time first_observed = absl::InfiniteFuture();
   absl::Time last_observed = absl::InfinitePast();
+  // Score times of the fitted and the held-out records.
+  absl::Time train_from = absl::InfiniteFuture(),
+             train_to = absl::InfinitePast();
+  absl::Time holdout_from = absl::InfiniteFuture(),
+             holdout_to = absl::InfinitePast();
+  // How the records were chosen and split, for people.
+  std::string selection;
+  std::string split;
 };
 
+std::string Utc(absl::Time t) {
+  return absl::FormatTime("%Y-%m-%dT%H:%M:%SZ", t, absl::UTCTimeZone());
+}
+
+// Step 1 and 2 of job.h: reads, chooses by time and count, splits.
 absl::Status LoadRows(Ledger& ledger, const scorer::ScoringPlan& plan,
-                      const RefitSettings& settings, RefitRows& rows) {
+                      const RefitSettings& settings,
+                      const RefitTrigger& trigger, RefitRows& rows) {
   absl::flat_hash_set<std::string> seen;
-  int64_t taken = 0;
   StoredFeatureReader reader;
   std::vector<scorer::RawValue> values;
-  // Shadow scores share record ids with active ones: ask for more rows than
-  // needed and keep the active role's.
-  return ledger.ForEachLabelled(
+  std::vector<LabelledRecord> all;
+  // Shadow scores share record ids with active ones, and the ledger hands
+  // rows out by outcome time: ask for more rows than needed, keep the
+  // active role's, then rank them by score time.
+  absl::Status read = ledger.ForEachLabelled(
       plan.name(), settings.window_labelled * 4, absl::InfinitePast(),
       [&](const LabelledScore& l) {
-        if (taken >= settings.window_labelled || l.role != ScoreRole::kActive ||
-            !seen.insert(l.record_id).second) {
+        if (l.role != ScoreRole::kActive || !seen.insert(l.record_id).second) {
           return;
         }
         if (!reader.Read(plan, l.layout.get(), l.features, &values).ok()) {
@@ -65,17 +95,86 @@ absl::Status LoadRows(Ledger& ledger, const scorer::ScoringPlan& plan,
             v.text = rows.arena.emplace_back(v.text);
           }
         }
-        ++taken;
-        rows.first_observed = std::min(rows.first_observed, l.observed_at);
-        rows.last_observed = std::max(rows.last_observed, l.observed_at);
-        if (InHoldout(l.record_id, settings.holdout_fraction)) {
-          rows.holdout.push_back(values);
-          rows.holdout_labels.push_back(l.label);
-        } else {
-          rows.train.push_back(values);
-          rows.train_labels.push_back(l.label);
-        }
+        all.push_back(
+            {l.record_id, values, l.label, l.scored_at, l.observed_at});
       });
+  if (!read.ok()) return read;
+  rows.read = static_cast<int64_t>(all.size());
+  // Oldest first by score time; equal times by record id (bytes), an order
+  // a reader of the ledger can repeat (tests/daemon/refit/lifecycle_check.py).
+  std::sort(all.begin(), all.end(),
+            [](const LabelledRecord& a, const LabelledRecord& b) {
+              return a.scored_at != b.scored_at ? a.scored_at < b.scored_at
+                                                : a.record_id < b.record_id;
+            });
+  const int64_t total = static_cast<int64_t>(all.size());
+  int64_t take = std::min(total, settings.window_labelled);
+  if (settings.training_window == v1::RefitPolicy::SINCE_DRIFT_ONSET &&
+      trigger.drift_onset.has_value()) {
+    const absl::Time onset = *trigger.drift_onset;
+    const int64_t since = static_cast<int64_t>(
+        all.end() - std::lower_bound(all.begin(), all.end(), onset,
+                                     [](const LabelledRecord& r, absl::Time t) {
+                                       return r.scored_at < t;
+                                     }));
+    if (since >= settings.min_labelled) {
+      take = std::min(since, settings.window_labelled);
+      rows.selection = absl::StrCat(
+          "since the drift onset ", Utc(onset), ": ", since,
+          " labelled records scored since",
+          since > take ? absl::StrCat(", the most recent ", take,
+                                      " taken (refit.window_labelled)")
+                       : std::string(),
+          " (of ", total, " read)");
+    } else {
+      take = std::min(total, settings.min_labelled);
+      rows.selection = absl::StrCat(
+          "since the drift onset ", Utc(onset), ": only ", since,
+          " labelled records scored since, fewer than refit.min_labelled ",
+          settings.min_labelled, ", so extended back to the ", take,
+          " most recent (", take - since, " from before the onset; of ", total,
+          " read)");
+    }
+  } else {
+    rows.selection = absl::StrCat(
+        "the most recent ", take, " labelled records by score time",
+        take < total ? absl::StrCat(" (of ", total, " read)") : std::string(),
+        trigger.kind == RefitTriggerKind::kDrift &&
+                settings.training_window == v1::RefitPolicy::SINCE_DRIFT_ONSET
+            ? " (no drift onset was recorded)"
+            : "");
+  }
+  const int64_t first = total - take;
+  int64_t holdout_from_index = total;  // OUT_OF_TIME: [this, total)
+  if (settings.holdout == v1::RefitPolicy::OUT_OF_TIME) {
+    const int64_t k = static_cast<int64_t>(std::floor(
+        static_cast<double>(take) * settings.holdout_fraction + 0.5));
+    holdout_from_index = total - k;
+    rows.split =
+        absl::StrCat("out of time: the latest ", k, " by score time held out");
+  } else {
+    rows.split = "random by record id (FNV-1a 64 + fmix64)";
+  }
+  for (int64_t i = first; i < total; ++i) {
+    LabelledRecord& r = all[static_cast<size_t>(i)];
+    rows.first_observed = std::min(rows.first_observed, r.observed_at);
+    rows.last_observed = std::max(rows.last_observed, r.observed_at);
+    const bool held = settings.holdout == v1::RefitPolicy::OUT_OF_TIME
+                          ? i >= holdout_from_index
+                          : InHoldout(r.record_id, settings.holdout_fraction);
+    if (held) {
+      rows.holdout.push_back(std::move(r.values));
+      rows.holdout_labels.push_back(r.label);
+      rows.holdout_from = std::min(rows.holdout_from, r.scored_at);
+      rows.holdout_to = std::max(rows.holdout_to, r.scored_at);
+    } else {
+      rows.train.push_back(std::move(r.values));
+      rows.train_labels.push_back(r.label);
+      rows.train_from = std::min(rows.train_from, r.scored_at);
+      rows.train_to = std::max(rows.train_to, r.scored_at);
+    }
+  }
+  return absl::OkStatus();
 }
 
 // The active version's features, to be learned again from new data.
@@ -130,16 +229,191 @@ std::vector<double> ScoreAll(
 
 std::string Window(const RefitRows& rows) {
   return absl::StrCat(
-      rows.train.size() + rows.holdout.size(), " labelled records observed ",
-      absl::FormatTime("%Y-%m-%dT%H:%M:%SZ", rows.first_observed,
-                       absl::UTCTimeZone()),
-      " to ",
-      absl::FormatTime("%Y-%m-%dT%H:%M:%SZ", rows.last_observed,
-                       absl::UTCTimeZone()),
-      " (", rows.train.size(), " fit, ", rows.holdout.size(), " held out",
-      rows.unusable > 0 ? absl::StrCat(", ", rows.unusable, " unreadable")
-                        : std::string(),
-      ")");
+      rows.train.size() + rows.holdout.size(), " labelled records, ",
+      rows.selection, "; observed ", Utc(rows.first_observed), " to ",
+      Utc(rows.last_observed), "; ", rows.train.size(), " fit (scored ",
+      Utc(rows.train_from), " to ", Utc(rows.train_to), "), ",
+      rows.holdout.size(), " held out (", rows.split, "; scored ",
+      Utc(rows.holdout_from), " to ", Utc(rows.holdout_to), ")",
+      rows.unusable > 0 ? absl::StrCat("; ", rows.unusable, " unreadable")
+                        : std::string());
+}
+
+// The ladder as one line of text: the audit row, the summary.
+std::string LadderText(const v1::RefitLadder& ladder) {
+  std::string out = absl::StrFormat(
+      "updating ladder on %d training records (closed testing, alpha %g): "
+      "active ll %.6f",
+      ladder.training_records(), ladder.alpha(),
+      ladder.active_log_likelihood());
+  for (const v1::RefitLadder::Rung& r : ladder.rungs()) {
+    if (!r.fitted()) {
+      absl::StrAppend(&out, "; rung ", r.rung(), " ", r.name(),
+                      ": not fitted (", r.note(), ")");
+      continue;
+    }
+    absl::StrAppend(
+        &out, absl::StrFormat("; rung %d %s: ll %.6f, df %g, LR %.4f, p %.4g",
+                              r.rung(), r.name(), r.log_likelihood(), r.df(),
+                              r.lr_statistic(), r.p_value()));
+    if (r.rung() == 3 && !r.note().empty()) {
+      absl::StrAppend(&out, " (", r.note(), ")");
+    }
+  }
+  for (const v1::RefitLadder::Step& s : ladder.steps()) {
+    absl::StrAppend(
+        &out, absl::StrFormat(
+                  "; test rung %d vs %s: LR %.4f, df %g, p %.4g%s", s.rung(),
+                  s.against() == 0 ? std::string("active")
+                                   : absl::StrCat("rung ", s.against()),
+                  s.lr_statistic(), s.df(), s.p_value(),
+                  s.significant() ? " (significant)" : ""));
+  }
+  absl::StrAppend(&out, "; chose rung ", ladder.chosen(), ": ",
+                  ladder.reason());
+  return out;
+}
+
+// A rung 1-3 update of the active set: its transforms kept, coefficients
+// changed as the rung says.
+struct UpdatedSet {
+  int rung = 0;
+  double intercept_shift = 0;                        // rungs 1, 2
+  double slope = 1;                                  // rung 2
+  const monitor::RidgeTowardPrior* ridge = nullptr;  // rung 3
+  std::string method;
+};
+
+// Writes `beta` (the serving encoding's order: each feature's transform
+// columns, then its missing indicator; scorer/scoring_plan.h) into `set`.
+void SetEncodedCoefficients(const Eigen::VectorXd& beta,
+                            v1::CoefficientSet& set) {
+  Eigen::Index j = 0;
+  for (v1::Feature& f : *set.mutable_features()) {
+    switch (f.transform_case()) {
+      case v1::Feature::kNumeric:
+        f.mutable_numeric()->set_coefficient(beta[j++]);
+        break;
+      case v1::Feature::kCategorical:
+        for (auto& level : *f.mutable_categorical()->mutable_levels()) {
+          level.set_coefficient(beta[j++]);
+        }
+        break;
+      case v1::Feature::kBinned:
+        for (double& c : *f.mutable_binned()->mutable_coefficients()) {
+          c = beta[j++];
+        }
+        break;
+      case v1::Feature::TRANSFORM_NOT_SET:
+        break;
+    }
+    if (f.missing().kind() == v1::MissingRule::INDICATOR) {
+      f.mutable_missing()->set_indicator_coefficient(beta[j++]);
+    }
+  }
+}
+
+// Every coefficient of `set` times `slope` (rung 2).
+void ScaleCoefficients(double slope, v1::CoefficientSet& set) {
+  for (v1::Feature& f : *set.mutable_features()) {
+    switch (f.transform_case()) {
+      case v1::Feature::kNumeric:
+        f.mutable_numeric()->set_coefficient(slope * f.numeric().coefficient());
+        break;
+      case v1::Feature::kCategorical:
+        for (auto& level : *f.mutable_categorical()->mutable_levels()) {
+          level.set_coefficient(slope * level.coefficient());
+        }
+        break;
+      case v1::Feature::kBinned:
+        for (double& c : *f.mutable_binned()->mutable_coefficients()) {
+          c *= slope;
+        }
+        break;
+      case v1::Feature::TRANSFORM_NOT_SET:
+        break;
+    }
+    if (f.missing().kind() == v1::MissingRule::INDICATOR) {
+      f.mutable_missing()->set_indicator_coefficient(
+          slope * f.missing().indicator_coefficient());
+    }
+  }
+}
+
+// The candidate of rungs 1-3: the active set with new coefficients (rung 1:
+// only the intercept changes, every other number stays bit for bit), fresh
+// baselines (features: those `layout` learned from the training part, when
+// it could; score: deciles of the new fitted probabilities) and provenance.
+absl::StatusOr<v1::CoefficientSet> UpdateActiveSet(
+    const scorer::ScoringPlan& active, const UpdatedSet& update,
+    const scorer::DesignLayout* layout, const monitor::LadderMatrix& x,
+    const std::vector<int>& labels, const std::vector<double>& active_z,
+    const scorer::SetDescription& description) {
+  v1::CoefficientSet set = active.set();
+  set.set_name(description.name);
+  set.set_version(description.version);
+  set.set_description(description.description);
+  std::vector<double> z(active_z.size());
+  if (update.rung == 1) {
+    set.set_intercept(active.intercept() + update.intercept_shift);
+    for (size_t i = 0; i < z.size(); ++i) {
+      z[i] = update.intercept_shift + active_z[i];
+    }
+  } else if (update.rung == 2) {
+    set.set_intercept(update.intercept_shift +
+                      update.slope * active.intercept());
+    ScaleCoefficients(update.slope, set);
+    for (size_t i = 0; i < z.size(); ++i) {
+      z[i] = update.intercept_shift + update.slope * active_z[i];
+    }
+  } else {
+    set.set_intercept(update.ridge->intercept);
+    SetEncodedCoefficients(update.ridge->coefficients, set);
+    const Eigen::VectorXd fitted =
+        (x * update.ridge->coefficients).array() + update.ridge->intercept;
+    for (size_t i = 0; i < z.size(); ++i) {
+      z[i] = fitted[static_cast<Eigen::Index>(i)];
+    }
+  }
+  if (layout != nullptr) {
+    const v1::CoefficientSet& fresh = layout->skeleton();
+    for (int i = 0; i < set.features_size() && i < fresh.features_size(); ++i) {
+      if (fresh.features(i).name() == set.features(i).name()) {
+        *set.mutable_features(i)->mutable_baseline() =
+            fresh.features(i).baseline();
+      }
+    }
+  }
+  std::vector<double> probabilities(z.size());
+  double ll = 0;
+  for (size_t i = 0; i < z.size(); ++i) {
+    probabilities[i] = plumbline::Logistic(z[i]);
+    ll += labels[i] == 1 ? plumbline::LogLogistic(z[i])
+                         : plumbline::LogLogistic(-z[i]);
+  }
+  *set.mutable_score_baseline() =
+      scorer::QuantileDistribution(std::move(probabilities), 10, 0);
+  v1::Provenance* p = set.mutable_provenance();
+  *p->mutable_created_at() = ToTimestamp(description.created_at);
+  p->set_created_by(description.created_by);
+  p->set_method(update.method);
+  p->set_training_data(description.training_data);
+  p->set_training_rows(static_cast<int64_t>(z.size()));
+  p->set_training_log_likelihood(ll);
+  p->set_training_log_loss(-ll / static_cast<double>(z.size()));
+  p->set_notes(absl::StrCat(
+      "Rung ", update.rung,
+      " of the updating ladder: transforms and levels "
+      "of version ",
+      active.version(), " kept",
+      layout == nullptr ? "; feature baselines kept from it (the training "
+                          "part's could not be learned)"
+                        : "; feature baselines from the training part"));
+  if (absl::Status s = scorer::ValidateCoefficientSet(set, "updated set");
+      !s.ok()) {
+    return s;
+  }
+  return set;
 }
 
 }  // namespace
@@ -169,6 +443,24 @@ absl::StatusOr<RefitSettings> RefitSettingsFrom(const v1::RefitPolicy& p) {
   if (p.margin() != 0) s.margin = p.margin();
   s.l2 = p.l2();
   s.min_new_labelled = p.min_new_labelled();
+  s.holdout = p.holdout();
+  s.training_window = p.training_window();
+  if (p.ladder_alpha() != 0) s.ladder_alpha = p.ladder_alpha();
+  if (!v1::RefitPolicy::Holdout_IsValid(s.holdout)) {
+    return absl::InvalidArgumentError(
+        absl::StrCat("refit.holdout: ", static_cast<int>(s.holdout),
+                     " is not OUT_OF_TIME or RANDOM_BY_ID"));
+  }
+  if (!v1::RefitPolicy::TrainingWindow_IsValid(s.training_window)) {
+    return absl::InvalidArgumentError(absl::StrCat(
+        "refit.training_window: ", static_cast<int>(s.training_window),
+        " is not SINCE_DRIFT_ONSET or MOST_RECENT"));
+  }
+  if (!(s.ladder_alpha > 0 && s.ladder_alpha < 1)) {
+    return absl::InvalidArgumentError(
+        absl::StrCat("refit.ladder_alpha: ", s.ladder_alpha,
+                     " is not between 0 and 1 (exclusive)"));
+  }
   if (!(s.holdout_fraction > 0 && s.holdout_fraction < 1)) {
     return absl::InvalidArgumentError(
         absl::StrCat("refit.holdout_fraction: ", s.holdout_fraction,
@@ -337,7 +629,8 @@ RefitOutcome RefitRunner::Run(const RefitTrigger& trigger, int64_t job_id) {
   }
 
   RefitRows rows;
-  if (absl::Status s = LoadRows(*ledger_, *active, settings_, rows); !s.ok()) {
+  if (absl::Status s = LoadRows(*ledger_, *active, settings_, trigger, rows);
+      !s.ok()) {
     return fail(absl::StrCat("reading the ledger: ", s.message()));
   }
   const int64_t labelled =
@@ -364,31 +657,202 @@ RefitOutcome RefitRunner::Run(const RefitTrigger& trigger, int64_t job_id) {
                              " to compare: adjust refit.holdout_fraction"));
   }
   const std::string window = Window(rows);
+  dossier.set_holdout_split(settings_.holdout == v1::RefitPolicy::OUT_OF_TIME
+                                ? "out_of_time"
+                                : "random_by_id");
 
+  // The ladder's rungs are compared on the same records: those of the
+  // training part the active version can encode and score.
+  const int width = active->encoded_width();
+  std::vector<std::vector<scorer::RawValue>> train;
+  std::vector<int> train_labels;
+  std::vector<double> active_z;
+  std::vector<Eigen::RowVectorXd> encoded;
+  Eigen::RowVectorXd row(width);
+  for (size_t i = 0; i < rows.train.size(); ++i) {
+    row.setZero();
+    absl::StatusOr<scorer::ScoreResult> r = active->Score(rows.train[i], {});
+    if (!r.ok() || !active->Encode(rows.train[i], row).ok()) continue;
+    train.push_back(rows.train[i]);
+    train_labels.push_back(rows.train_labels[i]);
+    active_z.push_back(r->log_odds);
+    encoded.push_back(row);
+  }
+  const int64_t unscorable =
+      static_cast<int64_t>(rows.train.size() - train.size());
+  if (train.size() < 2) {
+    return fail(absl::StrCat("the active version scores only ", train.size(),
+                             " of the ", rows.train.size(),
+                             " training records; data: ", window));
+  }
+  v1::RefitLadder ladder;
+  ladder.set_training_records(static_cast<int64_t>(train.size()));
+  ladder.set_alpha(settings_.ladder_alpha);
+  ladder.set_window(window);
+  absl::StatusOr<double> active_ll =
+      monitor::LogisticLogLikelihood(active_z, train_labels);
+  if (!active_ll.ok()) {
+    return fail(absl::StrCat("the active version's log-likelihood: ",
+                             active_ll.status().message()));
+  }
+  ladder.set_active_log_likelihood(*active_ll);
+  std::vector<monitor::RungFit> fits(4);
+  std::vector<std::string> notes(4);
+  // Rungs 1 and 2.
+  absl::StatusOr<monitor::RecalibrationFit> rung1 =
+      monitor::FitInterceptRecalibration(active_z, train_labels);
+  absl::StatusOr<monitor::RecalibrationFit> rung2 =
+      monitor::FitLogisticRecalibration(active_z, train_labels);
+  if (rung1.ok()) {
+    fits[0] = {true, rung1->log_likelihood, 1};
+  } else {
+    notes[0] = std::string(rung1.status().message());
+  }
+  if (rung2.ok()) {
+    fits[1] = {true, rung2->log_likelihood, 2};
+  } else {
+    notes[1] = std::string(rung2.status().message());
+  }
+  // Rung 4: transforms learned again (as every refit did before issue 20).
   absl::StatusOr<scorer::DesignLayout> layout =
-      scorer::DesignLayout::Learn(SpecsFrom(active->set()), rows.train);
+      scorer::DesignLayout::Learn(SpecsFrom(active->set()), train);
+  std::optional<scorer::FitResult> full;
+  // A rung 4 whose re-learned transforms would refuse or re-read calls the
+  // active version takes (a level absent from the window, ...) is no
+  // drop-in replacement: it is not fitted, and rung 3, which keeps the
+  // active transforms, can take its place.
+  const std::vector<std::string> changes =
+      layout.ok() ? SchemaChanges(active->set(), layout->skeleton())
+                  : std::vector<std::string>();
   if (!layout.ok()) {
-    return fail(absl::StrCat("learning the transforms: ",
-                             layout.status().message(), "; data: ", window));
+    notes[3] =
+        absl::StrCat("learning the transforms: ", layout.status().message());
+  } else if (!changes.empty()) {
+    notes[3] = absl::StrCat(
+        "the transforms learned from the training part would change what "
+        "callers may send: ",
+        absl::StrJoin(changes, "; "));
+  } else if (absl::StatusOr<scorer::RowMatrix> x = layout->Encode(train);
+             !x.ok()) {
+    notes[3] = absl::StrCat("encoding: ", x.status().message());
+  } else {
+    Eigen::VectorXd y(static_cast<Eigen::Index>(train_labels.size()));
+    for (size_t i = 0; i < train_labels.size(); ++i) {
+      y[static_cast<Eigen::Index>(i)] = train_labels[i];
+    }
+    scorer::FitOptions options;
+    options.l2_lambda = settings_.l2;
+    absl::StatusOr<scorer::FitResult> fit = scorer::FitLogistic(
+        *x, y, Eigen::VectorXd(), layout->column_names(), options);
+    if (!fit.ok()) {
+      notes[3] = absl::StrCat("fit refused: ", fit.status().message());
+    } else if (!fit->converged) {
+      notes[3] = absl::StrCat("fit did not converge: ", fit->stop_reason);
+    } else {
+      full = *std::move(fit);
+      fits[3] = {true, full->log_likelihood,
+                 static_cast<double>(layout->num_columns() + 1)};
+    }
   }
-  absl::StatusOr<scorer::RowMatrix> x = layout->Encode(rows.train);
-  if (!x.ok()) return fail(absl::StrCat("encoding: ", x.status().message()));
-  Eigen::VectorXd y(static_cast<Eigen::Index>(rows.train_labels.size()));
-  for (size_t i = 0; i < rows.train_labels.size(); ++i) {
-    y[static_cast<Eigen::Index>(i)] = rows.train_labels[i];
+  // Rung 3: the active encoding, penalised toward the active coefficients.
+  // Its df is p, the full re-estimate's parameters (by convention; the
+  // penalised fit's effective df is smaller).
+  const double params = layout.ok() ? layout->num_columns() + 1.0 : width + 1.0;
+  monitor::LadderMatrix xa(static_cast<Eigen::Index>(encoded.size()), width);
+  for (size_t i = 0; i < encoded.size(); ++i) {
+    xa.row(static_cast<Eigen::Index>(i)) = encoded[i];
   }
-  scorer::FitOptions options;
-  options.l2_lambda = settings_.l2;
-  absl::StatusOr<scorer::FitResult> fit = scorer::FitLogistic(
-      *x, y, Eigen::VectorXd(), layout->column_names(), options);
-  if (!fit.ok()) {
-    return fail(absl::StrCat("fit refused: ", fit.status().message(),
-                             "; data: ", window));
+  encoded.clear();
+  std::optional<monitor::RidgeTowardPrior> ridge;
+  constexpr int kRidgeFolds = 5;
+  if (static_cast<int64_t>(train.size()) < kRidgeFolds) {
+    notes[2] = "too few records for 5-fold cross-validation";
+  } else if (absl::StatusOr<monitor::PenaltyChoice> penalty =
+                 monitor::ChooseRidgePenalty(xa, train_labels,
+                                             active->intercept(),
+                                             active->beta(), kRidgeFolds);
+             !penalty.ok()) {
+    notes[2] =
+        absl::StrCat("choosing the penalty: ", penalty.status().message());
+  } else if (absl::StatusOr<monitor::RidgeTowardPrior> r =
+                 monitor::FitRidgeTowardPrior(xa, train_labels,
+                                              active->intercept(),
+                                              active->beta(), penalty->lambda);
+             !r.ok()) {
+    notes[2] = std::string(r.status().message());
+  } else {
+    ridge = *std::move(r);
+    fits[2] = {true, ridge->log_likelihood, params};
+    ladder.set_ridge_lambda(ridge->lambda);
+    ladder.set_ridge_folds(kRidgeFolds);
+    notes[2] = absl::StrFormat(
+        "lambda %.6g chosen from %d values by %d-fold cross-validated "
+        "log-likelihood",
+        ridge->lambda, penalty->grid.size(), kRidgeFolds);
   }
-  if (!fit->converged) {
-    return fail(absl::StrCat("fit did not converge: ", fit->stop_reason,
-                             "; data: ", window));
+  if (unscorable > 0) {
+    notes[0] = absl::StrCat(notes[0], notes[0].empty() ? "" : "; ", unscorable,
+                            " training records the active version cannot "
+                            "score left out of every rung");
   }
+  absl::StatusOr<monitor::LadderChoice> choice =
+      monitor::ChooseRung(*active_ll, fits, settings_.ladder_alpha);
+  if (!choice.ok()) {
+    return fail(absl::StrCat("the updating ladder: ", choice.status().message(),
+                             " (", notes[0].empty() ? notes[3] : notes[0],
+                             "); data: ", window));
+  }
+  for (int k = 1; k <= 4; ++k) {
+    v1::RefitLadder::Rung* r = ladder.add_rungs();
+    r->set_rung(k);
+    r->set_name(monitor::RungName(k));
+    r->set_fitted(fits[static_cast<size_t>(k - 1)].fitted);
+    r->set_note(notes[static_cast<size_t>(k - 1)]);
+    r->set_log_likelihood(fits[static_cast<size_t>(k - 1)].log_likelihood);
+    r->set_df(fits[static_cast<size_t>(k - 1)].df);
+    for (const monitor::LadderTest& t : choice->against_active) {
+      if (t.rung != k) continue;
+      r->set_lr_statistic(t.test.statistic);
+      r->set_p_value(t.test.p_value);
+    }
+  }
+  for (const monitor::LadderTest& t : choice->steps) {
+    v1::RefitLadder::Step* s = ladder.add_steps();
+    s->set_rung(t.rung);
+    s->set_against(t.against);
+    s->set_lr_statistic(t.test.statistic);
+    s->set_df(t.test.df);
+    s->set_p_value(t.test.p_value);
+    s->set_significant(t.significant);
+  }
+  ladder.set_decided_by(choice->decided_by);
+  ladder.set_chosen(choice->chosen);
+  ladder.set_reason(choice->reason);
+  const std::string ladder_detail = LadderText(ladder);
+  outcome.ladder = ladder;
+  *dossier.mutable_ladder() = ladder;
+  auto audit = [&](const std::string& version, const std::string& action,
+                   const std::string& detail) {
+    if (absl::Status s = lifecycle_->AppendAudit(
+            {kNoTime, trigger.set, version, action, actor, detail});
+        !s.ok()) {
+      LogEvent(LogLevel::kError, "audit_write_failed",
+               {{"set", trigger.set}, {"error", s.message()}});
+    }
+  };
+  LogEvent(LogLevel::kInfo, "refit_ladder",
+           {{"set", trigger.set},
+            {"job", absl::StrCat(job_id)},
+            {"chosen", absl::StrCat(choice->chosen)}});
+  if (choice->chosen == 0) {
+    outcome.result = RefitOutcome::Result::kNotBetter;
+    outcome.summary = absl::StrCat("closed testing keeps the active version ",
+                                   active_version, ": ", ladder_detail);
+    audit(active_version, "ladder", ladder_detail);
+    write_dossier();
+    return outcome;
+  }
+
   const absl::Time now = now_();
   const std::string version = absl::StrCat(
       "refit-", absl::FormatTime("%Y%m%dT%H%M%SZ", now, absl::UTCTimeZone()),
@@ -396,23 +860,58 @@ RefitOutcome RefitRunner::Run(const RefitTrigger& trigger, int64_t job_id) {
   scorer::SetDescription description;
   description.name = trigger.set;
   description.version = version;
-  description.description =
-      absl::StrCat("Refit of ", trigger.set, " version ", active_version,
-                   " from its ledger (", RefitTriggerName(trigger.kind), ")");
+  description.description = absl::StrCat(
+      "Refit of ", trigger.set, " version ", active_version,
+      " from its ledger (", RefitTriggerName(trigger.kind), "), rung ",
+      choice->chosen, ": ", monitor::RungName(choice->chosen));
   description.created_by = actor;
   description.training_data = absl::StrCat("plumbd ledger: ", window);
   description.created_at = now;
-  absl::StatusOr<v1::CoefficientSet> set =
-      scorer::CoefficientSetFromFit(*layout, *fit, description);
+  absl::StatusOr<v1::CoefficientSet> set;
+  std::string fit_detail;
+  if (choice->chosen == 4) {
+    set = scorer::CoefficientSetFromFit(*layout, *full, description);
+    fit_detail = absl::StrFormat(
+        "rung 4 (full re-estimation), data: %s; %d columns, %d iterations, "
+        "log-likelihood %.6f, null log-likelihood %.6f, AIC %.3f, McFadden "
+        "R2 %.4f%s",
+        window, layout->num_columns(), full->iterations, full->log_likelihood,
+        full->null_log_likelihood, full->aic, full->pseudo_r2,
+        settings_.l2 > 0 ? absl::StrCat(", L2 lambda ", settings_.l2) : "");
+  } else {
+    UpdatedSet update;
+    update.rung = choice->chosen;
+    if (choice->chosen == 1) {
+      update.intercept_shift = rung1->intercept;
+      update.method = absl::StrFormat(
+          "intercept recalibration of version %s (its log-odds as offset): "
+          "intercept + %.6g",
+          active_version, rung1->intercept);
+    } else if (choice->chosen == 2) {
+      update.intercept_shift = rung2->intercept;
+      update.slope = rung2->slope;
+      update.method = absl::StrFormat(
+          "logistic recalibration of version %s: %.6g + %.6g x its log-odds",
+          active_version, rung2->intercept, rung2->slope);
+    } else {
+      update.ridge = &*ridge;
+      update.method = absl::StrFormat(
+          "IRLS on version %s's transforms, ridge toward its coefficients, "
+          "lambda %.6g (%d-fold cross-validated log-likelihood)",
+          active_version, ridge->lambda, kRidgeFolds);
+    }
+    set = UpdateActiveSet(*active, update, layout.ok() ? &*layout : nullptr, xa,
+                          train_labels, active_z, description);
+    fit_detail = absl::StrFormat(
+        "rung %d (%s), data: %s; %s; log-likelihood %.6f (active %.6f)",
+        choice->chosen, monitor::RungName(choice->chosen), window,
+        update.method,
+        fits[static_cast<size_t>(choice->chosen - 1)].log_likelihood,
+        *active_ll);
+  }
   if (!set.ok()) {
     return fail(absl::StrCat("building the set: ", set.status().message()));
   }
-  const std::string fit_detail = absl::StrFormat(
-      "data: %s; %d columns, %d iterations, log-likelihood %.6f, null "
-      "log-likelihood %.6f, AIC %.3f, McFadden R2 %.4f%s",
-      window, layout->num_columns(), fit->iterations, fit->log_likelihood,
-      fit->null_log_likelihood, fit->aic, fit->pseudo_r2,
-      settings_.l2 > 0 ? absl::StrCat(", L2 lambda ", settings_.l2) : "");
 
   absl::StatusOr<PlanPtr> candidate =
       scorer::ScoringPlan::Compile(*set, "refit candidate");
@@ -421,14 +920,15 @@ RefitOutcome RefitRunner::Run(const RefitTrigger& trigger, int64_t job_id) {
                              candidate.status().message()));
   }
   std::vector<uint8_t> scored(rows.holdout.size(), 1);
-  const std::vector<double> active_z = ScoreAll(*active, rows.holdout, scored);
+  const std::vector<double> holdout_active_z =
+      ScoreAll(*active, rows.holdout, scored);
   const std::vector<double> candidate_z =
       ScoreAll(**candidate, rows.holdout, scored);
   std::vector<double> za, zc;
   std::vector<int> labels;
   for (size_t i = 0; i < scored.size(); ++i) {
     if (!scored[i]) continue;
-    za.push_back(active_z[i]);
+    za.push_back(holdout_active_z[i]);
     zc.push_back(candidate_z[i]);
     labels.push_back(rows.holdout_labels[i]);
   }
@@ -495,10 +995,11 @@ RefitOutcome RefitRunner::Run(const RefitTrigger& trigger, int64_t job_id) {
 
   if (!wins) {
     outcome.result = RefitOutcome::Result::kNotBetter;
-    outcome.summary =
-        absl::StrCat("fit ", version, ": ", fit_detail, ". ", comparison);
+    outcome.summary = absl::StrCat("fit ", version, ": ", fit_detail, ". ",
+                                   comparison, ". ", ladder_detail);
     for (const auto& [action, detail] :
-         {std::pair<std::string, std::string>{"fit", fit_detail},
+         {std::pair<std::string, std::string>{"ladder", ladder_detail},
+          {"fit", fit_detail},
           {"compared", comparison}}) {
       if (absl::Status s = lifecycle_->AppendAudit(
               {kNoTime, trigger.set, version, action, actor, detail});
@@ -520,7 +1021,8 @@ RefitOutcome RefitRunner::Run(const RefitTrigger& trigger, int64_t job_id) {
   candidate_version.created_by = actor;
   candidate_version.reason = trigger.reason;
   candidate_version.comparison = comparison;
-  candidate_version.audit = {{kNoTime, "", "", "fit", actor, fit_detail},
+  candidate_version.audit = {{kNoTime, "", "", "ladder", actor, ladder_detail},
+                             {kNoTime, "", "", "fit", actor, fit_detail},
                              {kNoTime, "", "", "compared", actor, comparison}};
   absl::StatusOr<VersionRecord> stored =
       lifecycle_->AddCandidate(std::move(candidate_version));
@@ -530,7 +1032,7 @@ RefitOutcome RefitRunner::Run(const RefitTrigger& trigger, int64_t job_id) {
   }
   outcome.candidate = *stored;
   outcome.result = RefitOutcome::Result::kProposed;
-  outcome.summary = absl::StrCat("fit: ", fit_detail);
+  outcome.summary = absl::StrCat("fit: ", fit_detail, ". ", ladder_detail);
   if (settings_.mode == v1::RefitPolicy::AUTO) {
     absl::StatusOr<VersionRecord> promoted =
         lifecycle_->Promote({trigger.set, version, actor,

@@ -1,19 +1,34 @@
 // File: daemon/refit/job.h
 //
-// One refit job: re-estimates a set by maximum likelihood from the labelled
-// records of its ledger and decides whether the result may replace the
-// active version.
+// One refit job: re-estimates a set from the labelled records of its
+// ledger along the updating ladder and decides whether the result may
+// replace the active version.
 //
-//   1. Data: the most recent `window_labelled` labelled records the active
-//      role of the set scored (any version), their features as received.
-//   2. Holdout: a record is held out when the FNV-1a hash of its id, mixed
-//      by MurmurHash3's 64-bit finalizer, as a fraction of 2^64, is below
-//      holdout_fraction: the same record always
-//      falls on the same side, in every job and on every machine.
-//   3. Fit: the active version's features with the same kinds and missing
-//      rules; transforms, levels (including levels the active version never
-//      saw) and bin edges are learned again from the training part; IRLS
-//      with the policy's L2 penalty (scorer/fit.h).
+//   1. Data (refit.training_window): the labelled records the active role
+//      of the set scored (any version), features as received, ranked by
+//      score time (ties by record id). A drift-started job under
+//      SINCE_DRIFT_ONSET (the default) takes those scored since the drift's
+//      onset (RefitTrigger::drift_onset), at most `window_labelled`; when
+//      fewer than `min_labelled` were scored since, it extends back to the
+//      `min_labelled` most recent and says so. Schedule and manual jobs (and
+//      every job under MOST_RECENT) take the most recent `window_labelled`.
+//      The choice and its counts go to the job's reason text, audit row and
+//      dossier.
+//   2. Holdout (refit.holdout): OUT_OF_TIME (the default) holds out the
+//      most recent round(holdout_fraction * n) records by score time;
+//      RANDOM_BY_ID holds out a record when the FNV-1a hash of its id,
+//      mixed by MurmurHash3's 64-bit finalizer, as a fraction of 2^64, is
+//      below holdout_fraction (the same record always on the same side).
+//   3. The updating ladder on the training part (monitor/updating_ladder.h):
+//      rung 1 intercept recalibration (the active log-odds as offset; the
+//      candidate differs from the active set only in its intercept), rung 2
+//      logistic recalibration (every coefficient scaled by the slope), rung
+//      3 ridge toward the active coefficients on the active transforms
+//      (penalty by 5-fold cross-validated log-likelihood), rung 4 full
+//      re-estimation with transforms, levels and bin edges learned again
+//      (IRLS with the policy's L2 penalty, scorer/fit.h). A closed testing
+//      procedure of likelihood-ratio tests at refit.ladder_alpha chooses the
+//      rung, or keeps the active version (no candidate).
 //   4. Comparison on the holdout: both versions score every held-out record
 //      through the serving code path; paired log-loss difference with a 95%
 //      interval (monitor/paired_comparison.h). The candidate wins when it
@@ -21,8 +36,8 @@
 //      upper end is below zero.
 //   5. A winner is stored as a CANDIDATE (mode PROPOSE) or promoted (AUTO);
 //      a loser or a failure (too few labels, separation, no convergence,
-//      ...) changes nothing. Every job writes its fit, comparison or failure
-//      to the audit table.
+//      ...) changes nothing. Every job writes its ladder, fit, comparison
+//      or failure to the audit table.
 //
 // Thread-safe: Run may be called from any thread, one job at a time per
 // runner (the refit worker, daemon/refit_worker.h, runs them one by one).
@@ -44,6 +59,7 @@
 #include "daemon/scoring/set_registry.h"
 #include "plumbline/v1/config.pb.h"
 #include "plumbline/v1/monitor.pb.h"
+#include "plumbline/v1/registry.pb.h"
 
 namespace plumbline::daemon {
 
@@ -58,13 +74,18 @@ struct RefitSettings {
   double margin = 0.001;
   double l2 = 0;
   int64_t min_new_labelled = 0;  // 0: a drift-started refit starts at once
+  v1::RefitPolicy::Holdout holdout = v1::RefitPolicy::OUT_OF_TIME;
+  v1::RefitPolicy::TrainingWindow training_window =
+      v1::RefitPolicy::SINCE_DRIFT_ONSET;
+  double ladder_alpha = 0.05;  // the closed test's level
 };
 
 // INVALID_ARGUMENT naming the field for a holdout_fraction outside (0, 1),
-// a negative margin or l2, or window_labelled below min_labelled.
+// a negative margin or l2, window_labelled below min_labelled, a
+// ladder_alpha outside (0, 1) or an unknown holdout / training_window.
 absl::StatusOr<RefitSettings> RefitSettingsFrom(const v1::RefitPolicy& policy);
 
-// The holdout rule of step 2.
+// The RANDOM_BY_ID holdout rule of step 2.
 bool InHoldout(absl::string_view record_id, double holdout_fraction);
 
 // What started a refit job.
@@ -84,6 +105,10 @@ struct RefitTrigger {
   // The set's last evaluation when the job was queued (its dossier's drift
   // evidence); the worker fills it.
   std::optional<v1::SetHealth> evidence;
+  // Drift jobs: when the change began (the last evaluation that found the
+  // active version `steady` before one did not); the worker fills it.
+  // Unset: the job takes the most recent window.
+  std::optional<absl::Time> drift_onset = std::nullopt;
 };
 
 struct RefitOutcome {
@@ -97,6 +122,8 @@ struct RefitOutcome {
   // (WriteDossiersTo).
   int64_t job = 0;
   std::string dossier_path;
+  // The updating ladder, once the job fitted it.
+  std::optional<v1::RefitLadder> ladder = std::nullopt;
 };
 
 // "promoted", "proposed", "not_better", "failed" (the metric's label).

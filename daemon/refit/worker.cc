@@ -13,6 +13,7 @@
 #include "absl/strings/str_cat.h"
 #include "absl/strings/str_join.h"
 #include "daemon/util/event_log.h"
+#include "daemon/util/time.h"
 
 namespace plumbline::daemon {
 namespace {
@@ -93,17 +94,36 @@ int RefitWorker::OnEvaluated(const std::vector<v1::SetHealth>& health,
     bool active = false;
     for (const SetVersion& a : active_versions) active = active || a == key;
     if (!active) continue;
-    // min_new_labelled counts from the first evaluation that finds the
-    // version drifting after the set's last job ended.
-    if (h.state() != v1::DRIFTING) {
+    // The onset: the change began after the last evaluation that found the
+    // version steady and by the first that found it out of `steady` (at
+    // least one tick later, when some of the new world's records are
+    // already scored); the onset is the earlier end, so that the window
+    // holds every record scored since the world was last seen steady.
+    // min_new_labelled counts from the first evaluation that finds it
+    // drifting after the set's last job ended.
+    const absl::Time evaluated =
+        h.has_evaluated_at()
+            ? FromTimestamp(h.evaluated_at(), "evaluated_at").value_or(now)
+            : now;
+    if (h.state() == v1::STEADY) {
       drift_marks_.erase(key);
-    } else if (settings.min_new_labelled > 0 &&
-               drift_marks_.try_emplace(key, h.labelled_since_start()).second) {
-      LogEvent(
-          LogLevel::kInfo, "refit_waits_for_labels",
-          {{"set", h.set()},
-           {"version", h.version()},
-           {"new_labelled_needed", absl::StrCat(settings.min_new_labelled)}});
+      last_steady_[key] = evaluated;
+    } else {
+      auto [mark, fresh_mark] = drift_marks_.try_emplace(key);
+      if (fresh_mark) {
+        auto steady = last_steady_.find(key);
+        mark->second.onset =
+            steady != last_steady_.end() ? steady->second : evaluated;
+      }
+      if (h.state() == v1::DRIFTING && settings.min_new_labelled > 0 &&
+          !mark->second.labelled.has_value()) {
+        mark->second.labelled = h.labelled_since_start();
+        LogEvent(
+            LogLevel::kInfo, "refit_waits_for_labels",
+            {{"set", h.set()},
+             {"version", h.version()},
+             {"new_labelled_needed", absl::StrCat(settings.min_new_labelled)}});
+      }
     }
     if (pending_.contains(h.set())) continue;
     if (h.state() != v1::DRIFTING &&
@@ -130,7 +150,8 @@ int RefitWorker::OnEvaluated(const std::vector<v1::SetHealth>& health,
     }
     int64_t fresh = 0;  // outcomes since the mark (min_new_labelled > 0)
     if (settings.min_new_labelled > 0) {
-      fresh = h.labelled_since_start() - drift_marks_[key];
+      fresh = h.labelled_since_start() -
+              drift_marks_[key].labelled.value_or(h.labelled_since_start());
       if (fresh < settings.min_new_labelled) continue;
     }
     std::vector<std::string> reasons;
@@ -143,7 +164,7 @@ int RefitWorker::OnEvaluated(const std::vector<v1::SetHealth>& health,
     }
     Enqueue({h.set(), RefitTriggerKind::kDrift, "",
              absl::StrCat("drifting: ", absl::StrJoin(reasons, "; ")),
-             std::nullopt});
+             std::nullopt, drift_marks_[key].onset});
     ++queued;
   }
   return queued;
@@ -199,13 +220,10 @@ void RefitWorker::Loop() {
     absl::MutexLock lock(&mu_);
     pending_.erase(job->trigger.set);
     last_ended_[job->trigger.set] = now_();
-    // A new drift-started job counts its labels from after this one.
-    for (auto it = drift_marks_.begin(); it != drift_marks_.end();) {
-      if (it->first.set == job->trigger.set) {
-        drift_marks_.erase(it++);
-      } else {
-        ++it;
-      }
+    // A new drift-started job counts its labels from after this one; the
+    // onset stays (the change began when it began).
+    for (auto& [key, mark] : drift_marks_) {
+      if (key.set == job->trigger.set) mark.labelled.reset();
     }
     ++finished_;
     job->outcome = std::move(outcome);

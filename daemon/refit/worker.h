@@ -9,6 +9,11 @@
 //     or (min_new_labelled > 0) fewer than min_new_labelled outcomes have
 //     labelled the version since the first evaluation that found it drifting
 //     after the set's last job ended (SetHealth.labelled_since_start);
+//   - the drift's onset: when an evaluation first finds the active version
+//     in `watch` or `drifting`, the change began after the last evaluation
+//     that found it steady; that evaluation's evaluated_at (or the first
+//     unsteady one's, when none was steady) is the onset a drift job carries
+//     (RefitTrigger::drift_onset) until the version is `steady` again;
 //   - schedule: with schedule > 0, every set gets a job `schedule` after
 //     plumbd started and after each of its scheduled jobs (mode OFF: none);
 //   - neither drift nor schedule starts a job while the set has a refit
@@ -29,6 +34,7 @@
 #include <deque>
 #include <functional>
 #include <memory>
+#include <optional>
 #include <string>
 #include <thread>
 #include <vector>
@@ -97,9 +103,21 @@ class RefitWorker {
   absl::flat_hash_map<std::string, absl::Time> last_ended_ ABSL_GUARDED_BY(mu_);
   absl::flat_hash_map<std::string, absl::Time> last_scheduled_
       ABSL_GUARDED_BY(mu_);
-  // A drifting active version -> its labelled_since_start when first seen
-  // drifting after the set's last job (min_new_labelled).
-  absl::flat_hash_map<SetVersion, int64_t> drift_marks_ ABSL_GUARDED_BY(mu_);
+  // What the worker remembers of an active version's drift.
+  struct DriftMark {
+    // When the change began: the evaluated_at of the last evaluation that
+    // found the version steady before one found it out of `steady` (that
+    // one's own time when none did); kept until it is steady again, across
+    // jobs. A drift job's training window starts there
+    // (refit.training_window).
+    absl::Time onset = absl::InfinitePast();
+    // Its labelled_since_start when first seen drifting after the set's
+    // last job (min_new_labelled); unset until then.
+    std::optional<int64_t> labelled;
+  };
+  absl::flat_hash_map<SetVersion, DriftMark> drift_marks_ ABSL_GUARDED_BY(mu_);
+  // An active version -> its last evaluation in state `steady`.
+  absl::flat_hash_map<SetVersion, absl::Time> last_steady_ ABSL_GUARDED_BY(mu_);
   // Set -> its active version's last evaluation: the drift evidence a job's
   // dossier shows.
   absl::flat_hash_map<std::string, v1::SetHealth> last_health_

@@ -116,11 +116,60 @@ std::string DataSection(const v1::Dossier& d) {
       Fact("margin", N(d.margin())), Fact("L2 penalty", N(d.l2())), "</div>");
   absl::StrAppend(
       &s,
-      "<p class=\"lead\">Labelled records the active role scored, newest "
-      "first, from plumbd's ledger. A record is held out when the FNV-1a "
-      "hash of its id (mixed by MurmurHash3's finalizer) falls below the "
-      "holdout share: the same record always lands on the same side.</p>",
-      "</section>");
+      "<p class=\"lead\">Labelled records the active role scored, from "
+      "plumbd's ledger. ",
+      d.holdout_split() == "random_by_id"
+          ? "A record is held out when the FNV-1a hash of its id (mixed by "
+            "MurmurHash3's finalizer) falls below the holdout share: the "
+            "same record always lands on the same side."
+          : "The holdout is out of time: the most recent records by score "
+            "time, after every record the candidate was fitted on.",
+      d.ladder().window().empty()
+          ? std::string()
+          : absl::StrCat(" ", Html(d.ladder().window()), "."),
+      "</p></section>");
+  return s;
+}
+
+// The updating ladder: each rung's fit on the training part, its test
+// against the active version, the closed test and the choice.
+std::string LadderSection(const v1::RefitLadder& l) {
+  std::string s = absl::StrCat(
+      "<section id=\"ladder\"><h2>Updating ladder</h2><p class=\"lead\">",
+      Html(absl::StrCat("Chose rung ", l.chosen(), ": ", l.reason())),
+      "</p><table><tr><th>rung</th><th>update</th><th>log-likelihood</th>"
+      "<th>df</th><th>LR vs active</th><th>p-value</th><th>note</th></tr>");
+  absl::StrAppend(&s,
+                  "<tr><td>0</td><td>the active version</td><td "
+                  "class=\"num\">",
+                  N(l.active_log_likelihood(), 8),
+                  "</td><td class=\"num\">0</td><td></td><td></td><td>"
+                  "</td></tr>");
+  for (const v1::RefitLadder::Rung& r : l.rungs()) {
+    absl::StrAppend(&s, "<tr data-rung=\"", r.rung(), "\"><td>", r.rung(),
+                    "</td><td>", Html(r.name()), "</td><td class=\"num\">",
+                    r.fitted() ? N(r.log_likelihood(), 8) : "not fitted",
+                    "</td><td class=\"num\">", r.fitted() ? N(r.df()) : "",
+                    "</td><td class=\"num\">",
+                    r.fitted() ? N(r.lr_statistic()) : "",
+                    "</td><td class=\"num\">", r.fitted() ? N(r.p_value()) : "",
+                    "</td><td class=\"note\">", Html(r.note()), "</td></tr>");
+  }
+  absl::StrAppend(&s,
+                  "</table><table><tr><th>closed test</th><th>LR</th>"
+                  "<th>df</th><th>p-value</th><th>at alpha ",
+                  N(l.alpha()), "</th></tr>");
+  for (const v1::RefitLadder::Step& t : l.steps()) {
+    absl::StrAppend(&s, "<tr><td>rung ", t.rung(), " vs ",
+                    t.against() == 0 ? std::string("active")
+                                     : absl::StrCat("rung ", t.against()),
+                    "</td><td class=\"num\">", N(t.lr_statistic()),
+                    "</td><td class=\"num\">", N(t.df()),
+                    "</td><td class=\"num\">", N(t.p_value()), "</td><td>",
+                    t.significant() ? "significant" : "not significant",
+                    "</td></tr>");
+  }
+  absl::StrAppend(&s, "</table></section>");
   return s;
 }
 
@@ -362,6 +411,7 @@ std::string RenderDossier(const v1::Dossier& d, const DriftPolicy& policy) {
   absl::StrAppend(&body, "<p class=\"lead\">", Html(d.summary()),
                   "</p></section>");
   absl::StrAppend(&body, EvidenceSection(d, policy), DataSection(d));
+  if (d.has_ladder()) absl::StrAppend(&body, LadderSection(d.ladder()));
   if (!d.candidate_version().empty()) {
     absl::StrAppend(&body, HoldoutSection(d));
   }

@@ -237,6 +237,7 @@ grpc::Status RegistryService::Refit(grpc::ServerContext* context,
   reply->set_summary(outcome.summary);
   reply->set_dossier_path(outcome.dossier_path);
   reply->set_job(outcome.job);
+  if (outcome.ladder) *reply->mutable_ladder() = *outcome.ladder;
   return grpc::Status::OK;
 }
 

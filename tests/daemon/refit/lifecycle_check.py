@@ -1,15 +1,23 @@
 #!/usr/bin/env python3
 """Recomputes a refit job's holdout figures from plumbd's ledger.
 
-usage: lifecycle_check.py LEDGER SET VERSION HOLDOUT_FRACTION [OUT_DIR]
+usage: lifecycle_check.py [--split=out_of_time|random_by_id] LEDGER SET
+                          VERSION HOLDOUT_FRACTION [OUT_DIR]
        lifecycle_check.py --compare OUT_DIR SCORED_CSV
 
 Reads the labelled records the active role of SET scored (SQLite, the
 ledger_scores view joined to outcomes), splits them with the documented
-holdout rule (FNV-1a 64 of the record id mixed by MurmurHash3's fmix64, as
-a fraction of 2**64, below HOLDOUT_FRACTION: daemon/refit_job.h) and prints, as JSON, the number of
+holdout rule of refit.holdout (daemon/refit/job.h) and prints, as JSON, the
+number of
 records on each side and the log-loss of VERSION's stored scores on the
-holdout by scikit-learn's sklearn.metrics.log_loss. With OUT_DIR it also
+holdout by scikit-learn's sklearn.metrics.log_loss. The split:
+  out_of_time (the default, as plumbd's): records ranked by score time,
+    equal times by record id; the last floor(n * HOLDOUT_FRACTION + 0.5)
+    are held out.
+  random_by_id: FNV-1a 64 of the record id mixed by MurmurHash3's fmix64,
+    as a fraction of 2**64, below HOLDOUT_FRACTION.
+It takes every labelled record, as a manual refit does while they number
+fewer than refit.window_labelled. With OUT_DIR it also
 writes the held-out records as OUT_DIR/holdout.csv (record_id and the stored
 feature values; null -> empty cell) with their labels and VERSION's log-odds
 (OUT_DIR/holdout.json), and the newest candidate's document from the ledger
@@ -23,6 +31,7 @@ interval with scipy.stats.norm.ppf(0.975).
 """
 import csv
 import json
+import math
 import os
 import sqlite3
 import sys
@@ -77,24 +86,44 @@ def main() -> None:
     if sys.argv[1] == "--compare":
         compare(sys.argv[2], sys.argv[3])
         return
-    ledger, set_name, version, fraction = sys.argv[1:5]
-    out_dir = sys.argv[5] if len(sys.argv) > 5 else None
+    args = [a for a in sys.argv[1:] if not a.startswith("--split=")]
+    split = "out_of_time"
+    for a in sys.argv[1:]:
+        if a.startswith("--split="):
+            split = a[len("--split="):]
+    if split not in ("out_of_time", "random_by_id"):
+        raise SystemExit(f"--split: {split} is not out_of_time or random_by_id")
+    ledger, set_name, version, fraction = args[0:4]
+    out_dir = args[4] if len(args) > 4 else None
     fraction = float(fraction)
     db = sqlite3.connect(ledger)
     rows = db.execute(
         "SELECT s.record_id, s.set_version, s.log_odds, o.label, s.features,"
-        " s.layout"
+        " s.layout, s.scored_at_us"
         " FROM ledger_scores s JOIN outcomes o ON o.record_id = s.record_id"
         " WHERE s.set_name = ? AND s.role = 'active'", (set_name,)).fetchall()
     seen = set()
+    records = []
+    for row in rows:
+        if row[0] in seen:
+            continue
+        seen.add(row[0])
+        records.append(row)
+    if split == "out_of_time":
+        # Oldest first by score time, equal times by record id (Python
+        # compares str by code point, the order of UTF-8 bytes).
+        records.sort(key=lambda r: (r[6], r[0]))
+        held_from = len(records) - math.floor(len(records) * fraction + 0.5)
+        held = [i >= held_from for i in range(len(records))]
+    else:
+        # (h >> 11) * 2**-53: the top 53 bits as a double in [0, 1).
+        held = [(holdout_hash(r[0]) >> 11) * 2.0 ** -53 < fraction
+                for r in records]
     train = 0
     z, y, ids, features = [], [], [], []
-    for record_id, set_version, log_odds, label, stored, layout in rows:
-        if record_id in seen:
-            continue
-        seen.add(record_id)
-        # (h >> 11) * 2**-53: the top 53 bits as a double in [0, 1).
-        if (holdout_hash(record_id) >> 11) * 2.0 ** -53 < fraction:
+    for (record_id, set_version, log_odds, label, stored, layout,
+         _), is_held in zip(records, held):
+        if is_held:
             if set_version != version:
                 raise SystemExit(f"{record_id} was scored by {set_version}")
             z.append(log_odds)

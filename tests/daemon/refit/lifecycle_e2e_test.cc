@@ -59,21 +59,30 @@ std::string DataDir() {
   return dir == nullptr ? "" : dir;
 }
 
-// The rows of two CSV files with the same header, alternating, each record
-// id (first column) prefixed by `prefix`, written to `to`.
-void Interleave(const std::string& a, const std::string& b,
-                const std::string& to, const std::string& prefix) {
+// The rows of `a` and the first `b_rows` rows of `b` (same header), merged
+// evenly (each row at its share of its file), written once per prefix
+// (record ids prefixed) to `to`.
+void Mix(const std::string& a, const std::string& b, size_t b_rows,
+         const std::string& to, const std::vector<std::string>& prefixes) {
   std::vector<std::string> first =
       absl::StrSplit(testing::ReadTextFile(a), '\n', absl::SkipEmpty());
   std::vector<std::string> second =
       absl::StrSplit(testing::ReadTextFile(b), '\n', absl::SkipEmpty());
-  ASSERT_FALSE(first.empty()) << a;
-  ASSERT_FALSE(second.empty()) << b;
+  ASSERT_GT(first.size(), 1u) << a;
+  ASSERT_GT(second.size(), b_rows) << b;
   ASSERT_EQ(first[0], second[0]) << "different headers";
   std::string out = first[0] + "\n";
-  for (size_t i = 1; i < std::max(first.size(), second.size()); ++i) {
-    if (i < first.size()) absl::StrAppend(&out, prefix, first[i], "\n");
-    if (i < second.size()) absl::StrAppend(&out, prefix, second[i], "\n");
+  const size_t na = first.size() - 1;
+  for (const std::string& prefix : prefixes) {
+    size_t i = 0, j = 0;
+    while (i < na || j < b_rows) {
+      // The next row is the one whose share of its file is smaller.
+      if (j >= b_rows || (i < na && i * b_rows <= j * na)) {
+        absl::StrAppend(&out, prefix, first[1 + i++], "\n");
+      } else {
+        absl::StrAppend(&out, prefix, second[1 + j++], "\n");
+      }
+    }
   }
   ASSERT_TRUE(testing::WriteTextFile(to, out).ok());
 }
@@ -241,6 +250,17 @@ TEST_F(LifecycleTest, DriftRefitApproveSteadyRollbackAudit) {
   // 1500 outcomes after that (min_new_labelled), then starts by itself and
   // fits the storm's labels too.
   ScoreAndReport(data + "/parcels.csv", data + "/outcomes.csv");
+  // The monitor sees the normal weeks steady before the storm begins: the
+  // drift's onset (the last steady evaluation) then separates the storm's
+  // records from the weeks before, and the drift job trains on the storm's.
+  const absl::Time normal_done = absl::Now();
+  ASSERT_TRUE(PollUntil([&] {
+    const v1::SetHealth h = Health();
+    return h.state() == v1::STEADY && h.has_evaluated_at() &&
+           absl::FromUnixSeconds(h.evaluated_at().seconds()) +
+                   absl::Nanoseconds(h.evaluated_at().nanos()) >
+               normal_done;
+  }));
   Score(data + "/parcels_drift.csv");
   ASSERT_TRUE(PollUntil([&] {
     return absl::StrContains(plumbd_->Log(), "event=refit_waits_for_labels");
@@ -256,7 +276,8 @@ TEST_F(LifecycleTest, DriftRefitApproveSteadyRollbackAudit) {
       if (v.state() == v1::CANDIDATE) drift_candidate = v.version();
     }
     return !drift_candidate.empty();
-  })) << plumbd_->Log();
+  })) << plumbd_->Log()
+      << Plumbctl({"audit", "--set", kSet}).out;
   for (const v1::VersionInfo& v : Versions()) {
     if (v.version() != drift_candidate) continue;
     EXPECT_TRUE(absl::StartsWith(v.created_by(), "refit job"))
@@ -280,6 +301,16 @@ TEST_F(LifecycleTest, DriftRefitApproveSteadyRollbackAudit) {
   ProcessResult refit = Plumbctl({"refit", "--set", kSet, "--reason", "test"});
   ASSERT_EQ(refit.exit_code, 0) << refit.err;
   ASSERT_TRUE(absl::StrContains(refit.out, "refit proposed")) << refit.out;
+  // plumbctl refit prints the ladder: a row per rung, the closed test, the
+  // rung chosen; the comparison used the out-of-time holdout.
+  for (const char* part :
+       {"updating ladder on 2800 training records", "intercept recalibration",
+        "logistic recalibration", "ridge toward the active coefficients",
+        "full re-estimation", "rung 4 vs active", "chose rung ",
+        "out of time: the latest 1200 by score time"}) {
+    EXPECT_TRUE(absl::StrContains(refit.out, part)) << part << "\n"
+                                                    << refit.out;
+  }
   std::string candidate;
   std::string comparison;
   for (const v1::VersionInfo& v : Versions()) {
@@ -348,12 +379,14 @@ TEST_F(LifecycleTest, DriftRefitApproveSteadyRollbackAudit) {
   EXPECT_EQ(ActiveVersion(), candidate);
 
   // Fresh traffic from the mix the candidate was fitted on: its own windows
-  // judge it steady.
-  // (interleaved, so that every window holds both seasons).
-  Interleave(data + "/parcels.csv", data + "/parcels_drift.csv",
-             dir_.File("mix.csv"), "again-");
-  Interleave(data + "/outcomes.csv", data + "/outcomes_drift.csv",
-             dir_.File("mix_outcomes.csv"), "again-");
+  // judge it steady. The out-of-time holdout held out the latest 1200
+  // records (the storm's last 1200 parcels), so it was fitted on the normal
+  // weeks and the storm's first 800 parcels: the same mix, merged evenly so
+  // that every window holds both seasons in that share, twice over.
+  Mix(data + "/parcels.csv", data + "/parcels_drift.csv", 800,
+      dir_.File("mix.csv"), {"again-", "again2-"});
+  Mix(data + "/outcomes.csv", data + "/outcomes_drift.csv", 800,
+      dir_.File("mix_outcomes.csv"), {"again-", "again2-"});
   ScoreAndReport(dir_.File("mix.csv"), dir_.File("mix_outcomes.csv"));
   v1::SetHealth health;
   ASSERT_TRUE(PollUntil([&] {
@@ -364,9 +397,17 @@ TEST_F(LifecycleTest, DriftRefitApproveSteadyRollbackAudit) {
   EXPECT_EQ(health.state(), v1::STEADY) << health.DebugString();
 
   // Shadow the drift job's candidate: scored beside the active version,
-  // kept in the ledger, never returned.
-  ProcessResult shadow =
+  // kept in the ledger, never returned. The drift job fitted the storm's
+  // parcels only (since the drift's onset), which hold no 'warehouse'
+  // building, a level the manual refit now active learned from the normal
+  // weeks: the shadow needs that change allowed, and the audit records it.
+  ProcessResult refused =
       Plumbctl({"shadow", "--set", kSet, "--version", drift_candidate});
+  EXPECT_NE(refused.exit_code, 0);
+  EXPECT_TRUE(absl::StrContains(refused.err, "loses level 'warehouse'"))
+      << refused.err;
+  ProcessResult shadow = Plumbctl({"shadow", "--set", kSet, "--version",
+                                   drift_candidate, "--allow_schema_change"});
   ASSERT_EQ(shadow.exit_code, 0) << shadow.err;
   ProcessResult one = Plumbctl(
       {"score", "--set", kSet, "--record_id", "shadow-check", "--json",

@@ -49,6 +49,7 @@ import subprocess
 import sys
 import tempfile
 import threading
+import time
 import unittest
 import urllib.error
 import urllib.parse
@@ -290,6 +291,22 @@ class PageBrowserTest(unittest.TestCase):
         run("score", "--set", SET, "--csv", f"{demo}/parcels.csv",
             "--out", f"{demo}/scored.csv")
         run("outcomes", "--csv", f"{demo}/outcomes.csv")
+        cls.channel = grpc.insecure_channel(addr)
+        cls.monitor = monitor_pb2_grpc.MonitorStub(cls.channel)
+        cls.registry = registry_pb2_grpc.RegistryStub(cls.channel)
+        # As in ops/demo: the monitor sees the normal weeks steady before the
+        # storm begins, so the drift's onset (the last steady evaluation)
+        # separates the storm's parcels, which the drift job fits.
+        normal_done = time.time()
+
+        def steady_after_normal_weeks():
+            h = cls.monitor.GetSetHealth(
+                monitor_pb2.GetSetHealthRequest(set=SET), timeout=30)
+            return (h.state == monitor_pb2.STEADY
+                    and h.HasField("evaluated_at")
+                    and h.evaluated_at.ToDatetime().timestamp() > normal_done)
+        poll_until(steady_after_normal_weeks,
+                   "a steady evaluation after the normal weeks")
         run("score", "--set", SET, "--csv", f"{demo}/parcels_drift.csv",
             "--out", f"{demo}/scored_drift.csv")
         # As in ops/demo: the storm's inputs make the set drift first; its
@@ -297,9 +314,6 @@ class PageBrowserTest(unittest.TestCase):
         poll_until(lambda: logged("refit_waits_for_labels"),
                    "the drift-started refit to wait for new outcomes")
         run("outcomes", "--csv", f"{demo}/outcomes_drift.csv")
-        cls.channel = grpc.insecure_channel(addr)
-        cls.monitor = monitor_pb2_grpc.MonitorStub(cls.channel)
-        cls.registry = registry_pb2_grpc.RegistryStub(cls.channel)
 
         def candidate():
             reply = cls.registry.ListVersions(
