@@ -26,12 +26,8 @@ absl::StatusOr<int64_t> SnapshotStore::Save(
       " ?6, ?7)");
   if (!insert.ok()) return insert.status();
   if (absl::Status s = db_->Exec("BEGIN IMMEDIATE"); !s.ok()) return s;
-  auto fail = [&](absl::Status s) {
-    db_->Exec("ROLLBACK").IgnoreError();  // the first error is the one
-    return s;
-  };
   if (absl::Status s = db_->Exec("DELETE FROM health_snapshots"); !s.ok()) {
-    return fail(s);
+    return RolledBack(s);
   }
   int64_t bytes = 0;
   for (const WindowSnapshot& w : snapshots) {
@@ -43,11 +39,16 @@ absl::StatusOr<int64_t> SnapshotStore::Save(
     s.BindInt64(5, w.marks.outcome_seq);
     s.BindText(6, w.fingerprint);
     s.BindBlobNoCopy(7, w.state);
-    if (absl::Status st = s.Run(); !st.ok()) return fail(st);
+    if (absl::Status st = s.Run(); !st.ok()) return RolledBack(st);
     bytes += static_cast<int64_t>(w.state.size());
   }
-  if (absl::Status s = db_->Exec("COMMIT"); !s.ok()) return fail(s);
+  if (absl::Status s = db_->Exec("COMMIT"); !s.ok()) return RolledBack(s);
   return bytes;
+}
+
+absl::Status SnapshotStore::RolledBack(absl::Status cause) {
+  db_->Exec("ROLLBACK").IgnoreError();  // the first error is the one
+  return cause;
 }
 
 absl::StatusOr<std::vector<WindowSnapshot>> SnapshotStore::Load() {

@@ -66,6 +66,9 @@ class SnapshotStore {
 
  private:
   explicit SnapshotStore(std::unique_ptr<SqliteDb> db) : db_(std::move(db)) {}
+  // Rolls the open transaction back and returns `cause`.
+  absl::Status RolledBack(absl::Status cause)
+      ABSL_EXCLUSIVE_LOCKS_REQUIRED(mu_);
 
   absl::Mutex mu_;
   std::unique_ptr<SqliteDb> db_ ABSL_GUARDED_BY(mu_);
