@@ -281,6 +281,12 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
   d->ticker_ =
       std::make_unique<HealthTicker>(tick, [p = d.get()] { p->Tick(); });
 
+  // Logged before the ready file is written, so whoever waits for the file
+  // finds the line too (a background rebuild's thread may hold the CPU
+  // between the two).
+  LogEvent(LogLevel::kInfo, "listening",
+           {{"addr", d->server_->bound_address()},
+            {"sets", absl::StrCat(d->registry_->Names().size())}});
   if (!ready_file.empty()) {
     if (absl::Status s = WriteFileAtomically(
             ready_file, absl::StrCat(d->server_->bound_address(), "\n"));
@@ -288,9 +294,6 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
       return s;  // ~Plumbd stops the server
     }
   }
-  LogEvent(LogLevel::kInfo, "listening",
-           {{"addr", d->server_->bound_address()},
-            {"sets", absl::StrCat(d->registry_->Names().size())}});
   return d;
 }
 
