@@ -1,6 +1,7 @@
 // File: daemon/services/scoring.cc
 #include "daemon/services/scoring.h"
 
+#include <memory>
 #include <type_traits>
 #include <utility>
 #include <vector>
@@ -12,6 +13,7 @@
 #include "daemon/scoring/packed_row.h"
 #include "daemon/util/event_log.h"
 #include "daemon/util/grpc_status.h"
+#include "google/protobuf/arena.h"
 
 namespace plumbline::daemon {
 
@@ -221,6 +223,45 @@ grpc::Status ScoringService::Score(grpc::ServerContext* context,
   }
   *reply = *std::move(result);
   return grpc::Status::OK;
+}
+
+namespace {
+
+// The first block of every ScoreBatch call's arena on this thread: reused,
+// so a typical batch (about 200 bytes a record at 10 features) parses
+// without a single malloc and without touching fresh pages. Bounded by the
+// number of gRPC handler threads.
+constexpr size_t kArenaFirstBlock = 256 << 10;
+// Later blocks (bigger batches, wider sets) grow to this size.
+constexpr size_t kArenaMaxBlock = 1 << 20;
+
+}  // namespace
+
+grpc::Status ScoringService::StreamedScoreBatch(
+    grpc::ServerContext* context,
+    grpc::ServerUnaryStreamer<v1::ScoreBatchRequest, v1::ScoreBatchReply>*
+        streamer) {
+  thread_local std::unique_ptr<char[]> first_block(new char[kArenaFirstBlock]);
+  google::protobuf::ArenaOptions options;
+  options.initial_block = first_block.get();
+  options.initial_block_size = kArenaFirstBlock;
+  options.max_block_size = kArenaMaxBlock;
+  google::protobuf::Arena arena(options);
+  auto* request =
+      google::protobuf::Arena::CreateMessage<v1::ScoreBatchRequest>(&arena);
+  if (!streamer->Read(request)) {
+    // The parse-error interceptor (daemon/server/request_errors.h) turns
+    // this into INVALID_ARGUMENT naming the method, as for every RPC.
+    return grpc::Status(grpc::StatusCode::INTERNAL,
+                        "the request could not be parsed");
+  }
+  v1::ScoreBatchReply reply;
+  grpc::Status status = ScoreBatch(context, request, &reply);
+  if (status.ok() && !streamer->Write(reply)) {
+    return grpc::Status(grpc::StatusCode::UNAVAILABLE,
+                        "the reply could not be sent (the caller is gone)");
+  }
+  return status;
 }
 
 grpc::Status ScoringService::ScoreBatch(grpc::ServerContext* context,
