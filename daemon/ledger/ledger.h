@@ -344,6 +344,9 @@ class Ledger {
   // ledger's life; null when there is none. Thread-safe.
   std::shared_ptr<const v1::RowLayout> StoredLayout(int64_t set_id,
                                                     absl::string_view json);
+  // A result row of reads.cc's score / labelled columns as an entry.
+  ScoreEntry ScoreFromRow(const SqliteStatement& s);
+  LabelledScore LabelledFromRow(const SqliteStatement& s);
   // OK, or why the ledger stopped taking writes.
   absl::Status Failure() const;
   // Stops taking writes for good (this process), logging why once.

@@ -3,6 +3,8 @@
 // call opens its own connection, so reads never wait for or hold up the
 // writer thread (WAL mode: readers see the last committed state).
 #include <cstdint>
+#include <functional>
+#include <string>
 
 #include "absl/strings/str_cat.h"
 #include "daemon/ledger/entries.h"
@@ -16,21 +18,18 @@ namespace {
 int64_t Micros(absl::Time t) { return absl::ToUnixMicros(t); }
 absl::Time FromMicros(int64_t us) { return absl::FromUnixMicros(us); }
 
-// Opens a read connection, binds (set name, since, limit, upto) to ?1..?4
-// of `sql` and calls `row` for each result row.
+// Opens a read connection, prepares `sql`, lets `bind` bind its parameters
+// and calls `row` for each result row.
 absl::Status ReadRows(const std::string& path, LedgerEnv* env,
-                      absl::string_view sql, const std::string& set_name,
-                      int64_t limit, absl::Time since, int64_t upto,
+                      absl::string_view sql,
+                      const std::function<void(SqliteStatement&)>& bind,
                       const std::function<void(const SqliteStatement&)>& row) {
   auto db = SqliteDb::Open(path, env);
   if (!db.ok()) return db.status();
   auto q = (*db)->Prepare(sql);
   if (!q.ok()) return q.status();
   SqliteStatement& s = **q;
-  s.BindText(1, set_name);
-  s.BindInt64(2, since == absl::InfinitePast() ? INT64_MIN : Micros(since));
-  s.BindInt64(3, limit);
-  s.BindInt64(4, upto);
+  bind(s);
   for (;;) {
     auto more = s.Step();
     if (!more.ok()) return more.status();
@@ -38,6 +37,36 @@ absl::Status ReadRows(const std::string& path, LedgerEnv* env,
     row(s);
   }
 }
+
+// Binds (set name, since, limit, upto) to ?1..?4: the windowed reads.
+std::function<void(SqliteStatement&)> BindWindow(const std::string& set_name,
+                                                 int64_t limit,
+                                                 absl::Time since,
+                                                 int64_t upto) {
+  return [&set_name, limit, since, upto](SqliteStatement& s) {
+    s.BindText(1, set_name);
+    s.BindInt64(2, since == absl::InfinitePast() ? INT64_MIN : Micros(since));
+    s.BindInt64(3, limit);
+    s.BindInt64(4, upto);
+  };
+}
+
+// Binds (after, upto) to ?1, ?2: the reads of a ledger's tail.
+std::function<void(SqliteStatement&)> BindRange(int64_t after, int64_t upto) {
+  return [after, upto](SqliteStatement& s) {
+    s.BindInt64(1, after);
+    s.BindInt64(2, upto);
+  };
+}
+
+// The columns ScoreFromRow and LabelledFromRow read, in their order.
+constexpr char kScoreColumns[] =
+    "s.record_id, ss.set_name, ss.set_version, ss.role, s.scored_at_us,"
+    " s.log_odds, s.probability, s.features, ss.id, ss.layout";
+constexpr char kLabelledColumns[] =
+    "s.record_id, ss.set_name, ss.set_version, ss.role, s.log_odds,"
+    " s.probability, o.label, s.scored_at_us, o.observed_at_us, s.features,"
+    " ss.id, ss.layout";
 
 }  // namespace
 
@@ -61,31 +90,50 @@ std::shared_ptr<const v1::RowLayout> Ledger::StoredLayout(
   return layouts_.emplace(set_id, std::move(layout)).first->second;
 }
 
+ScoreEntry Ledger::ScoreFromRow(const SqliteStatement& s) {
+  return ScoreEntry{s.ColumnText(0),
+                    s.ColumnText(1),
+                    s.ColumnText(2),
+                    RoleColumn(s.ColumnText(3)),
+                    FromMicros(s.ColumnInt64(4)),
+                    s.ColumnDouble(5),
+                    s.ColumnDouble(6),
+                    s.ColumnText(7),
+                    StoredLayout(s.ColumnInt64(8), s.ColumnText(9))};
+}
+
+LabelledScore Ledger::LabelledFromRow(const SqliteStatement& s) {
+  return LabelledScore{s.ColumnText(0),
+                       s.ColumnText(1),
+                       s.ColumnText(2),
+                       RoleColumn(s.ColumnText(3)),
+                       s.ColumnDouble(4),
+                       s.ColumnDouble(5),
+                       static_cast<int>(s.ColumnInt64(6)),
+                       FromMicros(s.ColumnInt64(7)),
+                       FromMicros(s.ColumnInt64(8)),
+                       s.ColumnText(9),
+                       StoredLayout(s.ColumnInt64(10), s.ColumnText(11))};
+}
+
 absl::Status Ledger::ForEachLabelled(
     const std::string& set_name, int64_t limit, absl::Time since,
     const std::function<void(const LabelledScore&)>& fn,
     const LedgerMarks* upto) {
   return ReadRows(
       options_.path, env_,
-      "SELECT s.record_id, ss.set_name, ss.set_version, ss.role, s.log_odds,"
-      " s.probability, o.label, s.scored_at_us, o.observed_at_us, s.features,"
-      " ss.id, ss.layout"
-      " FROM outcomes o JOIN scores s ON s.record_id = o.record_id"
-      " JOIN score_sets ss ON ss.id = s.set_id"
-      " WHERE ss.set_name = ?1 AND o.observed_at_us >= ?2"
-      // As the outcome lookup: not the repeats schemas before 5 let in.
-      " AND (s.primary_set IS NOT NULL OR ss.role = 'shadow')"
-      " AND (o.seq IS NULL OR o.seq <= ?4)"
-      " ORDER BY o.observed_at_us DESC, s.id DESC LIMIT ?3",
-      set_name, limit, since, upto != nullptr ? upto->outcome_seq : INT64_MAX,
-      [&](const SqliteStatement& s) {
-        fn(LabelledScore{s.ColumnText(0), s.ColumnText(1), s.ColumnText(2),
-                         RoleColumn(s.ColumnText(3)), s.ColumnDouble(4),
-                         s.ColumnDouble(5), static_cast<int>(s.ColumnInt64(6)),
-                         FromMicros(s.ColumnInt64(7)),
-                         FromMicros(s.ColumnInt64(8)), s.ColumnText(9),
-                         StoredLayout(s.ColumnInt64(10), s.ColumnText(11))});
-      });
+      absl::StrCat(
+          "SELECT ", kLabelledColumns,
+          " FROM outcomes o JOIN scores s ON s.record_id = o.record_id"
+          " JOIN score_sets ss ON ss.id = s.set_id"
+          " WHERE ss.set_name = ?1 AND o.observed_at_us >= ?2"
+          // As the outcome lookup: not the repeats schemas before 5 let in.
+          " AND (s.primary_set IS NOT NULL OR ss.role = 'shadow')"
+          " AND (o.seq IS NULL OR o.seq <= ?4)"
+          " ORDER BY o.observed_at_us DESC, s.id DESC LIMIT ?3"),
+      BindWindow(set_name, limit, since,
+                 upto != nullptr ? upto->outcome_seq : INT64_MAX),
+      [&](const SqliteStatement& s) { fn(LabelledFromRow(s)); });
 }
 
 absl::Status Ledger::ForEachScore(
@@ -96,86 +144,43 @@ absl::Status Ledger::ForEachScore(
       // Newest id first, stopping at the limit (schema 4 has no index by set
       // and time); CROSS JOIN keeps scores the outer loop so the planner
       // cannot choose a scan of the whole set followed by a sort.
-      "SELECT s.record_id, ss.set_name, ss.set_version, ss.role, "
-      "s.scored_at_us,"
-      " s.log_odds, s.probability, s.features, ss.id, ss.layout FROM scores s"
-      " CROSS JOIN score_sets ss ON ss.id = s.set_id"
-      " WHERE ss.set_name = ?1 AND s.scored_at_us >= ?2 AND s.id <= ?4"
-      " ORDER BY s.id DESC LIMIT ?3",
-      set_name, limit, since, upto != nullptr ? upto->score_id : INT64_MAX,
-      [&](const SqliteStatement& s) {
-        fn(ScoreEntry{s.ColumnText(0), s.ColumnText(1), s.ColumnText(2),
-                      RoleColumn(s.ColumnText(3)), FromMicros(s.ColumnInt64(4)),
-                      s.ColumnDouble(5), s.ColumnDouble(6), s.ColumnText(7),
-                      StoredLayout(s.ColumnInt64(8), s.ColumnText(9))});
-      });
+      absl::StrCat("SELECT ", kScoreColumns,
+                   " FROM scores s CROSS JOIN score_sets ss ON ss.id = s.set_id"
+                   " WHERE ss.set_name = ?1 AND s.scored_at_us >= ?2"
+                   " AND s.id <= ?4 ORDER BY s.id DESC LIMIT ?3"),
+      BindWindow(set_name, limit, since,
+                 upto != nullptr ? upto->score_id : INT64_MAX),
+      [&](const SqliteStatement& s) { fn(ScoreFromRow(s)); });
 }
-
-namespace {
-
-// Opens a read connection, binds (after, upto) to ?1, ?2 of `sql` and calls
-// `row` for each result row.
-absl::Status ReadRowsAfter(
-    const std::string& path, LedgerEnv* env, absl::string_view sql,
-    int64_t after, int64_t upto,
-    const std::function<void(const SqliteStatement&)>& row) {
-  auto db = SqliteDb::Open(path, env);
-  if (!db.ok()) return db.status();
-  auto q = (*db)->Prepare(sql);
-  if (!q.ok()) return q.status();
-  SqliteStatement& s = **q;
-  s.BindInt64(1, after);
-  s.BindInt64(2, upto);
-  for (;;) {
-    auto more = s.Step();
-    if (!more.ok()) return more.status();
-    if (!*more) return absl::OkStatus();
-    row(s);
-  }
-}
-
-}  // namespace
 
 absl::Status Ledger::ForEachScoreAfter(
     int64_t after_id, const std::function<void(const ScoreEntry&)>& fn,
     int64_t upto_id) {
-  return ReadRowsAfter(
+  return ReadRows(
       options_.path, env_,
-      "SELECT s.record_id, ss.set_name, ss.set_version, ss.role,"
-      " s.scored_at_us, s.log_odds, s.probability, s.features, ss.id,"
-      " ss.layout FROM scores s CROSS JOIN score_sets ss ON ss.id = s.set_id"
-      " WHERE s.id > ?1 AND s.id <= ?2 ORDER BY s.id",
-      after_id, upto_id, [&](const SqliteStatement& s) {
-        fn(ScoreEntry{s.ColumnText(0), s.ColumnText(1), s.ColumnText(2),
-                      RoleColumn(s.ColumnText(3)), FromMicros(s.ColumnInt64(4)),
-                      s.ColumnDouble(5), s.ColumnDouble(6), s.ColumnText(7),
-                      StoredLayout(s.ColumnInt64(8), s.ColumnText(9))});
-      });
+      absl::StrCat("SELECT ", kScoreColumns,
+                   " FROM scores s CROSS JOIN score_sets ss ON ss.id = s.set_id"
+                   " WHERE s.id > ?1 AND s.id <= ?2 ORDER BY s.id"),
+      BindRange(after_id, upto_id),
+      [&](const SqliteStatement& s) { fn(ScoreFromRow(s)); });
 }
 
 absl::Status Ledger::ForEachLabelledAfter(
     int64_t after_seq, const std::function<void(const LabelledScore&)>& fn,
     int64_t upto_seq) {
-  return ReadRowsAfter(
+  return ReadRows(
       options_.path, env_,
       // As the writer's lookup found them when the outcome came: the
       // record's stored scores, not the repeats schemas before 5 let in.
-      "SELECT s.record_id, ss.set_name, ss.set_version, ss.role, s.log_odds,"
-      " s.probability, o.label, s.scored_at_us, o.observed_at_us, s.features,"
-      " ss.id, ss.layout"
-      " FROM outcomes o CROSS JOIN scores s ON s.record_id = o.record_id"
-      " JOIN score_sets ss ON ss.id = s.set_id"
-      " WHERE o.seq > ?1 AND o.seq <= ?2"
-      " AND (s.primary_set IS NOT NULL OR ss.role = 'shadow')"
-      " ORDER BY o.seq, s.id",
-      after_seq, upto_seq, [&](const SqliteStatement& s) {
-        fn(LabelledScore{s.ColumnText(0), s.ColumnText(1), s.ColumnText(2),
-                         RoleColumn(s.ColumnText(3)), s.ColumnDouble(4),
-                         s.ColumnDouble(5), static_cast<int>(s.ColumnInt64(6)),
-                         FromMicros(s.ColumnInt64(7)),
-                         FromMicros(s.ColumnInt64(8)), s.ColumnText(9),
-                         StoredLayout(s.ColumnInt64(10), s.ColumnText(11))});
-      });
+      absl::StrCat(
+          "SELECT ", kLabelledColumns,
+          " FROM outcomes o CROSS JOIN scores s ON s.record_id = o.record_id"
+          " JOIN score_sets ss ON ss.id = s.set_id"
+          " WHERE o.seq > ?1 AND o.seq <= ?2"
+          " AND (s.primary_set IS NOT NULL OR ss.role = 'shadow')"
+          " ORDER BY o.seq, s.id"),
+      BindRange(after_seq, upto_seq),
+      [&](const SqliteStatement& s) { fn(LabelledFromRow(s)); });
 }
 
 absl::StatusOr<MarkRecords> Ledger::RecordsAt(const LedgerMarks& marks) {
