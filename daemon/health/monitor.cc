@@ -263,7 +263,7 @@ void HealthMonitor::OnCommitted(const CommittedRows& rows) {
   fed_marks_ = rows.marks;
 }
 
-std::vector<WindowSnapshot> HealthMonitor::Snapshots() {
+std::vector<WindowSnapshot> HealthMonitor::Snapshots(bool if_changed) {
   std::vector<std::shared_ptr<Version>> all;
   std::vector<v1::HealthWindowsState> states;
   LedgerMarks marks;
@@ -281,6 +281,18 @@ std::vector<WindowSnapshot> HealthMonitor::Snapshots() {
         }
       }
     }
+    std::vector<std::string> keys;
+    keys.reserve(all.size());
+    for (const auto& v : all) {
+      const scorer::ScoringPlan& plan = *v->windows->plan();
+      keys.push_back(absl::StrCat(plan.name(), "\n", plan.version(), "\n",
+                                  v->windows->fingerprint()));
+    }
+    if (if_changed && marks == snapshot_marks_ && keys == snapshot_versions_) {
+      return {};
+    }
+    snapshot_marks_ = marks;
+    snapshot_versions_ = std::move(keys);
     states.reserve(all.size());
     for (const auto& v : all) states.push_back(v->windows->Capture());
   }

@@ -168,8 +168,13 @@ class HealthMonitor final : public HealthSink {
   void OnCommitted(const CommittedRows& rows);
 
   // Every monitored version's window state with the marks it is whole up
-  // to; empty until Restore has given the monitor its marks.
-  std::vector<WindowSnapshot> Snapshots();
+  // to; empty until Restore has given the monitor its marks. With
+  // `if_changed`, also empty when neither the marks nor the whole versions
+  // (set, version, fingerprint) changed since the last call that returned
+  // snapshots: an idle daemon copies and saves nothing at its ticks. The
+  // windows' time-based eviction is not a change (a restore evicts again).
+  // After a save that failed, call it without `if_changed`.
+  std::vector<WindowSnapshot> Snapshots(bool if_changed = false);
 
   // HealthSink (OnCommitted's feed; tests call these directly).
   void OnScored(const scorer::ScoringPlan& plan,
@@ -252,6 +257,10 @@ class HealthMonitor final : public HealthSink {
   // The ledger's marks of the last commit fed; known once Restore ran.
   LedgerMarks fed_marks_ ABSL_GUARDED_BY(feed_mu_);
   bool marks_known_ ABSL_GUARDED_BY(feed_mu_) = false;
+  // What the last non-empty Snapshots() held: its marks and its versions'
+  // "set\nversion\nfingerprint", in order.
+  LedgerMarks snapshot_marks_ ABSL_GUARDED_BY(feed_mu_);
+  std::vector<std::string> snapshot_versions_ ABSL_GUARDED_BY(feed_mu_);
 
   // Held for a whole Evaluate; taken before mu_.
   absl::Mutex evaluate_mu_ ABSL_ACQUIRED_BEFORE(mu_);

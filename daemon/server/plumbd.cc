@@ -314,17 +314,21 @@ Plumbd::~Plumbd() {
       LogEvent(LogLevel::kWarning, "health_snapshot_failed",
                {{"error", s.message()}});
     } else if (snapshots_ != nullptr) {
-      SaveSnapshots(/*log_saved=*/true);
+      SaveSnapshots(/*at_shutdown=*/true);
     }
     ledger_->set_rows_observer(nullptr);
   }
 }
 
-void Plumbd::SaveSnapshots(bool log_saved) {
+void Plumbd::SaveSnapshots(bool at_shutdown) {
   const absl::Time start = absl::Now();
-  std::vector<WindowSnapshot> snapshots = monitor_->Snapshots();
+  // A tick skips the copy when nothing changed since the last save (the
+  // saved snapshots still hold); the last save, at shutdown, always writes.
+  std::vector<WindowSnapshot> snapshots = monitor_->Snapshots(
+      /*if_changed=*/!at_shutdown && !snapshot_save_failed_.load());
   if (snapshots.empty()) return;
   absl::StatusOr<int64_t> bytes = snapshots_->Save(snapshots);
+  snapshot_save_failed_.store(!bytes.ok());
   if (!bytes.ok()) {
     // The previous snapshots stay; the next start reads more rows after
     // them, or rebuilds.
@@ -332,7 +336,7 @@ void Plumbd::SaveSnapshots(bool log_saved) {
              {{"error", bytes.status().message()}});
     return;
   }
-  if (!log_saved) return;
+  if (!at_shutdown) return;
   LogEvent(
       LogLevel::kInfo, "health_snapshot_saved",
       {{"versions", absl::StrCat(snapshots.size())},
@@ -348,7 +352,7 @@ void Plumbd::SyncMonitor() {
 void Plumbd::Tick() {
   SyncMonitor();
   monitor_->Evaluate();
-  SaveSnapshots(/*log_saved=*/false);
+  SaveSnapshots(/*at_shutdown=*/false);
   if (history_ != nullptr) {
     if (absl::StatusOr<int> rows = history_->Record(monitor_->AllHealth());
         !rows.ok()) {

@@ -36,6 +36,7 @@
 #ifndef PLUMBLINE_DAEMON_SERVER_PLUMBD_H_
 #define PLUMBLINE_DAEMON_SERVER_PLUMBD_H_
 
+#include <atomic>
 #include <memory>
 #include <string>
 
@@ -139,9 +140,13 @@ class Plumbd {
   // worker see the figures.
   void Tick();
   // Saves the monitor's snapshots (daemon/health/snapshot_store.h); a
-  // failure is logged and the previous ones stay. `log_saved`: log what
-  // was saved too (at shutdown; a tick saves silently).
-  void SaveSnapshots(bool log_saved);
+  // failure is logged and the previous ones stay. A tick saves silently and
+  // only what changed since the last save; `at_shutdown` saves whatever
+  // the monitor holds and logs it.
+  void SaveSnapshots(bool at_shutdown);
+  // The last SaveSnapshots failed: the next one saves even if nothing
+  // changed since the snapshots it tried to save.
+  std::atomic<bool> snapshot_save_failed_{false};
 
   // Members in dependency order: each may use those above it. Constant
   // after Start.

@@ -305,5 +305,28 @@ TEST_F(HealthRestoreTest, NoSnapshotsBeforeTheMarksAreKnown) {
   EXPECT_TRUE(monitor->Snapshots().empty());
 }
 
+TEST_F(HealthRestoreTest, AnIdleMonitorHasNothingNewToSave) {
+  Traffic(0, 30, now_ - absl::Minutes(20));
+  std::unique_ptr<HealthMonitor> live = Live();
+  ASSERT_EQ(live->Snapshots(/*if_changed=*/true).size(), 1u);  // the first
+  // No commit since, the same version: nothing to copy or save...
+  EXPECT_TRUE(live->Snapshots(/*if_changed=*/true).empty());
+  now_ += absl::Minutes(5);  // ...not even when time passes
+  EXPECT_TRUE(live->Snapshots(/*if_changed=*/true).empty());
+  // ...but always when asked (a failed save, the shutdown).
+  EXPECT_EQ(live->Snapshots().size(), 1u);
+  // A commit moves the marks: the next call holds it.
+  Traffic(30, 5, now_ - absl::Minutes(1));
+  std::vector<WindowSnapshot> after = live->Snapshots(/*if_changed=*/true);
+  ASSERT_EQ(after.size(), 1u);
+  EXPECT_EQ(after[0].marks, ledger_->Marks());
+  EXPECT_TRUE(live->Snapshots(/*if_changed=*/true).empty());
+  // A version that joins the monitor changes what there is to save.
+  live->SyncPlans({plan_, CompilePlan(BaselineSetJson("courier", "v2"))});
+  EXPECT_EQ(live->Snapshots(/*if_changed=*/true).size(), 2u);
+  EXPECT_TRUE(live->Snapshots(/*if_changed=*/true).empty());
+  ledger_->set_rows_observer(nullptr);
+}
+
 }  // namespace
 }  // namespace plumbline::daemon
