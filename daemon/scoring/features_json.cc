@@ -11,6 +11,20 @@
 
 namespace plumbline::daemon {
 
+void AppendJsonValue(const scorer::RawValue& v, std::string* json) {
+  switch (v.kind) {
+    case scorer::RawValue::Kind::kNumber:
+      AppendJsonNumber(v.number, json);
+      return;
+    case scorer::RawValue::Kind::kText:
+      AppendJsonString(v.text, json);
+      return;
+    case scorer::RawValue::Kind::kMissing:
+      json->append("null");
+      return;
+  }
+}
+
 std::string FeaturesJson(const scorer::ScoringPlan& plan,
                          absl::Span<const scorer::RawValue> values,
                          absl::Span<const uint8_t> sent) {
@@ -31,18 +45,7 @@ std::string FeaturesJson(const scorer::ScoringPlan& plan,
     first = false;
     AppendJsonString(plan.feature_name(static_cast<int>(f)), &json);
     json.push_back(':');
-    const scorer::RawValue& v = values[f];
-    switch (v.kind) {
-      case scorer::RawValue::Kind::kNumber:
-        AppendJsonNumber(v.number, &json);
-        break;
-      case scorer::RawValue::Kind::kText:
-        AppendJsonString(v.text, &json);
-        break;
-      case scorer::RawValue::Kind::kMissing:
-        json.append("null");
-        break;
-    }
+    AppendJsonValue(values[f], &json);
   }
   json.push_back('}');
   return json;

@@ -28,6 +28,10 @@
 
 namespace plumbline::daemon {
 
+// Appends `v` as a JSON value: a number, a string, or null when missing
+// (the one spelling FeaturesJson and StoredFeaturesJson share).
+void AppendJsonValue(const scorer::RawValue& v, std::string* json);
+
 // Parses `json` into `values` (plan.num_features() entries in the plan's
 // order; absent and null features are missing). Text values view into
 // `holder`, which must outlive `values`. A categorical feature given as a

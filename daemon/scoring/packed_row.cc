@@ -278,18 +278,7 @@ absl::StatusOr<std::string> StoredFeaturesJson(const v1::RowLayout* layout,
     first = false;
     AppendJsonString(layout->columns(static_cast<int>(f)).name(), &json);
     json.push_back(':');
-    const scorer::RawValue& v = values[f].value;
-    switch (v.kind) {
-      case scorer::RawValue::Kind::kNumber:
-        AppendJsonNumber(v.number, &json);
-        break;
-      case scorer::RawValue::Kind::kText:
-        AppendJsonString(v.text, &json);
-        break;
-      case scorer::RawValue::Kind::kMissing:
-        json.append("null");
-        break;
-    }
+    AppendJsonValue(values[f].value, &json);
   }
   json.push_back('}');
   return json;
