@@ -55,6 +55,13 @@ absl::Status CheckTarget(const std::string& set, const std::string& version,
   return absl::OkStatus();
 }
 
+// The opening of every admin call about one set: the caller holds the
+// admin role and `set` is a valid name.
+grpc::Status AdmitForSet(grpc::ServerContext* context, const std::string& set) {
+  if (grpc::Status s = Admit(context, Role::kAdmin); !s.ok()) return s;
+  return ToGrpcStatus(CheckTarget(set, "", false));
+}
+
 grpc::Status Reply(const absl::StatusOr<VersionRecord>& record,
                    v1::VersionInfo* reply) {
   if (!record.ok()) return ToGrpcStatus(record.status());
@@ -198,9 +205,8 @@ grpc::Status RegistryService::Shadow(grpc::ServerContext* context,
 grpc::Status RegistryService::Rollback(grpc::ServerContext* context,
                                        const v1::RollbackRequest* request,
                                        v1::VersionInfo* reply) {
-  if (grpc::Status s = Admit(context, Role::kAdmin); !s.ok()) return s;
-  if (absl::Status s = CheckTarget(request->set(), "", false); !s.ok()) {
-    return ToGrpcStatus(s);
+  if (grpc::Status s = AdmitForSet(context, request->set()); !s.ok()) {
+    return s;
   }
   return Reply(
       lifecycle_->Rollback(
@@ -211,9 +217,8 @@ grpc::Status RegistryService::Rollback(grpc::ServerContext* context,
 grpc::Status RegistryService::Refit(grpc::ServerContext* context,
                                     const v1::RefitRequest* request,
                                     v1::RefitReply* reply) {
-  if (grpc::Status s = Admit(context, Role::kAdmin); !s.ok()) return s;
-  if (absl::Status s = CheckTarget(request->set(), "", false); !s.ok()) {
-    return ToGrpcStatus(s);
+  if (grpc::Status s = AdmitForSet(context, request->set()); !s.ok()) {
+    return s;
   }
   // A set with no version has nothing to refit: refused before a job is
   // queued (the worker would only fail it later).
@@ -244,9 +249,8 @@ grpc::Status RegistryService::Refit(grpc::ServerContext* context,
 grpc::Status RegistryService::Audit(grpc::ServerContext* context,
                                     const v1::AuditRequest* request,
                                     v1::AuditReply* reply) {
-  if (grpc::Status s = Admit(context, Role::kAdmin); !s.ok()) return s;
-  if (absl::Status s = CheckTarget(request->set(), "", false); !s.ok()) {
-    return ToGrpcStatus(s);
+  if (grpc::Status s = AdmitForSet(context, request->set()); !s.ok()) {
+    return s;
   }
   absl::StatusOr<std::vector<AuditRecord>> entries =
       lifecycle_->Audit(request->set());
@@ -265,9 +269,8 @@ grpc::Status RegistryService::Audit(grpc::ServerContext* context,
 grpc::Status RegistryService::ShowVersion(grpc::ServerContext* context,
                                           const v1::ShowVersionRequest* request,
                                           v1::VersionDetail* reply) {
-  if (grpc::Status s = Admit(context, Role::kAdmin); !s.ok()) return s;
-  if (absl::Status s = CheckTarget(request->set(), "", false); !s.ok()) {
-    return ToGrpcStatus(s);
+  if (grpc::Status s = AdmitForSet(context, request->set()); !s.ok()) {
+    return s;
   }
   absl::StatusOr<std::vector<VersionRecord>> versions =
       lifecycle_->List(request->set());
@@ -291,9 +294,8 @@ grpc::Status RegistryService::ShowVersion(grpc::ServerContext* context,
 grpc::Status RegistryService::DiffVersions(
     grpc::ServerContext* context, const v1::DiffVersionsRequest* request,
     v1::VersionDiff* reply) {
-  if (grpc::Status s = Admit(context, Role::kAdmin); !s.ok()) return s;
-  if (absl::Status s = CheckTarget(request->set(), "", false); !s.ok()) {
-    return ToGrpcStatus(s);
+  if (grpc::Status s = AdmitForSet(context, request->set()); !s.ok()) {
+    return s;
   }
   absl::StatusOr<std::vector<VersionRecord>> versions =
       lifecycle_->List(request->set());
@@ -311,9 +313,8 @@ grpc::Status RegistryService::DiffVersions(
 grpc::Status RegistryService::GetDossier(grpc::ServerContext* context,
                                          const v1::GetDossierRequest* request,
                                          v1::DossierReply* reply) {
-  if (grpc::Status s = Admit(context, Role::kAdmin); !s.ok()) return s;
-  if (absl::Status s = CheckTarget(request->set(), "", false); !s.ok()) {
-    return ToGrpcStatus(s);
+  if (grpc::Status s = AdmitForSet(context, request->set()); !s.ok()) {
+    return s;
   }
   if (request->job() < 0) {
     return ToGrpcStatus(
@@ -360,9 +361,8 @@ grpc::Status RegistryService::GetDossier(grpc::ServerContext* context,
 grpc::Status RegistryService::GetRecord(grpc::ServerContext* context,
                                         const v1::GetRecordRequest* request,
                                         v1::RecordDetail* reply) {
-  if (grpc::Status s = Admit(context, Role::kAdmin); !s.ok()) return s;
-  if (absl::Status s = CheckTarget(request->set(), "", false); !s.ok()) {
-    return ToGrpcStatus(s);
+  if (grpc::Status s = AdmitForSet(context, request->set()); !s.ok()) {
+    return s;
   }
   if (request->record_id().empty()) {
     return ToGrpcStatus(absl::InvalidArgumentError("record_id is empty"));
