@@ -78,6 +78,9 @@ std::vector<std::pair<std::string, int>> ServerChannelArgs(
   return args;
 }
 
+// Idle gRPC handler threads kept polling (see ApplyServerSettings).
+constexpr int kMaxIdleHandlerThreads = 64;
+
 void ApplyServerSettings(const v1::GrpcServerConfig& config,
                          uint32_t max_message_bytes,
                          grpc::ServerBuilder* builder) {
@@ -87,6 +90,15 @@ void ApplyServerSettings(const v1::GrpcServerConfig& config,
   builder->SetMaxReceiveMessageSize(CappedInt(max_message_bytes));
   builder->SetMaxSendMessageSize(CappedInt(max_message_bytes));
   builder->SetOption(std::make_unique<ReflectionOption>(config.reflection()));
+  // gRPC's synchronous server lets a handler thread that finds more than
+  // MAX_POLLERS (default 2) threads polling exit, and starts a new one when
+  // too few poll. Every durable call blocks its thread until the ledger's
+  // fdatasync, so under a few dozen callers threads were created and torn
+  // down by the thousand a second (each a stack to map and fault in). Idle
+  // threads are kept instead, up to this many polling at once.
+  builder->SetSyncServerOption(
+      grpc::ServerBuilder::SyncServerOption::MAX_POLLERS,
+      kMaxIdleHandlerThreads);
 }
 
 }  // namespace plumbline::daemon
