@@ -13,7 +13,7 @@ scorer/ (and their own), and the external library `sqlite` (sqlite3.h).
 Externals are: proto (generated messages, plumbline/v1/*.pb.h), grpc_stubs
 (plumbline/v1/*.grpc.pb.h), grpc (grpcpp/, grpc/), sqlite (sqlite3.h),
 prometheus (prometheus/), openssl (openssl/), civetweb (civetweb.h,
-CivetServer.h). Anything else (Abseil, Eigen,
+CivetServer.h), libpq (libpq-fe.h). Anything else (Abseil, Eigen,
 protobuf's own headers, the C++ library) is allowed everywhere.
 
 check_tree(root) returns every violation:
@@ -40,11 +40,14 @@ EXTERNALS = {
     "prometheus": re.compile(r"^prometheus/"),
     "openssl": re.compile(r"^openssl/"),
     "civetweb": re.compile(r"^(civetweb|CivetServer)\.h$"),
+    "libpq": re.compile(r"^(libpq-fe|libpq/.*|pg_config.*)\.h$"),
 }
 # Libraries whose whole dependency closure must stay free of these.
-NO_EXTERNAL = {"daemon/cli": {"sqlite", "prometheus", "civetweb"},
-               "scorer": {"sqlite", "prometheus", "grpc", "grpc_stubs"},
-               "monitor": {"sqlite", "prometheus", "grpc", "grpc_stubs"}}
+NO_EXTERNAL = {"daemon/cli": {"sqlite", "prometheus", "civetweb", "libpq"},
+               "scorer": {"sqlite", "prometheus", "grpc", "grpc_stubs",
+                          "libpq"},
+               "monitor": {"sqlite", "prometheus", "grpc", "grpc_stubs",
+                           "libpq"}}
 INCLUDE = re.compile(r'^\s*#\s*include\s*[<"]([^>"]+)[>"]', re.M)
 SOURCE = (".h", ".cc")
 
