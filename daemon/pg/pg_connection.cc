@@ -64,6 +64,14 @@ std::string SqlForMessage(absl::string_view sql) {
   return absl::StrCat("\"", out, "\"");
 }
 
+// libpq takes statements as C strings: one with a NUL byte would be cut
+// short there and run as something else.
+absl::Status CheckSqlText(absl::string_view sql) {
+  if (!HasNul(sql)) return absl::OkStatus();
+  return absl::InvalidArgumentError(absl::StrCat(
+      "PostgreSQL: SQL ", SqlForMessage(sql), " contains a NUL byte"));
+}
+
 // libpq's messages end with a newline and sometimes hold several lines.
 std::string OneLine(const char* text) {
   if (text == nullptr) return "";
@@ -346,10 +354,7 @@ absl::Status CheckResult(PGconn* conn, const PGresult* res,
 }  // namespace
 
 absl::Status PgConnection::Exec(absl::string_view sql) {
-  if (HasNul(sql)) {
-    return absl::InvalidArgumentError(absl::StrCat(
-        "PostgreSQL: SQL ", SqlForMessage(sql), " contains a NUL byte"));
-  }
+  if (absl::Status s = CheckSqlText(sql); !s.ok()) return s;
   const std::string text(sql);
   ResultPtr res(PQexec(conn_, text.c_str()));
   absl::Status status = CheckResult(conn_, res.get(), sql, description_);
@@ -362,10 +367,7 @@ absl::Status PgConnection::Exec(absl::string_view sql) {
 
 absl::StatusOr<PgResult> PgConnection::Query(absl::string_view sql,
                                              absl::Span<const PgValue> params) {
-  if (HasNul(sql)) {
-    return absl::InvalidArgumentError(absl::StrCat(
-        "PostgreSQL: SQL ", SqlForMessage(sql), " contains a NUL byte"));
-  }
+  if (absl::Status s = CheckSqlText(sql); !s.ok()) return s;
   if (params.size() > kMaxParams) {
     return absl::InvalidArgumentError(
         absl::StrCat("PostgreSQL: ", SqlForMessage(sql), " has ", params.size(),
@@ -425,10 +427,7 @@ absl::StatusOr<PgResult> PgConnection::Query(absl::string_view sql,
 
 absl::StatusOr<int64_t> PgConnection::CopyIn(absl::string_view copy_sql,
                                              absl::Span<const PgRow> rows) {
-  if (HasNul(copy_sql)) {
-    return absl::InvalidArgumentError(absl::StrCat(
-        "PostgreSQL: SQL ", SqlForMessage(copy_sql), " contains a NUL byte"));
-  }
+  if (absl::Status s = CheckSqlText(copy_sql); !s.ok()) return s;
   const std::string text(copy_sql);
   ResultPtr res(PQexec(conn_, text.c_str()));
   if (res == nullptr)
