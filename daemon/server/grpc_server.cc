@@ -109,7 +109,7 @@ void DaemonServer::Reload() {
 
 void DaemonServer::UpdateHealth(const ReloadReport& report) {
   absl::MutexLock lock(&mu_);
-  if (shut_down_) return;
+  if (health_stopped_) return;
   grpc::HealthCheckServiceInterface* health = server_->GetHealthCheckService();
   for (const std::string& name : report.unloaded) {
     health->SetServingStatus(name, false);
@@ -119,13 +119,20 @@ void DaemonServer::UpdateHealth(const ReloadReport& report) {
   }
 }
 
+void DaemonServer::StopServingHealth() {
+  absl::MutexLock lock(&mu_);
+  if (health_stopped_) return;
+  health_stopped_ = true;
+  // Marks every name NOT_SERVING and ignores later updates.
+  server_->GetHealthCheckService()->Shutdown();
+}
+
 void DaemonServer::Shutdown(absl::Duration deadline) {
+  StopServingHealth();
   {
     absl::MutexLock lock(&mu_);
     if (shut_down_) return;
     shut_down_ = true;
-    // Marks every name NOT_SERVING and ignores later updates.
-    server_->GetHealthCheckService()->Shutdown();
   }
   server_->Shutdown(absl::ToChronoTime(absl::Now() + deadline));
 }

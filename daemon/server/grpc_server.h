@@ -89,6 +89,9 @@ class DaemonServer {
   // Turns all health names NOT_SERVING, then stops the server: calls in
   // flight may run until `deadline` from now, later ones are refused.
   void Shutdown(absl::Duration deadline);
+  // Turns every health name NOT_SERVING for good while the server goes on
+  // taking calls (the drain before Shutdown). Idempotent.
+  void StopServingHealth();
 
   // Blocks until the server has shut down.
   void Wait();
@@ -104,9 +107,10 @@ class DaemonServer {
   std::unique_ptr<grpc::Server> server_;
   std::string bound_address_;
 
-  // Guarded by mu_: serializes health updates against shutdown, so a reload
-  // racing with Shutdown cannot mark a set SERVING again.
+  // Guarded by mu_: serializes health updates against the drain and
+  // shutdown, so a reload racing with them cannot mark a set SERVING again.
   absl::Mutex mu_;
+  bool health_stopped_ ABSL_GUARDED_BY(mu_) = false;
   bool shut_down_ ABSL_GUARDED_BY(mu_) = false;
 };
 

@@ -170,6 +170,9 @@ absl::StatusOr<v1::DaemonConfig> ReadDaemonConfigFile(const std::string& path) {
   return ParseDaemonConfig(*text, path);
 }
 
+// The longest drain a config may ask for (security.proto drain_seconds).
+constexpr uint64_t kMaxDrainSeconds = 300;
+
 absl::Status CheckDaemonOptions(const DaemonOptions& options) {
   if (options.max_message_bytes < kMinMessageBytes) {
     return absl::InvalidArgumentError(absl::StrCat(
@@ -178,6 +181,13 @@ absl::Status CheckDaemonOptions(const DaemonOptions& options) {
         " bytes; requests and replies over the limit are refused, so most "
         "calls would fail (0 keeps the default of ",
         DaemonOptions().max_message_bytes, ")"));
+  }
+  if (options.grpc.drain_seconds() > kMaxDrainSeconds) {
+    return absl::InvalidArgumentError(absl::StrCat(
+        "grpc.drain_seconds: ", options.grpc.drain_seconds(),
+        " is over the limit of ", kMaxDrainSeconds,
+        " seconds; a stopping replica would keep serving that long after "
+        "saying NOT_SERVING (a few seconds is enough for a balancer)"));
   }
   const v1::SecurityConfig& security = options.security;
   if (security.access().subjects_size() > 0 &&

@@ -372,7 +372,19 @@ void Plumbd::Reload() {
   SyncMonitor();  // a new version starts its own windows at once
 }
 
-void Plumbd::Shutdown(absl::Duration grace) { server_->Shutdown(grace); }
+void Plumbd::Shutdown(absl::Duration grace) {
+  const absl::Duration drain = absl::Seconds(options_.grpc.drain_seconds());
+  if (drain > absl::ZeroDuration()) {
+    server_->StopServingHealth();
+    LogEvent(LogLevel::kInfo, "draining",
+             {{"seconds", absl::StrCat(options_.grpc.drain_seconds())},
+              {"effect",
+               "health checking says NOT_SERVING; calls are still taken "
+               "until the drain ends"}});
+    absl::SleepFor(drain);
+  }
+  server_->Shutdown(grace);
+}
 
 void Plumbd::Wait() { server_->Wait(); }
 

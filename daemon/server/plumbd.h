@@ -107,8 +107,9 @@ class Plumbd {
   // Reloads the sets directory (SIGHUP); a new version starts its windows.
   void Reload();
 
-  // Health names NOT_SERVING, then the server stops: calls in flight may
-  // run for `grace`.
+  // Health names NOT_SERVING; then, for the configured drain
+  // (grpc.drain_seconds), the server goes on taking calls; then it stops:
+  // calls in flight may run for `grace`. Blocks for the drain.
   void Shutdown(absl::Duration grace);
 
   // Blocks until the server has shut down.

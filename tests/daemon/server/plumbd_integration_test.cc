@@ -72,15 +72,19 @@ class PlumbdIntegrationTest : public ::testing::Test {
         WriteTextFile(courier_file(), CourierSetJson("courier", "2026-11"))
             .ok());
     ASSERT_TRUE(WriteTextFile(depot_file(), DepotSetJson("depot", "d1")).ok());
+    std::vector<std::string> args = {"--sets", sets_dir_, "--ledger",
+                                     dir_.File("var/ledger.db")};
+    for (const std::string& a : ExtraArgs()) args.push_back(a);
     absl::StatusOr<std::unique_ptr<PlumbdProcess>> plumbd =
-        PlumbdProcess::Start(dir_.path(), {"--sets", sets_dir_, "--ledger",
-                                           dir_.File("var/ledger.db")});
+        PlumbdProcess::Start(dir_.path(), args);
     ASSERT_TRUE(plumbd.ok()) << plumbd.status();
     plumbd_ = *std::move(plumbd);
     stub_ = testing::NewScoringStub(plumbd_->addr());
     health_ = testing::NewHealthStub(plumbd_->addr());
   }
   void TearDown() override { plumbd_.reset(); }  // kills it if still running
+  // More plumbd arguments for a fixture that needs them.
+  virtual std::vector<std::string> ExtraArgs() { return {}; }
 
   std::string courier_file() const { return sets_dir_ + "/courier.json"; }
   std::string depot_file() const { return sets_dir_ + "/depot.json"; }
@@ -320,6 +324,65 @@ TEST_F(PlumbdIntegrationTest, ReloadOnSighupSwapsVersionsKeepsOldOnBadFile) {
   ASSERT_TRUE(exit_status.ok());
   EXPECT_EQ(*exit_status, 0) << plumbd_->Log();
   EXPECT_EQ(plumbd_->CountLogLines("event=stopped"), 1);
+}
+
+// A replica behind a balancer: with grpc.drain_seconds, SIGTERM turns
+// health checking NOT_SERVING while calls are still answered, and only then
+// does the server stop taking them.
+class PlumbdDrainTest : public PlumbdIntegrationTest {
+ protected:
+  std::vector<std::string> ExtraArgs() override {
+    const std::string config = dir_.File("plumbd.json");
+    EXPECT_TRUE(
+        WriteTextFile(config, R"({"grpc": {"drain_seconds": 2}})").ok());
+    return {"--config", config};
+  }
+  grpc::Status ScoreParcel(const std::string& id) {
+    v1::ScoreRequest request;
+    request.set_set("courier");
+    request.mutable_record()->set_record_id(id);
+    *request.mutable_record()->mutable_features() = Features(
+        R"({"distance_km": 4, "region": "urban", "service": "standard",
+            "hour": 9})");
+    v1::ScoreReply reply;
+    grpc::ClientContext context;
+    return stub_->Score(&context, request, &reply);
+  }
+};
+
+TEST_F(PlumbdDrainTest, SaysNotServingThenStillAnswersThenStops) {
+  ASSERT_TRUE(ScoreParcel("parcel-drain-1").ok());
+  EXPECT_EQ(Health(""), HealthCheckResponse::SERVING);
+  plumbd_->Signal(SIGTERM);
+  ASSERT_TRUE(PollUntil([&] {
+    return plumbd_->CountLogLines("event=draining") == 1;
+  })) << plumbd_->Log();
+  // During the drain: every name NOT_SERVING, calls still answered.
+  EXPECT_EQ(Health(""), HealthCheckResponse::NOT_SERVING);
+  EXPECT_EQ(Health("courier"), HealthCheckResponse::NOT_SERVING);
+  grpc::Status during = ScoreParcel("parcel-drain-2");
+  EXPECT_TRUE(during.ok()) << during.error_message();
+  EXPECT_EQ(plumbd_->CountLogLines("event=stopped"), 0);
+  absl::StatusOr<int> exit_status = plumbd_->WaitForExit();
+  ASSERT_TRUE(exit_status.ok());
+  EXPECT_EQ(*exit_status, 0) << plumbd_->Log();
+  EXPECT_EQ(plumbd_->CountLogLines("event=stopped"), 1);
+}
+
+TEST(PlumbdConfigTest, ADrainOverFiveMinutesIsRefused) {
+  TempDir dir;
+  ASSERT_TRUE(WriteTextFile(dir.File("plumbd.json"),
+                            R"({"grpc": {"drain_seconds": 301}})")
+                  .ok());
+  std::filesystem::create_directory(dir.File("sets"));
+  absl::StatusOr<testing::ProcessResult> result =
+      testing::RunProcess({PLUMBD_PATH, "--listen", "127.0.0.1:0", "--config",
+                           dir.File("plumbd.json"), "--sets", dir.File("sets"),
+                           "--ledger", dir.File("ledger.db")},
+                          dir.path());
+  ASSERT_TRUE(result.ok());
+  EXPECT_EQ(result->exit_code, 1);
+  EXPECT_THAT(result->err, HasSubstr("grpc.drain_seconds: 301"));
 }
 
 TEST_F(PlumbdIntegrationTest, SigintAlsoStopsCleanly) {
