@@ -328,9 +328,27 @@ absl::StatusOr<int> DropPartitionsBefore(PgConnection& db, absl::Time cutoff) {
                           {name});
             if (!exists.ok()) return exists.status();
             if (*exists == 0) return absl::OkStatus();
-            // The name says the day; the rows must agree. A partition with
-            // a row at or after the cutoff (its bounds differ from its
-            // name) is never dropped.
+            // The name says the day; the bounds must agree (the DELETE
+            // below takes the day from the name), and a partition with a
+            // row at or after the cutoff is never dropped.
+            if (absl::Status s = db.Exec("SET LOCAL TimeZone = 'UTC'");
+                !s.ok()) {
+              return s;
+            }
+            absl::StatusOr<PgResult> bound = db.Query(
+                "SELECT pg_get_expr(relpartbound, oid) FROM pg_class "
+                "WHERE oid = $1::regclass",
+                {name});
+            if (!bound.ok()) return bound.status();
+            const std::string want =
+                absl::StrCat("FOR VALUES FROM (", start, ") TO (", end, ")");
+            if (bound->rows.size() != 1 || bound->rows[0][0] != want) {
+              return absl::FailedPreconditionError(absl::StrCat(
+                  name, " has bounds ",
+                  bound->rows.size() == 1 ? bound->rows[0][0].value_or("NULL")
+                                          : std::string("(none)"),
+                  ", not the day its name says (", want, "); not dropped"));
+            }
             absl::StatusOr<int64_t> newer =
                 SingleInt(db, absl::StrCat("SELECT count(*) FROM ", name,
                                            " WHERE ", p.key, " >= ", cut));

@@ -79,8 +79,9 @@ absl::Status EnsurePartitions(PgConnection& db, absl::Time from, absl::Time to);
 // as EnsurePartitions names them; other tables are left alone) whose day
 // ends at or before `cutoff`, together with the score_records /
 // outcome_records rows of that day, and returns how many partitions it
-// dropped. A partition that nonetheless holds a row at or after `cutoff`
-// is never dropped (FailedPrecondition naming it, after the ones dropped
+// dropped. A partition so named whose bounds are not its name's day, or
+// that nonetheless holds a row at or after `cutoff`, is never dropped
+// (FailedPrecondition naming it and its bounds, after the ones dropped
 // before it). InvalidArgument: `cutoff` infinite.
 absl::StatusOr<int> DropPartitionsBefore(PgConnection& db, absl::Time cutoff);
 

@@ -430,7 +430,8 @@ TEST_F(PgSchemaTest, DropPartitionsBeforeDropsWholeDaysAndTheirRecords) {
   EXPECT_THAT(
       DropPartitionsBefore(*db, Utc(2026, 12, 4)),
       StatusIs(absl::StatusCode::kFailedPrecondition,
-               AllOf(HasSubstr("scores_p20261120"), HasSubstr("not dropped"))));
+               AllOf(HasSubstr("scores_p20261120"), HasSubstr("not dropped"),
+                     HasSubstr("2026-12-06 00:00:00+00"))));
   EXPECT_EQ(Count(*db, "SELECT count(*) FROM scores_p20261120"), 1);
   EXPECT_EQ(Count(*db,
                   "SELECT count(*) FROM score_records "
