@@ -1,32 +1,35 @@
 // File: daemon/ledger/ledger.h
 //
-// The ledger: plumbd's SQLite database (WAL mode) of every score it returned
-// and every outcome reported later, joined by record id. Writes go through a
-// single writer thread with a bounded queue and group commit: callers enqueue
-// rows and, under the default acknowledgement, wait until the transaction
-// holding them has committed, so an RPC that returned OK has its rows on
-// disk. A full queue refuses new rows at once with RESOURCE_EXHAUSTED rather
-// than growing without bound. The fsync that makes a commit durable and the
-// WAL checkpoints run on their own threads (daemon/wal_io.h), so the writer
-// builds the next group while the last one is being synced.
+// The ledger: every score plumbd returned and every outcome reported later,
+// joined by record id; what the model-health monitor, the refits and
+// plumbctl read back. This header is the contract and its row types; two
+// backends keep the rows:
+//   SqliteLedger (daemon/ledger/sqlite_ledger.h)  one plumbd's SQLite file,
+//                                                  the zero-setup default
+//   PgLedger (daemon/pg/pg_ledger.h)               a PostgreSQL database that
+//                                                  several replicas share
+// Writes go through one writer thread per process with a bounded queue and
+// group commit: under the default acknowledgement a caller waits until the
+// transaction holding its rows has committed, so an RPC that returned OK has
+// its rows stored; a full queue refuses new rows at once with
+// RESOURCE_EXHAUSTED rather than growing without bound.
 //
-//   auto ledger = Ledger::Open(LedgerOptions{.path = "var/ledger.db"});
-//   absl::Status st = (*ledger)->AppendScores({entry});        // committed
-//   auto results = (*ledger)->ReportOutcomes({{"parcel-1", 1, now}});
+//   ASSIGN_OR_RETURN(std::unique_ptr<Ledger> ledger,
+//                    SqliteLedger::Open({.path = "var/ledger.db"}));
+//   absl::Status st = ledger->AppendScores({entry}).status();  // committed
+//   auto results = ledger->ReportOutcomes({{"parcel-1", 1, now}});
 //
 // Acknowledgement (LedgerOptions::ack):
 //   kCommitted (default)  AppendScores returns after COMMIT; with
-//                         durable_commits (default) the WAL is fsynced, so an
-//                         acknowledged row survives a crash or power loss.
+//                         durable_commits (default) the commit is on disk, so
+//                         an acknowledged row survives a crash or power loss.
 //   kQueued               AppendScores returns once the rows are queued; rows
 //                         still queued are lost if the process dies, and an
 //                         outcome that races its score may be NOT_FOUND.
 // ReportOutcomes always waits for its commit: its per-outcome results depend
-// on what is in the ledger. It looks up the outcomes' scores on the calling
-// thread (daemon/ledger_lookup.h), so the writer only inserts; within one
-// group commit the scores are written before the outcomes, and the writer
-// looks up what the caller did not find, so an outcome queued together with
-// its score finds it.
+// on what is in the ledger. Within one group commit the scores are written
+// before the outcomes, so an outcome queued together with its score finds
+// it.
 //
 // Thread-safe: all public methods may be called from any thread.
 #ifndef PLUMBLINE_DAEMON_LEDGER_LEDGER_H_
@@ -48,19 +51,13 @@
 #include "absl/status/statusor.h"
 #include "absl/synchronization/mutex.h"
 #include "absl/time/time.h"
-#include "daemon/ledger/lock.h"
-#include "daemon/ledger/sqlite_db.h"
 #include "daemon/util/set_version.h"
 #include "daemon/util/time.h"
 #include "plumbline/v1/ledger.pb.h"
 
 namespace plumbline::daemon {
 
-class LedgerSetIds;
-struct LedgerSetId;
-class ScoreLookup;
-class WalCheckpointer;
-class WalSyncer;
+class LedgerEnv;  // daemon/ledger/env.h
 
 struct LedgerOptions {
   // SQLite file; its directory is created if missing. Open takes the lock
@@ -223,16 +220,14 @@ struct LedgerStats {
   // failed, the file deleted or replaced); plumbd must be restarted.
   bool failed = false;
 };
-
+// The ledger's contract, whatever keeps the rows. Every backend gives the
+// same guarantees, checked by the same test bodies
+// (tests/daemon/ledger/contract_test.cc): all or none per call, nothing
+// acknowledged before its commit, one active score per (record id, set),
+// one outcome per record id, the rows observer fed in commit order.
 class Ledger {
  public:
-  // Opens or creates the ledger, applies forward schema migrations and starts
-  // the writer. FAILED_PRECONDITION if the file's schema is newer than this
-  // build knows.
-  static absl::StatusOr<std::unique_ptr<Ledger>> Open(LedgerOptions options);
-
-  // Commits everything queued, then stops the writer.
-  ~Ledger();
+  virtual ~Ledger() = default;
   Ledger(const Ledger&) = delete;
   Ledger& operator=(const Ledger&) = delete;
 
@@ -247,13 +242,13 @@ class Ledger {
   // commit (nothing was acknowledged). With ack=queued the answer comes
   // before the writer has run: no repeat is reported, and a conflict is
   // logged (event=ledger_scores_refused) and counted, not returned.
-  absl::StatusOr<std::vector<ScoreWrite>> AppendScores(
-      std::vector<ScoreEntry> scores);
+  virtual absl::StatusOr<std::vector<ScoreWrite>> AppendScores(
+      std::vector<ScoreEntry> scores) = 0;
 
   // Records outcomes; one result per outcome, in order. The call itself fails
   // only when the queue is full or the transaction could not commit.
-  absl::StatusOr<std::vector<OutcomeResult>> ReportOutcomes(
-      std::vector<OutcomeEntry> outcomes);
+  virtual absl::StatusOr<std::vector<OutcomeResult>> ReportOutcomes(
+      std::vector<OutcomeEntry> outcomes) = 0;
 
   // Calls `fn` with the most recent labelled scores of `set_name` (newest
   // first, by outcome time), at most `limit` of them, observed at or after
@@ -263,28 +258,33 @@ class Ledger {
   absl::Status ForEachLabelled(
       const std::string& set_name, int64_t limit, absl::Time since,
       const std::function<void(const LabelledScore&)>& fn,
-      const LedgerMarks* upto = nullptr);
+      const LedgerMarks* upto = nullptr) {
+    return ReadLabelled(set_name, limit, since, fn, upto);
+  }
 
   // Calls `fn` with the most recent scores of `set_name`, newest first.
   absl::Status ForEachScore(const std::string& set_name, int64_t limit,
                             absl::Time since,
                             const std::function<void(const ScoreEntry&)>& fn,
-                            const LedgerMarks* upto = nullptr);
+                            const LedgerMarks* upto = nullptr) {
+    return ReadScores(set_name, limit, since, fn, upto);
+  }
 
   // Every score of `record_id` by set `set_name` (any version and role) and
   // its outcome. NOT_FOUND when there is no such score. Reads on its own
   // connection; sees committed rows only.
-  absl::StatusOr<StoredRecord> FindRecord(const std::string& set_name,
-                                          const std::string& record_id);
+  virtual absl::StatusOr<StoredRecord> FindRecord(
+      const std::string& set_name, const std::string& record_id) = 0;
 
-  LedgerStats stats() const;
+  virtual LedgerStats stats() const = 0;
 
   // Rows the queue holds at most (LedgerOptions::queue_capacity_rows).
-  size_t queue_capacity_rows() const { return options_.queue_capacity_rows; }
+  virtual size_t queue_capacity_rows() const = 0;
 
   // Called by the writer after every commit with its latency and row count
   // (for metrics). Set before the first write; must be thread-safe.
-  void set_commit_observer(std::function<void(absl::Duration, size_t)> fn);
+  virtual void set_commit_observer(
+      std::function<void(absl::Duration, size_t)> fn) = 0;
 
   // Called on the writer thread with the rows of every group, in commit
   // order, right after its COMMIT and before any of its callers is answered
@@ -293,15 +293,16 @@ class Ledger {
   // fed this way, so what it holds is always exactly the ledger up to
   // Marks(). It runs on the writer's critical path: keep it to
   // per-record arithmetic. Set before the first write.
-  void set_rows_observer(std::function<void(const CommittedRows&)> fn);
+  virtual void set_rows_observer(
+      std::function<void(const CommittedRows&)> fn) = 0;
 
   // The marks of everything committed so far.
-  LedgerMarks Marks() const;
+  virtual LedgerMarks Marks() const = 0;
 
   // Returns once every row queued before the call is committed (and its
   // group told to the rows observer), with the error of that commit if it
   // failed.
-  absl::Status Flush();
+  virtual absl::Status Flush() = 0;
 
   // Calls `fn` with every score of id in (after_id, upto_id] (any set,
   // version and role), in id order; and with every labelled score whose
@@ -310,112 +311,40 @@ class Ledger {
   // reads on its own connection and sees committed rows only.
   absl::Status ForEachScoreAfter(
       int64_t after_id, const std::function<void(const ScoreEntry&)>& fn,
-      int64_t upto_id = INT64_MAX);
+      int64_t upto_id = INT64_MAX) {
+    return ReadScoresAfter(after_id, fn, upto_id);
+  }
   absl::Status ForEachLabelledAfter(
       int64_t after_seq, const std::function<void(const LabelledScore&)>& fn,
-      int64_t upto_seq = INT64_MAX);
+      int64_t upto_seq = INT64_MAX) {
+    return ReadLabelledAfter(after_seq, fn, upto_seq);
+  }
 
   // The record ids of the score with id marks.score_id and of the outcome
   // with seq marks.outcome_seq, to check that a pair of marks still means
   // the rows it meant (an id is reused only when every row above it was
   // deleted).
-  absl::StatusOr<MarkRecords> RecordsAt(const LedgerMarks& marks);
+  virtual absl::StatusOr<MarkRecords> RecordsAt(const LedgerMarks& marks) = 0;
 
-  // The schema version this build writes.
-  static int SchemaVersion();
+ protected:
+  Ledger() = default;
 
- private:
-  struct Job;
-  struct Statements;
-
-  explicit Ledger(LedgerOptions options);
-  absl::Status Enqueue(const std::shared_ptr<Job>& job);
-  void WriterLoop();
-  // Writes and commits `group`; `marks` gets the ledger's marks with it in.
-  absl::Status RunGroup(std::vector<std::shared_ptr<Job>>& group,
-                        LedgerMarks* marks);
-  // Inserts the group's scores; the jobs' `written` and `refused` say how.
-  absl::Status WriteScores(std::vector<std::shared_ptr<Job>>& group);
-  // One job's scores row by row (some (record id, set) was there before),
-  // `ids` its scores' set ids.
-  absl::Status WriteJobScores(Job& job, const LedgerSetId* ids);
-  // The layout stored with score_sets row `set_id` (`json`: its layout
-  // column; empty for rows of schema < 7), parsed once and kept for the
-  // ledger's life; null when there is none. Thread-safe.
-  std::shared_ptr<const v1::RowLayout> StoredLayout(int64_t set_id,
-                                                    absl::string_view json);
-  // A result row of reads.cc's score / labelled columns as an entry.
-  ScoreEntry ScoreFromRow(const SqliteStatement& s);
-  LabelledScore LabelledFromRow(const SqliteStatement& s);
-  // OK, or why the ledger stopped taking writes.
-  absl::Status Failure() const;
-  // Stops taking writes for good (this process), logging why once.
-  void Fail(const absl::Status& cause);
-  // UNAVAILABLE (and Fail) if the ledger's path no longer names the file
-  // the writer opened (deleted, or replaced by another file).
-  absl::Status CheckFile();
-  // Logs and counts a group that failed to commit or sync.
-  void WriteFailed(const absl::Status& st, size_t rows);
-  // Counts a group's commit (when `st` is OK) and acknowledges its jobs.
-  void Finish(const std::vector<std::shared_ptr<Job>>& group, absl::Status st,
-              absl::Time start, size_t rows);
-  // After a group's COMMIT: moves marks_ to `marks` and tells the rows
-  // observer what the group wrote. Writer thread.
-  void Committed(const std::vector<std::shared_ptr<Job>>& group,
-                 const LedgerMarks& marks);
-  // INVALID_ARGUMENT when `o` can never be stored (empty id, label not 0/1).
-  static absl::Status CheckOutcome(const OutcomeEntry& o);
-  // Stores the group's outcomes (after its scores), looking up the scores
-  // the callers did not find.
-  absl::Status WriteOutcomes(std::vector<std::shared_ptr<Job>>& group);
-  // Runs the single-row insert bound for `o`; on a conflict, a repeat or
-  // FAILED_PRECONDITION in `result`.
-  absl::Status InsertOutcome(const OutcomeEntry& o, OutcomeResult& result);
-  absl::Status ApplyRetention();
-  // SQLite's WAL hook on the writer connection (after each commit, with the
-  // WAL's size in pages): asks for checkpoints.
-  static int OnWalCommit(void* ledger, sqlite3* db, const char* name,
-                         int frames);
-
-  // Constant after Open.
-  const LedgerOptions options_;
-  LedgerEnv* const env_;                   // options_.env or the default
-  std::unique_ptr<LedgerLock> lock_;       // released last
-  std::unique_ptr<SqliteDb> writer_db_;    // used by the writer thread only
-  std::unique_ptr<Statements> stmts_;      // writer thread only
-  std::unique_ptr<LedgerSetIds> set_ids_;  // writer thread only
-  std::unique_ptr<ScoreLookup> lookup_;    // thread-safe
-  // Both thread-safe; syncer_ is null unless durable_commits.
-  std::unique_ptr<WalCheckpointer> checkpointer_;
-  std::unique_ptr<WalSyncer> syncer_;
-  std::function<void(absl::Duration, size_t)> commit_observer_;
-  std::function<void(const CommittedRows&)> rows_observer_;
-
-  mutable absl::Mutex mu_;
-  std::deque<std::shared_ptr<Job>> queue_ ABSL_GUARDED_BY(mu_);
-  int64_t queued_rows_ ABSL_GUARDED_BY(mu_) = 0;
-  bool stopping_ ABSL_GUARDED_BY(mu_) = false;
-  LedgerStats stats_ ABSL_GUARDED_BY(mu_);
-  absl::Status failed_ ABSL_GUARDED_BY(mu_);  // OK while healthy
-  LedgerMarks marks_ ABSL_GUARDED_BY(mu_);
-
-  // Layouts by score_sets id (StoredLayout); entries are never removed.
-  absl::Mutex layouts_mu_;
-  absl::flat_hash_map<int64_t, std::shared_ptr<const v1::RowLayout>> layouts_
-      ABSL_GUARDED_BY(layouts_mu_);
-
-  // Retention passes run so far (written by the writer after each pass).
-  std::atomic<int64_t> retention_passes_{0};
-
-  // Writer thread only.
-  absl::Time last_retention_ = absl::InfinitePast();
-  int wal_frames_ = 0;  // the WAL's size after the last commit
-  // The seq of the last outcome written (committed or in the open group).
-  int64_t outcome_seq_ = 0;
-  // Device and inode of the ledger file at Open (constant after Open).
-  uint64_t file_dev_ = 0, file_ino_ = 0;
-
-  std::thread writer_;
+  // The reads behind ForEachLabelled, ForEachScore, ForEachScoreAfter and
+  // ForEachLabelledAfter (virtual functions take no default arguments).
+  virtual absl::Status ReadLabelled(
+      const std::string& set_name, int64_t limit, absl::Time since,
+      const std::function<void(const LabelledScore&)>& fn,
+      const LedgerMarks* upto) = 0;
+  virtual absl::Status ReadScores(
+      const std::string& set_name, int64_t limit, absl::Time since,
+      const std::function<void(const ScoreEntry&)>& fn,
+      const LedgerMarks* upto) = 0;
+  virtual absl::Status ReadScoresAfter(
+      int64_t after_id, const std::function<void(const ScoreEntry&)>& fn,
+      int64_t upto_id) = 0;
+  virtual absl::Status ReadLabelledAfter(
+      int64_t after_seq, const std::function<void(const LabelledScore&)>& fn,
+      int64_t upto_seq) = 0;
 };
 
 }  // namespace plumbline::daemon

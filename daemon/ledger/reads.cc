@@ -1,5 +1,5 @@
 // File: daemon/ledger/reads.cc
-// The read side of the ledger (Ledger::ForEachLabelled, ForEachScore): each
+// The read side of the ledger (SqliteLedger::ReadLabelled, ReadScores): each
 // call opens its own connection, so reads never wait for or hold up the
 // writer thread (WAL mode: readers see the last committed state).
 #include <cstdint>
@@ -8,7 +8,7 @@
 
 #include "absl/strings/str_cat.h"
 #include "daemon/ledger/entries.h"
-#include "daemon/ledger/ledger.h"
+#include "daemon/ledger/sqlite_ledger.h"
 #include "daemon/util/caller_text.h"
 #include "google/protobuf/util/json_util.h"
 
@@ -70,7 +70,7 @@ constexpr char kLabelledColumns[] =
 
 }  // namespace
 
-std::shared_ptr<const v1::RowLayout> Ledger::StoredLayout(
+std::shared_ptr<const v1::RowLayout> SqliteLedger::StoredLayout(
     int64_t set_id, absl::string_view json) {
   if (json.empty()) return nullptr;
   absl::MutexLock lock(&layouts_mu_);
@@ -90,7 +90,7 @@ std::shared_ptr<const v1::RowLayout> Ledger::StoredLayout(
   return layouts_.emplace(set_id, std::move(layout)).first->second;
 }
 
-ScoreEntry Ledger::ScoreFromRow(const SqliteStatement& s) {
+ScoreEntry SqliteLedger::ScoreFromRow(const SqliteStatement& s) {
   return ScoreEntry{s.ColumnText(0),
                     s.ColumnText(1),
                     s.ColumnText(2),
@@ -102,7 +102,7 @@ ScoreEntry Ledger::ScoreFromRow(const SqliteStatement& s) {
                     StoredLayout(s.ColumnInt64(8), s.ColumnText(9))};
 }
 
-LabelledScore Ledger::LabelledFromRow(const SqliteStatement& s) {
+LabelledScore SqliteLedger::LabelledFromRow(const SqliteStatement& s) {
   return LabelledScore{s.ColumnText(0),
                        s.ColumnText(1),
                        s.ColumnText(2),
@@ -116,7 +116,7 @@ LabelledScore Ledger::LabelledFromRow(const SqliteStatement& s) {
                        StoredLayout(s.ColumnInt64(10), s.ColumnText(11))};
 }
 
-absl::Status Ledger::ForEachLabelled(
+absl::Status SqliteLedger::ReadLabelled(
     const std::string& set_name, int64_t limit, absl::Time since,
     const std::function<void(const LabelledScore&)>& fn,
     const LedgerMarks* upto) {
@@ -136,7 +136,7 @@ absl::Status Ledger::ForEachLabelled(
       [&](const SqliteStatement& s) { fn(LabelledFromRow(s)); });
 }
 
-absl::Status Ledger::ForEachScore(
+absl::Status SqliteLedger::ReadScores(
     const std::string& set_name, int64_t limit, absl::Time since,
     const std::function<void(const ScoreEntry&)>& fn, const LedgerMarks* upto) {
   return ReadRows(
@@ -153,7 +153,7 @@ absl::Status Ledger::ForEachScore(
       [&](const SqliteStatement& s) { fn(ScoreFromRow(s)); });
 }
 
-absl::Status Ledger::ForEachScoreAfter(
+absl::Status SqliteLedger::ReadScoresAfter(
     int64_t after_id, const std::function<void(const ScoreEntry&)>& fn,
     int64_t upto_id) {
   return ReadRows(
@@ -165,7 +165,7 @@ absl::Status Ledger::ForEachScoreAfter(
       [&](const SqliteStatement& s) { fn(ScoreFromRow(s)); });
 }
 
-absl::Status Ledger::ForEachLabelledAfter(
+absl::Status SqliteLedger::ReadLabelledAfter(
     int64_t after_seq, const std::function<void(const LabelledScore&)>& fn,
     int64_t upto_seq) {
   return ReadRows(
@@ -183,7 +183,7 @@ absl::Status Ledger::ForEachLabelledAfter(
       [&](const SqliteStatement& s) { fn(LabelledFromRow(s)); });
 }
 
-absl::StatusOr<MarkRecords> Ledger::RecordsAt(const LedgerMarks& marks) {
+absl::StatusOr<MarkRecords> SqliteLedger::RecordsAt(const LedgerMarks& marks) {
   auto db = SqliteDb::Open(options_.path, env_);
   if (!db.ok()) return db.status();
   MarkRecords records;
@@ -208,8 +208,8 @@ absl::StatusOr<MarkRecords> Ledger::RecordsAt(const LedgerMarks& marks) {
   return records;
 }
 
-absl::StatusOr<StoredRecord> Ledger::FindRecord(const std::string& set_name,
-                                                const std::string& record_id) {
+absl::StatusOr<StoredRecord> SqliteLedger::FindRecord(
+    const std::string& set_name, const std::string& record_id) {
   auto db = SqliteDb::Open(options_.path, env_);
   if (!db.ok()) return db.status();
   StoredRecord record;

@@ -7,7 +7,7 @@
 // comparison that justified it and its full document (the set as JSON), so
 // a version can be served again after a restart without its file.
 //
-//   auto store = VersionStore::Open("var/ledger.db");   // after Ledger::Open
+//   auto store = VersionStore::Open("var/ledger.db");   // after SqliteLedger::Open
 //   absl::Status s = (*store)->InTransaction([&]() -> absl::Status {
 //     ... Insert / SetState / RecordActivation / AppendAudit ...
 //   });
@@ -69,7 +69,7 @@ struct AuditRecord {
 
 class VersionStore {
  public:
-  // Opens a connection to a ledger that Ledger::Open has already migrated,
+  // Opens a connection to a ledger that SqliteLedger::Open has already migrated,
   // through `env` (the ledger's I/O seam; null: the default), which must
   // outlive the store.
   static absl::StatusOr<std::unique_ptr<VersionStore>> Open(

@@ -9,6 +9,7 @@
 #include "absl/strings/match.h"
 #include "absl/strings/str_cat.h"
 #include "daemon/access/access_control.h"
+#include "daemon/ledger/sqlite_ledger.h"
 #include "daemon/metrics/health.h"
 #include "daemon/metrics/ledger.h"
 #include "daemon/metrics/shadows.h"
@@ -123,7 +124,7 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
   LedgerOptions ledger_options = o.ledger;
   ledger_options.holder_note = absl::StrCat("listen ", o.listen);
   absl::StatusOr<std::unique_ptr<Ledger>> ledger =
-      Ledger::Open(std::move(ledger_options));
+      SqliteLedger::Open(std::move(ledger_options));
   if (!ledger.ok()) return ledger.status();
   d->ledger_ = *std::move(ledger);
   if (o.ledger.queue_capacity_rows < o.max_batch_records) {

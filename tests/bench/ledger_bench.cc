@@ -41,7 +41,7 @@
 #include "absl/strings/str_format.h"
 #include "absl/time/clock.h"
 #include "benchmark/benchmark.h"
-#include "daemon/ledger/ledger.h"
+#include "daemon/ledger/sqlite_ledger.h"
 #include "daemon/scoring/features_json.h"
 #include "daemon/util/json_text.h"
 #include "google/protobuf/struct.pb.h"
@@ -154,7 +154,7 @@ absl::StatusOr<std::unique_ptr<Ledger>> OpenLedger(const BenchData& data,
   LedgerOptions options;
   options.path = absl::StrCat(data.dir, "/bench.db");
   options.durable_commits = durable;
-  return Ledger::Open(options);
+  return SqliteLedger::Open(options);
 }
 
 absl::StatusOr<std::unique_ptr<Ledger>> FreshLedger(const BenchData& data,
@@ -342,7 +342,7 @@ absl::Status Run(BenchData& data) {
       !path.empty()) {
     LedgerOptions options;
     options.path = path;
-    return Ledger::Open(options).status();
+    return SqliteLedger::Open(options).status();
   }
   if (absl::Status s = MakeData(absl::GetFlag(FLAGS_rows), data); !s.ok()) {
     return s;

@@ -25,7 +25,7 @@
 #include "absl/flags/parse.h"
 #include "absl/strings/str_cat.h"
 #include "absl/time/clock.h"
-#include "daemon/ledger/ledger.h"
+#include "daemon/ledger/sqlite_ledger.h"
 #include "daemon/scoring/packed_row.h"
 #include "daemon/scoring/set_registry.h"
 
@@ -41,6 +41,7 @@ namespace {
 
 using daemon::Ledger;
 using daemon::LedgerOptions;
+using daemon::SqliteLedger;
 using daemon::OutcomeEntry;
 using daemon::ScoreEntry;
 using scorer::RawValue;
@@ -57,7 +58,7 @@ int Run() {
   options.durable_commits = false;  // a fill, not a durability test
   options.queue_capacity_rows = 1'000'000;
   options.max_group_rows = 50'000;
-  absl::StatusOr<std::unique_ptr<Ledger>> ledger = Ledger::Open(options);
+  absl::StatusOr<std::unique_ptr<Ledger>> ledger = SqliteLedger::Open(options);
   if (!ledger.ok()) {
     std::fprintf(stderr, "%s\n", ledger.status().ToString().c_str());
     return 1;

@@ -5,7 +5,7 @@
 //
 //   ASSERT_OK(ledger->Flush());
 //   EXPECT_OK(status);
-//   ASSERT_OK_AND_ASSIGN(std::unique_ptr<Ledger> ledger, Ledger::Open(o));
+//   ASSERT_OK_AND_ASSIGN(std::unique_ptr<Ledger> ledger, SqliteLedger::Open(o));
 //   EXPECT_THAT(Parse(""), StatusIs(absl::StatusCode::kInvalidArgument,
 //                                   HasSubstr("field 'name'")));
 //

@@ -19,7 +19,7 @@
 #include "absl/base/thread_annotations.h"
 #include "absl/synchronization/mutex.h"
 #include "daemon/access/access_control.h"
-#include "daemon/ledger/ledger.h"
+#include "daemon/ledger/sqlite_ledger.h"
 #include "daemon/ledger/sqlite_db.h"
 #include "daemon/metrics/exporter.h"
 #include "daemon/scoring/set_registry.h"
@@ -111,7 +111,7 @@ class InProcessServerTest : public ::testing::Test {
     DaemonOptions options;
     options.listen = "127.0.0.1:0";
     options.ledger.path = dir_.File("ledger.db");
-    auto ledger = Ledger::Open(options.ledger);
+    auto ledger = SqliteLedger::Open(options.ledger);
     ASSERT_TRUE(ledger.ok()) << ledger.status();
     ledger_ = *std::move(ledger);
     ServerAttachments attachments;

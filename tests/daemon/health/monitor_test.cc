@@ -13,6 +13,7 @@
 #include <vector>
 
 #include "absl/strings/str_cat.h"
+#include "daemon/ledger/sqlite_ledger.h"
 #include "gmock/gmock.h"
 #include "gtest/gtest.h"
 #include "tests/testing/health_test_sets.h"
@@ -425,7 +426,7 @@ class HealthRebuildTest : public HealthMonitorTest {
     LedgerOptions options;
     options.path = (dir_ / "ledger.db").string();
     options.durable_commits = false;
-    auto ledger = Ledger::Open(options);
+    auto ledger = SqliteLedger::Open(options);
     ASSERT_TRUE(ledger.ok()) << ledger.status();
     ledger_ = *std::move(ledger);
   }

@@ -18,7 +18,7 @@
 #include "daemon/health/monitor.h"
 #include "daemon/health/snapshot_store.h"
 #include "daemon/ledger/env.h"
-#include "daemon/ledger/ledger.h"
+#include "daemon/ledger/sqlite_ledger.h"
 #include "daemon/scoring/packed_row.h"
 #include "gmock/gmock.h"
 #include "google/protobuf/util/message_differencer.h"
@@ -43,7 +43,7 @@ class HealthRestoreTest : public ::testing::Test {
     LedgerOptions options;
     options.path = path_;
     options.durable_commits = false;
-    auto ledger = Ledger::Open(options);
+    auto ledger = SqliteLedger::Open(options);
     ASSERT_TRUE(ledger.ok()) << ledger.status();
     ledger_ = *std::move(ledger);
     auto store = SnapshotStore::Open(path_);
@@ -273,7 +273,7 @@ TEST_F(HealthRestoreTest,
   LedgerOptions options;
   options.path = path_;
   options.env = &env;
-  auto ledger = Ledger::Open(options);
+  auto ledger = SqliteLedger::Open(options);
   ASSERT_TRUE(ledger.ok()) << ledger.status();
   ledger_ = *std::move(ledger);
   HealthMonitorOptions background = options_;

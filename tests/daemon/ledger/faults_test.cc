@@ -19,7 +19,7 @@
 #include <vector>
 
 #include "absl/strings/str_cat.h"
-#include "daemon/ledger/ledger.h"
+#include "daemon/ledger/sqlite_ledger.h"
 #include "gmock/gmock.h"
 #include "gtest/gtest.h"
 #include "tests/testing/faulty_env.h"
@@ -41,7 +41,7 @@ class LedgerFaultsTest : public ::testing::Test {
   }
 
   std::unique_ptr<Ledger> Open() {
-    auto ledger = Ledger::Open(options_);
+    auto ledger = SqliteLedger::Open(options_);
     EXPECT_TRUE(ledger.ok()) << ledger.status();
     return ledger.ok() ? *std::move(ledger) : nullptr;
   }
@@ -221,7 +221,7 @@ TEST_F(LedgerFaultsTest, ALedgerReplacedWhileRunningStopsAcknowledgement) {
 
 TEST_F(LedgerFaultsTest, AnEmptyLedgerFileIsRefusedNotTakenAsNew) {
   ASSERT_OK(testing::WriteTextFile(options_.path, ""));
-  EXPECT_THAT(Ledger::Open(options_),
+  EXPECT_THAT(SqliteLedger::Open(options_),
               StatusIs(absl::StatusCode::kFailedPrecondition,
                        HasSubstr("exists but is empty (0 bytes)")));
 }
@@ -242,7 +242,7 @@ TEST_F(LedgerFaultsTest, ALedgerThatCannotBeWrittenIsRefusedAtStartup) {
   } else {
     ASSERT_EQ(::chmod(path.c_str(), 0444), 0);
   }
-  absl::StatusOr<std::unique_ptr<Ledger>> ledger = Ledger::Open(options_);
+  absl::StatusOr<std::unique_ptr<Ledger>> ledger = SqliteLedger::Open(options_);
   if (root) std::system(absl::StrCat("chattr -i '", path, "'").c_str());
   EXPECT_THAT(ledger, StatusIs(absl::StatusCode::kFailedPrecondition,
                                HasSubstr("cannot be written")));

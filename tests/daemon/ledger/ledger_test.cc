@@ -1,4 +1,4 @@
-#include "daemon/ledger/ledger.h"
+#include "daemon/ledger/sqlite_ledger.h"
 
 #include <unistd.h>
 
@@ -30,7 +30,7 @@ class LedgerTest : public ::testing::Test {
   }
 
   std::unique_ptr<Ledger> OpenLedger() {
-    auto ledger = Ledger::Open(options_);
+    auto ledger = SqliteLedger::Open(options_);
     EXPECT_TRUE(ledger.ok()) << ledger.status();
     return ledger.ok() ? *std::move(ledger) : nullptr;
   }
@@ -102,7 +102,7 @@ TEST_F(LedgerTest, CreatesAWalLedgerWithTheCurrentSchema) {
   ASSERT_TRUE(st.ok());
   ASSERT_TRUE(*(*st)->Step());
   EXPECT_EQ((*st)->ColumnText(0), "wal");
-  EXPECT_EQ(*(*db)->QueryInt64("PRAGMA user_version"), Ledger::SchemaVersion());
+  EXPECT_EQ(*(*db)->QueryInt64("PRAGMA user_version"), SqliteLedger::SchemaVersion());
 }
 
 TEST_F(LedgerTest, OutcomesJoinToScoresWithTheDocumentedCodes) {
@@ -240,7 +240,7 @@ TEST_F(LedgerTest, MigratesAVersion1LedgerKeepingItsRows) {
   auto ledger = OpenLedger();
   ASSERT_NE(ledger, nullptr);
   auto db = SqliteDb::Open(options_.path);
-  EXPECT_EQ(*(*db)->QueryInt64("PRAGMA user_version"), Ledger::SchemaVersion());
+  EXPECT_EQ(*(*db)->QueryInt64("PRAGMA user_version"), SqliteLedger::SchemaVersion());
   EXPECT_EQ(*(*db)->QueryInt64(
                 "SELECT COUNT(*) FROM sqlite_schema WHERE name = 'outcomes'"
                 " AND sql LIKE '%WITHOUT ROWID%'"),
@@ -305,7 +305,7 @@ TEST_F(LedgerTest, MigratesAVersion3LedgerDroppingTheSetTimeIndex) {
   auto ledger = OpenLedger();
   ASSERT_NE(ledger, nullptr);
   auto db = SqliteDb::Open(options_.path);
-  EXPECT_EQ(*(*db)->QueryInt64("PRAGMA user_version"), Ledger::SchemaVersion());
+  EXPECT_EQ(*(*db)->QueryInt64("PRAGMA user_version"), SqliteLedger::SchemaVersion());
   EXPECT_EQ(*(*db)->QueryInt64("SELECT COUNT(*) FROM sqlite_schema"
                                " WHERE name = 'scores_by_set_time'"),
             0);
@@ -361,7 +361,7 @@ TEST_F(LedgerTest, RefusesANewerSchema) {
     auto db = SqliteDb::Open(options_.path);
     ASSERT_TRUE((*db)->Exec("PRAGMA user_version = 99").ok());
   }
-  auto ledger = Ledger::Open(options_);
+  auto ledger = SqliteLedger::Open(options_);
   ASSERT_FALSE(ledger.ok());
   EXPECT_EQ(ledger.status().code(), absl::StatusCode::kFailedPrecondition);
   EXPECT_THAT(ledger.status().message(), HasSubstr("schema version 99"));
@@ -710,7 +710,7 @@ TEST_F(LedgerTest, ASecondWriterOnTheSameLedgerIsRefusedNamingTheFirst) {
   options_.holder_note = "listen 127.0.0.1:7390";
   auto first = OpenLedger();
   ASSERT_NE(first, nullptr);
-  EXPECT_THAT(Ledger::Open(options_),
+  EXPECT_THAT(SqliteLedger::Open(options_),
               plumbline::testing::StatusIs(
                   absl::StatusCode::kFailedPrecondition,
                   ::testing::AllOf(HasSubstr("is in use by another plumbd"),

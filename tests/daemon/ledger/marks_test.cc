@@ -13,7 +13,7 @@
 
 #include "absl/strings/str_cat.h"
 #include "absl/synchronization/mutex.h"
-#include "daemon/ledger/ledger.h"
+#include "daemon/ledger/sqlite_ledger.h"
 #include "gtest/gtest.h"
 #include "tests/testing/process.h"
 
@@ -41,7 +41,7 @@ class LedgerMarksTest : public ::testing::Test {
         (std::filesystem::path(temp_.path()) / "ledger.db").string();
   }
   std::unique_ptr<Ledger> Open() {
-    auto ledger = Ledger::Open(options_);
+    auto ledger = SqliteLedger::Open(options_);
     EXPECT_TRUE(ledger.ok()) << ledger.status();
     if (!ledger.ok()) return nullptr;
     (*ledger)->set_rows_observer([this](const CommittedRows& rows) {

@@ -19,7 +19,7 @@
 
 #include "absl/strings/match.h"
 #include "absl/strings/str_cat.h"
-#include "daemon/ledger/ledger.h"
+#include "daemon/ledger/sqlite_ledger.h"
 #include "daemon/registry/lifecycle.h"
 #include "daemon/registry/version_store.h"
 #include "daemon/review/dossier_html.h"
@@ -54,7 +54,7 @@ class RefitJobTest : public ::testing::Test {
                     .ok());
     LedgerOptions options;
     options.path = dir_.File("ledger.db");
-    ledger_ = *Ledger::Open(options);
+    ledger_ = *SqliteLedger::Open(options);
     store_ = *VersionStore::Open(options.path);
     lifecycle_ = std::make_unique<Lifecycle>(store_.get());
     registry_ =

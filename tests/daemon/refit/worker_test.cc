@@ -17,7 +17,7 @@
 #include "absl/strings/match.h"
 #include "absl/strings/str_cat.h"
 #include "absl/synchronization/mutex.h"
-#include "daemon/ledger/ledger.h"
+#include "daemon/ledger/sqlite_ledger.h"
 #include "daemon/refit/job.h"
 #include "daemon/registry/lifecycle.h"
 #include "daemon/registry/version_store.h"
@@ -43,7 +43,7 @@ class RefitWorkerTest : public ::testing::Test {
                     .ok());
     LedgerOptions options;
     options.path = dir_.File("ledger.db");
-    ledger_ = *Ledger::Open(options);
+    ledger_ = *SqliteLedger::Open(options);
     store_ = *VersionStore::Open(options.path);
     lifecycle_ = std::make_unique<Lifecycle>(store_.get());
     registry_ =

@@ -12,7 +12,7 @@
 #include <vector>
 
 #include "absl/strings/str_cat.h"
-#include "daemon/ledger/ledger.h"
+#include "daemon/ledger/sqlite_ledger.h"
 #include "daemon/registry/version_store.h"
 #include "daemon/scoring/set_registry.h"
 #include "gmock/gmock.h"
@@ -32,7 +32,7 @@ struct Stack {
   explicit Stack(const TempDir& dir) {
     LedgerOptions options;
     options.path = dir.File("ledger.db");
-    ledger = *Ledger::Open(options);
+    ledger = *SqliteLedger::Open(options);
     store = *VersionStore::Open(options.path);
     lifecycle = std::make_unique<Lifecycle>(store.get());
     registry = std::make_unique<SetRegistry>(dir.File("sets"), lifecycle.get());

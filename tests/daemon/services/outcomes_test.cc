@@ -12,6 +12,7 @@
 
 #include "absl/strings/str_cat.h"
 #include "daemon/health/committed_feed.h"
+#include "daemon/ledger/sqlite_ledger.h"
 #include "gmock/gmock.h"
 #include "gtest/gtest.h"
 #include "tests/testing/fake_health_sink.h"
@@ -27,7 +28,7 @@ class OutcomesServiceTest : public ::testing::Test {
   void SetUp() override {
     LedgerOptions options;
     options.path = dir_.File("ledger.db");
-    auto ledger = Ledger::Open(options);
+    auto ledger = SqliteLedger::Open(options);
     ASSERT_TRUE(ledger.ok()) << ledger.status();
     ledger_ = *std::move(ledger);
     // As plumbd feeds its monitor; no plans: scores count as unknown.

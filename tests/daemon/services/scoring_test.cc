@@ -16,6 +16,7 @@
 #include "absl/strings/str_cat.h"
 #include "daemon/health/committed_feed.h"
 #include "daemon/ledger/sqlite_db.h"
+#include "daemon/ledger/sqlite_ledger.h"
 #include "daemon/scoring/packed_row.h"
 #include "gmock/gmock.h"
 #include "google/protobuf/util/json_util.h"
@@ -45,7 +46,7 @@ class ScoringServiceTest : public ::testing::Test {
     LedgerOptions options;
     options.path = dir_.File("ledger.db");
     options.queue_capacity_rows = queue_capacity_rows;
-    auto ledger = Ledger::Open(options);
+    auto ledger = SqliteLedger::Open(options);
     ASSERT_TRUE(ledger.ok()) << ledger.status();
     ledger_ = *std::move(ledger);
     feed_ = std::make_unique<CommittedFeed>(

@@ -1,7 +1,7 @@
 // File: daemon/ledger/ledger.cc
 // The write side of the ledger: open and migrate, the writer thread, group
 // commit, outcomes and retention. The read side is in ledger_reads.cc.
-#include "daemon/ledger/ledger.h"
+#include "daemon/ledger/sqlite_ledger.h"
 
 #include <sys/stat.h>
 
@@ -24,7 +24,7 @@
 
 namespace plumbline::daemon {
 
-struct Ledger::Job {
+struct SqliteLedger::Job {
   std::vector<ScoreEntry> scores;
   // Per score, what the writer did (AppendScores' answer).
   std::vector<ScoreWrite> written;
@@ -41,7 +41,7 @@ struct Ledger::Job {
     kRefused,    // invalid; results[i].status says why
   };
   std::vector<uint8_t> checked;
-  // Ledger::retention_passes_ before the lookups: if retention ran since,
+  // SqliteLedger::retention_passes_ before the lookups: if retention ran since,
   // it may have deleted scores found, and the writer looks again.
   int64_t retention_passes = 0;
   absl::Status status;
@@ -68,7 +68,7 @@ constexpr int kScoreColumns = 7;
 constexpr int kOutcomesPerInsert = 128;
 constexpr int kOutcomeColumns = 5;
 
-struct Ledger::Statements {
+struct SqliteLedger::Statements {
   std::unique_ptr<SqliteStatement> insert_score;
   std::unique_ptr<SqliteStatement> insert_scores;  // kScoresPerInsert rows
   std::unique_ptr<SqliteStatement> find_outcome;
@@ -138,13 +138,14 @@ constexpr char kInsertScoreColumns[] =
 
 }  // namespace
 
-int Ledger::SchemaVersion() { return LatestLedgerSchemaVersion(); }
+int SqliteLedger::SchemaVersion() { return LatestLedgerSchemaVersion(); }
 
-Ledger::Ledger(LedgerOptions options)
+SqliteLedger::SqliteLedger(LedgerOptions options)
     : options_(std::move(options)),
       env_(options_.env != nullptr ? options_.env : LedgerEnv::Default()) {}
 
-absl::StatusOr<std::unique_ptr<Ledger>> Ledger::Open(LedgerOptions options) {
+absl::StatusOr<std::unique_ptr<Ledger>> SqliteLedger::Open(
+    LedgerOptions options) {
   const std::filesystem::path dir =
       std::filesystem::path(options.path).parent_path();
   if (!dir.empty()) {
@@ -156,7 +157,7 @@ absl::StatusOr<std::unique_ptr<Ledger>> Ledger::Open(LedgerOptions options) {
                        dir.string(), ": ", ec.message()));
     }
   }
-  std::unique_ptr<Ledger> ledger(new Ledger(std::move(options)));
+  std::unique_ptr<SqliteLedger> ledger(new SqliteLedger(std::move(options)));
   absl::StatusOr<std::unique_ptr<LedgerLock>> lock =
       LedgerLock::Acquire(ledger->options_.path, ledger->options_.holder_note);
   if (!lock.ok()) return lock.status();
@@ -204,7 +205,7 @@ absl::StatusOr<std::unique_ptr<Ledger>> Ledger::Open(LedgerOptions options) {
   if (!checkpointer.ok()) return checkpointer.status();
   ledger->checkpointer_ = *std::move(checkpointer);
   // Replaces SQLite's automatic checkpoint inside COMMIT.
-  sqlite3_wal_hook(w.handle(), &Ledger::OnWalCommit, ledger.get());
+  sqlite3_wal_hook(w.handle(), &SqliteLedger::OnWalCommit, ledger.get());
   if (ledger->options_.durable_commits) {
     ledger->syncer_ = std::make_unique<WalSyncer>(
         absl::StrCat(ledger->options_.path, "-wal"), ledger->env_);
@@ -292,7 +293,7 @@ absl::StatusOr<std::unique_ptr<Ledger>> Ledger::Open(LedgerOptions options) {
   return ledger;
 }
 
-Ledger::~Ledger() {
+SqliteLedger::~SqliteLedger() {
   {
     absl::MutexLock lock(&mu_);
     stopping_ = true;
@@ -305,44 +306,45 @@ Ledger::~Ledger() {
   checkpointer_.reset();
 }
 
-int Ledger::OnWalCommit(void* ledger, sqlite3*, const char*, int frames) {
-  auto* l = static_cast<Ledger*>(ledger);
+int SqliteLedger::OnWalCommit(void* ledger, sqlite3*, const char*, int frames) {
+  auto* l = static_cast<SqliteLedger*>(ledger);
   l->wal_frames_ = frames;
   if (frames >= kCheckpointFrames) l->checkpointer_->Request();
   return SQLITE_OK;
 }
 
-void Ledger::set_rows_observer(std::function<void(const CommittedRows&)> fn) {
+void SqliteLedger::set_rows_observer(
+    std::function<void(const CommittedRows&)> fn) {
   absl::MutexLock lock(&mu_);
   rows_observer_ = std::move(fn);
 }
 
-absl::Status Ledger::Flush() {
+absl::Status SqliteLedger::Flush() {
   auto job = std::make_shared<Job>();
   if (absl::Status s = Enqueue(job); !s.ok()) return s;
   job->done.WaitForNotification();
   return job->status;
 }
 
-LedgerMarks Ledger::Marks() const {
+LedgerMarks SqliteLedger::Marks() const {
   absl::MutexLock lock(&mu_);
   return marks_;
 }
 
-void Ledger::set_commit_observer(
+void SqliteLedger::set_commit_observer(
     std::function<void(absl::Duration, size_t)> fn) {
   absl::MutexLock lock(&mu_);
   commit_observer_ = std::move(fn);
 }
 
-LedgerStats Ledger::stats() const {
+LedgerStats SqliteLedger::stats() const {
   absl::MutexLock lock(&mu_);
   LedgerStats s = stats_;
   s.queued_rows = queued_rows_;
   return s;
 }
 
-absl::Status Ledger::Enqueue(const std::shared_ptr<Job>& job) {
+absl::Status SqliteLedger::Enqueue(const std::shared_ptr<Job>& job) {
   absl::MutexLock lock(&mu_);
   if (stopping_) return absl::UnavailableError("ledger is shutting down");
   if (!failed_.ok()) return failed_;
@@ -367,7 +369,7 @@ absl::Status Ledger::Enqueue(const std::shared_ptr<Job>& job) {
   return absl::OkStatus();
 }
 
-absl::StatusOr<std::vector<ScoreWrite>> Ledger::AppendScores(
+absl::StatusOr<std::vector<ScoreWrite>> SqliteLedger::AppendScores(
     std::vector<ScoreEntry> scores) {
   if (scores.empty()) return std::vector<ScoreWrite>();
   for (const ScoreEntry& e : scores) {
@@ -391,7 +393,7 @@ absl::StatusOr<std::vector<ScoreWrite>> Ledger::AppendScores(
   return std::move(job->written);
 }
 
-absl::StatusOr<std::vector<OutcomeResult>> Ledger::ReportOutcomes(
+absl::StatusOr<std::vector<OutcomeResult>> SqliteLedger::ReportOutcomes(
     std::vector<OutcomeEntry> outcomes) {
   auto job = std::make_shared<Job>();
   job->outcomes = std::move(outcomes);
@@ -424,13 +426,13 @@ absl::StatusOr<std::vector<OutcomeResult>> Ledger::ReportOutcomes(
   return std::move(job->results);
 }
 
-void Ledger::WriterLoop() {
+void SqliteLedger::WriterLoop() {
   for (;;) {
     std::vector<std::shared_ptr<Job>> group;
     {
       absl::MutexLock lock(&mu_);
       mu_.Await(absl::Condition(
-          +[](Ledger* l) ABSL_EXCLUSIVE_LOCKS_REQUIRED(l->mu_) {
+          +[](SqliteLedger* l) ABSL_EXCLUSIVE_LOCKS_REQUIRED(l->mu_) {
             return !l->queue_.empty() || l->stopping_;
           },
           this));
@@ -502,12 +504,12 @@ void Ledger::WriterLoop() {
   }
 }
 
-absl::Status Ledger::Failure() const {
+absl::Status SqliteLedger::Failure() const {
   absl::MutexLock lock(&mu_);
   return failed_;
 }
 
-void Ledger::Fail(const absl::Status& cause) {
+void SqliteLedger::Fail(const absl::Status& cause) {
   {
     absl::MutexLock lock(&mu_);
     if (!failed_.ok()) return;
@@ -525,7 +527,7 @@ void Ledger::Fail(const absl::Status& cause) {
              "restarted; acknowledged rows are on disk"}});
 }
 
-absl::Status Ledger::CheckFile() {
+absl::Status SqliteLedger::CheckFile() {
   struct stat now;
   absl::Status lost;
   if (::stat(options_.path.c_str(), &now) != 0) {
@@ -541,7 +543,7 @@ absl::Status Ledger::CheckFile() {
   return lost;
 }
 
-void Ledger::WriteFailed(const absl::Status& st, size_t rows) {
+void SqliteLedger::WriteFailed(const absl::Status& st, size_t rows) {
   absl::string_view reason = "other";
   switch (st.code()) {
     case absl::StatusCode::kResourceExhausted:
@@ -568,8 +570,8 @@ void Ledger::WriteFailed(const absl::Status& st, size_t rows) {
   ++stats_.write_failures[std::string(reason)];
 }
 
-void Ledger::Finish(const std::vector<std::shared_ptr<Job>>& group,
-                    absl::Status st, absl::Time start, size_t rows) {
+void SqliteLedger::Finish(const std::vector<std::shared_ptr<Job>>& group,
+                          absl::Status st, absl::Time start, size_t rows) {
   const absl::Duration latency = absl::Now() - start;
   std::function<void(absl::Duration, size_t)> observer;
   {
@@ -588,8 +590,8 @@ void Ledger::Finish(const std::vector<std::shared_ptr<Job>>& group,
   }
 }
 
-void Ledger::Committed(const std::vector<std::shared_ptr<Job>>& group,
-                       const LedgerMarks& marks) {
+void SqliteLedger::Committed(const std::vector<std::shared_ptr<Job>>& group,
+                             const LedgerMarks& marks) {
   std::function<void(const CommittedRows&)> observer;
   {
     absl::MutexLock lock(&mu_);
@@ -616,7 +618,8 @@ void Ledger::Committed(const std::vector<std::shared_ptr<Job>>& group,
   observer(rows);
 }
 
-absl::Status Ledger::WriteScores(std::vector<std::shared_ptr<Job>>& group) {
+absl::Status SqliteLedger::WriteScores(
+    std::vector<std::shared_ptr<Job>>& group) {
   Statements& s = *stmts_;
   // Scores in queue order, kScoresPerInsert rows per statement.
   std::vector<const ScoreEntry*> scores;
@@ -668,7 +671,7 @@ absl::Status Ledger::WriteScores(std::vector<std::shared_ptr<Job>>& group) {
   return absl::OkStatus();
 }
 
-absl::Status Ledger::WriteJobScores(Job& job, const LedgerSetId* ids) {
+absl::Status SqliteLedger::WriteJobScores(Job& job, const LedgerSetId* ids) {
   Statements& s = *stmts_;
   if (absl::Status st = s.job_savepoint->Run(); !st.ok()) return st;
   // Record ids of this job found stored with the same features: their
@@ -747,8 +750,8 @@ absl::Status Ledger::WriteJobScores(Job& job, const LedgerSetId* ids) {
   return s.job_release->Run();
 }
 
-absl::Status Ledger::RunGroup(std::vector<std::shared_ptr<Job>>& group,
-                              LedgerMarks* marks) {
+absl::Status SqliteLedger::RunGroup(std::vector<std::shared_ptr<Job>>& group,
+                                    LedgerMarks* marks) {
   Statements& s = *stmts_;
   if (absl::Status st = s.begin->Run(); !st.ok()) return st;
   absl::Status st = WriteScores(group);
@@ -783,7 +786,7 @@ absl::Status Ledger::RunGroup(std::vector<std::shared_ptr<Job>>& group,
   return st;
 }
 
-absl::Status Ledger::CheckOutcome(const OutcomeEntry& o) {
+absl::Status SqliteLedger::CheckOutcome(const OutcomeEntry& o) {
   if (o.record_id.empty()) {
     return absl::InvalidArgumentError("record_id must not be empty");
   }
@@ -794,7 +797,8 @@ absl::Status Ledger::CheckOutcome(const OutcomeEntry& o) {
   return absl::OkStatus();
 }
 
-absl::Status Ledger::WriteOutcomes(std::vector<std::shared_ptr<Job>>& group) {
+absl::Status SqliteLedger::WriteOutcomes(
+    std::vector<std::shared_ptr<Job>>& group) {
   Statements& s = *stmts_;
   const absl::Time now = options_.now();
   // The outcomes to insert, in queue order, with their observed time.
@@ -871,8 +875,8 @@ absl::Status Ledger::WriteOutcomes(std::vector<std::shared_ptr<Job>>& group) {
   return absl::OkStatus();
 }
 
-absl::Status Ledger::InsertOutcome(const OutcomeEntry& o,
-                                   OutcomeResult& result) {
+absl::Status SqliteLedger::InsertOutcome(const OutcomeEntry& o,
+                                         OutcomeResult& result) {
   Statements& s = *stmts_;
   // Inserting first and reading the old label only on a conflict saves a
   // lookup for the usual case, a new outcome.
@@ -895,7 +899,7 @@ absl::Status Ledger::InsertOutcome(const OutcomeEntry& o,
   return absl::OkStatus();
 }
 
-absl::Status Ledger::ApplyRetention() {
+absl::Status SqliteLedger::ApplyRetention() {
   SqliteDb& w = *writer_db_;
   // Deletes the scores matching `where` and their outcomes, in one transaction.
   auto delete_scores = [&w](const std::string& where) {
