@@ -69,7 +69,8 @@ struct HistoryPoint {
 
 class HistoryStore {
  public:
-  // Opens a connection to a ledger that SqliteLedger::Open has already migrated.
+  // Opens a connection to a ledger that SqliteLedger::Open has already
+  // migrated.
   static absl::StatusOr<std::unique_ptr<HistoryStore>> Open(
       const std::string& ledger_path, HistoryOptions options);
 

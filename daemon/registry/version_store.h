@@ -7,8 +7,9 @@
 // comparison that justified it and its full document (the set as JSON), so
 // a version can be served again after a restart without its file.
 //
-//   auto store = VersionStore::Open("var/ledger.db");   // after SqliteLedger::Open
-//   absl::Status s = (*store)->InTransaction([&]() -> absl::Status {
+//   auto store = VersionStore::Open("var/ledger.db");   // after
+//   SqliteLedger::Open absl::Status s = (*store)->InTransaction([&]() ->
+//   absl::Status {
 //     ... Insert / SetState / RecordActivation / AppendAudit ...
 //   });
 //
@@ -69,9 +70,9 @@ struct AuditRecord {
 
 class VersionStore {
  public:
-  // Opens a connection to a ledger that SqliteLedger::Open has already migrated,
-  // through `env` (the ledger's I/O seam; null: the default), which must
-  // outlive the store.
+  // Opens a connection to a ledger that SqliteLedger::Open has already
+  // migrated, through `env` (the ledger's I/O seam; null: the default), which
+  // must outlive the store.
   static absl::StatusOr<std::unique_ptr<VersionStore>> Open(
       const std::string& ledger_path, LedgerEnv* env = nullptr);
 

@@ -41,9 +41,9 @@ namespace {
 
 using daemon::Ledger;
 using daemon::LedgerOptions;
-using daemon::SqliteLedger;
 using daemon::OutcomeEntry;
 using daemon::ScoreEntry;
+using daemon::SqliteLedger;
 using scorer::RawValue;
 
 int Run() {

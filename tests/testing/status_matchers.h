@@ -5,8 +5,9 @@
 //
 //   ASSERT_OK(ledger->Flush());
 //   EXPECT_OK(status);
-//   ASSERT_OK_AND_ASSIGN(std::unique_ptr<Ledger> ledger, SqliteLedger::Open(o));
-//   EXPECT_THAT(Parse(""), StatusIs(absl::StatusCode::kInvalidArgument,
+//   ASSERT_OK_AND_ASSIGN(std::unique_ptr<Ledger> ledger,
+//   SqliteLedger::Open(o)); EXPECT_THAT(Parse(""),
+//   StatusIs(absl::StatusCode::kInvalidArgument,
 //                                   HasSubstr("field 'name'")));
 //
 // A failure prints the code and the message of the Status.

@@ -1,5 +1,3 @@
-#include "daemon/ledger/sqlite_ledger.h"
-
 #include <unistd.h>
 
 #include <atomic>
@@ -10,6 +8,7 @@
 
 #include "absl/strings/str_cat.h"
 #include "absl/time/clock.h"
+#include "daemon/ledger/sqlite_ledger.h"
 #include "gmock/gmock.h"
 #include "gtest/gtest.h"
 #include "tests/testing/process.h"
@@ -102,7 +101,8 @@ TEST_F(LedgerTest, CreatesAWalLedgerWithTheCurrentSchema) {
   ASSERT_TRUE(st.ok());
   ASSERT_TRUE(*(*st)->Step());
   EXPECT_EQ((*st)->ColumnText(0), "wal");
-  EXPECT_EQ(*(*db)->QueryInt64("PRAGMA user_version"), SqliteLedger::SchemaVersion());
+  EXPECT_EQ(*(*db)->QueryInt64("PRAGMA user_version"),
+            SqliteLedger::SchemaVersion());
 }
 
 TEST_F(LedgerTest, OutcomesJoinToScoresWithTheDocumentedCodes) {
@@ -240,7 +240,8 @@ TEST_F(LedgerTest, MigratesAVersion1LedgerKeepingItsRows) {
   auto ledger = OpenLedger();
   ASSERT_NE(ledger, nullptr);
   auto db = SqliteDb::Open(options_.path);
-  EXPECT_EQ(*(*db)->QueryInt64("PRAGMA user_version"), SqliteLedger::SchemaVersion());
+  EXPECT_EQ(*(*db)->QueryInt64("PRAGMA user_version"),
+            SqliteLedger::SchemaVersion());
   EXPECT_EQ(*(*db)->QueryInt64(
                 "SELECT COUNT(*) FROM sqlite_schema WHERE name = 'outcomes'"
                 " AND sql LIKE '%WITHOUT ROWID%'"),
@@ -305,7 +306,8 @@ TEST_F(LedgerTest, MigratesAVersion3LedgerDroppingTheSetTimeIndex) {
   auto ledger = OpenLedger();
   ASSERT_NE(ledger, nullptr);
   auto db = SqliteDb::Open(options_.path);
-  EXPECT_EQ(*(*db)->QueryInt64("PRAGMA user_version"), SqliteLedger::SchemaVersion());
+  EXPECT_EQ(*(*db)->QueryInt64("PRAGMA user_version"),
+            SqliteLedger::SchemaVersion());
   EXPECT_EQ(*(*db)->QueryInt64("SELECT COUNT(*) FROM sqlite_schema"
                                " WHERE name = 'scores_by_set_time'"),
             0);
