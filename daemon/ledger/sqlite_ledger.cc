@@ -14,6 +14,7 @@
 #include "absl/strings/str_cat.h"
 #include "absl/synchronization/notification.h"
 #include "absl/time/time.h"
+#include "daemon/ledger/entries.h"
 #include "daemon/ledger/lookup.h"
 #include "daemon/ledger/schema.h"
 #include "daemon/ledger/set_ids.h"
@@ -113,23 +114,6 @@ void BindScore(SqliteStatement& ins, int first, const ScoreEntry& e,
   } else {
     ins.BindNull(first + 7);
   }
-}
-
-// Whether two scores of one record id hold the same feature values: the
-// same bytes under one layout, else the same JSON object (names in each
-// version's order, so a version that reorders its features reads as other
-// features: the record then needs a new id).
-bool SameFeatures(const ScoreEntry& stored, const ScoreEntry& e) {
-  const bool same_layout = stored.layout == e.layout ||
-                           (stored.layout != nullptr && e.layout != nullptr &&
-                            google::protobuf::util::MessageDifferencer::Equals(
-                                *stored.layout, *e.layout));
-  if (same_layout && stored.features == e.features) return true;
-  absl::StatusOr<std::string> a =
-      StoredFeaturesJson(stored.layout.get(), stored.features);
-  absl::StatusOr<std::string> b =
-      StoredFeaturesJson(e.layout.get(), e.features);
-  return a.ok() && b.ok() && *a == *b;
 }
 
 constexpr char kInsertScoreColumns[] =
@@ -373,11 +357,8 @@ absl::StatusOr<std::vector<ScoreWrite>> SqliteLedger::AppendScores(
     std::vector<ScoreEntry> scores) {
   if (scores.empty()) return std::vector<ScoreWrite>();
   for (const ScoreEntry& e : scores) {
-    if (e.record_id.empty()) {
-      return absl::InvalidArgumentError(
-          absl::StrCat("set '", e.set_name,
-                       "': a score without a record id cannot be "
-                       "recorded"));
+    if (absl::Status st = CheckRecordId(e.record_id, e.set_name); !st.ok()) {
+      return st;
     }
   }
   auto job = std::make_shared<Job>();
@@ -405,7 +386,7 @@ absl::StatusOr<std::vector<OutcomeResult>> SqliteLedger::ReportOutcomes(
   job->checked.assign(n, Job::kUnchecked);
   std::vector<uint8_t> wanted(n, 0);
   for (size_t i = 0; i < n; ++i) {
-    absl::Status invalid = CheckOutcome(job->outcomes[i]);
+    absl::Status invalid = CheckOutcomeEntry(job->outcomes[i]);
     if (!invalid.ok()) {
       job->results[i].status = std::move(invalid);
       job->checked[i] = Job::kRefused;
@@ -717,14 +698,7 @@ absl::Status SqliteLedger::WriteJobScores(Job& job, const LedgerSetId* ids) {
     }
     // The same id for a different record: the whole job is refused and the
     // rest of the group goes on.
-    job.refused = absl::AlreadyExistsError(absl::StrCat(
-        "record id '", e.record_id, "' was already scored by set '", e.set_name,
-        "' (version ", stored.set_version, ", ",
-        absl::FormatTime("%Y-%m-%dT%H:%M:%E6SZ", stored.scored_at,
-                         absl::UTCTimeZone()),
-        ") with other features; a record id names one record of a set: give "
-        "a new record a new id (a retry with the same features returns the "
-        "stored score)"));
+    job.refused = RecordConflict(e, stored);
     if (absl::Status st = s.job_rollback_to->Run(); !st.ok()) return st;
     break;
   }
@@ -784,17 +758,6 @@ absl::Status SqliteLedger::RunGroup(std::vector<std::shared_ptr<Job>>& group,
     }
   }
   return st;
-}
-
-absl::Status SqliteLedger::CheckOutcome(const OutcomeEntry& o) {
-  if (o.record_id.empty()) {
-    return absl::InvalidArgumentError("record_id must not be empty");
-  }
-  if (o.label != 0 && o.label != 1) {
-    return absl::InvalidArgumentError(absl::StrCat(
-        "record '", o.record_id, "': label must be 0 or 1, got ", o.label));
-  }
-  return absl::OkStatus();
 }
 
 absl::Status SqliteLedger::WriteOutcomes(

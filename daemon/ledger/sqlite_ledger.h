@@ -146,8 +146,6 @@ class SqliteLedger final : public Ledger {
   // observer what the group wrote. Writer thread.
   void Committed(const std::vector<std::shared_ptr<Job>>& group,
                  const LedgerMarks& marks);
-  // INVALID_ARGUMENT when `o` can never be stored (empty id, label not 0/1).
-  static absl::Status CheckOutcome(const OutcomeEntry& o);
   // Stores the group's outcomes (after its scores), looking up the scores
   // the callers did not find.
   absl::Status WriteOutcomes(std::vector<std::shared_ptr<Job>>& group);

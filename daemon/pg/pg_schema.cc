@@ -84,6 +84,43 @@ constexpr const char* kPgSteps[] = {
     "  seq bigint NOT NULL,"
     "  observed_at timestamptz NOT NULL);"
     "CREATE INDEX outcome_records_by_time ON outcome_records(observed_at);",
+    // 1 -> 2: what the ledger backend (daemon/pg/pg_ledger.h) reads by, and
+    // outcomes partitioned by the ledger's own clock. Partitioned by
+    // observed_at (a time the caller gives), a caller could make the
+    // ledger create a partition for every day it names, decades apart;
+    // reported_at is when the ledger wrote the row, so outcomes, like
+    // scores, land in today's partition. No build wrote outcomes at
+    // version 1; the tables are recreated, and refused if they hold rows.
+    "DO $$ BEGIN"
+    "  IF EXISTS (SELECT 1 FROM outcomes) OR"
+    "     EXISTS (SELECT 1 FROM outcome_records) THEN"
+    "    RAISE EXCEPTION 'outcomes hold rows; version 2 repartitions them"
+    " and needs them empty';"
+    "  END IF;"
+    "END $$;"
+    "DROP TABLE outcomes;"
+    "DROP TABLE outcome_records;"
+    "CREATE SEQUENCE outcomes_seq_seq AS bigint;"
+    "CREATE TABLE outcomes("
+    "  record_id text NOT NULL,"
+    "  label smallint NOT NULL CHECK (label IN (0, 1)),"
+    "  observed_at timestamptz NOT NULL,"
+    "  reported_at timestamptz NOT NULL,"
+    "  seq bigint NOT NULL DEFAULT nextval('outcomes_seq_seq'),"
+    "  PRIMARY KEY (reported_at, seq))"
+    "  PARTITION BY RANGE (reported_at);"
+    "ALTER SEQUENCE outcomes_seq_seq OWNED BY outcomes.seq;"
+    "CREATE TABLE outcome_records("
+    "  record_id text PRIMARY KEY,"
+    "  seq bigint NOT NULL,"
+    "  reported_at timestamptz NOT NULL);"
+    "CREATE INDEX outcome_records_by_time ON outcome_records(reported_at);"
+    // The feed reads rows after a mark by id and seq; outcomes find their
+    // scores by record id; windows read outcomes by observed time.
+    "CREATE INDEX scores_by_id ON scores(id);"
+    "CREATE INDEX scores_by_record ON scores(record_id);"
+    "CREATE INDEX outcomes_by_seq ON outcomes(seq);"
+    "CREATE INDEX outcomes_by_observed ON outcomes(observed_at);",
 };
 
 // The version table: one row, enforced by a boolean primary key that can
@@ -106,7 +143,7 @@ struct Partitioned {
 };
 constexpr Partitioned kPartitioned[] = {
     {"scores", "scored_at", "score_records"},
-    {"outcomes", "observed_at", "outcome_records"},
+    {"outcomes", "reported_at", "outcome_records"},
 };
 
 absl::Status Prefixed(const absl::Status& st, absl::string_view what) {

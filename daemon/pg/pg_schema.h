@@ -4,8 +4,9 @@
 // ledger's daemon/ledger/schema.h) that several plumbd replicas share:
 // versioned migrations applied under an advisory lock so that replicas
 // starting at once apply each step exactly once, daily time partitions of
-// the two growing tables (scores by scored_at, outcomes by observed_at),
-// and retention by dropping whole partitions instead of DELETE.
+// the two growing tables (scores by scored_at, outcomes by reported_at, the
+// ledger's clock), and retention by dropping whole partitions instead of
+// DELETE.
 //
 //   ASSIGN_OR_RETURN(int version, MigratePgLedger(*db));
 //   RETURN_IF_ERROR(EnsurePartitions(*db, absl::Now() - absl::Hours(24),

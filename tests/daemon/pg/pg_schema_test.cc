@@ -180,7 +180,7 @@ class PgSchemaTest : public ::testing::Test {
     absl::Status st = r.status();
     if (st.ok()) {
       st = db.Query(
-                 "INSERT INTO outcome_records(record_id, seq, observed_at)"
+                 "INSERT INTO outcome_records(record_id, seq, reported_at)"
                  " VALUES ($1, $2::bigint, $3::timestamptz)",
                  {record, *r->rows[0][0], Ts(at)})
                .status();
