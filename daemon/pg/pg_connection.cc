@@ -598,28 +598,27 @@ absl::StatusOr<std::vector<PgNotification>> PgConnection::WaitForNotification(
   return out;
 }
 
-absl::StatusOr<bool> PgConnection::TryAdvisoryLock(int64_t key) {
-  absl::StatusOr<PgResult> r =
-      Query("SELECT pg_try_advisory_lock($1::bigint)", {absl::StrCat(key)});
+absl::StatusOr<bool> PgConnection::QueryBool(absl::string_view function,
+                                             int64_t key) {
+  absl::StatusOr<PgResult> r = Query(
+      absl::StrCat("SELECT ", function, "($1::bigint)"), {absl::StrCat(key)});
   if (!r.ok()) return r.status();
   if (r->rows.size() != 1 || r->rows[0].size() != 1 || !r->rows[0][0]) {
-    return absl::InternalError(absl::StrCat("PostgreSQL ", description_,
-                                            ": pg_try_advisory_lock(", key,
+    return absl::InternalError(absl::StrCat("PostgreSQL ", description_, ": ",
+                                            function, "(", key,
                                             ") returned no single value"));
   }
   return *r->rows[0][0] == "t";
 }
 
+absl::StatusOr<bool> PgConnection::TryAdvisoryLock(int64_t key) {
+  return QueryBool("pg_try_advisory_lock", key);
+}
+
 absl::Status PgConnection::AdvisoryUnlock(int64_t key) {
-  absl::StatusOr<PgResult> r =
-      Query("SELECT pg_advisory_unlock($1::bigint)", {absl::StrCat(key)});
-  if (!r.ok()) return r.status();
-  if (r->rows.size() != 1 || r->rows[0].size() != 1 || !r->rows[0][0]) {
-    return absl::InternalError(absl::StrCat("PostgreSQL ", description_,
-                                            ": pg_advisory_unlock(", key,
-                                            ") returned no single value"));
-  }
-  if (*r->rows[0][0] != "t") {
+  absl::StatusOr<bool> released = QueryBool("pg_advisory_unlock", key);
+  if (!released.ok()) return released.status();
+  if (!*released) {
     return absl::FailedPreconditionError(
         absl::StrCat("PostgreSQL ", description_, ": advisory lock ", key,
                      " is not held by this connection"));

@@ -160,6 +160,10 @@ class PgConnection {
   absl::Status AdvisoryUnlock(int64_t key);
 
  private:
+  // SELECT function($1::bigint) for a function of one bigint that returns
+  // a boolean; Internal when it returns no single value.
+  absl::StatusOr<bool> QueryBool(absl::string_view function, int64_t key);
+
   PgConnection(pg_conn* conn, std::string description)
       : conn_(conn), description_(std::move(description)) {}
 
