@@ -121,6 +121,14 @@ constexpr const char* kPgSteps[] = {
     "CREATE INDEX scores_by_record ON scores(record_id);"
     "CREATE INDEX outcomes_by_seq ON outcomes(seq);"
     "CREATE INDEX outcomes_by_observed ON outcomes(observed_at);",
+    // 2 -> 3: no foreign keys on the growing tables. Each was a trigger per
+    // row (the reference COPY of tests/bench/ledger_bench took 100,000
+    // scores at 28,000 rows/s with them); the ledger writes only set ids it
+    // has just read from score_sets and set_names, whose rows are never
+    // deleted.
+    "ALTER TABLE scores DROP CONSTRAINT scores_set_id_fkey,"
+    "  DROP CONSTRAINT scores_primary_set_fkey;"
+    "ALTER TABLE score_records DROP CONSTRAINT score_records_primary_set_fkey;",
 };
 
 // The version table: one row, enforced by a boolean primary key that can

@@ -1,6 +1,8 @@
 // File: daemon/server/plumbd.cc
 #include "daemon/server/plumbd.h"
 
+#include <unistd.h>
+
 #include <filesystem>
 #include <system_error>
 #include <utility>
@@ -13,6 +15,8 @@
 #include "daemon/metrics/health.h"
 #include "daemon/metrics/ledger.h"
 #include "daemon/metrics/shadows.h"
+#include "daemon/pg/pg_leader.h"
+#include "daemon/pg/pg_ledger.h"
 #include "daemon/server/health_options.h"
 #include "daemon/server/library_logs.h"
 #include "daemon/server/page_options.h"
@@ -123,8 +127,12 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
 
   LedgerOptions ledger_options = o.ledger;
   ledger_options.holder_note = absl::StrCat("listen ", o.listen);
+  // --ledger PATH: one machine's SQLite file; --ledger postgresql://...: a
+  // database several replicas share (daemon/pg/pg_ledger.h).
+  const bool fleet = IsPgLedgerUri(o.ledger.path);
   absl::StatusOr<std::unique_ptr<Ledger>> ledger =
-      SqliteLedger::Open(std::move(ledger_options));
+      fleet ? PgLedger::Open(std::move(ledger_options))
+            : SqliteLedger::Open(std::move(ledger_options));
   if (!ledger.ok()) return ledger.status();
   d->ledger_ = *std::move(ledger);
   if (o.ledger.queue_capacity_rows < o.max_batch_records) {
@@ -135,7 +143,7 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
          {"effect", "batches above the queue capacity are refused"}});
   }
   LogEvent(LogLevel::kInfo, "ledger_open",
-           {{"file", o.ledger.path},
+           {{fleet ? "database" : "file", o.ledger.path},
             {"ack", o.ledger.ack == LedgerOptions::Ack::kCommitted ? "committed"
                                                                    : "queued"},
             {"durable", o.ledger.durable_commits ? "true" : "false"}});
@@ -168,10 +176,16 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
   if (!monitor.ok()) return monitor.status();
   d->monitor_ = *std::move(monitor);
   d->monitor_->SyncPlans(d->registry_->AllMonitored());
-  absl::StatusOr<std::unique_ptr<SnapshotStore>> snapshots =
-      SnapshotStore::Open(o.ledger.path, o.ledger.env);
-  if (!snapshots.ok()) return snapshots.status();
-  d->snapshots_ = *std::move(snapshots);
+  // Snapshots shorten a restart on one machine's file. A replica of a
+  // fleet rebuilds its windows from the shared ledger instead: a snapshot
+  // of one replica's would have to name the fleet's marks, and the reads
+  // run on the database server, not on this host's disk.
+  if (!fleet) {
+    absl::StatusOr<std::unique_ptr<SnapshotStore>> snapshots =
+        SnapshotStore::Open(o.ledger.path, o.ledger.env);
+    if (!snapshots.ok()) return snapshots.status();
+    d->snapshots_ = *std::move(snapshots);
+  }
   if (absl::StatusOr<RestoreReport> restored =
           d->monitor_->Restore(*d->ledger_, d->snapshots_.get());
       !restored.ok()) {
@@ -201,8 +215,9 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
   LogEvent(LogLevel::kInfo, "metrics_listening",
            {{"addr", d->exporter_->bound_address()}});
 
-  // The history the page draws, and the refit dossiers.
-  if (page_settings->enabled) {
+  // The history the page draws, and the refit dossiers. A fleet's replicas
+  // draw their pages without history for now (it lives in the SQLite file).
+  if (page_settings->enabled && !fleet) {
     HistoryOptions history;
     history.interval = page_settings->history_interval;
     history.retention = page_settings->history_retention;
@@ -219,6 +234,18 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
   }
   d->dossiers_ = std::make_unique<DossierStore>(page_settings->dossier_dir);
 
+  // Of a fleet, one replica at a time runs refit jobs: the one holding the
+  // leader lock on the shared database.
+  if (fleet) {
+    char host[256] = {};
+    gethostname(host, sizeof(host) - 1);
+    absl::StatusOr<std::unique_ptr<PgLeader>> leader = PgLeader::Start(
+        o.ledger.path, kPgRefitLeaderLockKey,
+        absl::StrCat("plumbd ", host, " pid ", getpid(), " listen ", o.listen));
+    if (!leader.ok()) return leader.status();
+    d->leader_ = *std::move(leader);
+  }
+
   // Refit jobs run on their own thread, off the request path.
   d->refit_runner_ =
       std::make_unique<RefitRunner>(d->ledger_.get(), d->lifecycle_.get(),
@@ -233,6 +260,18 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
   d->registry_service_ = std::make_unique<RegistryService>(
       d->lifecycle_.get(), d->refits_.get(), d->shadow_tracker_.get(),
       d->dossiers_.get(), &d->monitor_->options().policy, d->ledger_.get());
+  if (d->leader_ != nullptr) {
+    d->registry_service_->set_refit_gate([leader = d->leader_.get()] {
+      if (leader->is_leader()) return absl::OkStatus();
+      const std::string holder = leader->Holder();
+      return absl::FailedPreconditionError(absl::StrCat(
+          "this replica does not run the fleet's refit jobs; ",
+          holder.empty()
+              ? std::string("no replica holds the leader lock "
+                            "right now: retry shortly")
+              : absl::StrCat("'", holder, "' does: send the refit there")));
+    });
+  }
   ServerAttachments attachments;
   attachments.shadows.tracker = d->shadow_tracker_.get();
   attachments.shadows.stop = [lifecycle = d->lifecycle_.get()](
@@ -322,6 +361,7 @@ Plumbd::~Plumbd() {
 }
 
 void Plumbd::SaveSnapshots(bool at_shutdown) {
+  if (snapshots_ == nullptr) return;  // a fleet's replica (see Start)
   const absl::Time start = absl::Now();
   // A tick skips the copy when nothing changed since the last save (the
   // saved snapshots still hold); the last save, at shutdown, always writes.
@@ -365,7 +405,11 @@ void Plumbd::Tick() {
   for (const PlanPtr& plan : registry_->All()) {
     active.push_back(SetVersion{plan->name(), plan->version()});
   }
-  refits_->OnEvaluated(monitor_->AllHealth(), active);
+  // A fleet's replicas all hold the fleet's figures; only the leader acts
+  // on them, so one drift makes one refit.
+  if (leader_ == nullptr || leader_->is_leader()) {
+    refits_->OnEvaluated(monitor_->AllHealth(), active);
+  }
 }
 
 void Plumbd::Reload() {

@@ -49,6 +49,7 @@
 #include "daemon/ledger/ledger.h"
 #include "daemon/metrics/exporter.h"
 #include "daemon/metrics/requests.h"
+#include "daemon/pg/pg_leader.h"
 #include "daemon/refit/job.h"
 #include "daemon/refit/worker.h"
 #include "daemon/registry/lifecycle.h"
@@ -154,6 +155,9 @@ class Plumbd {
   const DaemonOptions options_;
   absl::Mutex sync_mu_;  // one SyncMonitor at a time
   std::unique_ptr<Ledger> ledger_;
+  // With a PostgreSQL ledger: whether this replica runs the fleet's refit
+  // jobs (daemon/pg/pg_leader.h); null with an SQLite file (always).
+  std::unique_ptr<PgLeader> leader_;
   std::unique_ptr<VersionStore> versions_;
   std::unique_ptr<Lifecycle> lifecycle_;
   std::unique_ptr<SetRegistry> registry_;

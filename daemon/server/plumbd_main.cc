@@ -44,7 +44,9 @@ ABSL_FLAG(std::string, listen, "",
           "picks a free port)");
 ABSL_FLAG(std::string, ledger, "",
           "SQLite ledger file (default ./var/ledger.db; its directory is "
-          "created if missing)");
+          "created if missing), or postgresql://USER@HOST[:PORT]/DB: a "
+          "database several replicas share (the password from PGPASSFILE "
+          "or ~/.pgpass, never in the URI)");
 ABSL_FLAG(std::string, metrics_listen, "",
           "Prometheus metrics listen address HOST:PORT (default "
           "127.0.0.1:7391; port 0 picks a free port, and so does a gRPC "
@@ -121,12 +123,14 @@ int main(int argc, char** argv) {
   }
   constexpr char kUsage[] =
       "usage: plumbd [--config FILE] [--sets DIR] [--listen HOST:PORT]\n"
-      "              [--ledger FILE] [--metrics_listen HOST:PORT] "
+      "              [--ledger FILE|postgresql://...] "
+      "[--metrics_listen HOST:PORT] "
       "[--ready_file FILE]\n"
       "       plumbd --version | --help\n"
       "Serves the coefficient sets of a directory over gRPC, records every "
-      "score and\noutcome in an SQLite ledger and exports model-health "
-      "metrics (defaults: ./sets,\n127.0.0.1:7390, ./var/ledger.db, metrics "
+      "score and\noutcome in a ledger (an SQLite file, or PostgreSQL shared "
+      "by replicas) and\nexports model-health metrics (defaults: ./sets, "
+      "127.0.0.1:7390, ./var/ledger.db, metrics "
       "on 127.0.0.1:7391).\n"
       "Flags override the config file; - and _ are the same in flag names.\n"
       "SIGHUP reloads the sets; SIGTERM or SIGINT stop gracefully.\n";

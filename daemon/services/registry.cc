@@ -230,6 +230,11 @@ grpc::Status RegistryService::Refit(grpc::ServerContext* context,
         absl::StrCat("no version of a set named '", CallerText(request->set()),
                      "' is known; no refit was queued")));
   }
+  if (refit_gate_) {
+    if (absl::Status gate = refit_gate_(); !gate.ok()) {
+      return ToGrpcStatus(gate);
+    }
+  }
   RefitOutcome outcome = refits_->RunNow(
       {request->set(), RefitTriggerKind::kManual, Actor(request->actor()),
        request->reason().empty() ? "plumbctl refit" : request->reason(),

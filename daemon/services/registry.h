@@ -73,6 +73,13 @@ class RegistryService final : public v1::Registry::Service {
                          const v1::GetRecordRequest* request,
                          v1::RecordDetail* reply) override;
 
+  // Asked before a refit request queues a job: a non-OK status refuses the
+  // request with it (a fleet's replica that does not lead its refits).
+  // Set before serving.
+  void set_refit_gate(std::function<absl::Status()> gate) {
+    refit_gate_ = std::move(gate);
+  }
+
  private:
   // Activate, Approve and Shadow: admission, checks, then `change`.
   grpc::Status ChangeVersion(
@@ -93,6 +100,7 @@ class RegistryService final : public v1::Registry::Service {
   const ShadowTracker* const shadows_;
   const DossierStore* const dossiers_;
   const DriftPolicy* const policy_;
+  std::function<absl::Status()> refit_gate_;
   Ledger* const ledger_;
 };
 

@@ -23,6 +23,7 @@
 // Built with the project, not run by ctest: no timing in tests.
 #include <stdlib.h>
 #include <sys/resource.h>
+#include <unistd.h>
 
 #include <cstdint>
 #include <filesystem>
@@ -42,6 +43,9 @@
 #include "absl/time/clock.h"
 #include "benchmark/benchmark.h"
 #include "daemon/ledger/sqlite_ledger.h"
+#include "daemon/pg/pg_connection.h"
+#include "daemon/pg/pg_ledger.h"
+#include "daemon/pg/pg_schema.h"
 #include "daemon/scoring/features_json.h"
 #include "daemon/util/json_text.h"
 #include "google/protobuf/struct.pb.h"
@@ -57,6 +61,11 @@ ABSL_FLAG(std::string, write_rows, "",
           "write the --rows score rows as TSV to this file and exit");
 ABSL_FLAG(std::string, empty_ledger, "",
           "create a migrated, empty ledger at this path and exit");
+ABSL_FLAG(std::string, pg_cluster, "",
+          "also ingest into PostgreSQL: the postgresql:// URI of a cluster "
+          "(password in PGPASSFILE) where each run makes a fresh database; "
+          "and, as the reference, COPY the same rows into the same tables "
+          "on one connection");
 
 namespace plumbline::daemon {
 namespace {
@@ -273,6 +282,155 @@ void IngestOutcomes(benchmark::State& state, const BenchData& data) {
       absl::ToDoubleMicroseconds(cpu) / static_cast<double>(rows);
 }
 
+// A fresh database on --pg_cluster; its URI.
+absl::StatusOr<std::string> FreshPgDatabase(int n) {
+  const std::string cluster = absl::GetFlag(FLAGS_pg_cluster);
+  absl::StatusOr<std::unique_ptr<PgConnection>> admin =
+      PgConnection::Connect(cluster);
+  if (!admin.ok()) return admin.status();
+  const std::string name = absl::StrCat("ledger_bench_", getpid(), "_", n);
+  if (absl::Status st = (*admin)->Exec(
+          absl::StrCat("DROP DATABASE IF EXISTS ", name, " WITH (FORCE);"));
+      !st.ok()) {
+    return st;
+  }
+  if (absl::Status st = (*admin)->Exec(absl::StrCat("CREATE DATABASE ", name));
+      !st.ok()) {
+    return st;
+  }
+  const size_t slash = cluster.find('/', cluster.find("://") + 3);
+  return absl::StrCat(cluster.substr(0, slash + 1), name);
+}
+
+absl::StatusOr<std::unique_ptr<Ledger>> FreshPgLedger() {
+  static int n = 0;
+  absl::StatusOr<std::string> uri = FreshPgDatabase(++n);
+  if (!uri.ok()) return uri.status();
+  LedgerOptions options;
+  options.path = *uri;
+  return PgLedger::Open(options);
+}
+
+// As IngestScores and IngestOutcomes, on a fresh PostgreSQL ledger.
+void PgIngest(benchmark::State& state, const BenchData& data, bool outcomes) {
+  absl::Duration cpu;
+  for (auto _ : state) {
+    auto ledger = FreshPgLedger();
+    if (!ledger.ok()) {
+      state.SkipWithError(std::string(ledger.status().message()).c_str());
+      return;
+    }
+    std::atomic<int> failures{0};
+    absl::Duration took;
+    if (!outcomes) {
+      took = Produce(
+          data.scores, static_cast<int>(state.range(0)),
+          static_cast<int>(state.range(1)),
+          [&](std::vector<ScoreEntry> b) {
+            if (!(*ledger)->AppendScores(std::move(b)).ok()) ++failures;
+          },
+          cpu);
+    } else {
+      if (!(*ledger)->AppendScores(data.scores).ok()) {
+        state.SkipWithError("cannot prepare the scores");
+        return;
+      }
+      took = Produce(
+          data.outcomes, static_cast<int>(state.range(0)),
+          static_cast<int>(state.range(1)),
+          [&](std::vector<OutcomeEntry> b) {
+            auto results = (*ledger)->ReportOutcomes(std::move(b));
+            if (!results.ok()) {
+              ++failures;
+              return;
+            }
+            for (const auto& r : *results) {
+              if (!r.status.ok()) ++failures;
+            }
+          },
+          cpu);
+    }
+    if (failures > 0) state.SkipWithError("a write failed");
+    state.SetIterationTime(absl::ToDoubleSeconds(took));
+    state.counters["commits"] =
+        static_cast<double>((*ledger)->stats().committed_transactions);
+  }
+  const auto rows =
+      state.iterations() *
+      static_cast<int64_t>(outcomes ? data.outcomes.size() : data.scores.size());
+  state.SetItemsProcessed(rows);
+  // This process only: the server's own CPU is on top (same machine).
+  state.counters["cpu_us_per_row"] =
+      absl::ToDoubleMicroseconds(cpu) / static_cast<double>(rows);
+}
+
+// The reference: the same score rows COPYed into the same tables (scores
+// and score_records, schema of daemon/pg/pg_schema.h) on one connection, in
+// one transaction, ids drawn by the client: what the server takes with no
+// per-call work, no lookups and no group commit.
+void PgCopyReference(benchmark::State& state, const BenchData& data) {
+  for (auto _ : state) {
+    static int n = 1000;
+    absl::StatusOr<std::string> uri = FreshPgDatabase(++n);
+    absl::StatusOr<std::unique_ptr<PgConnection>> db =
+        uri.ok() ? PgConnection::Connect(*uri)
+                 : absl::StatusOr<std::unique_ptr<PgConnection>>(uri.status());
+    absl::Status st = db.status();
+    if (st.ok()) st = MigratePgLedger(**db).status();
+    if (st.ok()) {
+      st = EnsurePartitions(**db, data.scores.front().scored_at,
+                            data.scores.back().scored_at);
+    }
+    if (st.ok()) {
+      st = (*db)->Exec(
+          "INSERT INTO set_names(name) VALUES ('bench');"
+          "INSERT INTO score_sets(set_name, set_version, role)"
+          " VALUES ('bench', 'v1', 'active')");
+    }
+    if (!st.ok()) {
+      state.SkipWithError(std::string(st.message()).c_str());
+      return;
+    }
+    std::vector<PgRow> scores, records;
+    for (size_t i = 0; i < data.scores.size(); ++i) {
+      const ScoreEntry& e = data.scores[i];
+      const std::string id = absl::StrCat(i + 1);
+      const std::string at = absl::FormatTime("%Y-%m-%d %H:%M:%E6S+00",
+                                              e.scored_at, absl::UTCTimeZone());
+      std::string hex = "\\x";
+      for (unsigned char c : e.features) absl::StrAppendFormat(&hex, "%02x", c);
+      scores.push_back({id, e.record_id, "1", at, absl::StrCat(e.log_odds),
+                        absl::StrCat(e.probability), hex, "1"});
+      records.push_back({e.record_id, "1", id, at});
+    }
+    const absl::Time start = absl::Now();
+    st = (*db)->Exec("BEGIN");
+    if (st.ok()) {
+      st = (*db)
+               ->CopyIn("COPY scores(id, record_id, set_id, scored_at,"
+                        " log_odds, probability, features, primary_set)"
+                        " FROM STDIN",
+                        scores)
+               .status();
+    }
+    if (st.ok()) {
+      st = (*db)
+               ->CopyIn("COPY score_records(record_id, primary_set, score_id,"
+                        " scored_at) FROM STDIN",
+                        records)
+               .status();
+    }
+    if (st.ok()) st = (*db)->Exec("COMMIT");
+    if (!st.ok()) {
+      state.SkipWithError(std::string(st.message()).c_str());
+      return;
+    }
+    state.SetIterationTime(absl::ToDoubleSeconds(absl::Now() - start));
+  }
+  state.SetItemsProcessed(state.iterations() *
+                          static_cast<int64_t>(data.scores.size()));
+}
+
 // FeaturesJson as plumbd builds it.
 void JsonByHand(benchmark::State& state, const BenchData& data) {
   const std::vector<uint8_t> sent(data.values[0].size(), 1);
@@ -374,6 +532,28 @@ absl::Status Run(BenchData& data) {
         ->Iterations(1)
         ->UseManualTime()
         ->Unit(benchmark::kMillisecond);
+  }
+  if (!absl::GetFlag(FLAGS_pg_cluster).empty()) {
+    benchmark::RegisterBenchmark(
+        "PgCopy/scores",
+        [&data](benchmark::State& s) { PgCopyReference(s, data); })
+        ->Iterations(1)
+        ->UseManualTime()
+        ->Unit(benchmark::kMillisecond);
+    for (bool outcomes : {false, true}) {
+      benchmark::RegisterBenchmark(
+          outcomes ? "PgLedgerIngest/outcomes" : "PgLedgerIngest/scores",
+          [&data, outcomes](benchmark::State& s) {
+            PgIngest(s, data, outcomes);
+          })
+          ->ArgNames({"producers", "batch"})
+          ->Args({2, 500})
+          ->Args({4, 500})
+          ->Args({8, 500})
+          ->Iterations(1)
+          ->UseManualTime()
+          ->Unit(benchmark::kMillisecond);
+    }
   }
   benchmark::RegisterBenchmark(
       "FeaturesJson/by_hand",
