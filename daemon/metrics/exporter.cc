@@ -75,7 +75,9 @@ const char* ReasonPhrase(int status) {
 // A page answer. The headers keep the browser to plumbd: the content
 // security policy forbids every script, font, frame and any load from
 // another origin, and nothing is cached.
-void WritePage(mg_connection* conn, const HttpReply& reply) {
+// `head_only`: a HEAD request, answered without the body.
+void WritePage(mg_connection* conn, const HttpReply& reply,
+               bool head_only = false) {
   std::string head = absl::StrFormat(
       "HTTP/1.1 %d %s\r\n"
       "Content-Type: %s\r\n"
@@ -93,7 +95,7 @@ void WritePage(mg_connection* conn, const HttpReply& reply) {
   }
   absl::StrAppend(&head, "\r\n");
   WriteAll(conn, head);
-  WriteAll(conn, reply.body);
+  if (!head_only) WriteAll(conn, reply.body);
 }
 
 }  // namespace
@@ -158,8 +160,11 @@ absl::StatusOr<std::unique_ptr<MetricsExporter>> MetricsExporter::Start(
         absl::StrCat("cannot serve metrics on ", listen, ": no port bound"));
   }
   exporter->bound_address_ = BoundAddress(listen, ports[0].port);
-  // /metrics (and /metrics/...) first; "**" takes every other path.
+  // /metrics (and /metrics/...) and /serving first; "**" takes every other
+  // path.
   mg_set_request_handler(exporter->server_, "/metrics", &HandleMetrics,
+                         exporter.get());
+  mg_set_request_handler(exporter->server_, "/serving", &HandleServing,
                          exporter.get());
   mg_set_request_handler(exporter->server_, "**", &HandlePage, exporter.get());
   return exporter;
@@ -218,6 +223,42 @@ int MetricsExporter::HandlePage(mg_connection* conn, void* cbdata) {
     }
   }
   WritePage(conn, reply);
+  return reply.status;
+}
+
+// Deliberately before Admit: a balancer's health probe has no password, and
+// the answer tells only whether this replica takes calls.
+int MetricsExporter::HandleServing(mg_connection* conn, void* cbdata) {
+  auto* self = static_cast<MetricsExporter*>(cbdata);
+  const mg_request_info* info = mg_get_request_info(conn);
+  // civetweb hands this handler /serving/... too: those are pages.
+  if (info->local_uri == nullptr ||
+      std::strcmp(info->local_uri, "/serving") != 0) {
+    return HandlePage(conn, cbdata);
+  }
+  const bool head = std::strcmp(info->request_method, "HEAD") == 0;
+  HttpReply reply;
+  reply.content_type = "text/plain; charset=utf-8";
+  if (!head && std::strcmp(info->request_method, "GET") != 0) {
+    reply.status = 405;
+    reply.body = "plumbd answers /serving to GET and HEAD only\n";
+    reply.headers.emplace_back("Allow", "GET, HEAD");
+  } else {
+    switch (self->serving_.load()) {
+      case ServingState::kServing:
+        reply.body = "serving\n";
+        break;
+      case ServingState::kDraining:
+        reply.status = 503;
+        reply.body = "draining\n";
+        break;
+      case ServingState::kStarting:
+        reply.status = 503;
+        reply.body = "starting\n";
+        break;
+    }
+  }
+  WritePage(conn, reply, head);
   return reply.status;
 }
 

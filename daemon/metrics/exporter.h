@@ -31,13 +31,23 @@
 //   auto exporter = MetricsExporter::Start(options.metrics_listen,
 //                                          options.security.metrics_auth());
 //
-// Thread-safe: the registry is; Add, AttachPages and DetachPages may be
-// called while requests run. Collectables are scraped on the listener's own
-// threads until it is destroyed, so whatever they read must outlive the
-// exporter.
+// GET /serving is the readiness probe a proxy in front of several plumbd
+// replicas checks (haproxy's `option httpchk GET /serving`): 200 `serving`
+// once plumbd serves, 503 `draining` from the start of its drain, 503
+// `starting` before. It is never behind the basic auth above: a balancer's
+// probe carries no password, and the answer reveals one bit.
+//
+//   (*exporter)->SetServing(ServingState::kServing);   // plumbd is up
+//   (*exporter)->SetServing(ServingState::kDraining);  // SIGTERM, drain
+//
+// Thread-safe: the registry is; Add, AttachPages, DetachPages and
+// SetServing may be called while requests run. Collectables are scraped on the
+// listener's own threads until it is destroyed, so whatever they read must
+// outlive the exporter.
 #ifndef PLUMBLINE_DAEMON_METRICS_EXPORTER_H_
 #define PLUMBLINE_DAEMON_METRICS_EXPORTER_H_
 
+#include <atomic>
 #include <memory>
 #include <string>
 #include <utility>
@@ -78,6 +88,13 @@ class HttpPages {
   virtual HttpReply Get(const std::string& path, const std::string& query) = 0;
 };
 
+// What GET /serving answers.
+enum class ServingState {
+  kStarting,  // 503 "starting": plumbd is not taking calls yet
+  kServing,   // 200 "serving"
+  kDraining,  // 503 "draining": shutting down, send new calls elsewhere
+};
+
 class MetricsExporter {
  public:
   // Serves /metrics on `listen` (HOST:PORT; port 0 picks a free port),
@@ -109,12 +126,16 @@ class MetricsExporter {
   void AttachPages(HttpPages* pages);
   void DetachPages();
 
+  // What GET /serving answers from now on (kStarting until first called).
+  void SetServing(ServingState state) { serving_.store(state); }
+
  private:
   MetricsExporter() = default;
 
   // civetweb request handlers; `cbdata` is the exporter.
   static int HandleMetrics(mg_connection* conn, void* cbdata);
   static int HandlePage(mg_connection* conn, void* cbdata);
+  static int HandleServing(mg_connection* conn, void* cbdata);
 
   // Whether the request's basic-auth user and password are right (true
   // without auth); writes the 401 answer when not.
@@ -136,6 +157,8 @@ class MetricsExporter {
   prometheus::Counter* scrapes_ = nullptr;
   prometheus::Summary* request_latencies_ = nullptr;
   std::string bound_address_;
+
+  std::atomic<ServingState> serving_{ServingState::kStarting};
 
   absl::Mutex mu_;
   std::vector<std::shared_ptr<prometheus::Collectable>> owned_

@@ -327,6 +327,7 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
   LogEvent(LogLevel::kInfo, "listening",
            {{"addr", d->server_->bound_address()},
             {"sets", absl::StrCat(d->registry_->Names().size())}});
+  d->exporter_->SetServing(ServingState::kServing);  // GET /serving: 200
   if (!ready_file.empty()) {
     if (absl::Status s = WriteFileAtomically(
             ready_file, absl::StrCat(d->server_->bound_address(), "\n"));
@@ -419,6 +420,7 @@ void Plumbd::Reload() {
 
 void Plumbd::Shutdown(absl::Duration grace) {
   const absl::Duration drain = absl::Seconds(options_.grpc.drain_seconds());
+  exporter_->SetServing(ServingState::kDraining);  // GET /serving: 503
   if (drain > absl::ZeroDuration()) {
     server_->StopServingHealth();
     LogEvent(LogLevel::kInfo, "draining",

@@ -3,6 +3,8 @@
 
 #include <curl/curl.h>
 
+#include <utility>
+
 #include "absl/strings/numbers.h"
 #include "absl/strings/str_cat.h"
 #include "absl/strings/str_split.h"
@@ -18,29 +20,36 @@ size_t Append(char* data, size_t size, size_t count, void* out) {
 
 }  // namespace
 
-absl::StatusOr<std::string> HttpGet(const std::string& host_port,
-                                    const std::string& path) {
+absl::StatusOr<HttpAnswer> HttpFetch(const std::string& host_port,
+                                     const std::string& path) {
   CURL* curl = curl_easy_init();
   if (curl == nullptr) return absl::InternalError("curl_easy_init failed");
   const std::string url = absl::StrCat("http://", host_port, path);
-  std::string body;
+  HttpAnswer answer;
   curl_easy_setopt(curl, CURLOPT_URL, url.c_str());
   curl_easy_setopt(curl, CURLOPT_WRITEFUNCTION, &Append);
-  curl_easy_setopt(curl, CURLOPT_WRITEDATA, &body);
+  curl_easy_setopt(curl, CURLOPT_WRITEDATA, &answer.body);
   curl_easy_setopt(curl, CURLOPT_TIMEOUT,
                    30L);  // safety net, not a speed check
   const CURLcode rc = curl_easy_perform(curl);
-  long status = 0;
-  curl_easy_getinfo(curl, CURLINFO_RESPONSE_CODE, &status);
+  curl_easy_getinfo(curl, CURLINFO_RESPONSE_CODE, &answer.status);
   curl_easy_cleanup(curl);
   if (rc != CURLE_OK) {
     return absl::UnavailableError(
         absl::StrCat("GET ", url, ": ", curl_easy_strerror(rc)));
   }
-  if (status != 200) {
-    return absl::UnavailableError(absl::StrCat("GET ", url, ": HTTP ", status));
+  return answer;
+}
+
+absl::StatusOr<std::string> HttpGet(const std::string& host_port,
+                                    const std::string& path) {
+  absl::StatusOr<HttpAnswer> answer = HttpFetch(host_port, path);
+  if (!answer.ok()) return answer.status();
+  if (answer->status != 200) {
+    return absl::UnavailableError(absl::StrCat("GET http://", host_port, path,
+                                               ": HTTP ", answer->status));
   }
-  return body;
+  return std::move(answer->body);
 }
 
 std::vector<Sample> ParseExposition(absl::string_view text) {

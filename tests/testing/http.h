@@ -23,6 +23,15 @@ namespace plumbline::daemon::testing {
 absl::StatusOr<std::string> HttpGet(const std::string& host_port,
                                     const std::string& path);
 
+// The status and body of http://host_port/path whatever the status; an
+// error only when no answer came.
+struct HttpAnswer {
+  long status = 0;
+  std::string body;
+};
+absl::StatusOr<HttpAnswer> HttpFetch(const std::string& host_port,
+                                     const std::string& path);
+
 struct Sample {
   std::string name;
   std::map<std::string, std::string> labels;

@@ -6,7 +6,9 @@
 // gzipped, a refused and a wrong password — must be the same bytes, status
 // line and headers included. Then the pages: served behind the same basic
 // auth, 404 when none are attached, GET only, and a detach that waits for
-// nothing and leaves /metrics alone.
+// nothing and leaves /metrics alone. Last the readiness probe /serving:
+// its three answers, HEAD, no password asked even with auth on, and only
+// GET and HEAD.
 #include "daemon/metrics/exporter.h"
 
 #include <arpa/inet.h>
@@ -267,6 +269,67 @@ TEST(MetricsExporterPagesTest, ServedBesideMetricsUntilDetached) {
   EXPECT_THAT(RawGet(addr, "GET", "/metrics"), StartsWith("HTTP/1.1 200 OK"));
   (*exporter)->DetachPages();
   EXPECT_THAT(RawGet(addr, "GET", "/"), StartsWith("HTTP/1.1 404 "));
+}
+
+// The body of a whole HTTP answer (after the blank line).
+std::string Body(const std::string& answer) {
+  const size_t end = answer.find("\r\n\r\n");
+  return end == std::string::npos ? "" : answer.substr(end + 4);
+}
+
+TEST(MetricsExporterServingTest, StartingThenServingThenDraining) {
+  auto exporter = MetricsExporter::Start("127.0.0.1:0");
+  ASSERT_TRUE(exporter.ok()) << exporter.status();
+  const std::string addr = (*exporter)->bound_address();
+  std::string answer = RawGet(addr, "GET", "/serving");
+  EXPECT_THAT(answer, StartsWith("HTTP/1.1 503 Service Unavailable\r\n"));
+  EXPECT_EQ(Body(answer), "starting\n");
+  (*exporter)->SetServing(ServingState::kServing);
+  answer = RawGet(addr, "GET", "/serving");
+  EXPECT_THAT(answer, StartsWith("HTTP/1.1 200 OK\r\n"));
+  EXPECT_THAT(answer, HasSubstr("Content-Type: text/plain; charset=utf-8\r\n"));
+  EXPECT_THAT(answer, HasSubstr("Cache-Control: no-store\r\n"));
+  EXPECT_EQ(Body(answer), "serving\n");
+  // HEAD: the same status and length, no body.
+  answer = RawGet(addr, "HEAD", "/serving");
+  EXPECT_THAT(answer, StartsWith("HTTP/1.1 200 OK\r\n"));
+  EXPECT_THAT(answer, HasSubstr("Content-Length: 8\r\n"));
+  EXPECT_EQ(Body(answer), "");
+  (*exporter)->SetServing(ServingState::kDraining);
+  answer = RawGet(addr, "GET", "/serving");
+  EXPECT_THAT(answer, StartsWith("HTTP/1.1 503 Service Unavailable\r\n"));
+  EXPECT_EQ(Body(answer), "draining\n");
+}
+
+TEST(MetricsExporterServingTest, OnlyGetAndHead) {
+  auto exporter = MetricsExporter::Start("127.0.0.1:0");
+  ASSERT_TRUE(exporter.ok()) << exporter.status();
+  (*exporter)->SetServing(ServingState::kServing);
+  const std::string addr = (*exporter)->bound_address();
+  for (const char* method : {"POST", "PUT", "DELETE"}) {
+    const std::string answer = RawGet(addr, method, "/serving");
+    EXPECT_THAT(answer, StartsWith("HTTP/1.1 405 ")) << method;
+    EXPECT_THAT(answer, HasSubstr("Allow: GET, HEAD\r\n")) << method;
+  }
+  // Below /serving are pages (none attached here), not the probe.
+  EXPECT_THAT(RawGet(addr, "GET", "/serving/courier"),
+              StartsWith("HTTP/1.1 404 "));
+}
+
+TEST_F(AuthTest, ServingAsksForNoPassword) {
+  auto exporter = MetricsExporter::Start("127.0.0.1:0", auth_);
+  ASSERT_TRUE(exporter.ok()) << exporter.status();
+  (*exporter)->SetServing(ServingState::kServing);
+  const std::string addr = (*exporter)->bound_address();
+  EXPECT_THAT(RawGet(addr, "GET", "/serving"), StartsWith("HTTP/1.1 200 OK"));
+  // A wrong password is not even looked at.
+  EXPECT_THAT(RawGet(addr, "GET", "/serving", Basic("scraper", "no")),
+              StartsWith("HTTP/1.1 200 OK"));
+  // Everything else still asks.
+  EXPECT_THAT(RawGet(addr, "GET", "/metrics"),
+              StartsWith("HTTP/1.1 401 Unauthorized\r\n"));
+  EXPECT_THAT(RawGet(addr, "GET", "/serving/courier"),
+              StartsWith("HTTP/1.1 401 Unauthorized\r\n"));
 }
 
 TEST(MetricsExporterPagesTest, AddressInUseIsUnavailable) {

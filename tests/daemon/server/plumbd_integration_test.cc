@@ -2,8 +2,8 @@
 //
 // Runs the real plumbd on an ephemeral port and talks to it over gRPC:
 // Score, ScoreBatch (named and dense), ListSets, the standard health service,
-// reload on SIGHUP (new version, invalid file, removed file) and a clean exit
-// on SIGTERM.
+// reload on SIGHUP (new version, invalid file, removed file), a clean exit
+// on SIGTERM, and a drain (NOT_SERVING, GET /serving 503, calls answered).
 //
 // Expected log-odds are hand computations from the set's coefficients (listed
 // in tests/daemon/test_sets.h), not the scorer's output.
@@ -17,6 +17,7 @@
 #include "gmock/gmock.h"
 #include "google/protobuf/util/json_util.h"
 #include "gtest/gtest.h"
+#include "tests/testing/http.h"
 #include "tests/testing/process.h"
 #include "tests/testing/test_sets.h"
 
@@ -29,6 +30,8 @@ using testing::CourierSetJson;
 using testing::DepotSetJson;
 using ::testing::ElementsAre;
 using ::testing::HasSubstr;
+using testing::HttpAnswer;
+using testing::HttpFetch;
 using testing::InvalidSetJson;
 using testing::PlumbdProcess;
 using testing::PollUntil;
@@ -353,6 +356,13 @@ class PlumbdDrainTest : public PlumbdIntegrationTest {
 TEST_F(PlumbdDrainTest, SaysNotServingThenStillAnswersThenStops) {
   ASSERT_TRUE(ScoreParcel("parcel-drain-1").ok());
   EXPECT_EQ(Health(""), HealthCheckResponse::SERVING);
+  // The readiness probe a proxy checks, on the metrics listener.
+  const std::string metrics = plumbd_->MetricsAddress();
+  ASSERT_FALSE(metrics.empty()) << plumbd_->Log();
+  absl::StatusOr<HttpAnswer> probe = HttpFetch(metrics, "/serving");
+  ASSERT_TRUE(probe.ok()) << probe.status();
+  EXPECT_EQ(probe->status, 200);
+  EXPECT_EQ(probe->body, "serving\n");
   plumbd_->Signal(SIGTERM);
   ASSERT_TRUE(PollUntil([&] {
     return plumbd_->CountLogLines("event=draining") == 1;
@@ -360,6 +370,10 @@ TEST_F(PlumbdDrainTest, SaysNotServingThenStillAnswersThenStops) {
   // During the drain: every name NOT_SERVING, calls still answered.
   EXPECT_EQ(Health(""), HealthCheckResponse::NOT_SERVING);
   EXPECT_EQ(Health("courier"), HealthCheckResponse::NOT_SERVING);
+  probe = HttpFetch(metrics, "/serving");
+  ASSERT_TRUE(probe.ok()) << probe.status();
+  EXPECT_EQ(probe->status, 503);
+  EXPECT_EQ(probe->body, "draining\n");
   grpc::Status during = ScoreParcel("parcel-drain-2");
   EXPECT_TRUE(during.ok()) << during.error_message();
   EXPECT_EQ(plumbd_->CountLogLines("event=stopped"), 0);
