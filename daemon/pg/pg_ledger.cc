@@ -358,7 +358,15 @@ absl::Status PgLedgerImpl::Flush() {
            (marks_.score_id >= want.score_id &&
             marks_.outcome_seq >= want.outcome_seq);
   };
-  mu_.Await(absl::Condition(&fed));
+  // Bounded: with the server gone the feed cannot move, and a shutdown
+  // must not wait for it forever.
+  if (!mu_.AwaitWithTimeout(absl::Condition(&fed), kPgFlushFeedWait)) {
+    return absl::DeadlineExceededError(absl::StrCat(
+        "the committed-rows feed did not reach this replica's last commit "
+        "within ",
+        absl::FormatDuration(kPgFlushFeedWait),
+        " (is the PostgreSQL server reachable?)"));
+  }
   return absl::OkStatus();
 }
 

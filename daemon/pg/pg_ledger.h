@@ -62,6 +62,9 @@ inline constexpr int64_t kPgCommitOrderLockKey = 0x706c756d626f7264;
 inline constexpr char kPgLedgerChannel[] = "plumbline_ledger_rows";
 // How long the follower waits for a notification before it looks anyway.
 inline constexpr absl::Duration kPgFollowInterval = absl::Seconds(1);
+// The longest Flush() waits for the feed to pass this process's commits
+// (DeadlineExceeded after it).
+inline constexpr absl::Duration kPgFlushFeedWait = absl::Seconds(10);
 
 // True when `where` (LedgerOptions::path, plumbd's --ledger) names a
 // PostgreSQL database (a postgresql:// or postgres:// URI) rather than an
