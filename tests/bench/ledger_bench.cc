@@ -356,8 +356,8 @@ void PgIngest(benchmark::State& state, const BenchData& data, bool outcomes) {
         static_cast<double>((*ledger)->stats().committed_transactions);
   }
   const auto rows =
-      state.iterations() *
-      static_cast<int64_t>(outcomes ? data.outcomes.size() : data.scores.size());
+      state.iterations() * static_cast<int64_t>(outcomes ? data.outcomes.size()
+                                                         : data.scores.size());
   state.SetItemsProcessed(rows);
   // This process only: the server's own CPU is on top (same machine).
   state.counters["cpu_us_per_row"] =
@@ -407,17 +407,19 @@ void PgCopyReference(benchmark::State& state, const BenchData& data) {
     st = (*db)->Exec("BEGIN");
     if (st.ok()) {
       st = (*db)
-               ->CopyIn("COPY scores(id, record_id, set_id, scored_at,"
-                        " log_odds, probability, features, primary_set)"
-                        " FROM STDIN",
-                        scores)
+               ->CopyIn(
+                   "COPY scores(id, record_id, set_id, scored_at,"
+                   " log_odds, probability, features, primary_set)"
+                   " FROM STDIN",
+                   scores)
                .status();
     }
     if (st.ok()) {
       st = (*db)
-               ->CopyIn("COPY score_records(record_id, primary_set, score_id,"
-                        " scored_at) FROM STDIN",
-                        records)
+               ->CopyIn(
+                   "COPY score_records(record_id, primary_set, score_id,"
+                   " scored_at) FROM STDIN",
+                   records)
                .status();
     }
     if (st.ok()) st = (*db)->Exec("COMMIT");
