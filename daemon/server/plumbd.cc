@@ -13,6 +13,7 @@
 #include "daemon/metrics/health.h"
 #include "daemon/metrics/ledger.h"
 #include "daemon/metrics/shadows.h"
+#include "daemon/registry/sqlite_version_store.h"
 #include "daemon/server/health_options.h"
 #include "daemon/server/library_logs.h"
 #include "daemon/server/page_options.h"
@@ -143,7 +144,7 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
   // The versions of every set live in the ledger; the lifecycle decides
   // which one serves (daemon/registry/lifecycle.h).
   absl::StatusOr<std::unique_ptr<VersionStore>> versions =
-      VersionStore::Open(o.ledger.path, o.ledger.env);
+      SqliteVersionStore::Open(o.ledger.path, o.ledger.env);
   if (!versions.ok()) return versions.status();
   d->versions_ = *std::move(versions);
   d->lifecycle_ = std::make_unique<Lifecycle>(d->versions_.get());
