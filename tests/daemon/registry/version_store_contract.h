@@ -17,6 +17,7 @@
 
 #include <functional>
 #include <memory>
+#include <ostream>
 #include <string>
 
 #include "absl/status/statusor.h"
@@ -34,6 +35,11 @@ struct VersionStoreBackend {
       std::shared_ptr<void>& keep)>
       open;
 };
+
+// gtest prints a backend by its name (the test list names it, not bytes).
+inline void PrintTo(const VersionStoreBackend& backend, std::ostream* os) {
+  *os << backend.name;
+}
 
 // The test name suffix: the backend's name.
 std::string VersionStoreBackendName(
