@@ -129,6 +129,43 @@ constexpr const char* kPgSteps[] = {
     "ALTER TABLE scores DROP CONSTRAINT scores_set_id_fkey,"
     "  DROP CONSTRAINT scores_primary_set_fkey;"
     "ALTER TABLE score_records DROP CONSTRAINT score_records_primary_set_fkey;",
+    // 3 -> 4: the version registry (daemon/pg/pg_version_store.h), as the
+    // SQLite ledger keeps it since its version 3: every version of every
+    // set with its state and document, the order of activations, and the
+    // audit. Times are microseconds since the epoch (bigint), as there:
+    // exact both ways, including the far past absl::Time maps to int64's
+    // minimum. Names compare byte by byte (COLLATE "C"), as SQLite's do, so
+    // both backends list versions in the same order.
+    "CREATE TABLE set_versions("
+    "  set_name text COLLATE \"C\" NOT NULL,"
+    "  version text COLLATE \"C\" NOT NULL,"
+    "  state text NOT NULL"
+    "    CHECK (state IN ('active', 'candidate', 'shadow', 'retired')),"
+    "  created_at_us bigint NOT NULL,"
+    "  created_by text NOT NULL,"
+    "  reason text NOT NULL,"
+    "  comparison text NOT NULL,"
+    "  source text NOT NULL,"
+    "  document text NOT NULL,"
+    "  PRIMARY KEY (set_name, version));"
+    // One active version per set, whichever replica writes it.
+    "CREATE UNIQUE INDEX one_active_version ON set_versions(set_name)"
+    "  WHERE state = 'active';"
+    "CREATE TABLE set_activations("
+    "  seq bigint GENERATED ALWAYS AS IDENTITY PRIMARY KEY,"
+    "  set_name text COLLATE \"C\" NOT NULL,"
+    "  version text COLLATE \"C\" NOT NULL,"
+    "  at_us bigint NOT NULL);"
+    "CREATE INDEX set_activations_by_set ON set_activations(set_name, seq);"
+    "CREATE TABLE audit("
+    "  id bigint GENERATED ALWAYS AS IDENTITY PRIMARY KEY,"
+    "  at_us bigint NOT NULL,"
+    "  set_name text COLLATE \"C\" NOT NULL,"
+    "  version text COLLATE \"C\" NOT NULL,"
+    "  action text NOT NULL,"
+    "  actor text NOT NULL,"
+    "  detail text NOT NULL);"
+    "CREATE INDEX audit_by_set ON audit(set_name, id);",
 };
 
 // The version table: one row, enforced by a boolean primary key that can

@@ -17,8 +17,10 @@
 // Tables (version 1): score_sets, set_names, scores (partitioned),
 // score_records (one active score per record id and set, across replicas
 // and partitions), outcomes (partitioned), outcome_records (one outcome per
-// record id). There is no default partition: a row whose time falls
-// outside every prepared partition fails (SQLSTATE 23514, which the
+// record id). Version 3 adds the version registry that replicas share
+// (daemon/pg/pg_version_store.h): set_versions (one active version per
+// set), set_activations, audit. There is no default partition: a row whose time
+// falls outside every prepared partition fails (SQLSTATE 23514, which the
 // connection reports as FailedPrecondition) instead of piling up
 // somewhere retention never reaches.
 //

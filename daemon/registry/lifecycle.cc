@@ -22,6 +22,10 @@ SetVersion Key(absl::string_view set, absl::string_view version) {
 
 constexpr char kSetsDirectory[] = "sets directory";
 
+// True while this thread runs Refresh: the registry's Resolve call it makes
+// only reads (see Lifecycle::Refresh).
+thread_local bool refreshing = false;
+
 }  // namespace
 
 Lifecycle::Lifecycle(VersionStore* store, std::function<absl::Time()> now)
@@ -122,7 +126,9 @@ absl::Status Lifecycle::ActivateInStore(const std::string& set,
 absl::StatusOr<ServingMap> Lifecycle::Resolve(const PlanMap& from_files) {
   absl::MutexLock lock(&mu_);
   const absl::Time now = now_();
-  absl::Status written = store_->InTransaction([&]() -> absl::Status {
+  // Under Refresh nothing is recorded: the files were recorded by the Reload
+  // that read them, and another replica's change is only read.
+  auto record_files = [&]() -> absl::Status {
     mu_.AssertHeld();  // the caller holds it; tells the lock analysis
     for (const auto& [name, plan] : from_files) {
       // A file plan already recorded (every refresh after the reload that
@@ -272,8 +278,12 @@ absl::StatusOr<ServingMap> Lifecycle::Resolve(const PlanMap& from_files) {
       }
     }
     return absl::OkStatus();
-  });
-  if (!written.ok()) return written;
+  };
+  if (!refreshing) {
+    if (absl::Status s = store_->InTransaction(record_files); !s.ok()) {
+      return s;
+    }
+  }
 
   absl::StatusOr<std::vector<VersionRecord>> all = store_->List("");
   if (!all.ok()) return all.status();
@@ -333,20 +343,22 @@ absl::StatusOr<VersionRecord> Lifecycle::AddCandidate(NewVersion version) {
   {
     absl::MutexLock lock(&mu_);
     record.created_at = now_();
-    absl::StatusOr<std::vector<std::string>> changes =
-        ChangesFromActive(name, version.set);
-    if (!changes.ok()) return changes.status();
-    std::vector<AuditRecord> schema_audit;
-    if (absl::Status st = CheckSchemaChanges(
-            absl::StrCat("load version '", ver, "' of set '", name, "'"),
-            StateChange{name, ver, version.created_by, version.reason,
-                        version.allow_schema_change},
-            *changes, record.created_at, &schema_audit);
-        !st.ok()) {
-      return st;
-    }
+    // The check against the active version and the insert in one
+    // transaction: another replica may change the active version meanwhile.
     absl::Status s = store_->InTransaction([&]() -> absl::Status {
       mu_.AssertHeld();  // the caller holds it; tells the lock analysis
+      absl::StatusOr<std::vector<std::string>> changes =
+          ChangesFromActive(name, version.set);
+      if (!changes.ok()) return changes.status();
+      std::vector<AuditRecord> schema_audit;
+      if (absl::Status st = CheckSchemaChanges(
+              absl::StrCat("load version '", ver, "' of set '", name, "'"),
+              StateChange{name, ver, version.created_by, version.reason,
+                          version.allow_schema_change},
+              *changes, record.created_at, &schema_audit);
+          !st.ok()) {
+        return st;
+      }
       if (absl::Status st = store_->Insert(record); !st.ok()) return st;
       for (const AuditRecord& entry : schema_audit) {
         if (absl::Status st = store_->AppendAudit(entry); !st.ok()) return st;
@@ -376,46 +388,49 @@ absl::StatusOr<VersionRecord> Lifecycle::ChangeActive(
   VersionRecord result;
   {
     absl::MutexLock lock(&mu_);
-    absl::StatusOr<std::optional<VersionRecord>> stored =
-        store_->Get(change.set, change.version);
-    if (!stored.ok()) return stored.status();
-    std::optional<VersionRecord>& record = *stored;
-    if (!record.has_value()) {
-      return absl::NotFoundError(absl::StrCat(
-          "set '", change.set, "' has no version '", change.version,
-          "' (plumbctl versions --set ", change.set, " lists them)"));
-    }
-    if (record->state == VersionState::kActive) {
-      return absl::FailedPreconditionError(
-          absl::StrCat("version '", change.version, "' of set '", change.set,
-                       "' is already active"));
-    }
-    if (absl::Status s = check(*record); !s.ok()) return s;
-    // Compile before writing, so a version that cannot serve never becomes
-    // active.
-    absl::StatusOr<PlanPtr> plan = PlanFor(*record, nullptr);
-    if (!plan.ok()) {
-      return absl::FailedPreconditionError(
-          absl::StrCat("version '", change.version,
-                       "' cannot be served: ", plan.status().message()));
-    }
-    const absl::Time now = now_();
-    absl::StatusOr<std::vector<std::string>> changes =
-        ChangesFromActive(change.set, (*plan)->set());
-    if (!changes.ok()) return changes.status();
-    std::vector<AuditRecord> schema_audit;
-    if (absl::Status s = CheckSchemaChanges(
-            absl::StrCat(before.empty() && after.empty() ? "activate"
-                         : !before.empty()               ? before
-                                                         : after,
-                         " version '", change.version, "' of set '", change.set,
-                         "'"),
-            change, *changes, now, &schema_audit);
-        !s.ok()) {
-      return s;
-    }
+    // Read, check and write in one transaction: a replica sharing the store
+    // may have changed the set since this one last looked, and its changes
+    // and ours take turns.
     absl::Status s = store_->InTransaction([&]() -> absl::Status {
       mu_.AssertHeld();  // the caller holds it; tells the lock analysis
+      absl::StatusOr<std::optional<VersionRecord>> stored =
+          store_->Get(change.set, change.version);
+      if (!stored.ok()) return stored.status();
+      std::optional<VersionRecord>& record = *stored;
+      if (!record.has_value()) {
+        return absl::NotFoundError(absl::StrCat(
+            "set '", change.set, "' has no version '", change.version,
+            "' (plumbctl versions --set ", change.set, " lists them)"));
+      }
+      if (record->state == VersionState::kActive) {
+        return absl::FailedPreconditionError(
+            absl::StrCat("version '", change.version, "' of set '", change.set,
+                         "' is already active"));
+      }
+      if (absl::Status st = check(*record); !st.ok()) return st;
+      // Compile before writing, so a version that cannot serve never becomes
+      // active.
+      absl::StatusOr<PlanPtr> plan = PlanFor(*record, nullptr);
+      if (!plan.ok()) {
+        return absl::FailedPreconditionError(
+            absl::StrCat("version '", change.version,
+                         "' cannot be served: ", plan.status().message()));
+      }
+      const absl::Time now = now_();
+      absl::StatusOr<std::vector<std::string>> changes =
+          ChangesFromActive(change.set, (*plan)->set());
+      if (!changes.ok()) return changes.status();
+      std::vector<AuditRecord> schema_audit;
+      if (absl::Status st = CheckSchemaChanges(
+              absl::StrCat(before.empty() && after.empty() ? "activate"
+                           : !before.empty()               ? before
+                                                           : after,
+                           " version '", change.version, "' of set '",
+                           change.set, "'"),
+              change, *changes, now, &schema_audit);
+          !st.ok()) {
+        return st;
+      }
       for (const AuditRecord& entry : schema_audit) {
         if (absl::Status st = store_->AppendAudit(entry); !st.ok()) return st;
       }
@@ -433,14 +448,18 @@ absl::StatusOr<VersionRecord> Lifecycle::ChangeActive(
         return st;
       }
       if (!after.empty()) {
-        return store_->AppendAudit({now, change.set, change.version, after,
-                                    change.actor, change.reason});
+        if (absl::Status st =
+                store_->AppendAudit({now, change.set, change.version, after,
+                                     change.actor, change.reason});
+            !st.ok()) {
+          return st;
+        }
       }
+      record->state = VersionState::kActive;
+      result = *std::move(record);
       return absl::OkStatus();
     });
     if (!s.ok()) return s;
-    record->state = VersionState::kActive;
-    result = *std::move(record);
   }
   LogEvent(LogLevel::kInfo, "version_activated",
            {{"set", change.set},
@@ -480,41 +499,42 @@ absl::StatusOr<VersionRecord> Lifecycle::Shadow(const StateChange& change) {
   VersionRecord result;
   {
     absl::MutexLock lock(&mu_);
-    absl::StatusOr<std::optional<VersionRecord>> stored =
-        store_->Get(change.set, change.version);
-    if (!stored.ok()) return stored.status();
-    std::optional<VersionRecord>& record = *stored;
-    if (!record.has_value()) {
-      return absl::NotFoundError(absl::StrCat(
-          "set '", change.set, "' has no version '", change.version, "'"));
-    }
-    if (record->state == VersionState::kActive ||
-        record->state == VersionState::kShadow) {
-      return absl::FailedPreconditionError(absl::StrCat(
-          "version '", change.version, "' of set '", change.set, "' is ",
-          VersionStateName(record->state),
-          "; only candidate and retired versions can become shadows"));
-    }
-    absl::StatusOr<PlanPtr> plan = PlanFor(*record, nullptr);
-    if (!plan.ok()) {
-      return absl::FailedPreconditionError(plan.status().message());
-    }
-    const absl::Time now = now_();
-    // A shadow scores the active version's calls: one that would refuse
-    // them records nothing.
-    absl::StatusOr<std::vector<std::string>> changes =
-        ChangesFromActive(change.set, (*plan)->set());
-    if (!changes.ok()) return changes.status();
-    std::vector<AuditRecord> schema_audit;
-    if (absl::Status st =
-            CheckSchemaChanges(absl::StrCat("shadow version '", change.version,
-                                            "' of set '", change.set, "'"),
-                               change, *changes, now, &schema_audit);
-        !st.ok()) {
-      return st;
-    }
+    // Read, check and write in one transaction, as ChangeActive.
     absl::Status s = store_->InTransaction([&]() -> absl::Status {
       mu_.AssertHeld();  // the caller holds it; tells the lock analysis
+      absl::StatusOr<std::optional<VersionRecord>> stored =
+          store_->Get(change.set, change.version);
+      if (!stored.ok()) return stored.status();
+      std::optional<VersionRecord>& record = *stored;
+      if (!record.has_value()) {
+        return absl::NotFoundError(absl::StrCat(
+            "set '", change.set, "' has no version '", change.version, "'"));
+      }
+      if (record->state == VersionState::kActive ||
+          record->state == VersionState::kShadow) {
+        return absl::FailedPreconditionError(absl::StrCat(
+            "version '", change.version, "' of set '", change.set, "' is ",
+            VersionStateName(record->state),
+            "; only candidate and retired versions can become shadows"));
+      }
+      absl::StatusOr<PlanPtr> plan = PlanFor(*record, nullptr);
+      if (!plan.ok()) {
+        return absl::FailedPreconditionError(plan.status().message());
+      }
+      const absl::Time now = now_();
+      // A shadow scores the active version's calls: one that would refuse
+      // them records nothing.
+      absl::StatusOr<std::vector<std::string>> changes =
+          ChangesFromActive(change.set, (*plan)->set());
+      if (!changes.ok()) return changes.status();
+      std::vector<AuditRecord> schema_audit;
+      if (absl::Status st = CheckSchemaChanges(
+              absl::StrCat("shadow version '", change.version, "' of set '",
+                           change.set, "'"),
+              change, *changes, now, &schema_audit);
+          !st.ok()) {
+        return st;
+      }
       for (const AuditRecord& entry : schema_audit) {
         if (absl::Status st = store_->AppendAudit(entry); !st.ok()) return st;
       }
@@ -523,12 +543,17 @@ absl::StatusOr<VersionRecord> Lifecycle::Shadow(const StateChange& change) {
           !st.ok()) {
         return st;
       }
-      return store_->AppendAudit({now, change.set, change.version, "shadowed",
-                                  change.actor, change.reason});
+      if (absl::Status st =
+              store_->AppendAudit({now, change.set, change.version, "shadowed",
+                                   change.actor, change.reason});
+          !st.ok()) {
+        return st;
+      }
+      record->state = VersionState::kShadow;
+      result = *std::move(record);
+      return absl::OkStatus();
     });
     if (!s.ok()) return s;
-    record->state = VersionState::kShadow;
-    result = *std::move(record);
   }
   Apply();
   return result;
@@ -538,30 +563,35 @@ absl::StatusOr<VersionRecord> Lifecycle::StopShadow(const StateChange& change) {
   VersionRecord result;
   {
     absl::MutexLock lock(&mu_);
-    absl::StatusOr<std::optional<VersionRecord>> stored =
-        store_->Get(change.set, change.version);
-    if (!stored.ok()) return stored.status();
-    std::optional<VersionRecord>& record = *stored;
-    if (!record.has_value() || record->state != VersionState::kShadow) {
-      return absl::FailedPreconditionError(
-          absl::StrCat("version '", change.version, "' of set '", change.set,
-                       "' is not a shadow"));
-    }
-    const absl::Time now = now_();
+    // Read, check and write in one transaction, as ChangeActive.
     absl::Status s = store_->InTransaction([&]() -> absl::Status {
       mu_.AssertHeld();  // the caller holds it; tells the lock analysis
+      absl::StatusOr<std::optional<VersionRecord>> stored =
+          store_->Get(change.set, change.version);
+      if (!stored.ok()) return stored.status();
+      std::optional<VersionRecord>& record = *stored;
+      if (!record.has_value() || record->state != VersionState::kShadow) {
+        return absl::FailedPreconditionError(
+            absl::StrCat("version '", change.version, "' of set '", change.set,
+                         "' is not a shadow"));
+      }
+      const absl::Time now = now_();
       if (absl::Status st = store_->SetState(change.set, change.version,
                                              VersionState::kRetired);
           !st.ok()) {
         return st;
       }
-      return store_->AppendAudit({now, change.set, change.version,
-                                  "shadow_stopped", change.actor,
-                                  change.reason});
+      if (absl::Status st = store_->AppendAudit(
+              {now, change.set, change.version, "shadow_stopped", change.actor,
+               change.reason});
+          !st.ok()) {
+        return st;
+      }
+      record->state = VersionState::kRetired;
+      result = *std::move(record);
+      return absl::OkStatus();
     });
     if (!s.ok()) return s;
-    record->state = VersionState::kRetired;
-    result = *std::move(record);
   }
   Apply();
   return result;
@@ -628,6 +658,12 @@ absl::StatusOr<PlanPtr> Lifecycle::Plan(const std::string& set,
         absl::StrCat("set '", set, "' has no version '", version, "'"));
   }
   return PlanFor(*record, nullptr);
+}
+
+void Lifecycle::Refresh() {
+  refreshing = true;
+  Apply();
+  refreshing = false;
 }
 
 void Lifecycle::Apply() {

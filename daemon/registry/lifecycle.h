@@ -27,6 +27,11 @@
 //   auto v = lifecycle.Approve({.set = "courier", .version = "r7",
 //                               .actor = "alice", .reason = "reviewed"});
 //
+// Several replicas may share one store (daemon/pg/pg_version_store.h): a
+// change reads, checks and writes in one store transaction, and those of
+// different replicas take turns; each replica calls Refresh when the store
+// says another one changed something.
+//
 // Thread-safe: every method may be called from any thread; changes are
 // serialized.
 #ifndef PLUMBLINE_DAEMON_REGISTRY_LIFECYCLE_H_
@@ -92,6 +97,16 @@ class Lifecycle final : public VersionResolver {
   // Stops refreshing the registry and calling on_change; waits for a call
   // in progress to return. Changes after this are still recorded.
   void Detach();
+
+  // Re-reads the store and refreshes the registry and calls on_change as
+  // after a change made here: for changes another plumbd replica made in a
+  // shared store (PgVersionStore::Watch calls it on its own thread). It
+  // records nothing: the sets directory's rules are applied by Reload and
+  // by this process's own changes, so a replica whose sets directory lags
+  // another's never undoes that one's versions. Without an attached
+  // registry it does nothing. Safe from any thread at any time.
+  // REQUIRES: the caller holds no lock of this lifecycle or its registry.
+  void Refresh();
 
   // VersionResolver: records new file versions, applies the rules above.
   absl::StatusOr<ServingMap> Resolve(const PlanMap& from_files) override;

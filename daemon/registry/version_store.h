@@ -2,22 +2,25 @@
 //
 // The version store: the ledger tables that record the life of every
 // coefficient set version plumbd has seen (set_versions, set_activations,
-// audit; see daemon/ledger_schema.h). Each version keeps its state (active,
+// audit; see daemon/ledger/schema.cc). Each version keeps its state (active,
 // candidate, shadow, retired), who or what created it and why, the holdout
 // comparison that justified it and its full document (the set as JSON), so
 // a version can be served again after a restart without its file.
 //
-//   auto store = VersionStore::Open("var/ledger.db");   // after
-//   SqliteLedger::Open absl::Status s = (*store)->InTransaction([&]() ->
-//   absl::Status {
+// This header is the interface; the backends are the SQLite ledger file
+// (SqliteVersionStore, daemon/registry/sqlite_version_store.h) and a
+// PostgreSQL database that plumbd replicas share (PgVersionStore,
+// daemon/pg/pg_version_store.h). The lifecycle (daemon/registry/lifecycle.h)
+// takes a VersionStore* and does not know which one it has.
+//
+//   // After SqliteLedger::Open has migrated the file:
+//   auto store = SqliteVersionStore::Open("var/ledger.db");
+//   absl::Status s = (*store)->InTransaction([&]() -> absl::Status {
 //     ... Insert / SetState / RecordActivation / AppendAudit ...
 //   });
 //
-// It has its own SQLite connection to the ledger file (WAL: it waits for the
-// ledger's writer for at most the busy timeout, never corrupts its rows).
-// Writes are synchronous=FULL: a state change that returned is on disk.
-//
-// Not thread-safe: the lifecycle (daemon/lifecycle.h) serializes all calls.
+// Not thread-safe: the lifecycle (daemon/registry/lifecycle.h) serializes all
+// calls.
 #ifndef PLUMBLINE_DAEMON_REGISTRY_VERSION_STORE_H_
 #define PLUMBLINE_DAEMON_REGISTRY_VERSION_STORE_H_
 
@@ -31,7 +34,6 @@
 #include "absl/status/statusor.h"
 #include "absl/strings/string_view.h"
 #include "absl/time/time.h"
-#include "daemon/ledger/sqlite_db.h"
 #include "daemon/util/time.h"
 
 namespace plumbline::daemon {
@@ -40,6 +42,8 @@ enum class VersionState { kActive, kCandidate, kShadow, kRetired };
 
 // "active", "candidate", "shadow", "retired".
 absl::string_view VersionStateName(VersionState state);
+// The state VersionStateName calls `name`; nullopt for any other text.
+std::optional<VersionState> ParseVersionState(absl::string_view name);
 
 struct VersionRecord {
   std::string set;
@@ -70,48 +74,48 @@ struct AuditRecord {
 
 class VersionStore {
  public:
-  // Opens a connection to a ledger that SqliteLedger::Open has already
-  // migrated, through `env` (the ledger's I/O seam; null: the default), which
-  // must outlive the store.
-  static absl::StatusOr<std::unique_ptr<VersionStore>> Open(
-      const std::string& ledger_path, LedgerEnv* env = nullptr);
+  virtual ~VersionStore() = default;
 
-  // Runs `body` in one IMMEDIATE transaction: committed if it returns OK,
-  // rolled back otherwise (its status is returned).
-  absl::Status InTransaction(const std::function<absl::Status()>& body);
+  // Runs `body` in one transaction: committed if it returns OK, rolled back
+  // otherwise (its status is returned). Transactions of every process that
+  // shares the store's tables take turns (SQLite: IMMEDIATE, the file's
+  // write lock; PostgreSQL: an advisory lock), so reads in `body` see what
+  // every earlier transaction wrote.
+  virtual absl::Status InTransaction(
+      const std::function<absl::Status()>& body) = 0;
 
   // nullopt if (set, version) is unknown; the ledger's error (UNAVAILABLE,
   // INTERNAL, ...) if it cannot be read.
-  absl::StatusOr<std::optional<VersionRecord>> Get(absl::string_view set,
-                                                   absl::string_view version);
+  virtual absl::StatusOr<std::optional<VersionRecord>> Get(
+      absl::string_view set, absl::string_view version) = 0;
   // Versions of `set` (every set when empty), newest first.
-  absl::StatusOr<std::vector<VersionRecord>> List(absl::string_view set);
+  virtual absl::StatusOr<std::vector<VersionRecord>> List(
+      absl::string_view set) = 0;
   // The active version of `set`, if any.
-  absl::StatusOr<std::optional<VersionRecord>> Active(absl::string_view set);
+  virtual absl::StatusOr<std::optional<VersionRecord>> Active(
+      absl::string_view set) = 0;
 
   // ALREADY_EXISTS if (set, version) is known.
-  absl::Status Insert(const VersionRecord& record);
+  virtual absl::Status Insert(const VersionRecord& record) = 0;
   // NOT_FOUND if (set, version) is unknown.
-  absl::Status SetState(absl::string_view set, absl::string_view version,
-                        VersionState state);
-  absl::Status RecordActivation(absl::string_view set,
-                                absl::string_view version, absl::Time at);
+  virtual absl::Status SetState(absl::string_view set,
+                                absl::string_view version,
+                                VersionState state) = 0;
+  virtual absl::Status RecordActivation(absl::string_view set,
+                                        absl::string_view version,
+                                        absl::Time at) = 0;
   // The version that was active before the activation of `current`, skipping
   // activations of `current` itself; nullopt if there is none.
-  absl::StatusOr<std::optional<std::string>> PreviousActive(
-      absl::string_view set, absl::string_view current);
+  virtual absl::StatusOr<std::optional<std::string>> PreviousActive(
+      absl::string_view set, absl::string_view current) = 0;
 
-  absl::Status AppendAudit(const AuditRecord& record);
+  virtual absl::Status AppendAudit(const AuditRecord& record) = 0;
   // The history of `set`, oldest first.
-  absl::StatusOr<std::vector<AuditRecord>> Audit(absl::string_view set);
+  virtual absl::StatusOr<std::vector<AuditRecord>> Audit(
+      absl::string_view set) = 0;
   // The distinct audit actors of every set that begin with `prefix`.
-  absl::StatusOr<std::vector<std::string>> AuditActors(
-      absl::string_view prefix);
-
- private:
-  explicit VersionStore(std::unique_ptr<SqliteDb> db) : db_(std::move(db)) {}
-
-  std::unique_ptr<SqliteDb> db_;
+  virtual absl::StatusOr<std::vector<std::string>> AuditActors(
+      absl::string_view prefix) = 0;
 };
 
 }  // namespace plumbline::daemon

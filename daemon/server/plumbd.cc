@@ -17,6 +17,8 @@
 #include "daemon/metrics/shadows.h"
 #include "daemon/pg/pg_leader.h"
 #include "daemon/pg/pg_ledger.h"
+#include "daemon/pg/pg_version_store.h"
+#include "daemon/registry/sqlite_version_store.h"
 #include "daemon/server/health_options.h"
 #include "daemon/server/library_logs.h"
 #include "daemon/server/page_options.h"
@@ -150,10 +152,20 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
 
   // The versions of every set live in the ledger; the lifecycle decides
   // which one serves (daemon/registry/lifecycle.h).
-  absl::StatusOr<std::unique_ptr<VersionStore>> versions =
-      VersionStore::Open(o.ledger.path, o.ledger.env);
-  if (!versions.ok()) return versions.status();
-  d->versions_ = *std::move(versions);
+  // On a fleet they live in the shared database, and every replica
+  // follows the changes made through the others (Watch, below).
+  if (fleet) {
+    absl::StatusOr<std::unique_ptr<PgVersionStore>> versions =
+        PgVersionStore::Open(o.ledger.path);
+    if (!versions.ok()) return versions.status();
+    d->fleet_versions_ = versions->get();
+    d->versions_ = *std::move(versions);
+  } else {
+    absl::StatusOr<std::unique_ptr<VersionStore>> versions =
+        SqliteVersionStore::Open(o.ledger.path, o.ledger.env);
+    if (!versions.ok()) return versions.status();
+    d->versions_ = *std::move(versions);
+  }
   d->lifecycle_ = std::make_unique<Lifecycle>(d->versions_.get());
   d->registry_ = std::make_unique<SetRegistry>(o.sets_dir, d->lifecycle_.get());
   if (absl::StatusOr<ReloadReport> report = d->registry_->Reload();
@@ -300,6 +312,16 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
   // the monitor's versions follow at once.
   d->version_hook_ = std::make_unique<VersionChangeHook>(
       d->lifecycle_.get(), d->registry_.get(), d.get());
+  // A change made through another replica of the fleet: the registry and
+  // health follow as after a local one (kPgVersionRecheck bounds a lost
+  // notification).
+  if (d->fleet_versions_ != nullptr) {
+    if (absl::Status st = d->fleet_versions_->Watch(
+            [l = d->lifecycle_.get()] { l->Refresh(); });
+        !st.ok()) {
+      return st;
+    }
+  }
   if (page_settings->enabled) {
     PagesParts parts;
     parts.monitor = d->monitor_.get();
@@ -339,6 +361,8 @@ absl::StatusOr<std::unique_ptr<Plumbd>> Plumbd::Start(
 }
 
 Plumbd::~Plumbd() {
+  // Other replicas' changes stop arriving before anything they touch goes.
+  if (fleet_versions_ != nullptr) fleet_versions_->StopWatch();
   // The page requests in flight finish before the parts they read go.
   if (pages_ != nullptr) exporter_->DetachPages();
   // The one thread the members' order cannot stop: the server's, whose

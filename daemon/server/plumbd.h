@@ -50,6 +50,7 @@
 #include "daemon/metrics/exporter.h"
 #include "daemon/metrics/requests.h"
 #include "daemon/pg/pg_leader.h"
+#include "daemon/pg/pg_version_store.h"
 #include "daemon/refit/job.h"
 #include "daemon/refit/worker.h"
 #include "daemon/registry/lifecycle.h"
@@ -159,6 +160,8 @@ class Plumbd {
   // jobs (daemon/pg/pg_leader.h); null with an SQLite file (always).
   std::unique_ptr<PgLeader> leader_;
   std::unique_ptr<VersionStore> versions_;
+  // versions_ when it is the fleet's (a PostgreSQL ledger), else null.
+  PgVersionStore* fleet_versions_ = nullptr;
   std::unique_ptr<Lifecycle> lifecycle_;
   std::unique_ptr<SetRegistry> registry_;
   std::unique_ptr<HealthMonitor> monitor_;

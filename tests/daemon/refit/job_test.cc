@@ -21,6 +21,7 @@
 #include "absl/strings/str_cat.h"
 #include "daemon/ledger/sqlite_ledger.h"
 #include "daemon/registry/lifecycle.h"
+#include "daemon/registry/sqlite_version_store.h"
 #include "daemon/registry/version_store.h"
 #include "daemon/review/dossier_html.h"
 #include "daemon/scoring/packed_row.h"
@@ -55,7 +56,7 @@ class RefitJobTest : public ::testing::Test {
     LedgerOptions options;
     options.path = dir_.File("ledger.db");
     ledger_ = *SqliteLedger::Open(options);
-    store_ = *VersionStore::Open(options.path);
+    store_ = *SqliteVersionStore::Open(options.path);
     lifecycle_ = std::make_unique<Lifecycle>(store_.get());
     registry_ =
         std::make_unique<SetRegistry>(dir_.File("sets"), lifecycle_.get());

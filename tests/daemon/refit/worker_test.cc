@@ -20,6 +20,7 @@
 #include "daemon/ledger/sqlite_ledger.h"
 #include "daemon/refit/job.h"
 #include "daemon/registry/lifecycle.h"
+#include "daemon/registry/sqlite_version_store.h"
 #include "daemon/registry/version_store.h"
 #include "daemon/scoring/set_registry.h"
 #include "gtest/gtest.h"
@@ -44,7 +45,7 @@ class RefitWorkerTest : public ::testing::Test {
     LedgerOptions options;
     options.path = dir_.File("ledger.db");
     ledger_ = *SqliteLedger::Open(options);
-    store_ = *VersionStore::Open(options.path);
+    store_ = *SqliteVersionStore::Open(options.path);
     lifecycle_ = std::make_unique<Lifecycle>(store_.get());
     registry_ =
         std::make_unique<SetRegistry>(dir_.File("sets"), lifecycle_.get());

@@ -13,6 +13,7 @@
 
 #include "absl/strings/str_cat.h"
 #include "daemon/ledger/sqlite_ledger.h"
+#include "daemon/registry/sqlite_version_store.h"
 #include "daemon/registry/version_store.h"
 #include "daemon/scoring/set_registry.h"
 #include "gmock/gmock.h"
@@ -33,7 +34,7 @@ struct Stack {
     LedgerOptions options;
     options.path = dir.File("ledger.db");
     ledger = *SqliteLedger::Open(options);
-    store = *VersionStore::Open(options.path);
+    store = *SqliteVersionStore::Open(options.path);
     lifecycle = std::make_unique<Lifecycle>(store.get());
     registry = std::make_unique<SetRegistry>(dir.File("sets"), lifecycle.get());
     lifecycle->Attach(registry.get(),
