@@ -11,59 +11,30 @@
 #include <unistd.h>
 
 #include <cstdlib>
-#include <fstream>
 #include <random>
-#include <sstream>
 #include <string>
 #include <vector>
 
-#include "absl/strings/ascii.h"
 #include "absl/strings/str_cat.h"
 #include "absl/strings/str_replace.h"
 #include "absl/time/clock.h"
 #include "gmock/gmock.h"
 #include "gtest/gtest.h"
+#include "tests/testing/pg_cluster.h"
 #include "tests/testing/process.h"
 #include "tests/testing/status_matchers.h"
 
 namespace plumbline::daemon {
 namespace {
 
+using ::plumbline::daemon::testing::PgClusterUri;
 using ::plumbline::daemon::testing::PollUntil;
+using ::plumbline::daemon::testing::UniquePgName;
 using ::plumbline::testing::StatusIs;
 using ::testing::ElementsAre;
 using ::testing::HasSubstr;
 using ::testing::IsEmpty;
 using ::testing::Not;
-
-// The fixture's cluster: its URI, with PGPASSFILE pointed at its pgpass.
-absl::StatusOr<std::string> ClusterUri() {
-  const char* dir = std::getenv("PLUMBLINE_PG_CLUSTER");
-  if (dir == nullptr || dir[0] == '\0') {
-    return absl::FailedPreconditionError(
-        "PLUMBLINE_PG_CLUSTER is not set: run through ctest (fixture "
-        "pg_cluster), or `ops/pg-cluster start DIR` and set "
-        "PLUMBLINE_PG_CLUSTER=DIR");
-  }
-  std::ifstream in(absl::StrCat(dir, "/uri"));
-  std::stringstream text;
-  text << in.rdbuf();
-  const std::string uri(absl::StripAsciiWhitespace(text.str()));
-  if (!in || uri.empty()) {
-    return absl::FailedPreconditionError(
-        absl::StrCat(dir,
-                     "/uri: missing or empty (did ops/pg-cluster start "
-                     "fail? see the fixture test's output)"));
-  }
-  setenv("PGPASSFILE", absl::StrCat(dir, "/pgpass").c_str(), 1);
-  return uri;
-}
-
-// A name no other test process uses at the same time.
-std::string UniqueName(absl::string_view prefix) {
-  std::random_device rd;
-  return absl::StrCat(prefix, "_", getpid(), "_", rd() % 1000000);
-}
 
 int64_t UniqueKey() {
   std::random_device rd;
@@ -74,7 +45,7 @@ int64_t UniqueKey() {
 class PgConnectionTest : public ::testing::Test {
  protected:
   void SetUp() override {
-    absl::StatusOr<std::string> uri = ClusterUri();
+    absl::StatusOr<std::string> uri = PgClusterUri();
     ASSERT_TRUE(uri.ok()) << uri.status();
     uri_ = *uri;
   }
@@ -227,7 +198,7 @@ TEST_F(PgConnectionTest, NotifyReachesAListenerAndAnIdleWaitTimesOutEmpty) {
   auto sender = Connect();
   ASSERT_NE(listener, nullptr);
   ASSERT_NE(sender, nullptr);
-  const std::string channel = UniqueName("parcel_events");
+  const std::string channel = UniquePgName("parcel_events");
   ASSERT_OK(listener->Listen(channel));
 
   // Nothing sent: the wait lasts its timeout and returns nothing.

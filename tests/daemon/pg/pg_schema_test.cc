@@ -1,74 +1,37 @@
 // The PostgreSQL ledger's schema (daemon/pg/pg_schema.h) against a real
 // PostgreSQL 15 cluster (the ctest fixture pg_cluster, as in
 // pg_connection_test.cc). Each test gets its own freshly created database
-// (CREATE DATABASE through the fixture's superuser connection, dropped WITH
-// (FORCE) at the end): migrations, partitions and advisory locks act on
-// whole databases, and a private database keeps tests that run at the same
-// time (ctest -j2) from seeing each other's tables. Advisory locks are
+// (FreshPgDatabase of tests/testing/pg_cluster.h, dropped WITH (FORCE) at
+// the end): migrations, partitions and advisory locks act on whole
+// databases, and a private database keeps tests that run at the same time
+// (ctest -j2) from seeing each other's tables. Advisory locks are
 // cluster-wide, so tests at the same time may wait on each other's lock for
 // a moment, never see each other's data.
 #include "daemon/pg/pg_schema.h"
 
-#include <unistd.h>
-
 #include <atomic>
-#include <cstdlib>
-#include <fstream>
 #include <memory>
-#include <random>
-#include <sstream>
 #include <string>
 #include <thread>
 #include <vector>
 
-#include "absl/strings/ascii.h"
 #include "absl/strings/str_cat.h"
 #include "absl/time/civil_time.h"
 #include "daemon/pg/pg_connection.h"
 #include "gmock/gmock.h"
 #include "gtest/gtest.h"
+#include "tests/testing/pg_cluster.h"
 #include "tests/testing/status_matchers.h"
 
 namespace plumbline::daemon {
 namespace {
 
+using ::plumbline::daemon::testing::DropPgDatabase;
+using ::plumbline::daemon::testing::FreshPgDatabase;
 using ::plumbline::testing::StatusIs;
 using ::testing::AllOf;
 using ::testing::ElementsAre;
 using ::testing::HasSubstr;
-
-// The fixture's cluster: its URI, with PGPASSFILE pointed at its pgpass.
-absl::StatusOr<std::string> ClusterUri() {
-  const char* dir = std::getenv("PLUMBLINE_PG_CLUSTER");
-  if (dir == nullptr || dir[0] == '\0') {
-    return absl::FailedPreconditionError(
-        "PLUMBLINE_PG_CLUSTER is not set: run through ctest (fixture "
-        "pg_cluster), or `ops/pg-cluster start DIR` and set "
-        "PLUMBLINE_PG_CLUSTER=DIR");
-  }
-  std::ifstream in(absl::StrCat(dir, "/uri"));
-  std::stringstream text;
-  text << in.rdbuf();
-  const std::string uri(absl::StripAsciiWhitespace(text.str()));
-  if (!in || uri.empty()) {
-    return absl::FailedPreconditionError(
-        absl::StrCat(dir,
-                     "/uri: missing or empty (did ops/pg-cluster start "
-                     "fail? see the fixture test's output)"));
-  }
-  setenv("PGPASSFILE", absl::StrCat(dir, "/pgpass").c_str(), 1);
-  return uri;
-}
-
-// `uri` with its database replaced by `database`.
-std::string WithDatabase(const std::string& uri, const std::string& database) {
-  const size_t authority = uri.find("://");
-  const size_t slash = uri.find('/', authority + 3);
-  const size_t query = uri.find('?', slash);
-  std::string out = uri.substr(0, slash + 1) + database;
-  if (query != std::string::npos) out += uri.substr(query);
-  return out;
-}
 
 absl::Time Utc(int y, int m, int d, int hh = 0, int mm = 0) {
   return absl::FromCivil(absl::CivilMinute(y, m, d, hh, mm),
@@ -83,22 +46,15 @@ std::string Ts(absl::Time t) {
 class PgSchemaTest : public ::testing::Test {
  protected:
   void SetUp() override {
-    absl::StatusOr<std::string> uri = ClusterUri();
+    absl::StatusOr<std::string> uri = FreshPgDatabase("courier_ledger");
     ASSERT_TRUE(uri.ok()) << uri.status();
-    cluster_uri_ = *uri;
-    auto admin = PgConnection::Connect(cluster_uri_);
-    ASSERT_TRUE(admin.ok()) << admin.status();
-    admin_ = *std::move(admin);
-    std::random_device rd;
-    database_ = absl::StrCat("courier_ledger_", getpid(), "_", rd() % 1000000);
-    ASSERT_OK(admin_->Exec(absl::StrCat("CREATE DATABASE ", database_)));
-    uri_ = WithDatabase(cluster_uri_, database_);
+    uri_ = *uri;
   }
 
   void TearDown() override {
-    if (admin_ == nullptr || database_.empty()) return;
-    EXPECT_OK(admin_->Exec(
-        absl::StrCat("DROP DATABASE IF EXISTS ", database_, " WITH (FORCE)")));
+    if (!uri_.empty()) {
+      EXPECT_OK(DropPgDatabase(uri_));
+    }
   }
 
   std::unique_ptr<PgConnection> Connect() {
@@ -190,9 +146,6 @@ class PgSchemaTest : public ::testing::Test {
     return st;
   }
 
-  std::string cluster_uri_;
-  std::unique_ptr<PgConnection> admin_;
-  std::string database_;
   std::string uri_;
 };
 
