@@ -17,6 +17,7 @@
 #include "absl/strings/match.h"
 #include "absl/strings/numbers.h"
 #include "absl/strings/str_cat.h"
+#include "absl/strings/str_format.h"
 #include "absl/strings/str_join.h"
 #include "absl/synchronization/mutex.h"
 #include "absl/synchronization/notification.h"
@@ -53,6 +54,10 @@ std::string PgTime(absl::Time t) {
 std::string MicrosOf(absl::string_view column) {
   return absl::StrCat("(extract(epoch from ", column, ") * 1000000)::bigint");
 }
+
+// A double as text that reads back as the same double (StrCat keeps six
+// significant digits).
+std::string ExactDouble(double v) { return absl::StrFormat("%.17g", v); }
 
 // bytea in text form ("\x0a1b..."), as COPY and parameters take it.
 std::string ByteaText(absl::string_view bytes) {
@@ -740,7 +745,7 @@ absl::Status PgLedgerImpl::WriteScores(std::vector<std::shared_ptr<Job>>& group,
     const bool active = e.role == ScoreRole::kActive;
     score_rows.push_back(
         {id, e.record_id, absl::StrCat(rows[i].ids.set_id), at,
-         absl::StrCat(e.log_odds), absl::StrCat(e.probability),
+         ExactDouble(e.log_odds), ExactDouble(e.probability),
          ByteaText(e.features),
          active ? PgValue(absl::StrCat(rows[i].ids.name_id)) : PgValue()});
     if (active) {

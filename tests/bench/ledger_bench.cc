@@ -282,6 +282,8 @@ void IngestOutcomes(benchmark::State& state, const BenchData& data) {
       absl::ToDoubleMicroseconds(cpu) / static_cast<double>(rows);
 }
 
+std::string ExactDouble(double v) { return absl::StrFormat("%.17g", v); }
+
 // A fresh database on --pg_cluster; its URI.
 absl::StatusOr<std::string> FreshPgDatabase(int n) {
   const std::string cluster = absl::GetFlag(FLAGS_pg_cluster);
@@ -399,8 +401,8 @@ void PgCopyReference(benchmark::State& state, const BenchData& data) {
                                               e.scored_at, absl::UTCTimeZone());
       std::string hex = "\\x";
       for (unsigned char c : e.features) absl::StrAppendFormat(&hex, "%02x", c);
-      scores.push_back({id, e.record_id, "1", at, absl::StrCat(e.log_odds),
-                        absl::StrCat(e.probability), hex, "1"});
+      scores.push_back({id, e.record_id, "1", at, ExactDouble(e.log_odds),
+                        ExactDouble(e.probability), hex, "1"});
       records.push_back({e.record_id, "1", id, at});
     }
     const absl::Time start = absl::Now();
