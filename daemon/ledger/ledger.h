@@ -222,7 +222,7 @@ struct LedgerStats {
 };
 // The ledger's contract, whatever keeps the rows. Every backend gives the
 // same guarantees, checked by the same test bodies
-// (tests/daemon/ledger/contract_test.cc): all or none per call, nothing
+// (tests/daemon/ledger/contract.h): all or none per call, nothing
 // acknowledged before its commit, one active score per (record id, set),
 // one outcome per record id, the rows observer fed in commit order.
 class Ledger {

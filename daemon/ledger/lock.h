@@ -1,6 +1,6 @@
 // File: daemon/ledger/lock.h
 //
-// One writer per ledger. Ledger::Open takes an exclusive flock(2) on
+// One writer per ledger. SqliteLedger::Open takes an exclusive flock(2) on
 // "<ledger>.lock" for as long as the ledger is open and writes who holds it
 // into the file (pid, host, start time, what the holder said about itself,
 // e.g. its listen address). A second plumbd on the same ledger is refused

@@ -34,7 +34,7 @@
 //     outcome seq it holds (daemon/health/snapshot_store.h)
 // Times are microseconds since the Unix epoch (UTC).
 //
-// Called by Ledger::Open on the writer connection. Not thread-safe.
+// Called by SqliteLedger::Open on the writer connection. Not thread-safe.
 #ifndef PLUMBLINE_DAEMON_LEDGER_SCHEMA_H_
 #define PLUMBLINE_DAEMON_LEDGER_SCHEMA_H_
 

@@ -8,10 +8,10 @@
 // holding them has committed, so an RPC that returned OK has its rows on
 // disk. A full queue refuses new rows at once with RESOURCE_EXHAUSTED rather
 // than growing without bound. The fsync that makes a commit durable and the
-// WAL checkpoints run on their own threads (daemon/wal_io.h), so the writer
-// builds the next group while the last one is being synced.
+// WAL checkpoints run on their own threads (daemon/ledger/wal_io.h), so the
+// writer builds the next group while the last one is being synced.
 //
-//   auto ledger = Ledger::Open(LedgerOptions{.path = "var/ledger.db"});
+//   auto ledger = SqliteLedger::Open(LedgerOptions{.path = "var/ledger.db"});
 //   absl::Status st = (*ledger)->AppendScores({entry});        // committed
 //   auto results = (*ledger)->ReportOutcomes({{"parcel-1", 1, now}});
 //
@@ -24,7 +24,7 @@
 //                         outcome that races its score may be NOT_FOUND.
 // ReportOutcomes always waits for its commit: its per-outcome results depend
 // on what is in the ledger. It looks up the outcomes' scores on the calling
-// thread (daemon/ledger_lookup.h), so the writer only inserts; within one
+// thread (daemon/ledger/lookup.h), so the writer only inserts; within one
 // group commit the scores are written before the outcomes, and the writer
 // looks up what the caller did not find, so an outcome queued together with
 // its score finds it.

@@ -3,7 +3,7 @@
 // The PostgreSQL backend of the ledger (daemon/ledger/ledger.h): the rows of
 // every plumbd replica that shares one PostgreSQL database, with the same
 // guarantees as the SQLite file, checked by the same contract tests
-// (tests/daemon/ledger/contract_test.cc).
+// (tests/daemon/ledger/contract.h).
 //
 //   LedgerOptions o;
 //   o.path = "postgresql://plumbline@db.depot.internal:5432/plumbline";

@@ -21,6 +21,7 @@
 #include "absl/time/clock.h"
 #include "absl/time/time.h"
 #include "daemon/pg/pg_connection.h"
+#include "gmock/gmock.h"
 #include "google/protobuf/util/json_util.h"
 #include "gtest/gtest.h"
 #include "plumbline/v1/monitor.grpc.pb.h"
@@ -238,6 +239,34 @@ TEST_F(FleetTest, AVersionApprovedThroughOneIsServedByTheOther) {
     return Score(1, absl::StrCat("parcel-v-", n++), &reply).ok() &&
            reply.version() == "2026-12";
   }));
+}
+
+TEST_F(FleetTest, OnlyTheLeaderTakesRefitRequestsAndTheOthersNameIt) {
+  int leader = -1;
+  ASSERT_TRUE(PollUntil([&] {
+    for (int r = 0; r < 2; ++r) {
+      if (replicas_[r]->CountLogLines("event=fleet_leader_taken") > 0) {
+        leader = r;
+      }
+    }
+    return leader >= 0;
+  }));
+  const int other = 1 - leader;
+  EXPECT_EQ(replicas_[other]->CountLogLines("event=fleet_leader_taken"), 0);
+  v1::RefitRequest request;
+  request.set_set("courier");
+  request.set_actor("dispatch-lead");
+  v1::RefitReply reply;
+  grpc::ClientContext context;
+  grpc::Status s =
+      v1::Registry::NewStub(Channel(other))->Refit(&context, request, &reply);
+  EXPECT_EQ(s.error_code(), grpc::StatusCode::FAILED_PRECONDITION);
+  // The refusal names the leader (host, pid, listen address).
+  EXPECT_THAT(s.error_message(),
+              ::testing::HasSubstr(
+                  absl::StrCat(" pid ", replicas_[leader]->pid(), " listen ")));
+  EXPECT_THAT(s.error_message(),
+              ::testing::HasSubstr("does not run the fleet's refit jobs"));
 }
 
 }  // namespace
