@@ -40,6 +40,36 @@ absl::Status RecordConflict(const ScoreEntry& e, const ScoreEntry& stored) {
       "stored score)"));
 }
 
+absl::Status QueueAdmits(int64_t rows, int64_t queued, int64_t capacity) {
+  if (rows > capacity) {
+    // Would never fit, however long the caller waits.
+    return absl::ResourceExhaustedError(
+        absl::StrCat("a ledger write of ", rows,
+                     " rows is over the queue capacity of ", capacity,
+                     " rows (ledger.queue_capacity_rows); send smaller batches "
+                     "or raise the capacity"));
+  }
+  if (queued + rows > capacity) {
+    return absl::ResourceExhaustedError(absl::StrCat(
+        "ledger write queue is full (", queued, " rows waiting, capacity ",
+        capacity, "); retry with backoff"));
+  }
+  return absl::OkStatus();
+}
+
+absl::string_view WriteFailureReason(const absl::Status& st) {
+  switch (st.code()) {
+    case absl::StatusCode::kResourceExhausted:
+      return "disk_full";
+    case absl::StatusCode::kUnavailable:
+      return "unavailable";
+    case absl::StatusCode::kDataLoss:
+      return "corrupt";
+    default:
+      return "other";
+  }
+}
+
 absl::Status CheckRecordId(absl::string_view record_id,
                            absl::string_view set_name) {
   if (record_id.empty()) {

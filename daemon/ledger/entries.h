@@ -10,6 +10,8 @@
 #ifndef PLUMBLINE_DAEMON_LEDGER_ENTRIES_H_
 #define PLUMBLINE_DAEMON_LEDGER_ENTRIES_H_
 
+#include <cstdint>
+
 #include "absl/status/status.h"
 #include "absl/strings/string_view.h"
 #include "daemon/ledger/ledger.h"
@@ -32,6 +34,16 @@ bool SameFeatures(const ScoreEntry& stored, const ScoreEntry& e);
 // `stored` with other features: names the id, the stored version and time,
 // and what to do.
 absl::Status RecordConflict(const ScoreEntry& e, const ScoreEntry& stored);
+
+// RESOURCE_EXHAUSTED when a write of `rows` rows cannot be queued behind
+// `queued` rows in a queue of `capacity` (never, when over the capacity
+// itself); OK when it fits.
+absl::Status QueueAdmits(int64_t rows, int64_t queued, int64_t capacity);
+
+// The reason a group that failed to commit is counted under
+// (LedgerStats::write_failures): "disk_full", "unavailable", "corrupt",
+// "other".
+absl::string_view WriteFailureReason(const absl::Status& st);
 
 // INVALID_ARGUMENT when a score of set `set_name` with `record_id` can
 // never be stored: an empty id, or one with a NUL byte (which PostgreSQL

@@ -334,19 +334,8 @@ absl::Status SqliteLedger::Enqueue(const std::shared_ptr<Job>& job) {
   if (!failed_.ok()) return failed_;
   const auto rows = static_cast<int64_t>(job->rows());
   const auto capacity = static_cast<int64_t>(options_.queue_capacity_rows);
-  if (rows > capacity) {
-    // Would never fit, however long the caller waits.
-    return absl::ResourceExhaustedError(
-        absl::StrCat("a ledger write of ", rows,
-                     " rows is over the queue capacity of ", capacity,
-                     " rows (ledger.queue_capacity_rows); send smaller batches "
-                     "or raise the capacity"));
-  }
-  if (queued_rows_ + rows > capacity) {
-    return absl::ResourceExhaustedError(
-        absl::StrCat("ledger write queue is full (", queued_rows_,
-                     " rows waiting, capacity ", options_.queue_capacity_rows,
-                     "); retry with backoff"));
+  if (absl::Status st = QueueAdmits(rows, queued_rows_, capacity); !st.ok()) {
+    return st;
   }
   queued_rows_ += rows;
   queue_.push_back(job);
@@ -525,20 +514,7 @@ absl::Status SqliteLedger::CheckFile() {
 }
 
 void SqliteLedger::WriteFailed(const absl::Status& st, size_t rows) {
-  absl::string_view reason = "other";
-  switch (st.code()) {
-    case absl::StatusCode::kResourceExhausted:
-      reason = "disk_full";
-      break;
-    case absl::StatusCode::kUnavailable:
-      reason = "unavailable";
-      break;
-    case absl::StatusCode::kDataLoss:
-      reason = "corrupt";
-      break;
-    default:
-      break;
-  }
+  const absl::string_view reason = WriteFailureReason(st);
   LogEvent(LogLevel::kError, "ledger_write_failed",
            {{"file", options_.path},
             {"reason", reason},

@@ -380,18 +380,8 @@ absl::Status PgLedgerImpl::Enqueue(const std::shared_ptr<Job>& job) {
   if (stopping_) return absl::UnavailableError("ledger is shutting down");
   const auto rows = static_cast<int64_t>(job->rows());
   const auto capacity = static_cast<int64_t>(options_.queue_capacity_rows);
-  if (rows > capacity) {
-    return absl::ResourceExhaustedError(
-        absl::StrCat("a ledger write of ", rows,
-                     " rows is over the queue capacity of ", capacity,
-                     " rows (ledger.queue_capacity_rows); send smaller batches "
-                     "or raise the capacity"));
-  }
-  if (queued_rows_ + rows > capacity) {
-    return absl::ResourceExhaustedError(
-        absl::StrCat("ledger write queue is full (", queued_rows_,
-                     " rows waiting, capacity ", options_.queue_capacity_rows,
-                     "); retry with backoff"));
+  if (absl::Status st = QueueAdmits(rows, queued_rows_, capacity); !st.ok()) {
+    return st;
   }
   queued_rows_ += rows;
   queue_.push_back(job);
@@ -474,20 +464,7 @@ void PgLedgerImpl::WriterLoop() {
 }
 
 void PgLedgerImpl::WriteFailed(const absl::Status& st, size_t rows) {
-  absl::string_view reason = "other";
-  switch (st.code()) {
-    case absl::StatusCode::kResourceExhausted:
-      reason = "disk_full";
-      break;
-    case absl::StatusCode::kUnavailable:
-      reason = "unavailable";
-      break;
-    case absl::StatusCode::kDataLoss:
-      reason = "corrupt";
-      break;
-    default:
-      break;
-  }
+  const absl::string_view reason = WriteFailureReason(st);
   LogEvent(LogLevel::kError, "ledger_write_failed",
            {{"ledger", options_.path},
             {"reason", reason},
